@@ -1,0 +1,317 @@
+package kgauge
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"math/rand/v2"
+	"sync"
+	"time"
+
+	"github.com/kgauge/kgauge/internal/kmeans"
+	"github.com/kgauge/kgauge/sketch"
+	"github.com/kgauge/kgauge/stream"
+	"gonum.org/v1/gonum/stat"
+)
+
+// Input describes what a sketch was built from.
+type Input struct {
+	Files   []FileInfo      `json:"files"`
+	Columns []string        `json:"columns"`
+	Types   []string        `json:"column_types,omitempty"`
+	Ignored []IgnoredColumn `json:"ignored_columns"`
+	Units   int             `json:"units"`
+	Bytes   int64           `json:"bytes"`
+}
+
+// FileInfo is one input file.
+type FileInfo struct {
+	Path      string            `json:"path"`
+	Format    string            `json:"format"`
+	Bytes     int64             `json:"bytes"`
+	Partition map[string]string `json:"partition,omitempty"`
+}
+
+// IgnoredColumn is a column that is not a feature, with the reason.
+type IgnoredColumn struct {
+	Name   string `json:"name"`
+	Type   string `json:"type"`
+	Reason string `json:"reason"`
+}
+
+// Timings are wall-clock seconds of the stages.
+type Timings struct {
+	Open     float64 `json:"open_seconds"`
+	Probe    float64 `json:"probe_seconds"`
+	Pass     float64 `json:"pass_seconds"`
+	Criteria float64 `json:"criteria_seconds"`
+}
+
+// ErrNoRows is returned when the inputs hold no usable row.
+var ErrNoRows = errors.New("no usable rows")
+
+// Build discovers and opens the data files named by paths (files, directories, globs), probes them,
+// and reads every row once into a sketch. The returned Input describes the files and columns.
+func Build(ctx context.Context, paths []string, opt Options) (*sketch.Sketch, *Input, Timings, error) {
+	var tm Timings
+	if err := opt.Validate(); err != nil {
+		return nil, nil, tm, err
+	}
+	opt = opt.withDefaults()
+	start := time.Now()
+	opt.Progress.stage("open")
+	files, err := stream.Discover(paths)
+	if err != nil {
+		return nil, nil, tm, err
+	}
+	ds, err := stream.Open(files, stream.Options{Columns: opt.Columns})
+	if err != nil {
+		return nil, nil, tm, err
+	}
+	defer ds.Close()
+	in := describe(ds)
+	if p := opt.Progress; p != nil {
+		p.TotalRows.Store(ds.Rows)
+		p.TotalBytes.Store(ds.Bytes)
+	}
+	tm.Open = time.Since(start).Seconds()
+
+	start = time.Now()
+	opt.Progress.stage("probe")
+	units := stream.Shuffle(ds.Units, opt.Seed)
+	unitID := make(map[stream.Unit]int, len(ds.Units))
+	for i, u := range ds.Units {
+		unitID[u] = i
+	}
+	pr, err := probe(ctx, ds, units, opt)
+	if err != nil {
+		return nil, nil, tm, err
+	}
+	tm.Probe = time.Since(start).Seconds()
+
+	start = time.Now()
+	opt.Progress.stage("pass")
+	cfg := opt.Sketch
+	cfg.Columns = ds.Columns
+	cfg.ExpectedRows = ds.Rows
+	sk, err := pass(ctx, ds, units, unitID, cfg, pr, opt)
+	if err != nil {
+		return nil, nil, tm, err
+	}
+	tm.Pass = time.Since(start).Seconds()
+	for _, f := range ds.Files {
+		sk.Meta.Sources = append(sk.Meta.Sources, f.Path)
+	}
+	if sk.Rows() == 0 {
+		return nil, nil, tm, fmt.Errorf("%w in %d file(s) (%d skipped for null or NaN values)", ErrNoRows, len(ds.Files), sk.Meta.SkippedRows)
+	}
+	return sk, in, tm, nil
+}
+
+func describe(ds *stream.Dataset) *Input {
+	in := &Input{Columns: ds.Columns, Types: ds.Types, Units: len(ds.Units), Bytes: ds.Bytes,
+		Ignored: []IgnoredColumn{}}
+	for _, f := range ds.Files {
+		fi := FileInfo{Path: f.Path, Format: f.Format.String(), Bytes: f.Size}
+		if len(f.Partition) > 0 {
+			fi.Partition = map[string]string{}
+			for _, kv := range f.Partition {
+				fi.Partition[kv.Key] = kv.Value
+			}
+		}
+		in.Files = append(in.Files, fi)
+	}
+	for _, c := range ds.Ignored {
+		in.Ignored = append(in.Ignored, IgnoredColumn{Name: c.Name, Type: c.Type, Reason: c.Reason})
+	}
+	return in
+}
+
+// probe reads up to opt.ProbeRows rows from the first units of the shuffled order, at most
+// ceil(ProbeRows/ProbeUnits) from each, and derives the pass's scale and starting centres from them.
+func probe(ctx context.Context, ds *stream.Dataset, units []stream.Unit, opt Options) (sketch.Probe, error) {
+	d := ds.Dims()
+	perUnit := (opt.ProbeRows + opt.ProbeUnits - 1) / opt.ProbeUnits
+	minRows := 2 * opt.Criteria.MaxK
+	var rows []float64
+	buf := make([]float64, min(perUnit, opt.BatchRows)*d)
+	for i, u := range units {
+		n := len(rows) / d
+		if n >= opt.ProbeRows || (i >= opt.ProbeUnits && n >= minRows) {
+			break
+		}
+		if err := ctx.Err(); err != nil {
+			return sketch.Probe{}, err
+		}
+		r, err := ds.OpenUnit(u)
+		if err != nil {
+			return sketch.Probe{}, err
+		}
+		want := min(perUnit, opt.ProbeRows-n)
+		for got := 0; got < want; {
+			m, err := r.Read(buf[:min(len(buf), (want-got)*d)])
+			rows = append(rows, buf[:m*d]...)
+			got += m
+			if err == io.EOF {
+				break
+			}
+			if err != nil {
+				r.Close()
+				return sketch.Probe{}, err
+			}
+		}
+		r.Close()
+	}
+	n := len(rows) / d
+	p := sketch.Probe{Center: make([]float64, d), Scale: make([]float64, d), Init: map[int][]float64{}, Rows: int64(n)}
+	if n == 0 {
+		// Nothing usable: the pass will find no rows either and report it.
+		for j := range p.Scale {
+			p.Scale[j] = 1
+		}
+		for k := opt.Criteria.MinK; k <= opt.Criteria.MaxK; k++ {
+			p.Init[k] = make([]float64, k*d)
+		}
+		return p, nil
+	}
+	col := make([]float64, n)
+	for j := range d {
+		for i := range n {
+			col[i] = rows[i*d+j]
+		}
+		mean, variance := stat.PopMeanVariance(col, nil)
+		p.Center[j], p.Scale[j] = mean, math.Sqrt(variance)
+		if opt.Scale == Raw {
+			p.Center[j], p.Scale[j] = 0, 1
+		}
+		if !(p.Scale[j] > 0) || math.IsInf(p.Scale[j], 0) {
+			p.Scale[j] = 1
+		}
+	}
+	for i := range n {
+		var s float64
+		for j := range d {
+			z := (rows[i*d+j] - p.Center[j]) / p.Scale[j]
+			rows[i*d+j] = z
+			s += z * z
+		}
+		p.MeanSq += s
+	}
+	p.MeanSq /= float64(n)
+	initRows := rows[:min(n, probeInitRows)*d]
+	data := kmeans.Data{X: initRows, D: d}
+	for k := opt.Criteria.MinK; k <= opt.Criteria.MaxK; k++ {
+		rng := rand.New(rand.NewPCG(opt.Seed, uint64(k)))
+		p.Init[k] = startCentres(data, k, rng)
+	}
+	return p, nil
+}
+
+// startCentres seeds k centres by k-means++ on the probe rows; with fewer rows than k the rows are
+// repeated, so that the centres exist and mini-batch k-means can still run.
+func startCentres(p kmeans.Data, k int, rng *rand.Rand) []float64 {
+	if p.Len() >= k {
+		return kmeans.PlusPlus(p, k, rng, nil)
+	}
+	c := make([]float64, 0, k*p.D)
+	for i := 0; len(c) < k*p.D; i++ {
+		c = append(c, p.Point(i%p.Len())...)
+	}
+	return c
+}
+
+// pass reads every unit once with opt.Workers goroutines. Worker w takes units w, w+W, w+2W, … of the
+// shuffled order, so each worker's sketch is a function of the input, the seed and W; the worker
+// sketches are merged in worker order.
+func pass(ctx context.Context, ds *stream.Dataset, units []stream.Unit, unitID map[stream.Unit]int,
+	cfg sketch.Config, pr sketch.Probe, opt Options) (*sketch.Sketch, error) {
+	workers := min(opt.Workers, max(1, len(units)))
+	ctx, cancel := context.WithCancel(ctx)
+	defer cancel()
+	sketches := make([]*sketch.Sketch, workers)
+	errs := make([]error, workers)
+	var wg sync.WaitGroup
+	for w := range workers {
+		sk, err := sketch.New(cfg, pr)
+		if err != nil {
+			return nil, err
+		}
+		sketches[w] = sk
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			if err := work(ctx, ds, units, unitID, w, workers, sk, opt); err != nil {
+				errs[w] = err
+				cancel()
+			}
+		}()
+	}
+	wg.Wait()
+	for _, err := range errs {
+		if err != nil && !errors.Is(err, context.Canceled) {
+			return nil, err
+		}
+	}
+	if err := ctx.Err(); err != nil {
+		return nil, err
+	}
+	for _, err := range errs {
+		if err != nil {
+			return nil, err
+		}
+	}
+	total := sketches[0]
+	for _, sk := range sketches[1:] {
+		if err := total.Merge(sk); err != nil {
+			return nil, err
+		}
+	}
+	return total, nil
+}
+
+func work(ctx context.Context, ds *stream.Dataset, units []stream.Unit, unitID map[stream.Unit]int,
+	w, workers int, sk *sketch.Sketch, opt Options) error {
+	d := ds.Dims()
+	buf := make([]float64, opt.BatchRows*d)
+	for i := w; i < len(units); i += workers {
+		if err := ctx.Err(); err != nil {
+			return err
+		}
+		u := units[i]
+		r, err := ds.OpenUnit(u)
+		if err != nil {
+			return err
+		}
+		sk.BeginUnit(unitID[u])
+		for {
+			n, err := r.Read(buf)
+			if n > 0 {
+				sk.Add(buf[:n*d])
+				if p := opt.Progress; p != nil {
+					p.Rows.Add(int64(n))
+				}
+			}
+			if err == io.EOF {
+				break
+			}
+			if err != nil {
+				r.Close()
+				return err
+			}
+			if err := ctx.Err(); err != nil {
+				r.Close()
+				return err
+			}
+		}
+		sk.Meta.SkippedRows += r.Skipped()
+		if err := r.Close(); err != nil {
+			return err
+		}
+		if p := opt.Progress; p != nil {
+			p.Bytes.Add(u.Bytes)
+		}
+	}
+	return nil
+}

@@ -1,0 +1,89 @@
+package main
+
+import (
+	"context"
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"os"
+	"strings"
+
+	"github.com/kgauge/kgauge"
+	"github.com/kgauge/kgauge/stream"
+)
+
+// Exit codes; the README and the usage text list them.
+const (
+	ExitOK          = 0
+	ExitInternal    = 1
+	ExitUsage       = 2
+	ExitInput       = 3
+	ExitOutput      = 4
+	ExitInterrupted = 130
+)
+
+// usageError is a problem with the command line.
+type usageError struct{ msg string }
+
+func (e *usageError) Error() string { return e.msg }
+
+func usageErrorf(format string, args ...any) error {
+	return &usageError{msg: fmt.Sprintf(format, args...)}
+}
+
+// outputError is a failure to write an output file.
+type outputError struct{ err error }
+
+func (e *outputError) Error() string { return e.err.Error() }
+func (e *outputError) Unwrap() error { return e.err }
+
+// exitCode maps an error to the documented exit code.
+func exitCode(err error) int {
+	var ue *usageError
+	var oe *outputError
+	var re *stream.ReadError
+	var ie *kgauge.InputError
+	switch {
+	case err == nil:
+		return ExitOK
+	case errors.Is(err, flag.ErrHelp):
+		return ExitOK
+	case errors.Is(err, context.Canceled):
+		return ExitInterrupted
+	case errors.As(err, &ue):
+		return ExitUsage
+	case errors.As(err, &oe):
+		return ExitOutput
+	case errors.As(err, &re), errors.As(err, &ie),
+		errors.Is(err, kgauge.ErrNoRows), errors.Is(err, kgauge.ErrTooFewRows),
+		errors.Is(err, os.ErrNotExist), errors.Is(err, os.ErrPermission),
+		errors.Is(err, stream.ErrNoDataFiles), errors.Is(err, stream.ErrNoNumericColumns),
+		errors.Is(err, stream.ErrUnknownColumn), errors.Is(err, stream.ErrNotNumeric),
+		errors.Is(err, stream.ErrMissingColumn), errors.Is(err, stream.ErrInfinite):
+		return ExitInput
+	}
+	return ExitInternal
+}
+
+// report prints err as one line and returns its exit code.
+func report(err error, stderr io.Writer) int {
+	code := exitCode(err)
+	if err == nil || code == ExitOK {
+		return code
+	}
+	msg := strings.ReplaceAll(err.Error(), "\n", "; ")
+	if code == ExitInterrupted {
+		msg = "interrupted; no output written"
+	}
+	if !strings.HasPrefix(msg, "kgauge") {
+		msg = "kgauge: " + msg
+	}
+	fmt.Fprintln(stderr, msg)
+	if code == ExitUsage {
+		fmt.Fprintln(stderr, `Try "kgauge help" or "kgauge COMMAND -h".`)
+	}
+	return code
+}
+
+func versionString() string { return kgauge.Version }

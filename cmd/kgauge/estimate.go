@@ -1,0 +1,250 @@
+package main
+
+import (
+	"context"
+	"encoding/json"
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"strings"
+	"time"
+
+	"github.com/kgauge/kgauge"
+	"github.com/kgauge/kgauge/internal/atomicfile"
+	"github.com/kgauge/kgauge/sketch"
+	"github.com/schollz/progressbar/v3"
+	"golang.org/x/term"
+)
+
+// EstimateCommand runs "kgauge estimate".
+type EstimateCommand struct {
+	Stdout, Stderr io.Writer
+}
+
+// estimateFlags binds the flags shared by estimate and demo into options.
+type estimateFlags struct {
+	opt        kgauge.Options
+	columns    string
+	scale      string
+	asJSON     bool
+	quiet      bool
+	out        string
+	saveSketch string
+}
+
+func (f *estimateFlags) register(fs *flag.FlagSet) {
+	f.opt = kgauge.DefaultOptions()
+	o := &f.opt
+	fs.StringVar(&f.columns, "columns", "", "comma-separated feature columns (default: every numeric column)")
+	fs.StringVar(&f.scale, "scale", string(o.Scale), "feature scaling: zscore, range or none")
+	fs.IntVar(&o.Criteria.MinK, "min-k", o.Criteria.MinK, "smallest k to score")
+	fs.IntVar(&o.Criteria.MaxK, "max-k", o.Criteria.MaxK, "largest k to score")
+	fs.IntVar(&o.Workers, "workers", o.Workers, "goroutines reading and sketching")
+	fs.Uint64Var(&o.Seed, "seed", o.Seed, "seed of every random choice; the same input, flags and seed give the same result")
+	fs.IntVar(&o.Sketch.CoresetSize, "coreset", o.Sketch.CoresetSize, "rows in the weighted coreset")
+	fs.IntVar(&o.Sketch.SampleSize, "sample", o.Sketch.SampleSize, "rows in the uniform sample")
+	fs.Int64Var(&o.Sketch.MiniBatchRows, "minibatch-rows", o.Sketch.MiniBatchRows, "rows fed to mini-batch k-means over the pass")
+	fs.IntVar(&o.Criteria.Restarts, "restarts", o.Criteria.Restarts, "k-means++ restarts per k on the coreset")
+	fs.IntVar(&o.Criteria.Anchors, "anchors", o.Criteria.Anchors, "silhouette anchor points, stratified by cluster")
+	fs.IntVar(&o.Criteria.GapRefs, "gap-refs", o.Criteria.GapRefs, "Monte Carlo reference sets (B) of the gap statistic")
+	fs.IntVar(&o.Criteria.GapSample, "gap-sample", o.Criteria.GapSample, "points per gap reference set and on the data side")
+	fs.IntVar(&o.ProbeRows, "probe-rows", o.ProbeRows, "rows read before the pass to fix the scale")
+	fs.IntVar(&o.BatchRows, "batch-rows", o.BatchRows, "rows per read batch")
+	fs.BoolVar(&f.asJSON, "json", false, "print one JSON document instead of the table")
+	fs.BoolVar(&f.quiet, "quiet", false, "no progress bar")
+	fs.StringVar(&f.out, "out", "", "also write the JSON result to this file (atomically)")
+	fs.StringVar(&f.saveSketch, "save-sketch", "", "write the merged sketch to this file (atomically)")
+}
+
+// options returns the bound options after checking the flag values.
+func (f *estimateFlags) options() (kgauge.Options, error) {
+	o := f.opt
+	// Zero would mean "default" to the library; on the command line it is a mistake.
+	for _, c := range []struct {
+		name string
+		v    int64
+	}{{"--workers", int64(o.Workers)}, {"--coreset", int64(o.Sketch.CoresetSize)}, {"--sample", int64(o.Sketch.SampleSize)},
+		{"--minibatch-rows", o.Sketch.MiniBatchRows}, {"--restarts", int64(o.Criteria.Restarts)},
+		{"--anchors", int64(o.Criteria.Anchors)}, {"--gap-refs", int64(o.Criteria.GapRefs)},
+		{"--gap-sample", int64(o.Criteria.GapSample)}, {"--probe-rows", int64(o.ProbeRows)},
+		{"--batch-rows", int64(o.BatchRows)}, {"--min-k", int64(o.Criteria.MinK)}, {"--max-k", int64(o.Criteria.MaxK)}} {
+		if c.v < 1 {
+			return o, usageErrorf("%s must be at least 1, got %d", c.name, c.v)
+		}
+	}
+	sc, err := kgauge.ParseScale(f.scale)
+	if err != nil {
+		return o, usageErrorf("--scale: %v", err)
+	}
+	o.Scale = sc
+	if f.columns != "" {
+		for _, c := range strings.Split(f.columns, ",") {
+			if c = strings.TrimSpace(c); c != "" {
+				o.Columns = append(o.Columns, c)
+			}
+		}
+		if len(o.Columns) == 0 {
+			return o, usageErrorf("--columns: no column named")
+		}
+	}
+	if err := o.Validate(); err != nil {
+		return o, usageErrorf("%v", flagNames(err))
+	}
+	return o, nil
+}
+
+// flagNames rewrites option names in validation messages as the flags users typed.
+func flagNames(err error) string {
+	msg := err.Error()
+	for _, r := range [][2]string{{"max-k", "--max-k"}, {"min-k", "--min-k"}, {"workers", "--workers"},
+		{"batch rows", "--batch-rows"}, {"probe rows", "--probe-rows"}, {"coreset size", "--coreset"},
+		{"sample size", "--sample"}, {"mini-batch rows", "--minibatch-rows"}, {"restarts", "--restarts"},
+		{"anchors", "--anchors"}, {"gap refs", "--gap-refs"}, {"gap sample", "--gap-sample"}} {
+		msg = strings.Replace(msg, r[0], r[1], 1)
+	}
+	return msg
+}
+
+// Run parses args and runs the estimate.
+func (c *EstimateCommand) Run(ctx context.Context, args []string) error {
+	fs := flag.NewFlagSet("estimate", flag.ContinueOnError)
+	fs.SetOutput(c.Stderr)
+	var f estimateFlags
+	f.register(fs)
+	fs.Usage = func() {
+		fmt.Fprintln(c.Stderr, "Usage: kgauge estimate [flags] PATH...\n\nScore every k in range from one pass over PATH and give a verdict.\n\nFlags:")
+		fs.PrintDefaults()
+	}
+	if err := fs.Parse(args); err != nil {
+		if errors.Is(err, flag.ErrHelp) {
+			return err
+		}
+		return usageErrorf("estimate: %v", err)
+	}
+	if fs.NArg() == 0 {
+		return usageErrorf("estimate: no PATH given")
+	}
+	opt, err := f.options()
+	if err != nil {
+		return err
+	}
+	res, err := runEstimate(ctx, fs.Args(), opt, &f, c.Stderr)
+	if err != nil {
+		return err
+	}
+	return printResult(c.Stdout, res, f.asJSON)
+}
+
+// runEstimate runs the estimate with a progress bar when stderr is a terminal, then writes the
+// requested files.
+func runEstimate(ctx context.Context, paths []string, opt kgauge.Options, f *estimateFlags, stderr io.Writer) (*kgauge.Result, error) {
+	for _, p := range []string{f.out, f.saveSketch} {
+		if p != "" {
+			if err := checkOutputDir(p); err != nil {
+				return nil, err
+			}
+		}
+	}
+	var stopBar func()
+	if !f.quiet && isTerminal(stderr) {
+		opt.Progress = new(kgauge.Progress)
+		stopBar = showProgress(opt.Progress, stderr)
+	}
+	res, sk, err := kgauge.Estimate(ctx, paths, opt)
+	if stopBar != nil {
+		stopBar()
+	}
+	if err != nil {
+		return nil, err
+	}
+	if f.saveSketch != "" {
+		if err := saveSketch(f.saveSketch, sk); err != nil {
+			return nil, err
+		}
+	}
+	if f.out != "" {
+		err := atomicfile.Write(f.out, 0o644, func(w io.Writer) error { return writeJSON(w, res) })
+		if err != nil {
+			return nil, &outputError{err}
+		}
+	}
+	return res, nil
+}
+
+func saveSketch(path string, sk *sketch.Sketch) error {
+	if err := atomicfile.Write(path, 0o644, sk.Encode); err != nil {
+		return &outputError{err}
+	}
+	return nil
+}
+
+// checkOutputDir fails early, before any reading, when an output's directory does not exist.
+func checkOutputDir(path string) error {
+	dir := filepath.Dir(path)
+	st, err := os.Stat(dir)
+	if err != nil {
+		return &outputError{fmt.Errorf("output %s: directory %s does not exist", path, dir)}
+	}
+	if !st.IsDir() {
+		return &outputError{fmt.Errorf("output %s: %s is not a directory", path, dir)}
+	}
+	return nil
+}
+
+func isTerminal(w io.Writer) bool {
+	f, ok := w.(*os.File)
+	return ok && term.IsTerminal(int(f.Fd()))
+}
+
+// showProgress draws a bar of rows read on w until the returned function is called.
+func showProgress(p *kgauge.Progress, w io.Writer) func() {
+	done := make(chan struct{})
+	finished := make(chan struct{})
+	go func() {
+		defer close(finished)
+		var bar *progressbar.ProgressBar
+		tick := time.NewTicker(150 * time.Millisecond)
+		defer tick.Stop()
+		for {
+			select {
+			case <-done:
+				if bar != nil {
+					bar.Finish()
+				}
+				return
+			case <-tick.C:
+			}
+			total := p.TotalRows.Load()
+			if bar == nil && total > 0 {
+				bar = progressbar.NewOptions64(total,
+					progressbar.OptionSetWriter(w),
+					progressbar.OptionSetDescription("reading"),
+					progressbar.OptionShowCount(),
+					progressbar.OptionShowIts(),
+					progressbar.OptionSetItsString("rows"),
+					progressbar.OptionThrottle(100*time.Millisecond),
+					progressbar.OptionClearOnFinish(),
+					progressbar.OptionSetPredictTime(true))
+			}
+			if bar != nil {
+				bar.Set64(p.Rows.Load())
+				if s, _ := p.Stage.Load().(string); s == "criteria" {
+					bar.Describe("scoring k")
+				}
+			}
+		}
+	}()
+	return func() {
+		close(done)
+		<-finished
+	}
+}
+
+func writeJSON(w io.Writer, res *kgauge.Result) error {
+	enc := json.NewEncoder(w)
+	enc.SetIndent("", "  ")
+	return enc.Encode(res)
+}

@@ -1,0 +1,41 @@
+package criteria_test
+
+import (
+	"context"
+	"math/rand/v2"
+	"testing"
+
+	"github.com/kgauge/kgauge/criteria"
+	"github.com/kgauge/kgauge/internal/kmeans"
+)
+
+// mixture draws n points in d dims from k spherical unit Gaussians with centres uniform in
+// [-sep, sep]^d (invented data for benchmarks and property tests only).
+func mixture(seed uint64, n, d, k int, sep float64) kmeans.Data {
+	rng := rand.New(rand.NewPCG(seed, 99))
+	c := make([]float64, k*d)
+	for i := range c {
+		c[i] = sep * (2*rng.Float64() - 1)
+	}
+	x := make([]float64, n*d)
+	for i := 0; i < n; i++ {
+		j := i % k
+		for t := 0; t < d; t++ {
+			x[i*d+t] = c[j*d+t] + rng.NormFloat64()
+		}
+	}
+	return kmeans.Data{X: x, D: d}
+}
+
+// BenchmarkEvaluate times Evaluate for k = 1..20 on a 10,000-point, 16-dimensional exact summary
+// with the default options.
+func BenchmarkEvaluate(b *testing.B) {
+	s := criteria.ExactSummary(mixture(1, 10000, 16, 8, 6))
+	opt := criteria.DefaultOptions()
+	b.ReportAllocs()
+	for b.Loop() {
+		if _, err := criteria.Evaluate(context.Background(), s, opt); err != nil {
+			b.Fatal(err)
+		}
+	}
+}

@@ -1,0 +1,299 @@
+package criteria
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"runtime"
+	"sync"
+
+	"github.com/kgauge/kgauge/internal/kmeans"
+)
+
+// Random stream purposes; each (k, purpose) pair has its own stream derived from Options.Seed.
+const (
+	streamFit = iota + 1
+	streamSilhouette
+	streamGapData
+	streamGapBox
+	streamGapPCA
+	streamWard
+	streamGapSample
+	streamBoxRefs
+	streamPCARefs
+)
+
+// rngFor returns the random stream for (seed, k, purpose): a PCG seeded with the seed and a
+// splitmix64 hash of k and purpose, so streams are independent of worker scheduling.
+func rngFor(seed uint64, k, purpose int) *rand.Rand {
+	z := uint64(k)<<8 | uint64(purpose)
+	z += 0x9e3779b97f4a7c15
+	z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9
+	z = (z ^ (z >> 27)) * 0x94d049bb133111eb
+	z ^= z >> 31
+	return rand.New(rand.NewPCG(seed, z))
+}
+
+// gapLloyd are the Lloyd settings of every gap-statistic fit, data side and references alike: a
+// relative tolerance of 1e-5 changes ln W by about 1e-5, far below the simulation error s_k.
+var gapLloyd = kmeans.LloydOptions{MaxIter: 100, Tol: 1e-5}
+
+// wardDirectMax is the largest coreset agglomerated directly by Ward linkage (O(m^3)); larger
+// coresets are first reduced to the centroids of a finer k-means fit.
+const wardDirectMax = 400
+
+// Evaluate scores every k in opt.MinK..opt.MaxK from the summary and returns the per-k scores,
+// the criteria's votes and the verdict. Zero option fields take DefaultOptions' values.
+//
+// For each k it fits weighted k-means on the coreset (kmeans.Fit: the Summary's seed centres for k,
+// if any, plus opt.Restarts k-means++ seedings, the lowest cost kept) and computes from that fit
+// the WCSS (scaled to N rows), the silhouette (SilhouetteAnchors, opt.Anchors anchors), the
+// simplified silhouette, Calinski–Harabasz and Davies–Bouldin (on the weighted coreset), a
+// diagonal GMM fitted by EM from the k-means fit (GMMFit; variance floor 1e-6 times the mean
+// per-dimension variance; log-likelihood scaled by N / coreset weight, BIC/AIC with the real N and
+// p = GMMParams), and BICKMeans. The gap statistic (GapAt) uses n = min(opt.GapSample, sample size)
+// points of the uniform sample (a seeded subsample without replacement; if the Summary has no
+// sample, n points drawn from the coreset in proportion to weight) against opt.GapRefs reference
+// sets of n points in the bounding box Min/Max (gap_box) and in the principal-component box
+// (gap_pca, PCABox over the sample and the coreset); the same B reference sets are clustered for
+// every k. Ward linkage runs on the weighted coreset itself when it has at most 400 points, and
+// otherwise on the weighted centroids of a finer fit with max(3 MaxK, 50) centres.
+//
+// A k is Valid when its coreset fit has no empty cluster and positive WCSS; criteria consider
+// valid k only (k larger than the number of distinct points is never valid). If every coreset
+// point coincides (zero spread), all scores but WCSS are NaN, every criterion abstains and the
+// verdict is k = 1 with Structure false. Work is spread over opt.Workers goroutines, one k at a
+// time; the result does not depend on the number of workers. Evaluate returns ctx.Err() (wrapped)
+// if ctx is cancelled.
+func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
+	if err := opt.Validate(); err != nil {
+		return nil, err
+	}
+	opt = opt.withDefaults()
+	if err := s.validate(); err != nil {
+		return nil, err
+	}
+	workers := opt.Workers
+	if workers == 0 {
+		workers = runtime.GOMAXPROCS(0)
+	}
+	nk := opt.MaxK - opt.MinK + 1
+	res := &Result{PerK: make([]Scores, nk), Fits: make([]kmeans.Result, nk), Options: opt}
+	core := s.Coreset
+	W := core.TotalWeight()
+	scale := s.N / W
+	_, _, tss, _ := clusterMeans(core, make([]int32, core.Len()), 1)
+
+	if !(tss > 0) {
+		for i := range res.PerK {
+			k := opt.MinK + i
+			res.PerK[i] = nanScores(k)
+			res.PerK[i].WCSS = 0
+			res.Fits[i] = kmeans.Fit(core, k, kmeans.FitOptions{Restarts: 1, Rand: rngFor(opt.Seed, k, streamFit)})
+		}
+		for _, c := range CriterionNames() {
+			res.Votes = append(res.Votes, Vote{Criterion: c, Abstain: true, Note: "all points identical"})
+		}
+		res.Verdict = Verdict{K: 1, Structure: false, Disagree: []string{}, Agree: []string{},
+			Rule: "all points identical (zero spread): k = 1, no cluster structure"}
+		return res, nil
+	}
+
+	// Shared gap inputs: the data side and the B reference sets of each kind.
+	gapData := gapSide(s, opt.GapSample, rngFor(opt.Seed, 0, streamGapSample))
+	nref := gapData.Len()
+	boxRefs := BoxReference(s.Min, s.Max, nref, opt.GapRefs, rngFor(opt.Seed, 0, streamBoxRefs))
+	var pcaRefs []kmeans.Data
+	if _, lo, hi, err := PCABox(s.Cov, s.Mean, s.Sample, s.Coreset); err == nil {
+		pcaRefs = PCAReference(lo, hi, nref, opt.GapRefs, rngFor(opt.Seed, 0, streamPCARefs))
+	}
+	trace := 0.0
+	for t := 0; t < s.D; t++ {
+		trace += s.Cov[t*s.D+t]
+	}
+	if !(trace > 0) {
+		trace = tss / W
+	}
+	reg := 1e-6 * trace / float64(s.D)
+
+	var ward []Merge
+	evalK := func(k int) {
+		i := k - opt.MinK
+		var init [][]float64
+		if c, ok := s.Seeds[k]; ok && len(c) == k*s.D {
+			init = [][]float64{c}
+		}
+		fit := kmeans.Fit(core, k, kmeans.FitOptions{Restarts: opt.Restarts, Init: init,
+			Rand: rngFor(opt.Seed, k, streamFit)})
+		res.Fits[i] = fit
+		sc := nanScores(k)
+		sc.WCSS = fit.Cost * scale
+		sc.Valid = fit.Cost > 1e-12*tss
+		for _, z := range fit.Sizes {
+			if !(z > 0) {
+				sc.Valid = false
+			}
+		}
+		if sc.Valid {
+			if k >= 2 {
+				est := SilhouetteAnchors(core, fit.Labels, k, opt.Anchors, rngFor(opt.Seed, k, streamSilhouette))
+				sc.Silhouette, sc.SilhouetteLo, sc.SilhouetteHi = est.Mean, est.Lo, est.Hi
+				sc.SimplifiedSilhouette = SimplifiedSilhouette(core, fit.Labels, fit.Centres)
+				sc.CalinskiHarabasz = CalinskiHarabasz(core, fit.Labels, k)
+				sc.DaviesBouldin = DaviesBouldin(core, fit.Labels, k)
+			}
+			_, ll, _ := GMMFit(core, fit, GMMOptions{Reg: reg})
+			ll *= scale
+			p := GMMParams(k, s.D)
+			sc.LogLikGMM, sc.BICGMM, sc.AICGMM = ll, BIC(ll, p, s.N), AIC(ll, p)
+			sizes := make([]float64, k)
+			for j, z := range fit.Sizes {
+				sizes[j] = z * scale
+			}
+			sc.BICKMeans = BICKMeans(sizes, fit.Cost*scale, s.D)
+		}
+		if nref >= k {
+			w := kmeans.Fit(gapData, k, kmeans.FitOptions{Restarts: opt.GapRestarts, Lloyd: gapLloyd,
+				Rand: rngFor(opt.Seed, k, streamGapData)}).Cost
+			if w > 0 {
+				sc.LogW = math.Log(w)
+				if m, sk, ok := refLogW(boxRefs, k, opt.GapRestarts, rngFor(opt.Seed, k, streamGapBox)); ok {
+					sc.GapBox, sc.GapBoxS = m-sc.LogW, sk
+				}
+				if m, sk, ok := refLogW(pcaRefs, k, opt.GapRestarts, rngFor(opt.Seed, k, streamGapPCA)); ok {
+					sc.GapPCA, sc.GapPCAS = m-sc.LogW, sk
+				}
+			}
+		}
+		res.PerK[i] = sc
+	}
+	wardJob := func() {
+		res.Ward, ward = wardLeaves(core, opt, scale)
+	}
+
+	// Jobs: Ward first, then k from the largest (the most expensive) down.
+	jobs := make(chan int)
+	var wg sync.WaitGroup
+	for w := 0; w < workers; w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for k := range jobs {
+				if ctx.Err() != nil {
+					continue
+				}
+				if k == 0 {
+					wardJob()
+				} else {
+					evalK(k)
+				}
+			}
+		}()
+	}
+	jobs <- 0
+	for k := opt.MaxK; k >= opt.MinK; k-- {
+		jobs <- k
+	}
+	close(jobs)
+	wg.Wait()
+	if err := ctx.Err(); err != nil {
+		return nil, fmt.Errorf("criteria: evaluate: %w", err)
+	}
+	best, h, j := wardVote(ward, opt.MinK, opt.MaxK)
+	for i := range res.PerK {
+		res.PerK[i].WardHeight, res.PerK[i].WardJump = h[i], j[i]
+	}
+	res.Votes = votes(res.PerK, best, opt)
+	res.Verdict = verdict(res.Votes, opt)
+	return res, nil
+}
+
+// refLogW returns mean_b ln W*_kb and s_k over the reference sets (see GapStat).
+func refLogW(refs []kmeans.Data, k, restarts int, rng *rand.Rand) (mean, sk float64, ok bool) {
+	if len(refs) == 0 || refs[0].Len() < k {
+		return 0, 0, false
+	}
+	lw := make([]float64, len(refs))
+	for b, r := range refs {
+		c := kmeans.Fit(r, k, kmeans.FitOptions{Restarts: restarts, Lloyd: gapLloyd, Rand: rng}).Cost
+		if !(c > 0) {
+			return 0, 0, false
+		}
+		lw[b] = math.Log(c)
+		mean += lw[b]
+	}
+	B := float64(len(refs))
+	mean /= B
+	v := 0.0
+	for _, x := range lw {
+		v += (x - mean) * (x - mean)
+	}
+	return mean, math.Sqrt(v/B) * math.Sqrt(1+1/B), true
+}
+
+// gapSide returns the data side of the gap statistic: min(n, sample size) points of the sample
+// (a seeded subsample without replacement when the sample is larger), or, without a sample,
+// min(n, coreset size) points drawn from the coreset with probability proportional to weight.
+func gapSide(s Summary, n int, rng *rand.Rand) kmeans.Data {
+	d := s.D
+	if m := s.Sample.Len(); m > 0 {
+		if m <= n {
+			return kmeans.Data{X: s.Sample.X, D: d}
+		}
+		perm := rng.Perm(m)[:n]
+		x := make([]float64, 0, n*d)
+		for _, i := range perm {
+			x = append(x, s.Sample.Point(i)...)
+		}
+		return kmeans.Data{X: x, D: d}
+	}
+	c := s.Coreset
+	if c.Len() < n {
+		n = c.Len()
+	}
+	cum := make([]float64, c.Len())
+	acc := 0.0
+	for i := range cum {
+		acc += c.Weight(i)
+		cum[i] = acc
+	}
+	x := make([]float64, 0, n*d)
+	for t := 0; t < n; t++ {
+		u := rng.Float64() * acc
+		lo, hi := 0, len(cum)-1
+		for lo < hi {
+			mid := (lo + hi) / 2
+			if cum[mid] > u {
+				hi = mid
+			} else {
+				lo = mid + 1
+			}
+		}
+		x = append(x, c.Point(lo)...)
+	}
+	return kmeans.Data{X: x, D: d}
+}
+
+// wardLeaves runs the Ward linkage of Evaluate and returns the report part and all merges
+// (costs scaled to N rows).
+func wardLeaves(core kmeans.Data, opt Options, scale float64) (Ward, []Merge) {
+	leaves := core
+	w := Ward{Source: "coreset"}
+	kf := max(3*opt.MaxK, 50)
+	if core.Len() > wardDirectMax && kf < core.Len() {
+		fit := kmeans.Fit(core, kf, kmeans.FitOptions{Restarts: 1, Rand: rngFor(opt.Seed, kf, streamWard)})
+		leaves = kmeans.Data{X: fit.Centres, W: fit.Sizes, D: core.D}
+		w.Source = fmt.Sprintf("k-means centroids (k=%d)", kf)
+		w.Base = fit.Cost * scale
+	}
+	merges := WardLinkage(leaves)
+	for i := range merges {
+		merges[i].Cost *= scale
+		merges[i].Size *= scale
+	}
+	w.Leaves = len(merges) + 1
+	top := min(2*opt.MaxK, len(merges))
+	w.Merges = append([]Merge(nil), merges[len(merges)-top:]...)
+	return w, merges
+}

@@ -1,0 +1,182 @@
+package criteria
+
+import (
+	"math"
+
+	"github.com/kgauge/kgauge/internal/kmeans"
+)
+
+// GMM is a Gaussian mixture with diagonal covariances.
+type GMM struct {
+	K, D    int
+	Weights []float64 // K mixing proportions
+	Means   []float64 // K*D
+	Vars    []float64 // K*D variances
+}
+
+// GMMParams returns the number of free parameters of a K-component diagonal mixture in D
+// dimensions: (K - 1) + 2 K D (weights, means, variances).
+func GMMParams(k, d int) int { return (k - 1) + 2*k*d }
+
+// GMMOptions controls GMMFit. Zero values mean defaults.
+type GMMOptions struct {
+	MaxIter int     // default 100
+	Tol     float64 // stop when the mean log-likelihood per unit weight changes by <= Tol; default 1e-4
+	Reg     float64 // added to every variance after each M step (variance floor); default 1e-6
+}
+
+// LogLik returns the weighted log-likelihood sum_i w_i ln sum_j pi_j N(x_i | mu_j, diag(var_j)),
+// computed with the log-sum-exp trick. resp, if not nil (len n*K), receives the responsibilities.
+func (g GMM) LogLik(p kmeans.Data, resp []float64) float64 {
+	k, d := g.K, g.D
+	logc := make([]float64, k) // ln pi_j - 0.5 sum_t ln(2 pi var_jt)
+	inv := make([]float64, k*d)
+	for j := 0; j < k; j++ {
+		c := math.Log(g.Weights[j])
+		for t := 0; t < d; t++ {
+			v := g.Vars[j*d+t]
+			c -= 0.5 * math.Log(2*math.Pi*v)
+			inv[j*d+t] = 0.5 / v
+		}
+		logc[j] = c
+	}
+	lr := make([]float64, k)
+	ll := 0.0
+	for i := 0; i < p.Len(); i++ {
+		x := p.Point(i)
+		mx := math.Inf(-1)
+		for j := 0; j < k; j++ {
+			mu := g.Means[j*d : j*d+d]
+			iv := inv[j*d : j*d+d]
+			q := 0.0
+			for t, v := range x {
+				e := v - mu[t]
+				q += e * e * iv[t]
+			}
+			lr[j] = logc[j] - q
+			if lr[j] > mx {
+				mx = lr[j]
+			}
+		}
+		s := 0.0
+		for j := 0; j < k; j++ {
+			s += math.Exp(lr[j] - mx)
+		}
+		lse := mx + math.Log(s)
+		ll += p.Weight(i) * lse
+		if resp != nil {
+			r := resp[i*k : i*k+k]
+			for j := 0; j < k; j++ {
+				r[j] = math.Exp(lr[j] - lse)
+			}
+		}
+	}
+	return ll
+}
+
+// GMMFit fits a diagonal Gaussian mixture to the weighted points by EM (Dempster, Laird & Rubin
+// 1977) started from a k-means solution: weights = cluster weight shares, means = the k-means
+// centres, variances = weighted within-cluster variances per dimension, each + opt.Reg. Each M step
+// uses weighted responsibilities w_i r_ij; a component whose weight falls below 1e-12 of the total
+// keeps its previous mean and variances. It returns the model, its weighted log-likelihood on p
+// and the number of EM iterations.
+func GMMFit(p kmeans.Data, init kmeans.Result, opt GMMOptions) (GMM, float64, int) {
+	if opt.MaxIter <= 0 {
+		opt.MaxIter = 100
+	}
+	if opt.Tol <= 0 {
+		opt.Tol = 1e-4
+	}
+	if opt.Reg <= 0 {
+		opt.Reg = 1e-6
+	}
+	d, k, n := p.D, init.K, p.Len()
+	g := GMM{K: k, D: d, Weights: make([]float64, k), Means: append([]float64(nil), init.Centres...),
+		Vars: make([]float64, k*d)}
+	W := p.TotalWeight()
+	// Initial parameters from the hard k-means labels.
+	for i, l := range init.Labels {
+		w := p.Weight(i)
+		x := p.Point(i)
+		for t, v := range x {
+			e := v - g.Means[int(l)*d+t]
+			g.Vars[int(l)*d+t] += w * e * e
+		}
+		g.Weights[l] += w
+	}
+	for j := 0; j < k; j++ {
+		for t := 0; t < d; t++ {
+			if g.Weights[j] > 0 {
+				g.Vars[j*d+t] /= g.Weights[j]
+			}
+			g.Vars[j*d+t] += opt.Reg
+		}
+		g.Weights[j] /= W
+	}
+	resp := make([]float64, n*k)
+	nk := make([]float64, k)
+	sums, sq := make([]float64, k*d), make([]float64, k*d)
+	prev := math.Inf(-1)
+	ll := 0.0
+	iters := 0
+	for it := 1; it <= opt.MaxIter; it++ {
+		ll = g.LogLik(p, resp)
+		iters = it
+		if math.Abs(ll-prev) <= opt.Tol*W {
+			break
+		}
+		prev = ll
+		// M step, one pass: variances about the previous means m0, shifted afterwards,
+		// var = E[(x - m0)^2] - (mu - m0)^2 (no cancellation since mu is close to m0).
+		for j := range nk {
+			nk[j] = 0
+		}
+		for i := range sums {
+			sums[i], sq[i] = 0, 0
+		}
+		for i := 0; i < n; i++ {
+			w := p.Weight(i)
+			x := p.Point(i)
+			r := resp[i*k : i*k+k]
+			for j := 0; j < k; j++ {
+				wr := w * r[j]
+				if wr == 0 {
+					continue
+				}
+				nk[j] += wr
+				s := sums[j*d : j*d+d]
+				q := sq[j*d : j*d+d]
+				m0 := g.Means[j*d : j*d+d]
+				for t, v := range x {
+					e := v - m0[t]
+					s[t] += wr * e
+					q[t] += wr * e * e
+				}
+			}
+		}
+		for j := 0; j < k; j++ {
+			g.Weights[j] = nk[j] / W
+			if nk[j] <= 1e-12*W {
+				continue // keep the previous mean and variances
+			}
+			for t := 0; t < d; t++ {
+				sh := sums[j*d+t] / nk[j]
+				v := sq[j*d+t]/nk[j] - sh*sh
+				if v < 0 {
+					v = 0
+				}
+				g.Means[j*d+t] += sh
+				g.Vars[j*d+t] = v + opt.Reg
+			}
+		}
+	}
+	return g, ll, iters
+}
+
+// BIC returns the Bayesian information criterion -2 ln L + p ln n (Schwarz 1978; lower is better).
+func BIC(loglik float64, params int, n float64) float64 {
+	return -2*loglik + float64(params)*math.Log(n)
+}
+
+// AIC returns the Akaike information criterion -2 ln L + 2 p (Akaike 1974; lower is better).
+func AIC(loglik float64, params int) float64 { return -2*loglik + 2*float64(params) }

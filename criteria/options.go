@@ -1,0 +1,85 @@
+package criteria
+
+import (
+	"errors"
+	"fmt"
+)
+
+// Options controls Evaluate. DefaultOptions gives the values used when a field is zero.
+type Options struct {
+	MinK, MaxK  int    // candidate range; default 1, 20
+	Restarts    int    // k-means++ restarts per k on the coreset (plus the Summary's seed centres); default 3
+	Anchors     int    // silhouette anchors, stratified by cluster; default 1000
+	GapRefs     int    // B Monte Carlo reference sets per reference; default 10
+	GapSample   int    // points per gap reference set and on the data side; default 2000
+	GapRestarts int    // k-means++ restarts of every gap-statistic fit (data side and references); default 1
+	Workers     int    // goroutines across k; 0 = GOMAXPROCS. Results do not depend on it
+	Seed        uint64 // seed of every random stream
+}
+
+// DefaultOptions returns MinK 1, MaxK 20, Restarts 3, Anchors 1000, GapRefs 10, GapSample 2000,
+// Workers 0 (GOMAXPROCS) and Seed 1.
+func DefaultOptions() Options {
+	return Options{MinK: 1, MaxK: 20, Restarts: 3, Anchors: 1000, GapRefs: 10, GapSample: 2000, GapRestarts: 1, Seed: 1}
+}
+
+// withDefaults replaces zero fields by DefaultOptions' values.
+func (o Options) withDefaults() Options {
+	d := DefaultOptions()
+	if o.MinK == 0 {
+		o.MinK = d.MinK
+	}
+	if o.MaxK == 0 {
+		o.MaxK = d.MaxK
+	}
+	if o.Restarts == 0 {
+		o.Restarts = d.Restarts
+	}
+	if o.Anchors == 0 {
+		o.Anchors = d.Anchors
+	}
+	if o.GapRefs == 0 {
+		o.GapRefs = d.GapRefs
+	}
+	if o.GapRestarts == 0 {
+		o.GapRestarts = d.GapRestarts
+	}
+	if o.GapSample == 0 {
+		o.GapSample = d.GapSample
+	}
+	return o
+}
+
+// Validate reports the first bad option as a one-line error naming it. Zero fields are valid
+// (they mean the default).
+func (o Options) Validate() error {
+	o = o.withDefaults()
+	switch {
+	case o.MinK < 1:
+		return fmt.Errorf("criteria: min-k (%d) must be >= 1", o.MinK)
+	case o.MaxK < o.MinK:
+		return fmt.Errorf("criteria: max-k (%d) < min-k (%d)", o.MaxK, o.MinK)
+	case o.MaxK > 10000:
+		return fmt.Errorf("criteria: max-k (%d) must be <= 10000", o.MaxK)
+	case o.Restarts < 0:
+		return fmt.Errorf("criteria: restarts (%d) must be >= 0", o.Restarts)
+	case o.Anchors < 0:
+		return fmt.Errorf("criteria: anchors (%d) must be >= 0", o.Anchors)
+	case o.GapRefs < 0:
+		return fmt.Errorf("criteria: gap-refs (%d) must be >= 0", o.GapRefs)
+	case o.GapSample < 0:
+		return fmt.Errorf("criteria: gap-sample (%d) must be >= 0", o.GapSample)
+	case o.GapRestarts < 0:
+		return fmt.Errorf("criteria: gap-restarts (%d) must be >= 0", o.GapRestarts)
+	case o.Workers < 0:
+		return fmt.Errorf("criteria: workers (%d) must be >= 0", o.Workers)
+	}
+	return nil
+}
+
+// ErrBadSummary is wrapped by Evaluate's error for an inconsistent Summary.
+var ErrBadSummary = errors.New("criteria: bad summary")
+
+func errf(format string, args ...any) error {
+	return fmt.Errorf("%w: %s", ErrBadSummary, fmt.Sprintf(format, args...))
+}

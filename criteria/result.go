@@ -1,0 +1,140 @@
+package criteria
+
+import (
+	"encoding/json"
+	"math"
+
+	"github.com/kgauge/kgauge/internal/kmeans"
+)
+
+// Criterion names, in the fixed order of Result.Votes. They are stable JSON keys.
+const (
+	Elbow                = "elbow"
+	Silhouette           = "silhouette"
+	SimplifiedSil        = "simplified_silhouette"
+	GapBox               = "gap_box"
+	GapPCA               = "gap_pca"
+	BICGMM               = "bic_gmm"
+	AICGMM               = "aic_gmm"
+	BICKMeansName        = "bic_kmeans"
+	WardName             = "ward"
+	CalinskiHarabaszName = "calinski_harabasz"
+	DaviesBouldinName    = "davies_bouldin"
+)
+
+// CriterionNames returns the criterion names in the order of Result.Votes.
+func CriterionNames() []string {
+	return []string{Elbow, Silhouette, SimplifiedSil, GapBox, GapPCA, BICGMM, AICGMM, BICKMeansName,
+		WardName, CalinskiHarabaszName, DaviesBouldinName}
+}
+
+// Result is the outcome of Evaluate.
+type Result struct {
+	PerK    []Scores        `json:"per_k"` // one per k in MinK..MaxK
+	Votes   []Vote          `json:"votes"` // one per criterion, in CriterionNames order
+	Verdict Verdict         `json:"verdict"`
+	Ward    Ward            `json:"ward"`
+	Fits    []kmeans.Result `json:"-"`       // the chosen coreset fit per k, parallel to PerK
+	Options Options         `json:"options"` // the options used, defaults filled in
+}
+
+// Vote is one criterion's choice of k. Abstain is true (and K 0) when the criterion could not
+// decide; Note says why or how.
+type Vote struct {
+	Criterion string `json:"criterion"`
+	K         int    `json:"k"`
+	Abstain   bool   `json:"abstain,omitempty"`
+	Note      string `json:"note,omitempty"`
+}
+
+// Verdict is the combined choice of k.
+type Verdict struct {
+	K         int      `json:"k"`
+	RunnerUp  int      `json:"runner_up"` // 0 = none
+	Agreement float64  `json:"agreement"` // share of voting (non-abstaining) criteria that named K
+	Agree     []string `json:"agree"`
+	Disagree  []string `json:"disagree"`
+	Structure bool     `json:"structure"` // false when K = 1, "no cluster structure"
+	Rule      string   `json:"rule"`
+}
+
+// Scores holds every criterion's value at one k; NaN where undefined (marshalled as JSON null).
+type Scores struct {
+	K     int  `json:"k"`
+	Valid bool `json:"valid"` // false when the coreset fit has an empty cluster or zero WCSS (k too large)
+
+	WCSS    float64 `json:"wcss"`    // coreset weighted k-means cost, an estimate of the full-data WCSS
+	Kneedle float64 `json:"kneedle"` // Kneedle difference curve (1 - y_n) - x_n
+
+	Silhouette           float64 `json:"silhouette"` // stratified anchor estimate
+	SilhouetteLo         float64 `json:"silhouette_lo"`
+	SilhouetteHi         float64 `json:"silhouette_hi"`
+	SimplifiedSilhouette float64 `json:"simplified_silhouette"`
+
+	GapBox  float64 `json:"gap_box"`
+	GapBoxS float64 `json:"gap_box_s"` // s_k = sd_k sqrt(1 + 1/B)
+	GapPCA  float64 `json:"gap_pca"`
+	GapPCAS float64 `json:"gap_pca_s"`
+	LogW    float64 `json:"log_w"` // data-side ln W_k at the gap sample size
+
+	LogLikGMM float64 `json:"loglik_gmm"` // scaled to N rows
+	BICGMM    float64 `json:"bic_gmm"`
+	AICGMM    float64 `json:"aic_gmm"`
+	BICKMeans float64 `json:"bic_kmeans"` // -2 l + p ln N, lower is better
+
+	WardHeight float64 `json:"ward_height"` // cost of the Ward merge from k to k-1 clusters
+	WardJump   float64 `json:"ward_jump"`   // (H(k) - H(k+1)) / H(k+1)
+
+	CalinskiHarabasz float64 `json:"calinski_harabasz"`
+	DaviesBouldin    float64 `json:"davies_bouldin"`
+}
+
+func nanScores(k int) Scores {
+	n := math.NaN()
+	return Scores{K: k, WCSS: n, Kneedle: n, Silhouette: n, SilhouetteLo: n, SilhouetteHi: n,
+		SimplifiedSilhouette: n, GapBox: n, GapBoxS: n, GapPCA: n, GapPCAS: n, LogW: n, LogLikGMM: n,
+		BICGMM: n, AICGMM: n, BICKMeans: n, WardHeight: n, WardJump: n, CalinskiHarabasz: n, DaviesBouldin: n}
+}
+
+// jsonFloat marshals NaN and ±Inf as null.
+type jsonFloat float64
+
+func (f jsonFloat) MarshalJSON() ([]byte, error) {
+	v := float64(f)
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return []byte("null"), nil
+	}
+	return json.Marshal(v)
+}
+
+// MarshalJSON writes s with NaN (and infinite) values as null.
+func (s Scores) MarshalJSON() ([]byte, error) {
+	type out struct {
+		K                    int       `json:"k"`
+		Valid                bool      `json:"valid"`
+		WCSS                 jsonFloat `json:"wcss"`
+		Kneedle              jsonFloat `json:"kneedle"`
+		Silhouette           jsonFloat `json:"silhouette"`
+		SilhouetteLo         jsonFloat `json:"silhouette_lo"`
+		SilhouetteHi         jsonFloat `json:"silhouette_hi"`
+		SimplifiedSilhouette jsonFloat `json:"simplified_silhouette"`
+		GapBox               jsonFloat `json:"gap_box"`
+		GapBoxS              jsonFloat `json:"gap_box_s"`
+		GapPCA               jsonFloat `json:"gap_pca"`
+		GapPCAS              jsonFloat `json:"gap_pca_s"`
+		LogW                 jsonFloat `json:"log_w"`
+		LogLikGMM            jsonFloat `json:"loglik_gmm"`
+		BICGMM               jsonFloat `json:"bic_gmm"`
+		AICGMM               jsonFloat `json:"aic_gmm"`
+		BICKMeans            jsonFloat `json:"bic_kmeans"`
+		WardHeight           jsonFloat `json:"ward_height"`
+		WardJump             jsonFloat `json:"ward_jump"`
+		CalinskiHarabasz     jsonFloat `json:"calinski_harabasz"`
+		DaviesBouldin        jsonFloat `json:"davies_bouldin"`
+	}
+	return json.Marshal(out{s.K, s.Valid, jsonFloat(s.WCSS), jsonFloat(s.Kneedle), jsonFloat(s.Silhouette),
+		jsonFloat(s.SilhouetteLo), jsonFloat(s.SilhouetteHi), jsonFloat(s.SimplifiedSilhouette),
+		jsonFloat(s.GapBox), jsonFloat(s.GapBoxS), jsonFloat(s.GapPCA), jsonFloat(s.GapPCAS), jsonFloat(s.LogW),
+		jsonFloat(s.LogLikGMM), jsonFloat(s.BICGMM), jsonFloat(s.AICGMM), jsonFloat(s.BICKMeans),
+		jsonFloat(s.WardHeight), jsonFloat(s.WardJump), jsonFloat(s.CalinskiHarabasz), jsonFloat(s.DaviesBouldin)})
+}

@@ -1,0 +1,189 @@
+package criteria
+
+import (
+	"fmt"
+	"math"
+	"slices"
+)
+
+// pick returns the k (from per) with the best finite value of f among valid k >= lo, the largest
+// when maximise is true; ties keep the smaller k. ok is false when no value is finite.
+func pick(per []Scores, lo int, maximise bool, f func(Scores) float64) (k int, v float64, ok bool) {
+	for _, s := range per {
+		if !s.Valid || s.K < lo {
+			continue
+		}
+		x := f(s)
+		if math.IsNaN(x) || math.IsInf(x, 0) {
+			continue
+		}
+		if !ok || (maximise && x > v) || (!maximise && x < v) {
+			k, v, ok = s.K, x, true
+		}
+	}
+	return k, v, ok
+}
+
+// votes turns the per-k scores into one vote per criterion (CriterionNames order).
+func votes(per []Scores, wardK int, opt Options) []Vote {
+	var out []Vote
+	add := func(name string, k int, ok bool, note string) {
+		if !ok {
+			out = append(out, Vote{Criterion: name, Abstain: true, Note: note})
+			return
+		}
+		out = append(out, Vote{Criterion: name, K: k, Note: note})
+	}
+
+	// elbow: Kneedle on WCSS over the valid k.
+	var xs, ys []float64
+	var ks []int
+	for _, s := range per {
+		if s.Valid {
+			xs, ys, ks = append(xs, float64(s.K)), append(ys, s.WCSS), append(ks, s.K)
+		}
+	}
+	diff := make([]float64, len(ys))
+	if i, ok := Kneedle(xs, ys, 1, diff); ok {
+		add(Elbow, ks[i], true, "Kneedle knee of WCSS(k), S=1")
+	} else {
+		add(Elbow, 0, false, "no knee in WCSS(k)")
+	}
+	for i, k := range ks {
+		per[k-opt.MinK].Kneedle = diff[i]
+	}
+
+	k, v, ok := pick(per, 2, true, func(s Scores) float64 { return s.Silhouette })
+	note := "no valid k >= 2"
+	if ok {
+		s := per[k-opt.MinK]
+		note = fmt.Sprintf("max mean silhouette %.4f (95%% CI %.4f..%.4f)", v, s.SilhouetteLo, s.SilhouetteHi)
+	}
+	add(Silhouette, k, ok, note)
+	k, v, ok = pick(per, 2, true, func(s Scores) float64 { return s.SimplifiedSilhouette })
+	add(SimplifiedSil, k, ok, fmt.Sprintf("max simplified silhouette %.4f", v))
+
+	for _, g := range []struct {
+		name string
+		f    func(Scores) (float64, float64)
+	}{
+		{GapBox, func(s Scores) (float64, float64) { return s.GapBox, s.GapBoxS }},
+		{GapPCA, func(s Scores) (float64, float64) { return s.GapPCA, s.GapPCAS }},
+	} {
+		gap, sk := make([]float64, len(per)), make([]float64, len(per))
+		for i, s := range per {
+			gap[i], sk[i] = g.f(s)
+		}
+		if i := GapRule(gap, sk); i >= 0 {
+			add(g.name, per[i].K, true, "smallest k with Gap(k) >= Gap(k+1) - s(k+1)")
+		} else {
+			add(g.name, 0, false, "no k below max-k meets Gap(k) >= Gap(k+1) - s(k+1)")
+		}
+	}
+
+	k, _, ok = pick(per, 1, false, func(s Scores) float64 { return s.BICGMM })
+	add(BICGMM, k, ok, "min BIC of a diagonal Gaussian mixture")
+	k, _, ok = pick(per, 1, false, func(s Scores) float64 { return s.AICGMM })
+	add(AICGMM, k, ok, "min AIC of a diagonal Gaussian mixture")
+	k, _, ok = pick(per, 1, false, func(s Scores) float64 { return s.BICKMeans })
+	add(BICKMeansName, k, ok, "min spherical k-means BIC (per-dimension variance)")
+	add(WardName, wardK, wardK > 0, "largest relative jump of Ward merge cost")
+	k, _, ok = pick(per, 2, true, func(s Scores) float64 { return s.CalinskiHarabasz })
+	add(CalinskiHarabaszName, k, ok, "max Calinski-Harabasz")
+	k, _, ok = pick(per, 2, false, func(s Scores) float64 { return s.DaviesBouldin })
+	add(DaviesBouldinName, k, ok, "min Davies-Bouldin")
+	return out
+}
+
+// canSayOne lists the criteria that can express "no cluster structure" (k = 1).
+var canSayOne = []string{GapBox, GapPCA, BICGMM, BICKMeansName}
+
+// verdictRule is Verdict.Rule for a decision over k >= 2.
+const verdictRule = "k=1 if most of gap_box, gap_pca, bic_gmm, bic_kmeans say 1; else the k>=2 with most votes " +
+	"(ties: more gap votes, then smaller k)"
+
+// verdict combines the votes. Stage 1: among the non-abstaining criteria able to say k = 1
+// (gap_box, gap_pca, bic_gmm, bic_kmeans), if more than half name 1 the verdict is 1 with
+// Structure false. Stage 2: otherwise the k >= 2 with the most votes wins (votes for 1 count as
+// disagreeing); ties go to the k with more gap_box/gap_pca votes, then to the smaller k.
+// Agreement is the share of non-abstaining criteria that named K; RunnerUp the next most voted k
+// (same tie-break), 0 if none.
+func verdict(vs []Vote, opt Options) Verdict {
+	voting := 0
+	for _, v := range vs {
+		if !v.Abstain {
+			voting++
+		}
+	}
+	count := map[int]int{}
+	gapCount := map[int]int{}
+	for _, v := range vs {
+		if v.Abstain {
+			continue
+		}
+		count[v.K]++
+		if v.Criterion == GapBox || v.Criterion == GapPCA {
+			gapCount[v.K]++
+		}
+	}
+	var ranked []int // k >= 2 by votes, then gap votes, then smaller k
+	for k := range count {
+		if k >= 2 {
+			ranked = append(ranked, k)
+		}
+	}
+	slices.SortFunc(ranked, func(a, b int) int {
+		if count[a] != count[b] {
+			return count[b] - count[a]
+		}
+		if gapCount[a] != gapCount[b] {
+			return gapCount[b] - gapCount[a]
+		}
+		return a - b
+	})
+	build := func(K int, structure bool, rule string, runner int) Verdict {
+		out := Verdict{K: K, RunnerUp: runner, Structure: structure, Rule: rule, Agree: []string{}, Disagree: []string{}}
+		for _, v := range vs {
+			if v.Abstain {
+				continue
+			}
+			if v.K == K {
+				out.Agree = append(out.Agree, v.Criterion)
+			} else {
+				out.Disagree = append(out.Disagree, v.Criterion)
+			}
+		}
+		if voting > 0 {
+			out.Agreement = float64(len(out.Agree)) / float64(voting)
+		}
+		return out
+	}
+	if opt.MinK <= 1 {
+		n1, nv := 0, 0
+		for _, v := range vs {
+			if v.Abstain || !slices.Contains(canSayOne, v.Criterion) {
+				continue
+			}
+			nv++
+			if v.K == 1 {
+				n1++
+			}
+		}
+		if nv > 0 && 2*n1 > nv {
+			runner := 0
+			if len(ranked) > 0 {
+				runner = ranked[0]
+			}
+			return build(1, false, fmt.Sprintf("k=1: %d of %d of gap_box, gap_pca, bic_gmm, bic_kmeans say 1 (no cluster structure)", n1, nv), runner)
+		}
+	}
+	if len(ranked) == 0 {
+		k := max(opt.MinK, 1)
+		return build(k, false, "no criterion voted for k >= 2: no cluster structure found", 0)
+	}
+	runner := 0
+	if len(ranked) > 1 {
+		runner = ranked[1]
+	}
+	return build(ranked[0], true, verdictRule, runner)
+}

@@ -1,0 +1,218 @@
+package kgauge
+
+import (
+	"bytes"
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"time"
+
+	"github.com/kgauge/kgauge/criteria"
+	"github.com/kgauge/kgauge/sketch"
+)
+
+// Version is the tool version reported in results.
+const Version = "0.1.0"
+
+// Result is the outcome of an estimate: the verdict, every criterion's score per k, and what the
+// verdict was computed from. Its JSON field names are a stable contract (see the README).
+type Result struct {
+	K           int               `json:"k"`
+	RunnerUp    *int              `json:"runner_up"`
+	Agreement   float64           `json:"agreement"`
+	Structure   bool              `json:"structure"`
+	Agree       []string          `json:"agreeing"`
+	Disagree    []string          `json:"disagreeing"`
+	Rule        string            `json:"rule"`
+	Votes       map[string]*int   `json:"votes"`
+	VoteList    []criteria.Vote   `json:"vote_details"`
+	PerK        []criteria.Scores `json:"per_k"`
+	Rows        int64             `json:"rows"`
+	SkippedRows int64             `json:"skipped_rows"`
+	ProbeRows   int64             `json:"probe_rows"`
+	Columns     []string          `json:"columns"`
+	Ignored     []IgnoredColumn   `json:"ignored_columns"`
+	Files       []FileInfo        `json:"files"`
+	Sketches    []string          `json:"sketches,omitempty"`
+	Scaling     Scaling           `json:"scaling"`
+	Sketch      SketchInfo        `json:"sketch"`
+	MinK        int               `json:"min_k"`
+	MaxK        int               `json:"max_k"`
+	Seed        uint64            `json:"seed"`
+	Version     string            `json:"version"`
+	Timings     Timings           `json:"timings"`
+
+	criteria *criteria.Result
+}
+
+// SketchInfo describes the summary the verdict was computed from.
+type SketchInfo struct {
+	Bytes         int64   `json:"bytes"`
+	CoresetSize   int     `json:"coreset_size"`
+	CoresetWeight float64 `json:"coreset_weight"`
+	SampleSize    int     `json:"sample_size"`
+	CovRows       int64   `json:"covariance_rows"`
+}
+
+// Criteria returns the full criteria result behind r (fits, Ward merges), or nil for a decoded Result.
+func (r *Result) Criteria() *criteria.Result { return r.criteria }
+
+// Evaluate scales the sketch's summary and runs the criteria on it.
+func Evaluate(ctx context.Context, sk *sketch.Sketch, opt Options) (*Result, error) {
+	if err := opt.Validate(); err != nil {
+		return nil, err
+	}
+	opt = opt.withDefaults()
+	cfg := sk.Config()
+	if opt.Criteria.MinK < cfg.MinK || opt.Criteria.MaxK > cfg.MaxK {
+		// Mini-batch seeds exist only for the sketch's range; the criteria still run on the coreset.
+		opt.Criteria.MinK = max(opt.Criteria.MinK, 1)
+	}
+	if n := sk.Rows(); n < int64(opt.Criteria.MaxK) {
+		return nil, fmt.Errorf("%w: %d usable rows is fewer than max-k (%d)", ErrTooFewRows, n, opt.Criteria.MaxK)
+	}
+	start := time.Now()
+	sum, sc := Summarize(sk, opt.Scale)
+	cr, err := criteria.Evaluate(ctx, sum, opt.Criteria)
+	if err != nil {
+		return nil, err
+	}
+	r := &Result{K: cr.Verdict.K, Agreement: cr.Verdict.Agreement, Structure: cr.Verdict.Structure,
+		Agree: cr.Verdict.Agree, Disagree: cr.Verdict.Disagree, Rule: cr.Verdict.Rule,
+		Votes: map[string]*int{}, VoteList: cr.Votes, PerK: cr.PerK,
+		Rows: sk.Rows(), SkippedRows: sk.Meta.SkippedRows, ProbeRows: sk.Meta.ProbeRows,
+		Columns: sk.Columns(), Ignored: []IgnoredColumn{}, Scaling: sc,
+		MinK: opt.Criteria.MinK, MaxK: opt.Criteria.MaxK, Seed: opt.Seed, Version: Version, criteria: cr}
+	if cr.Verdict.RunnerUp > 0 {
+		ru := cr.Verdict.RunnerUp
+		r.RunnerUp = &ru
+	}
+	for _, v := range cr.Votes {
+		if v.Abstain {
+			r.Votes[v.Criterion] = nil
+			continue
+		}
+		k := v.K
+		r.Votes[v.Criterion] = &k
+	}
+	cross := sk.Cross()
+	r.Sketch = SketchInfo{Bytes: sk.SizeBytes(), CoresetSize: sum.Coreset.Len(),
+		CoresetWeight: sum.Coreset.TotalWeight(), SampleSize: sum.Sample.Len(), CovRows: cross.N}
+	r.Timings.Criteria = time.Since(start).Seconds()
+	return r, nil
+}
+
+// ErrTooFewRows is returned when there are fewer usable rows than the largest k.
+var ErrTooFewRows = errors.New("too few rows")
+
+// Estimate runs the whole job on inputs: data files, directories and globs (read in one pass) and
+// saved sketch files (merged without reading their data). It returns the result and the merged
+// sketch, which the caller may save.
+func Estimate(ctx context.Context, inputs []string, opt Options) (*Result, *sketch.Sketch, error) {
+	if err := opt.Validate(); err != nil {
+		return nil, nil, err
+	}
+	opt = opt.withDefaults()
+	sketchPaths, dataPaths, err := splitInputs(inputs)
+	if err != nil {
+		return nil, nil, err
+	}
+	var (
+		total *sketch.Sketch
+		in    *Input
+		tm    Timings
+	)
+	if len(dataPaths) > 0 {
+		total, in, tm, err = Build(ctx, dataPaths, opt)
+		if err != nil {
+			return nil, nil, err
+		}
+	}
+	for _, p := range sketchPaths {
+		sk, err := LoadSketch(p)
+		if err != nil {
+			return nil, nil, err
+		}
+		if total == nil {
+			total = sk
+			continue
+		}
+		if err := total.Merge(sk); err != nil {
+			return nil, nil, fmt.Errorf("%s: %w", p, err)
+		}
+	}
+	opt.Progress.stage("criteria")
+	r, err := Evaluate(ctx, total, opt)
+	if err != nil {
+		return nil, nil, err
+	}
+	crit := r.Timings.Criteria
+	r.Timings = tm
+	r.Timings.Criteria = crit
+	r.Sketches = sketchPaths
+	if in != nil {
+		r.Files = in.Files
+		r.Ignored = in.Ignored
+	}
+	if r.Files == nil {
+		r.Files = []FileInfo{}
+	}
+	opt.Progress.stage("done")
+	return r, total, nil
+}
+
+// splitInputs separates saved sketch files (recognised by their magic bytes) from data inputs.
+func splitInputs(inputs []string) (sketches, data []string, err error) {
+	for _, p := range inputs {
+		if isSketchFile(p) {
+			sketches = append(sketches, p)
+		} else {
+			data = append(data, p)
+		}
+	}
+	if len(sketches)+len(data) == 0 {
+		return nil, nil, errors.New("no input given")
+	}
+	return sketches, data, nil
+}
+
+func isSketchFile(path string) bool {
+	f, err := os.Open(path)
+	if err != nil {
+		return false
+	}
+	defer f.Close()
+	head := make([]byte, 8)
+	if _, err := io.ReadFull(f, head); err != nil {
+		return false
+	}
+	return bytes.Equal(head, []byte("KGSKETCH"))
+}
+
+// LoadSketch reads a saved sketch file; errors name the file.
+func LoadSketch(path string) (*sketch.Sketch, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, &InputError{Path: path, Err: err}
+	}
+	defer f.Close()
+	sk, err := sketch.Decode(f)
+	if err != nil {
+		return nil, &InputError{Path: path, Err: err}
+	}
+	if len(sk.Meta.Sources) == 0 {
+		sk.Meta.Sources = []string{path}
+	}
+	return sk, nil
+}
+
+// InputError is a problem with an input file other than its data rows (which stream reports).
+type InputError struct {
+	Path string
+	Err  error
+}
+
+func (e *InputError) Error() string { return e.Path + ": " + e.Err.Error() }
+func (e *InputError) Unwrap() error { return e.Err }

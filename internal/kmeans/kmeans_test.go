@@ -1,0 +1,245 @@
+package kmeans_test
+
+import (
+	"math"
+	"math/rand/v2"
+	"testing"
+
+	"github.com/kgauge/kgauge/internal/kmeans"
+)
+
+func randPoints(rng *rand.Rand, n, d int, scale float64) []float64 {
+	x := make([]float64, n*d)
+	for i := range x {
+		x[i] = scale * rng.NormFloat64()
+	}
+	return x
+}
+
+// naiveAssign is the textbook (x-c)^2 loop used as the oracle for the blocked kernel.
+func naiveAssign(x []float64, d int, c []float64) ([]int32, []float64) {
+	n, k := len(x)/d, len(c)/d
+	lab := make([]int32, n)
+	dd := make([]float64, n)
+	for i := 0; i < n; i++ {
+		best := math.Inf(1)
+		for j := 0; j < k; j++ {
+			s := kmeans.Dist2(x[i*d:(i+1)*d], c[j*d:(j+1)*d])
+			if s < best {
+				best, lab[i] = s, int32(j)
+			}
+		}
+		dd[i] = best
+	}
+	return lab, dd
+}
+
+func TestAssignMatchesNaive(t *testing.T) {
+	tests := []struct{ n, d, k int }{
+		{1, 1, 1}, {2, 1, 2}, {7, 3, 3}, {9, 2, 4}, {33, 16, 5}, {100, 16, 9}, {101, 5, 20}, {64, 40, 13},
+	}
+	for _, tc := range tests {
+		rng := rand.New(rand.NewPCG(uint64(tc.n), uint64(tc.k)))
+		x := randPoints(rng, tc.n, tc.d, 1)
+		c := randPoints(rng, tc.k, tc.d, 1)
+		wantL, wantD := naiveAssign(x, tc.d, c)
+		lab := make([]int32, tc.n)
+		d2 := make([]float64, tc.n)
+		kmeans.Assign(x, tc.d, c, lab, d2)
+		for i := range lab {
+			if lab[i] != wantL[i] {
+				// A near-tie may legitimately flip; the distances must then agree.
+				if math.Abs(kmeans.Dist2(x[i*tc.d:(i+1)*tc.d], c[int(lab[i])*tc.d:int(lab[i]+1)*tc.d])-wantD[i]) > 1e-12 {
+					t.Fatalf("n=%d d=%d k=%d point %d: label %d, want %d", tc.n, tc.d, tc.k, i, lab[i], wantL[i])
+				}
+			}
+			if math.Abs(d2[i]-wantD[i]) > 1e-9*(1+wantD[i]) {
+				t.Fatalf("n=%d d=%d k=%d point %d: dist2 %v, want %v", tc.n, tc.d, tc.k, i, d2[i], wantD[i])
+			}
+		}
+		// nil outputs must be accepted.
+		kmeans.Assign(x, tc.d, c, nil, nil)
+		var a kmeans.Assigner
+		lab2 := make([]int32, tc.n)
+		a.Assign(x, tc.d, c, lab2, nil)
+		for i := range lab2 {
+			if lab2[i] != lab[i] {
+				t.Fatalf("Assigner differs from Assign at %d", i)
+			}
+		}
+	}
+}
+
+func TestAssignClampsAtZero(t *testing.T) {
+	// A point equal to a centre far from the origin: the dot form may round below 0.
+	x := []float64{1e8 + 0.1, -3e7 + 0.3, 1e8 + 0.1, -3e7 + 0.3}
+	d2 := make([]float64, 2)
+	kmeans.Assign(x, 2, x[:2], nil, d2)
+	for _, v := range d2 {
+		if v < 0 {
+			t.Fatalf("negative squared distance %v", v)
+		}
+	}
+}
+
+func TestAssignNoAlloc(t *testing.T) {
+	rng := rand.New(rand.NewPCG(1, 1))
+	x := randPoints(rng, 1000, 16, 1)
+	c := randPoints(rng, 20, 16, 1)
+	lab := make([]int32, 1000)
+	d2 := make([]float64, 1000)
+	if n := testing.AllocsPerRun(10, func() { kmeans.Assign(x, 16, c, lab, d2) }); n != 0 {
+		t.Fatalf("Assign allocates %v times per call", n)
+	}
+}
+
+func TestLloydHandChecked(t *testing.T) {
+	tests := []struct {
+		name    string
+		x, w    []float64
+		init    []float64
+		centres []float64
+		cost    float64
+		sizes   []float64
+	}{
+		// 1-D: {0,1} and {10,11}; means 0.5 and 10.5, cost 4 * 0.25 = 1.
+		{"unit", []float64{0, 1, 10, 11}, nil, []float64{0, 1}, []float64{0.5, 10.5}, 1, []float64{2, 2}},
+		// weights 3 and 1 on {0,1}: mean 0.25, cost 3*0.0625 + 0.5625 = 0.75; {10,11} w 1,1.
+		{"weighted", []float64{0, 1, 10, 11}, []float64{3, 1, 1, 1}, []float64{0, 11}, []float64{0.25, 10.5}, 1.25, []float64{4, 2}},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			p := kmeans.Data{X: tc.x, W: tc.w, D: 1}
+			init := append([]float64(nil), tc.init...)
+			r := kmeans.Lloyd(p, init, kmeans.LloydOptions{})
+			for j := range tc.centres {
+				if math.Abs(r.Centres[j]-tc.centres[j]) > 1e-12 || r.Sizes[j] != tc.sizes[j] {
+					t.Fatalf("centres %v sizes %v, want %v %v", r.Centres, r.Sizes, tc.centres, tc.sizes)
+				}
+			}
+			if math.Abs(r.Cost-tc.cost) > 1e-12 {
+				t.Fatalf("cost %v, want %v", r.Cost, tc.cost)
+			}
+			if init[0] != tc.init[0] || init[1] != tc.init[1] {
+				t.Fatalf("init modified")
+			}
+			if got := kmeans.Cost(p, r.Centres); math.Abs(got-tc.cost) > 1e-12 {
+				t.Fatalf("Cost %v, want %v", got, tc.cost)
+			}
+		})
+	}
+}
+
+func TestLloydReseedsEmpty(t *testing.T) {
+	// The second initial centre is far from every point, so its cluster starts empty and must be
+	// re-seeded with the farthest point; the final solution splits {0,1} from {10,11,12}.
+	p := kmeans.Data{X: []float64{0, 1, 10, 11, 12}, D: 1}
+	r := kmeans.Lloyd(p, []float64{5, 1000}, kmeans.LloydOptions{})
+	for j, s := range r.Sizes {
+		if s == 0 {
+			t.Fatalf("cluster %d empty: %+v", j, r)
+		}
+	}
+	if want := 0.5 + 2.0; math.Abs(r.Cost-want) > 1e-12 {
+		t.Fatalf("cost %v, want %v", r.Cost, want)
+	}
+}
+
+func TestFitFewerDistinctThanK(t *testing.T) {
+	// Three distinct points repeated: k = 5 must not crash; cost 0 and total size preserved.
+	x := []float64{0, 0, 1, 1, 5, 5, 0, 0, 1, 1, 5, 5}
+	p := kmeans.Data{X: x, D: 2}
+	r := kmeans.Fit(p, 5, kmeans.FitOptions{Restarts: 3, Rand: rand.New(rand.NewPCG(3, 4))})
+	if r.Cost != 0 {
+		t.Fatalf("cost %v, want 0", r.Cost)
+	}
+	tot := 0.0
+	for _, s := range r.Sizes {
+		tot += s
+	}
+	if tot != 6 || len(r.Centres) != 10 {
+		t.Fatalf("sizes %v centres %v", r.Sizes, r.Centres)
+	}
+	// All identical points, k = 3.
+	q := kmeans.Data{X: []float64{2, 2, 2, 2}, D: 1}
+	if r := kmeans.Fit(q, 3, kmeans.FitOptions{}); r.Cost != 0 {
+		t.Fatalf("identical points: cost %v", r.Cost)
+	}
+}
+
+func TestPlusPlus(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 6))
+	x := randPoints(rng, 300, 3, 1)
+	w := make([]float64, 300)
+	for i := range w {
+		if i%3 == 0 {
+			w[i] = 0 // zero-weight points must never become centres
+		} else {
+			w[i] = 1 + float64(i%7)
+		}
+	}
+	p := kmeans.Data{X: x, W: w, D: 3}
+	a := kmeans.PlusPlus(p, 8, rand.New(rand.NewPCG(9, 9)), nil)
+	b := kmeans.PlusPlus(p, 8, rand.New(rand.NewPCG(9, 9)), make([]float64, 3))
+	for i := range a {
+		if a[i] != b[i] {
+			t.Fatalf("not deterministic")
+		}
+	}
+	for j := 0; j < 8; j++ {
+		found := false
+		for i := 0; i < 300; i++ {
+			if kmeans.Dist2(a[j*3:j*3+3], x[i*3:i*3+3]) == 0 {
+				if w[i] == 0 {
+					t.Fatalf("centre %d is a zero-weight point", j)
+				}
+				found = true
+			}
+		}
+		if !found {
+			t.Fatalf("centre %d is not a data point", j)
+		}
+	}
+}
+
+func TestFitBeatsSingleSeedAndUsesInit(t *testing.T) {
+	// Four well-separated blobs; an Init at the true centres must be (nearly) optimal, and Fit
+	// must return a cost no larger than any single Lloyd run it tried.
+	rng := rand.New(rand.NewPCG(11, 12))
+	centres := []float64{0, 0, 20, 0, 0, 20, 20, 20}
+	var x []float64
+	for i := 0; i < 400; i++ {
+		j := i % 4
+		x = append(x, centres[2*j]+rng.NormFloat64(), centres[2*j+1]+rng.NormFloat64())
+	}
+	p := kmeans.Data{X: x, D: 2}
+	withInit := kmeans.Fit(p, 4, kmeans.FitOptions{Init: [][]float64{centres}})
+	truth := kmeans.Lloyd(p, centres, kmeans.LloydOptions{})
+	if withInit.Cost > truth.Cost*(1+1e-12) {
+		t.Fatalf("Fit with Init cost %v > Lloyd from it %v", withInit.Cost, truth.Cost)
+	}
+	r := kmeans.Fit(p, 4, kmeans.FitOptions{Restarts: 5, Rand: rand.New(rand.NewPCG(1, 1))})
+	// Optimal cost is about n*d*sigma^2 = 800; a wrong local optimum merges two blobs (>> 800).
+	if r.Cost > 1.05*truth.Cost {
+		t.Fatalf("Fit cost %v vs true-centre cost %v", r.Cost, truth.Cost)
+	}
+}
+
+func BenchmarkAssign(b *testing.B) {
+	for _, k := range []int{4, 10, 20} {
+		rng := rand.New(rand.NewPCG(1, 2))
+		const n, d = 4096, 16
+		x := randPoints(rng, n, d, 1)
+		c := randPoints(rng, k, d, 1)
+		lab := make([]int32, n)
+		d2 := make([]float64, n)
+		b.Run("k="+string(rune('0'+k/10))+string(rune('0'+k%10)), func(b *testing.B) {
+			b.ReportAllocs()
+			b.SetBytes(n * d * 8)
+			for b.Loop() {
+				kmeans.Assign(x, d, c, lab, d2)
+			}
+			b.ReportMetric(float64(n*k*d)*float64(b.N)/b.Elapsed().Seconds(), "pkd/s")
+		})
+	}
+}

@@ -1,0 +1,119 @@
+package kgauge
+
+import (
+	"fmt"
+	"runtime"
+
+	"github.com/kgauge/kgauge/criteria"
+	"github.com/kgauge/kgauge/sketch"
+)
+
+// Scale says how features are put on a common footing before distances are taken.
+type Scale string
+
+// The scalings. All use the exact statistics of the whole input, known after the pass.
+const (
+	ZScore Scale = "zscore" // (x − mean) / standard deviation; a constant column is only centred
+	Range  Scale = "range"  // (x − min) / (max − min); a constant column is only shifted
+	Raw    Scale = "none"   // the data's own units
+)
+
+// ParseScale turns a flag value into a Scale.
+func ParseScale(s string) (Scale, error) {
+	switch Scale(s) {
+	case ZScore, Range, Raw:
+		return Scale(s), nil
+	}
+	return "", fmt.Errorf("unknown scale %q (want zscore, range or none)", s)
+}
+
+// Defaults for [Options].
+const (
+	DefaultBatchRows  = 4096
+	DefaultProbeRows  = 65536
+	DefaultProbeUnits = 16
+	// probeInitRows caps the probe rows used for k-means++ starting centres.
+	probeInitRows = 8192
+)
+
+// Options configures Build, Evaluate and Estimate. Zero fields take their defaults.
+type Options struct {
+	Columns    []string // feature columns; nil means every numeric column
+	Scale      Scale
+	Workers    int // goroutines for the pass; 0 means the number of CPUs
+	BatchRows  int // rows per read batch
+	ProbeRows  int // rows the probe reads at most before the pass
+	ProbeUnits int // units the probe spreads over at least (when there are that many)
+	Sketch     sketch.Config
+	Criteria   criteria.Options
+	Seed       uint64
+	Progress   *Progress // optional; updated as rows are read
+}
+
+// DefaultOptions returns the options used for zero fields.
+func DefaultOptions() Options {
+	return Options{Scale: ZScore, Workers: runtime.NumCPU(), BatchRows: DefaultBatchRows,
+		ProbeRows: DefaultProbeRows, ProbeUnits: DefaultProbeUnits,
+		Sketch: sketch.Config{CoresetSize: sketch.DefaultCoresetSize, SampleSize: sketch.DefaultSampleSize,
+			MiniBatchSize: sketch.DefaultMiniBatchSize, MiniBatchRows: sketch.DefaultMiniBatchRows},
+		Criteria: criteria.DefaultOptions(), Seed: 1}
+}
+
+// withDefaults fills zero fields and copies the shared k range and seed into the stage options.
+func (o Options) withDefaults() Options {
+	def := DefaultOptions()
+	if o.Scale == "" {
+		o.Scale = def.Scale
+	}
+	if o.Workers == 0 {
+		o.Workers = def.Workers
+	}
+	if o.BatchRows == 0 {
+		o.BatchRows = def.BatchRows
+	}
+	if o.ProbeRows == 0 {
+		o.ProbeRows = def.ProbeRows
+	}
+	if o.ProbeUnits == 0 {
+		o.ProbeUnits = def.ProbeUnits
+	}
+	c := o.Criteria
+	dc := def.Criteria
+	if c.MinK == 0 {
+		c.MinK = dc.MinK
+	}
+	if c.MaxK == 0 {
+		c.MaxK = dc.MaxK
+	}
+	if c.Seed == 0 {
+		c.Seed = o.Seed
+	}
+	o.Criteria = c
+	o.Sketch.MinK, o.Sketch.MaxK = c.MinK, c.MaxK
+	o.Sketch.Seed = o.Seed
+	return o
+}
+
+// Validate reports the first out-of-range option, naming it as the command-line flag does.
+func (o Options) Validate() error {
+	o = o.withDefaults()
+	if _, err := ParseScale(string(o.Scale)); err != nil {
+		return err
+	}
+	switch {
+	case o.Workers < 1:
+		return fmt.Errorf("workers must be at least 1, got %d", o.Workers)
+	case o.BatchRows < 1:
+		return fmt.Errorf("batch rows must be positive, got %d", o.BatchRows)
+	case o.ProbeRows < 1:
+		return fmt.Errorf("probe rows must be positive, got %d", o.ProbeRows)
+	case o.ProbeUnits < 1:
+		return fmt.Errorf("probe units must be positive, got %d", o.ProbeUnits)
+	}
+	if err := o.Criteria.Validate(); err != nil {
+		return err
+	}
+	cfg := o.Sketch
+	cfg.Columns = []string{"x"}
+	return cfg.Validate()
+}

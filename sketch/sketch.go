@@ -1,0 +1,398 @@
+package sketch
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"slices"
+)
+
+// Defaults for [Config]; the benchmark report under bench/ records what each size costs and buys.
+const (
+	DefaultCoresetSize   = 8192
+	DefaultSampleSize    = 4096
+	DefaultMiniBatchSize = 1024
+	DefaultMiniBatchRows = 1 << 18
+	DefaultMinK          = 1
+	DefaultMaxK          = 20
+	// unknownRowsRate is the Bernoulli rate of the mini-batch feed when the row count is not known in
+	// advance (Arrow IPC streams).
+	unknownRowsRate = 1.0 / 16
+)
+
+// Config sets what a [Sketch] keeps. The zero value of a field means its default.
+type Config struct {
+	Columns       []string // feature names, in row order; their count is the row width
+	MinK, MaxK    int      // mini-batch k-means is kept for every k in MinK..MaxK
+	CoresetSize   int      // rows in the coreset (m)
+	SampleSize    int      // rows in the uniform sample
+	MiniBatchSize int      // rows per mini-batch step
+	MiniBatchRows int64    // rows fed to mini-batch k-means (and the covariance) over the whole input
+	ExpectedRows  int64    // rows in the whole input, when known; sets the feed's sampling rate
+	Seed          uint64
+}
+
+// withDefaults returns c with zero fields set to their defaults.
+func (c Config) withDefaults() Config {
+	if c.MinK == 0 {
+		c.MinK = DefaultMinK
+	}
+	if c.MaxK == 0 {
+		c.MaxK = DefaultMaxK
+	}
+	if c.CoresetSize == 0 {
+		c.CoresetSize = DefaultCoresetSize
+	}
+	if c.SampleSize == 0 {
+		c.SampleSize = DefaultSampleSize
+	}
+	if c.MiniBatchSize == 0 {
+		c.MiniBatchSize = DefaultMiniBatchSize
+	}
+	if c.MiniBatchRows == 0 {
+		c.MiniBatchRows = DefaultMiniBatchRows
+	}
+	return c
+}
+
+// Validate reports the first out-of-range field, naming it.
+func (c Config) Validate() error {
+	c = c.withDefaults()
+	switch {
+	case len(c.Columns) == 0:
+		return errors.New("sketch: no columns")
+	case c.MinK < 1:
+		return fmt.Errorf("sketch: min-k must be at least 1, got %d", c.MinK)
+	case c.MaxK < c.MinK:
+		return fmt.Errorf("sketch: max-k (%d) is less than min-k (%d)", c.MaxK, c.MinK)
+	case c.CoresetSize < 2*c.MaxK:
+		return fmt.Errorf("sketch: coreset size %d is too small for max-k %d (need at least %d)", c.CoresetSize, c.MaxK, 2*c.MaxK)
+	case c.SampleSize < 2:
+		return fmt.Errorf("sketch: sample size must be at least 2, got %d", c.SampleSize)
+	case c.MiniBatchSize < 1:
+		return fmt.Errorf("sketch: mini-batch size must be positive, got %d", c.MiniBatchSize)
+	case c.MiniBatchRows < 1:
+		return fmt.Errorf("sketch: mini-batch rows must be positive, got %d", c.MiniBatchRows)
+	case c.ExpectedRows < 0:
+		return fmt.Errorf("sketch: expected rows must not be negative, got %d", c.ExpectedRows)
+	}
+	return nil
+}
+
+// Probe is what a short look at the data, taken before the pass, fixes for the whole pass: the centre
+// and scale that define the space in which rows are weighted for the coreset and clustered by
+// mini-batch k-means, the mean squared norm of scaled probe rows, and the mini-batch starting centres.
+type Probe struct {
+	Center, Scale []float64         // raw units; Scale entries must be > 0
+	MeanSq        float64           // mean ‖(x−Center)/Scale‖² over the probe rows
+	Init          map[int][]float64 // k → k×d starting centres in the scaled space
+	Rows          int64             // rows the probe read
+}
+
+// Meta records where a sketch's rows came from. It travels with the sketch through [Sketch.Merge]
+// and its file format.
+type Meta struct {
+	Sources     []string // data files (or sketch files) summarised, in order
+	SkippedRows int64    // rows skipped for a null or NaN in a feature column
+	ProbeRows   int64    // rows read by the probes before the pass
+}
+
+// Sketch is the one-pass summary described in the package doc. It depends only on the seed, the
+// rows, and the unit numbers given to BeginUnit, except for the mini-batch centres, which also depend
+// on the order of units within the sketch.
+type Sketch struct {
+	cfg   Config
+	d     int
+	Meta  Meta
+	mom   Moments
+	cross Cross
+
+	probeCentre []float64
+	inv         []float64 // 1/Scale
+	inv2        []float64 // 1/Scale²
+	meanSq      float64
+
+	coreset *topK // priority sample: key w/u, payload w
+	sample  *topK // uniform: key −u
+
+	rate    float64
+	mb      []*miniBatch // active, probe space, index k−MinK
+	parts   [][]CentreSet
+	mbBuf   []float64
+	mbRows  int
+	labels  []int32
+	scratch []float64
+
+	rng  rand.PCG
+	skip int64 // rows to pass before the next one fed to mini-batch k-means
+}
+
+// New returns an empty sketch. It checks cfg and probe once; problems are errors naming the field.
+func New(cfg Config, probe Probe) (*Sketch, error) {
+	if err := cfg.Validate(); err != nil {
+		return nil, err
+	}
+	cfg = cfg.withDefaults()
+	cfg.Columns = slices.Clone(cfg.Columns)
+	d := len(cfg.Columns)
+	if len(probe.Center) != d || len(probe.Scale) != d {
+		return nil, fmt.Errorf("sketch: probe has %d centre and %d scale values for %d columns", len(probe.Center), len(probe.Scale), d)
+	}
+	s := &Sketch{cfg: cfg, d: d, mom: newMoments(probe.Center), cross: newCross(probe.Center),
+		probeCentre: slices.Clone(probe.Center), inv: make([]float64, d), inv2: make([]float64, d),
+		meanSq:  probe.MeanSq,
+		coreset: newTopK(cfg.CoresetSize+1, d), sample: newTopK(cfg.SampleSize, d),
+		mbBuf: make([]float64, cfg.MiniBatchSize*d), labels: make([]int32, cfg.MiniBatchSize),
+		scratch: make([]float64, d), parts: make([][]CentreSet, cfg.MaxK-cfg.MinK+1)}
+	s.Meta.ProbeRows = probe.Rows
+	for j, sc := range probe.Scale {
+		if !(sc > 0) || math.IsInf(sc, 0) {
+			return nil, fmt.Errorf("sketch: probe scale of column %q is %v, want a positive finite number", cfg.Columns[j], sc)
+		}
+		s.inv[j] = 1 / sc
+		s.inv2[j] = 1 / (sc * sc)
+	}
+	if !(s.meanSq > 0) {
+		s.meanSq = float64(d)
+	}
+	s.rate = unknownRowsRate
+	if cfg.ExpectedRows > 0 {
+		s.rate = math.Min(1, float64(cfg.MiniBatchRows)/float64(cfg.ExpectedRows))
+	}
+	for k := cfg.MinK; k <= cfg.MaxK; k++ {
+		init, ok := probe.Init[k]
+		if !ok || len(init) != k*d {
+			return nil, fmt.Errorf("sketch: probe has no %d starting centres for k=%d", k, k)
+		}
+		s.mb = append(s.mb, &miniBatch{k: k, centres: slices.Clone(init), counts: make([]float64, k)})
+	}
+	s.BeginUnit(0)
+	return s, nil
+}
+
+// Dims reports the row width.
+func (s *Sketch) Dims() int { return s.d }
+
+// Columns returns the feature names.
+func (s *Sketch) Columns() []string { return slices.Clone(s.cfg.Columns) }
+
+// Config returns the configuration the sketch was made with, defaults filled in.
+func (s *Sketch) Config() Config { c := s.cfg; c.Columns = slices.Clone(c.Columns); return c }
+
+// Rows reports how many rows were added.
+func (s *Sketch) Rows() int64 { return s.mom.N }
+
+// Moments returns a copy of the exact column summaries.
+func (s *Sketch) Moments() Moments {
+	m := s.mom
+	m.Shift, m.S1, m.S2 = slices.Clone(m.Shift), slices.Clone(m.S1), slices.Clone(m.S2)
+	m.Min, m.Max = slices.Clone(m.Min), slices.Clone(m.Max)
+	return m
+}
+
+// Cross returns a copy of the sampled cross-product summary.
+func (s *Sketch) Cross() Cross {
+	c := s.cross
+	c.Shift, c.S1, c.C = slices.Clone(c.Shift), slices.Clone(c.S1), slices.Clone(c.C)
+	return c
+}
+
+// BeginUnit restarts the random keys for the rows of unit u (a row group, a record batch): the keys of
+// a unit's rows depend only on the seed, u and the row's position in the unit.
+func (s *Sketch) BeginUnit(u int) {
+	s.rng.Seed(s.cfg.Seed^0x6b67617567652d73, uint64(u)*0x9e3779b97f4a7c15+1)
+	s.skip = s.nextSkip()
+}
+
+// uniform returns a draw from (0, 1].
+func (s *Sketch) uniform() float64 {
+	return (float64(s.rng.Uint64()>>11) + 1) * (1.0 / (1 << 53))
+}
+
+// nextSkip draws the number of rows to pass before the next row fed to mini-batch k-means
+// (geometric with the feed's rate), so the feed costs one draw per fed row rather than per row.
+func (s *Sketch) nextSkip() int64 {
+	if s.rate >= 1 {
+		return 0
+	}
+	g := math.Floor(math.Log(s.uniform()) / math.Log1p(-s.rate))
+	if g > 1<<62 {
+		return 1 << 62
+	}
+	return int64(g)
+}
+
+// Add adds the rows of batch (row-major, raw units, len a multiple of Dims) and does not modify it.
+// It does not allocate.
+func (s *Sketch) Add(batch []float64) {
+	d := s.d
+	if len(batch)%d != 0 {
+		panic(fmt.Sprintf("sketch: batch of %d values is not a whole number of %d-column rows", len(batch), d))
+	}
+	shift, inv2 := s.mom.Shift, s.inv2
+	s1, s2, lo, hi := s.mom.S1[:d], s.mom.S2[:d], s.mom.Min[:d], s.mom.Max[:d]
+	n := len(batch) / d
+	for i := range n {
+		x := batch[i*d : i*d+d]
+		var norm2 float64
+		for j, v := range x {
+			dx := v - shift[j]
+			s1[j] += dx
+			sq := dx * dx
+			s2[j] += sq
+			norm2 += sq * inv2[j]
+			if v < lo[j] {
+				lo[j] = v
+			}
+			if v > hi[j] {
+				hi[j] = v
+			}
+		}
+		// Uniform sample: keep the smallest keys u, i.e. the largest −u.
+		if u := s.uniform(); !s.sample.full() || -u > s.sample.min() {
+			s.sample.offer(-u, x, 1)
+		}
+		// Coreset: priority w/u with w = c + ‖z‖².
+		w := s.meanSq + norm2
+		if p := w / s.uniform(); !s.coreset.full() || p > s.coreset.min() {
+			s.coreset.offer(p, x, w)
+		}
+		if s.skip > 0 {
+			s.skip--
+			continue
+		}
+		s.feed(x)
+		s.skip = s.nextSkip()
+	}
+	s.mom.N += int64(n)
+}
+
+// feed passes one row to the covariance estimate and the mini-batch buffer.
+func (s *Sketch) feed(x []float64) {
+	d := s.d
+	dx := s.scratch
+	z := s.mbBuf[s.mbRows*d : (s.mbRows+1)*d]
+	for j, v := range x {
+		dx[j] = v - s.mom.Shift[j]
+		z[j] = (v - s.probeCentre[j]) * s.inv[j]
+	}
+	s.cross.add(dx)
+	s.mbRows++
+	if s.mbRows == s.cfg.MiniBatchSize {
+		s.flush()
+	}
+}
+
+// flush runs a mini-batch step on the buffered rows.
+func (s *Sketch) flush() {
+	if s.mbRows == 0 {
+		return
+	}
+	batch := s.mbBuf[:s.mbRows*s.d]
+	for _, m := range s.mb {
+		m.update(batch, s.d, s.labels)
+	}
+	s.mbRows = 0
+}
+
+// settle folds the active mini-batch state into parts, in raw units, so that the sketch holds only
+// order-free, mergeable data.
+func (s *Sketch) settle() {
+	s.flush()
+	for i, m := range s.mb {
+		var total float64
+		for _, c := range m.counts {
+			total += c
+		}
+		if total == 0 {
+			continue
+		}
+		raw := make([]float64, len(m.centres))
+		for c := range m.k {
+			for j := range s.d {
+				raw[c*s.d+j] = m.centres[c*s.d+j]/s.inv[j] + s.probeCentre[j]
+			}
+		}
+		s.parts[i] = append(s.parts[i], CentreSet{K: m.k, Centres: raw, Counts: slices.Clone(m.counts)})
+	}
+	s.mb = nil
+}
+
+// Merge adds o's summary into s; o is settled (its mini-batch state frozen) and should not be added to
+// afterwards. The columns must match. The sizes of s are kept.
+func (s *Sketch) Merge(o *Sketch) error {
+	if !slices.Equal(s.cfg.Columns, o.cfg.Columns) {
+		return fmt.Errorf("sketch: cannot merge sketches of different columns (%q vs %q)", s.cfg.Columns, o.cfg.Columns)
+	}
+	s.flush()
+	o.settle()
+	s.mom.merge(&o.mom)
+	s.cross.merge(&o.cross)
+	s.coreset.merge(o.coreset)
+	s.sample.merge(o.sample)
+	for i := range s.parts {
+		k := s.cfg.MinK + i
+		if j := k - o.cfg.MinK; j >= 0 && j < len(o.parts) {
+			s.parts[i] = append(s.parts[i], o.parts[j]...)
+		}
+	}
+	s.Meta.Sources = append(s.Meta.Sources, o.Meta.Sources...)
+	s.Meta.SkippedRows += o.Meta.SkippedRows
+	s.Meta.ProbeRows += o.Meta.ProbeRows
+	return nil
+}
+
+// Coreset returns the weighted coreset in raw units: x row-major and one weight per row. The weights
+// are max(1, τ/w) of priority sampling and sum to an unbiased estimate of Rows(). When no more than
+// CoresetSize rows were added, every row is in it with weight 1.
+func (s *Sketch) Coreset() (x, weights []float64) {
+	var tau float64
+	full := s.coreset.full()
+	if full {
+		tau = s.coreset.min()
+	}
+	skipLast := full
+	i := 0
+	s.coreset.each(func(key float64, row []float64, w float64) {
+		i++
+		if skipLast && i == s.coreset.len() {
+			return // the (m+1)-th row only sets τ
+		}
+		x = append(x, row...)
+		weights = append(weights, math.Max(1, tau/w))
+	})
+	return x, weights
+}
+
+// Sample returns the uniform sample in raw units, row-major, in a fixed order.
+func (s *Sketch) Sample() []float64 {
+	var x []float64
+	s.sample.each(func(_ float64, row []float64, _ float64) { x = append(x, row...) })
+	return x
+}
+
+// CentreSets returns the mini-batch k-means results for k in raw units, one per merged part. It
+// settles the sketch.
+func (s *Sketch) CentreSets(k int) []CentreSet {
+	s.settle()
+	i := k - s.cfg.MinK
+	if i < 0 || i >= len(s.parts) {
+		return nil
+	}
+	return s.parts[i]
+}
+
+// SizeBytes estimates the memory held by the sketch's summaries.
+func (s *Sketch) SizeBytes() int64 {
+	n := int64(len(s.coreset.pts)+len(s.sample.pts)+len(s.mbBuf)+len(s.cross.C)) * 8
+	for _, ps := range s.parts {
+		for _, p := range ps {
+			n += int64(len(p.Centres)+len(p.Counts)) * 8
+		}
+	}
+	for _, m := range s.mb {
+		n += int64(len(m.centres)+len(m.counts)) * 8
+	}
+	return n
+}

@@ -1,0 +1,263 @@
+package stream
+
+import (
+	"errors"
+	"fmt"
+	"os"
+
+	"github.com/apache/arrow/go/v17/arrow"
+	"github.com/apache/arrow/go/v17/arrow/array"
+	"github.com/apache/arrow/go/v17/arrow/ipc"
+)
+
+// arrowColumn is the reading plan for one selected Arrow column.
+type arrowColumn struct {
+	name  string
+	id    arrow.Type
+	scale int32 // decimals
+}
+
+func (d *Dataset) openArrow(i int, fh *os.File, f Format) ([]colInfo, error) {
+	path := d.Files[i].Path
+	var schema *arrow.Schema
+	if f == ArrowFile {
+		fr, err := ipc.NewFileReader(fh)
+		if err != nil {
+			return nil, newError(path, "", err)
+		}
+		schema = fr.Schema()
+		d.files[i].batches = fr.NumRecords()
+		fr.Close()
+	} else {
+		rd, err := ipc.NewReader(fh)
+		if err != nil {
+			return nil, newError(path, "", err)
+		}
+		schema = rd.Schema()
+		rd.Release()
+	}
+	cols := make([]colInfo, 0, schema.NumFields())
+	for _, fd := range schema.Fields() {
+		cols = append(cols, classifyArrow(fd))
+	}
+	return cols, nil
+}
+
+// classifyArrow decides whether an Arrow field is numeric.
+func classifyArrow(fd arrow.Field) colInfo {
+	ci := colInfo{name: fd.Name, typ: fd.Type.String(), ar: arrowColumn{name: fd.Name, id: fd.Type.ID()}}
+	switch t := fd.Type.(type) {
+	case *arrow.Decimal128Type:
+		ci.ar.scale = t.Scale
+		return ci
+	case *arrow.Decimal256Type:
+		ci.ar.scale = t.Scale
+		return ci
+	}
+	switch fd.Type.ID() {
+	case arrow.INT8, arrow.INT16, arrow.INT32, arrow.INT64,
+		arrow.UINT8, arrow.UINT16, arrow.UINT32, arrow.UINT64,
+		arrow.FLOAT16, arrow.FLOAT32, arrow.FLOAT64:
+	case arrow.DATE32, arrow.DATE64, arrow.TIMESTAMP, arrow.TIME32, arrow.TIME64,
+		arrow.DURATION, arrow.INTERVAL_MONTHS, arrow.INTERVAL_DAY_TIME, arrow.INTERVAL_MONTH_DAY_NANO:
+		ci.reason = "temporal"
+	case arrow.LIST, arrow.LARGE_LIST, arrow.FIXED_SIZE_LIST, arrow.LIST_VIEW, arrow.LARGE_LIST_VIEW,
+		arrow.STRUCT, arrow.MAP, arrow.SPARSE_UNION, arrow.DENSE_UNION, arrow.RUN_END_ENCODED:
+		ci.reason, ci.nonRoot = "nested", true
+	case arrow.DICTIONARY:
+		ci.reason = "dictionary-encoded (not supported)"
+	case arrow.NULL:
+		ci.reason = "always null"
+	case arrow.EXTENSION:
+		ci.reason = "extension type (not supported)"
+	default:
+		ci.reason = "not numeric"
+	}
+	return ci
+}
+
+// arrowSource reads one Arrow IPC-file record batch or a whole IPC stream.
+type arrowSource struct {
+	cols    []arrowColumn
+	field   []int // field index of each selected column in the unit's schema
+	scratch [][]float64
+
+	rec  arrow.Record // current record (owned when from a file)
+	pos  int          // next row of rec
+	rd   *ipc.Reader  // stream reader, nil for a file unit
+	done bool
+}
+
+// resolve maps the selected columns to field indexes of schema and checks
+// their types did not change since Open.
+func (s *arrowSource) resolve(schema *arrow.Schema) error {
+	s.field = make([]int, len(s.cols))
+	s.scratch = make([][]float64, len(s.cols))
+	for c, col := range s.cols {
+		idx := schema.FieldIndices(col.name)
+		if len(idx) == 0 {
+			return &colError{col: c, row: -1, err: ErrMissingColumn}
+		}
+		if got := schema.Field(idx[0]).Type.ID(); got != col.id {
+			return &colError{col: c, row: -1, err: fmt.Errorf("type changed since Open: %s", schema.Field(idx[0]).Type)}
+		}
+		s.field[c] = idx[0]
+	}
+	return nil
+}
+
+func (d *Dataset) openArrowFileUnit(of *openFile, u Unit, fh *os.File) (*arrowSource, error) {
+	fr, err := ipc.NewFileReader(fh)
+	if err != nil {
+		return nil, err
+	}
+	defer fr.Close()
+	if u.Index < 0 || u.Index >= fr.NumRecords() {
+		return nil, fmt.Errorf("no record batch %d", u.Index)
+	}
+	s := &arrowSource{cols: of.arCols}
+	if err := s.resolve(fr.Schema()); err != nil {
+		return nil, s.named(err)
+	}
+	rec, err := fr.RecordAt(u.Index)
+	if err != nil {
+		return nil, err
+	}
+	s.rec = rec
+	return s, nil
+}
+
+func (d *Dataset) openArrowStreamUnit(of *openFile, fh *os.File) (*arrowSource, error) {
+	rd, err := ipc.NewReader(fh)
+	if err != nil {
+		return nil, err
+	}
+	s := &arrowSource{cols: of.arCols, rd: rd}
+	if err := s.resolve(rd.Schema()); err != nil {
+		rd.Release()
+		return nil, s.named(err)
+	}
+	return s, nil
+}
+
+// named turns a colError from resolve into a *ReadError with the column name
+// (the caller fills in the file).
+func (s *arrowSource) named(err error) error {
+	var ce *colError
+	if errors.As(err, &ce) {
+		return &ReadError{Unit: -1, Row: -1, Column: s.cols[ce.col].name, Err: ce.err}
+	}
+	return err
+}
+
+func (s *arrowSource) column(c int) string { return s.cols[c].name }
+
+// advance makes s.rec a record with rows left, or sets done.
+func (s *arrowSource) advance() error {
+	for !s.done && (s.rec == nil || s.pos >= int(s.rec.NumRows())) {
+		if s.rd == nil {
+			if s.rec != nil {
+				s.rec.Release()
+				s.rec = nil
+			}
+			s.done = true
+			break
+		}
+		s.rec = nil // owned by the reader, released by Next
+		if !s.rd.Next() {
+			s.done = true
+			return s.rd.Err()
+		}
+		s.rec, s.pos = s.rd.Record(), 0
+	}
+	return nil
+}
+
+func (s *arrowSource) fill(dst []float64, bad []uint8, rows int) (int, error) {
+	if err := s.advance(); err != nil {
+		return 0, err
+	}
+	if s.done {
+		return 0, nil
+	}
+	m := min(rows, int(s.rec.NumRows())-s.pos)
+	d := len(s.cols)
+	for c := range s.cols {
+		arr := s.rec.Column(s.field[c])
+		if inf := s.put(c, arr, dst, c, d, s.pos, m, bad[:m]); inf >= 0 {
+			return 0, &colError{col: c, row: int64(inf), err: ErrInfinite}
+		}
+	}
+	s.pos += m
+	return m, nil
+}
+
+// put copies rows [p, p+m) of arr to dst[o], dst[o+d], ...
+func (s *arrowSource) put(c int, arr arrow.Array, dst []float64, o, d, p, m int, bad []uint8) int {
+	switch a := arr.(type) {
+	case *array.Float64:
+		return putArrow(dst, o, d, a.Float64Values()[p:p+m], arr, p, bad)
+	case *array.Float32:
+		return putArrow(dst, o, d, a.Float32Values()[p:p+m], arr, p, bad)
+	case *array.Int64:
+		return putArrow(dst, o, d, a.Int64Values()[p:p+m], arr, p, bad)
+	case *array.Int32:
+		return putArrow(dst, o, d, a.Int32Values()[p:p+m], arr, p, bad)
+	case *array.Int16:
+		return putArrow(dst, o, d, a.Int16Values()[p:p+m], arr, p, bad)
+	case *array.Int8:
+		return putArrow(dst, o, d, a.Int8Values()[p:p+m], arr, p, bad)
+	case *array.Uint64:
+		return putArrow(dst, o, d, a.Uint64Values()[p:p+m], arr, p, bad)
+	case *array.Uint32:
+		return putArrow(dst, o, d, a.Uint32Values()[p:p+m], arr, p, bad)
+	case *array.Uint16:
+		return putArrow(dst, o, d, a.Uint16Values()[p:p+m], arr, p, bad)
+	case *array.Uint8:
+		return putArrow(dst, o, d, a.Uint8Values()[p:p+m], arr, p, bad)
+	case *array.Float16:
+		buf := s.scratch[c][:0]
+		for _, v := range a.Values()[p : p+m] {
+			buf = append(buf, float64(v.Float32()))
+		}
+		s.scratch[c] = buf
+		return putArrow(dst, o, d, buf, arr, p, bad)
+	case *array.Decimal128:
+		buf, scale := s.scratch[c][:0], s.cols[c].scale
+		for _, v := range a.Values()[p : p+m] {
+			buf = append(buf, v.ToFloat64(scale))
+		}
+		s.scratch[c] = buf
+		return putArrow(dst, o, d, buf, arr, p, bad)
+	case *array.Decimal256:
+		buf, scale := s.scratch[c][:0], s.cols[c].scale
+		for _, v := range a.Values()[p : p+m] {
+			buf = append(buf, v.ToFloat64(scale))
+		}
+		s.scratch[c] = buf
+		return putArrow(dst, o, d, buf, arr, p, bad)
+	}
+	panic(fmt.Sprintf("unexpected Arrow array %T", arr))
+}
+
+// putArrow copies src, the rows [p, p+len(src)) of arr, honouring the
+// validity bitmap.
+func putArrow[T number](dst []float64, o, d int, src []T, arr arrow.Array, p int, bad []uint8) int {
+	if arr.NullN() == 0 {
+		return putDense(dst, o, d, src, bad)
+	}
+	return putMasked(dst, o, d, src, arr.NullBitmapBytes(), arr.Data().Offset()+p, bad)
+}
+
+func (s *arrowSource) close() error {
+	if s.rd != nil {
+		s.rd.Release()
+		s.rd = nil
+		s.rec = nil
+	}
+	if s.rec != nil {
+		s.rec.Release()
+		s.rec = nil
+	}
+	return nil
+}

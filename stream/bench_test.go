@@ -1,0 +1,142 @@
+package stream_test
+
+import (
+	"io"
+	"math/rand/v2"
+	"os"
+	"path/filepath"
+	"testing"
+
+	"github.com/parquet-go/parquet-go"
+
+	"github.com/kgauge/kgauge/stream"
+)
+
+// benchRows x 16 required float64, uncompressed, parquet-go writer defaults
+// otherwise (PLAIN, data page v2).
+const benchRows = 1 << 20
+
+type benchRow struct {
+	C0, C1, C2, C3, C4, C5, C6, C7, C8, C9, C10, C11, C12, C13, C14, C15 float64
+}
+
+func writeBenchFile(b *testing.B) string {
+	b.Helper()
+	p := filepath.Join(b.TempDir(), "bench.parquet")
+	fh, err := os.Create(p)
+	if err != nil {
+		b.Fatal(err)
+	}
+	defer fh.Close()
+	w := parquet.NewGenericWriter[benchRow](fh, parquet.MaxRowsPerRowGroup(128<<10))
+	r := rand.New(rand.NewPCG(1, 2))
+	rows := make([]benchRow, 8192)
+	for done := 0; done < benchRows; done += len(rows) {
+		for i := range rows {
+			rows[i] = benchRow{r.Float64(), r.Float64(), r.Float64(), r.Float64(), r.Float64(), r.Float64(), r.Float64(), r.Float64(),
+				r.Float64(), r.Float64(), r.Float64(), r.Float64(), r.Float64(), r.Float64(), r.Float64(), r.Float64()}
+		}
+		if _, err := w.Write(rows); err != nil {
+			b.Fatal(err)
+		}
+	}
+	if err := w.Close(); err != nil {
+		b.Fatal(err)
+	}
+	return p
+}
+
+// BenchmarkParquetScan reads every row through Dataset/UnitReader with a
+// 4096-row buffer.
+func BenchmarkParquetScan(b *testing.B) {
+	p := writeBenchFile(b)
+	files, err := stream.Discover([]string{p})
+	if err != nil {
+		b.Fatal(err)
+	}
+	ds, err := stream.Open(files, stream.Options{})
+	if err != nil {
+		b.Fatal(err)
+	}
+	buf := make([]float64, 4096*ds.Dims())
+	b.SetBytes(benchRows * 16 * 8)
+	b.ResetTimer()
+	var sum float64
+	for i := 0; i < b.N; i++ {
+		rows := 0
+		for _, u := range ds.Units {
+			r, err := ds.OpenUnit(u)
+			if err != nil {
+				b.Fatal(err)
+			}
+			for {
+				n, err := r.Read(buf)
+				rows += n
+				for _, v := range buf[:n*16] {
+					sum += v
+				}
+				if err == io.EOF {
+					break
+				}
+				if err != nil {
+					b.Fatal(err)
+				}
+			}
+			r.Close()
+		}
+		if rows != benchRows {
+			b.Fatalf("read %d rows, want %d", rows, benchRows)
+		}
+	}
+	b.ReportMetric(float64(benchRows)*float64(b.N)/b.Elapsed().Seconds(), "rows/s")
+	_ = sum
+}
+
+// BenchmarkParquetScanBare is the baseline: the same pages through
+// parquet-go's page API, summing Page.Data().Double() directly.
+func BenchmarkParquetScanBare(b *testing.B) {
+	p := writeBenchFile(b)
+	fh, err := os.Open(p)
+	if err != nil {
+		b.Fatal(err)
+	}
+	defer fh.Close()
+	fi, _ := fh.Stat()
+	pf, err := parquet.OpenFile(fh, fi.Size())
+	if err != nil {
+		b.Fatal(err)
+	}
+	b.SetBytes(benchRows * 16 * 8)
+	b.ResetTimer()
+	var sum float64
+	for i := 0; i < b.N; i++ {
+		values := 0
+		for _, rg := range pf.RowGroups() {
+			for _, cc := range rg.ColumnChunks() {
+				pages := cc.Pages()
+				for {
+					pg, err := pages.ReadPage()
+					if err == io.EOF {
+						break
+					}
+					if err != nil {
+						b.Fatal(err)
+					}
+					data := pg.Data()
+					vals := data.Double()
+					values += len(vals)
+					for _, v := range vals {
+						sum += v
+					}
+					parquet.Release(pg)
+				}
+				pages.Close()
+			}
+		}
+		if values != benchRows*16 {
+			b.Fatalf("read %d values", values)
+		}
+	}
+	b.ReportMetric(float64(benchRows)*float64(b.N)/b.Elapsed().Seconds(), "rows/s")
+	_ = sum
+}

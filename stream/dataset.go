@@ -1,0 +1,282 @@
+package stream
+
+import (
+	"errors"
+	"fmt"
+	"math/rand/v2"
+	"os"
+	"strings"
+
+	"github.com/parquet-go/parquet-go"
+)
+
+// Options says which columns to read. The zero value selects every numeric
+// column.
+type Options struct {
+	// Columns lists the feature columns in output order. Nil or empty selects
+	// every numeric column (ints, uints, floats, decimals as float) of the
+	// first file, in schema order.
+	Columns []string
+}
+
+// IgnoredColumn is a column that is not a feature, with the reason, such as
+// {"meter_id", "string", "not numeric"}.
+type IgnoredColumn struct{ Name, Type, Reason string }
+
+// Unit is one independently readable piece of a dataset: a Parquet row group,
+// an Arrow IPC-file record batch, or a whole Arrow IPC stream (streams cannot
+// seek).
+type Unit struct {
+	File  int   // index into Dataset.Files
+	Index int   // row group or record batch index within the file (0 for a stream)
+	Rows  int64 // rows from metadata, or -1 when unknown (Arrow IPC files and streams)
+	// Bytes is the size of the selected columns in this unit: the compressed
+	// column chunk sizes for Parquet, an even share of the file size for an
+	// Arrow IPC-file batch, the file size for an Arrow IPC stream.
+	Bytes int64
+}
+
+// Dataset is a set of files with a resolved column selection, ready to be read
+// unit by unit. It keeps the Parquet footers and Arrow schemas in memory but
+// no open files.
+type Dataset struct {
+	Files   []File
+	Columns []string        // the selected feature columns, in output order
+	Types   []string        // their type names (as in the first file), parallel to Columns
+	Ignored []IgnoredColumn // every column not used, with why
+	Units   []Unit          // in file order
+	Rows    int64           // total rows from metadata over units with known Rows
+	Bytes   int64           // total of Units[i].Bytes
+
+	files []openFile
+}
+
+// openFile is what a Dataset keeps about one file.
+type openFile struct {
+	pq      *parquet.File // Parquet footer; its reader is closed, pages are read with PagesFrom
+	rowBase []int64       // Parquet: first row of each row group within the file
+	pqCols  []pqColumn    // Parquet: plan for each selected column
+	arCols  []arrowColumn // Arrow: plan for each selected column
+	batches int           // Arrow IPC file: number of record batches
+}
+
+// colInfo describes one top-level column of one file.
+type colInfo struct {
+	name    string
+	typ     string
+	reason  string // why it cannot be a feature; "" when numeric
+	nonRoot bool   // nested: an error when named, whatever the type
+	pq      pqColumn
+	ar      arrowColumn
+}
+
+// Open reads every file's footer or schema once, resolves the column selection
+// and lists the units.
+//
+// Timestamp, date, time, interval, duration, boolean, string and binary
+// columns are never features; naming one in Options.Columns is an error
+// wrapping ErrNotNumeric. Nested list, map and struct columns are ignored with
+// a reason, or an error when named. A selected column missing from one file
+// is an error naming the file and the column (ErrMissingColumn); a named
+// column found in no file wraps ErrUnknownColumn. Files with zero rows are
+// fine: they contribute no units or units with Rows == 0.
+func Open(files []File, opt Options) (ds *Dataset, err error) {
+	if len(files) == 0 {
+		return nil, newError("", "", ErrNoDataFiles)
+	}
+	infos := make([][]colInfo, len(files))
+	d := &Dataset{Files: append([]File(nil), files...), files: make([]openFile, len(files))}
+	for i, f := range files {
+		infos[i], err = d.openFile(i, f)
+		if err != nil {
+			return nil, err
+		}
+	}
+
+	// Resolve the selection against the first file, then check every file.
+	first := infos[0]
+	var sel []string
+	if len(opt.Columns) == 0 {
+		for _, c := range first {
+			if c.reason == "" {
+				sel = append(sel, c.name)
+			}
+		}
+		if len(sel) == 0 {
+			return nil, newError(files[0].Path, "", fmt.Errorf("%w (columns: %s)", ErrNoNumericColumns, describe(first)))
+		}
+	} else {
+		seen := make(map[string]bool)
+		for _, name := range opt.Columns {
+			if seen[name] {
+				return nil, newError("", name, errors.New("column named twice"))
+			}
+			seen[name] = true
+			if !anyHas(infos, name) {
+				file := ""
+				if len(files) == 1 {
+					file = files[0].Path
+				}
+				return nil, newError(file, name, fmt.Errorf("%w (columns: %s)", ErrUnknownColumn, describe(first)))
+			}
+		}
+		sel = opt.Columns
+	}
+	selected := make(map[string]bool, len(sel))
+	for _, name := range sel {
+		selected[name] = true
+	}
+	for i, f := range files {
+		of := &d.files[i]
+		for _, name := range sel {
+			c, ok := find(infos[i], name)
+			if !ok {
+				return nil, newError(f.Path, name, ErrMissingColumn)
+			}
+			if c.reason != "" {
+				return nil, newError(f.Path, name, fmt.Errorf("%w: %s (%s)", ErrNotNumeric, c.typ, c.reason))
+			}
+			if f.Format == Parquet {
+				of.pqCols = append(of.pqCols, c.pq)
+			} else {
+				of.arCols = append(of.arCols, c.ar)
+			}
+			if i == 0 {
+				d.Columns = append(d.Columns, name)
+				d.Types = append(d.Types, c.typ)
+			}
+		}
+	}
+	ignored := make(map[string]bool)
+	for i := range files {
+		for _, c := range infos[i] {
+			if selected[c.name] || ignored[c.name] {
+				continue
+			}
+			ignored[c.name] = true
+			reason := c.reason
+			switch {
+			case reason != "":
+			case i > 0:
+				reason = "not in the first file"
+			default:
+				reason = "not selected"
+			}
+			d.Ignored = append(d.Ignored, IgnoredColumn{Name: c.name, Type: c.typ, Reason: reason})
+		}
+	}
+	d.listUnits()
+	return d, nil
+}
+
+// openFile reads the footer or schema of file i and returns its columns.
+func (d *Dataset) openFile(i int, f File) (cols []colInfo, err error) {
+	defer func() {
+		if p := recover(); p != nil {
+			cols, err = nil, newError(f.Path, "", fmt.Errorf("panic while reading the schema: %v", p))
+		}
+	}()
+	fh, err := os.Open(f.Path)
+	if err != nil {
+		return nil, newError(f.Path, "", pathCause(err))
+	}
+	defer fh.Close()
+	fi, err := fh.Stat()
+	if err != nil {
+		return nil, newError(f.Path, "", pathCause(err))
+	}
+	size := fi.Size()
+	d.Files[i].Size = size
+	switch f.Format {
+	case Parquet:
+		return d.openParquet(i, fh, size)
+	case ArrowFile, ArrowStream:
+		return d.openArrow(i, fh, f.Format)
+	}
+	return nil, newError(f.Path, "", fmt.Errorf("unknown format %d", f.Format))
+}
+
+func (d *Dataset) listUnits() {
+	for i, f := range d.Files {
+		of := &d.files[i]
+		switch f.Format {
+		case Parquet:
+			for g, rg := range of.pq.RowGroups() {
+				u := Unit{File: i, Index: g, Rows: rg.NumRows()}
+				for _, c := range of.pqCols {
+					u.Bytes += columnChunkBytes(of.pq, g, c.leaf)
+				}
+				d.Units = append(d.Units, u)
+			}
+		case ArrowFile:
+			for b := 0; b < of.batches; b++ {
+				d.Units = append(d.Units, Unit{File: i, Index: b, Rows: -1, Bytes: f.Size / int64(of.batches)})
+			}
+		case ArrowStream:
+			d.Units = append(d.Units, Unit{File: i, Rows: -1, Bytes: f.Size})
+		}
+	}
+	for _, u := range d.Units {
+		if u.Rows > 0 {
+			d.Rows += u.Rows
+		}
+		d.Bytes += u.Bytes
+	}
+}
+
+// Dims returns the number of selected columns, the width of a row.
+func (d *Dataset) Dims() int { return len(d.Columns) }
+
+// Close releases the footers. UnitReaders opened earlier must be closed by
+// their owners; the Dataset holds no open files.
+func (d *Dataset) Close() error {
+	for i := range d.files {
+		d.files[i] = openFile{}
+	}
+	return nil
+}
+
+// Shuffle returns a copy of units in a random order drawn from seed (lake
+// files are often sorted, so early units must not all be one region of the
+// data). The order depends only on seed and the input order.
+func Shuffle(units []Unit, seed uint64) []Unit {
+	out := append([]Unit(nil), units...)
+	r := rand.New(rand.NewPCG(seed, 0x6b67617567652d73)) // second word: "kgauge-s"
+	r.Shuffle(len(out), func(i, j int) { out[i], out[j] = out[j], out[i] })
+	return out
+}
+
+func find(cols []colInfo, name string) (colInfo, bool) {
+	for _, c := range cols {
+		if c.name == name {
+			return c, true
+		}
+	}
+	return colInfo{}, false
+}
+
+func anyHas(infos [][]colInfo, name string) bool {
+	for _, cols := range infos {
+		if _, ok := find(cols, name); ok {
+			return true
+		}
+	}
+	return false
+}
+
+// describe lists columns as "a float64, b string, ..." for error messages,
+// at most 20 of them.
+func describe(cols []colInfo) string {
+	var parts []string
+	for i, c := range cols {
+		if i == 20 {
+			parts = append(parts, fmt.Sprintf("... %d more", len(cols)-20))
+			break
+		}
+		parts = append(parts, c.name+" "+c.typ)
+	}
+	if len(parts) == 0 {
+		return "none"
+	}
+	return strings.Join(parts, ", ")
+}

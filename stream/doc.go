@@ -1,0 +1,40 @@
+// Package stream is the only part of kgauge that knows Parquet or Arrow IPC.
+// It finds lake files (Discover), reads their footers and schemas once and
+// resolves the feature columns (Open), and then streams float64 rows out of
+// independently readable units: a Parquet row group, an Arrow IPC-file record
+// batch, or a whole Arrow IPC stream (Dataset.OpenUnit, UnitReader.Read).
+//
+// Downstream code sees only row-major float64 rows:
+//
+//	files, err := stream.Discover([]string{"lake/**/*.parquet"})
+//	ds, err := stream.Open(files, stream.Options{})
+//	defer ds.Close()
+//	buf := make([]float64, 4096*ds.Dims())
+//	for _, u := range stream.Shuffle(ds.Units, seed) {
+//		r, err := ds.OpenUnit(u)
+//		for {
+//			n, err := r.Read(buf)
+//			use(buf[:n*ds.Dims()])
+//			if err == io.EOF { break }
+//		}
+//		r.Close()
+//	}
+//
+// Parquet is decoded at the page level with github.com/parquet-go/parquet-go:
+// each selected column chunk of a row group is walked page by page, and the
+// typed, already decoded page buffers (Page.Data().Double() and friends, plus
+// the definition levels of optional columns) are copied into the row-major
+// output through per-column cursors, because pages of different columns end
+// at different rows. Dictionary pages are gathered through their dictionary,
+// which is converted to float64 once per column chunk. Arrow IPC files and
+// streams are read with github.com/apache/arrow/go/v17/arrow/ipc.
+//
+// Null policy: a row with a null or NaN in any selected column is skipped and
+// counted (UnitReader.Skipped). A +Inf or -Inf is an error naming the file,
+// the column and the row. Every error about a file or a column is, or wraps,
+// a *ReadError.
+//
+// The package starts no goroutines. A Dataset holds no open file descriptors
+// between calls: each UnitReader opens its own *os.File and closes it in
+// Close, so many units may be read in parallel from different goroutines.
+package stream

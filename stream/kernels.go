@@ -1,0 +1,141 @@
+package stream
+
+// The kernels below copy one column's values for k consecutive rows into the
+// row-major output: value i goes to dst[o+i*d]. They mark bad[i] = 1 for a
+// null or NaN and return the index of the first ±Inf, or -1. The test v-v != 0
+// is true exactly for NaN and ±Inf, so finite values cost one compare.
+
+// number is the set of Go types the decoders hand out as typed slices.
+type number interface {
+	~int8 | ~int16 | ~int32 | ~int64 | ~uint8 | ~uint16 | ~uint32 | ~uint64 | ~float32 | ~float64
+}
+
+// putDense copies float64(src[i]) for every i.
+func putDense[T number](dst []float64, o, d int, src []T, bad []uint8) int {
+	bad = bad[:len(src)]
+	for i, x := range src {
+		v := float64(x)
+		dst[o] = v
+		if v-v != 0 {
+			if v != v {
+				bad[i] = 1
+			} else {
+				return i
+			}
+		}
+		o += d
+	}
+	return -1
+}
+
+// putLevels copies the packed non-null values src for the rows whose
+// definition level is maxDef and marks the other rows bad. It returns the
+// number of values of src used and the index of the first ±Inf, or -1.
+func putLevels[T number](dst []float64, o, d int, defs []byte, maxDef byte, src []T, bad []uint8) (int, int) {
+	bad = bad[:len(defs)]
+	j := 0
+	for i, lv := range defs {
+		if lv != maxDef {
+			bad[i] = 1
+			o += d
+			continue
+		}
+		v := float64(src[j])
+		j++
+		dst[o] = v
+		if v-v != 0 {
+			if v != v {
+				bad[i] = 1
+			} else {
+				return j, i
+			}
+		}
+		o += d
+	}
+	return j, -1
+}
+
+// putDict copies dict[idx[i]] for every i.
+func putDict(dst []float64, o, d int, idx []int32, dict []float64, bad []uint8) int {
+	bad = bad[:len(idx)]
+	for i, x := range idx {
+		v := dict[x]
+		dst[o] = v
+		if v-v != 0 {
+			if v != v {
+				bad[i] = 1
+			} else {
+				return i
+			}
+		}
+		o += d
+	}
+	return -1
+}
+
+// putDictLevels is putDict for an optional column: idx holds the indexes of
+// the non-null rows only.
+func putDictLevels(dst []float64, o, d int, defs []byte, maxDef byte, idx []int32, dict []float64, bad []uint8) (int, int) {
+	bad = bad[:len(defs)]
+	j := 0
+	for i, lv := range defs {
+		if lv != maxDef {
+			bad[i] = 1
+			o += d
+			continue
+		}
+		v := dict[idx[j]]
+		j++
+		dst[o] = v
+		if v-v != 0 {
+			if v != v {
+				bad[i] = 1
+			} else {
+				return j, i
+			}
+		}
+		o += d
+	}
+	return j, -1
+}
+
+// putMasked copies src[i] for the rows whose bit off+i is set in the Arrow
+// validity bitmap and marks the other rows bad.
+func putMasked[T number](dst []float64, o, d int, src []T, bitmap []byte, off int, bad []uint8) int {
+	bad = bad[:len(src)]
+	for i, x := range src {
+		b := off + i
+		if bitmap[b>>3]&(1<<(b&7)) == 0 {
+			bad[i] = 1
+			o += d
+			continue
+		}
+		v := float64(x)
+		dst[o] = v
+		if v-v != 0 {
+			if v != v {
+				bad[i] = 1
+			} else {
+				return i
+			}
+		}
+		o += d
+	}
+	return -1
+}
+
+// compact moves the rows not marked in bad to the front of dst (row width d)
+// and returns how many there are.
+func compact(dst []float64, bad []uint8, d int) int {
+	w := 0
+	for r, b := range bad {
+		if b != 0 {
+			continue
+		}
+		if w != r {
+			copy(dst[w*d:(w+1)*d], dst[r*d:(r+1)*d])
+		}
+		w++
+	}
+	return w
+}

@@ -1,0 +1,180 @@
+package stream
+
+import (
+	"errors"
+	"fmt"
+	"io"
+	"os"
+)
+
+// source is one unit's decoder: Parquet row group or Arrow record batches.
+type source interface {
+	// fill writes up to rows whole rows into dst (row-major, row width Dims),
+	// sets bad[r] = 1 for rows with a null or NaN, and returns the number of
+	// rows written; 0 means the unit is exhausted.
+	fill(dst []float64, bad []uint8, rows int) (int, error)
+	column(c int) string
+	close() error
+}
+
+// colError is a source failure in column col at row row of the fill call (-1
+// when unknown).
+type colError struct {
+	col int
+	row int64
+	err error
+}
+
+func (e *colError) Error() string { return e.err.Error() }
+
+// UnitReader reads the rows of one Unit. It is used by one goroutine.
+type UnitReader struct {
+	path     string
+	unit     int
+	d        int
+	src      source
+	fh       *os.File
+	rowBase  int64 // first row of the unit in the file (Parquet), or 0
+	batchRow bool  // rows count from the start of the record batch
+	row      int64 // rows consumed so far, skipped ones included
+	skipped  int64
+	bad      []uint8
+	err      error // sticky: io.EOF or the first failure
+}
+
+// OpenUnit opens one unit for reading. It is safe to call from several
+// goroutines at once; each UnitReader opens its own file handle.
+func (d *Dataset) OpenUnit(u Unit) (r *UnitReader, err error) {
+	if u.File < 0 || u.File >= len(d.Files) || d.files[u.File].pq == nil && d.files[u.File].arCols == nil {
+		return nil, newError("", "", fmt.Errorf("no such unit (file %d, index %d) or dataset closed", u.File, u.Index))
+	}
+	f := d.Files[u.File]
+	of := &d.files[u.File]
+	defer func() {
+		if p := recover(); p != nil {
+			if r != nil && r.fh != nil {
+				r.fh.Close()
+			}
+			r, err = nil, &ReadError{File: f.Path, Unit: u.Index, Row: -1, Err: fmt.Errorf("panic while opening the unit: %v", p)}
+		}
+	}()
+	fh, err := os.Open(f.Path)
+	if err != nil {
+		return nil, &ReadError{File: f.Path, Unit: u.Index, Row: -1, Err: pathCause(err)}
+	}
+	r = &UnitReader{path: f.Path, unit: u.Index, d: d.Dims(), fh: fh}
+	switch f.Format {
+	case Parquet:
+		r.src, err = d.openParquetUnit(of, u, fh)
+		if err == nil {
+			r.rowBase = of.rowBase[u.Index]
+		}
+	case ArrowFile:
+		r.batchRow = true
+		r.src, err = d.openArrowFileUnit(of, u, fh)
+	case ArrowStream:
+		r.src, err = d.openArrowStreamUnit(of, fh)
+	default:
+		err = fmt.Errorf("unknown format %d", f.Format)
+	}
+	if err != nil {
+		fh.Close()
+		var re *ReadError
+		if errors.As(err, &re) {
+			return nil, err
+		}
+		return nil, &ReadError{File: f.Path, Unit: u.Index, Row: -1, Err: err}
+	}
+	return r, nil
+}
+
+// Read fills dst (row-major; len(dst) must be a positive multiple of Dims())
+// with up to len(dst)/Dims() whole rows and returns how many. At the end it
+// returns io.EOF, possibly together with n > 0 rows; the caller uses the n
+// rows before looking at the error. Rows with a null or NaN in a selected
+// column are skipped and counted in Skipped. A +Inf or -Inf is a *ReadError
+// wrapping ErrInfinite that names the file, column and row. Read does not
+// allocate in steady state; the decoding libraries allocate per page or
+// record batch. Panics from the decoding libraries are recovered into a
+// *ReadError, after which the reader keeps returning that error.
+func (r *UnitReader) Read(dst []float64) (n int, err error) {
+	if r.err != nil {
+		return 0, r.err
+	}
+	if len(dst) == 0 || len(dst)%r.d != 0 {
+		return 0, fmt.Errorf("stream: Read: len(dst) = %d is not a positive multiple of Dims() = %d", len(dst), r.d)
+	}
+	defer func() {
+		if p := recover(); p != nil {
+			r.err = r.wrap(&colError{col: -1, row: -1, err: fmt.Errorf("panic while decoding: %v", p)})
+			n, err = 0, r.err
+		}
+	}()
+	want := len(dst) / r.d
+	if cap(r.bad) < want {
+		r.bad = make([]uint8, want)
+	}
+	for {
+		bad := r.bad[:want]
+		clear(bad)
+		m, ferr := r.src.fill(dst, bad, want)
+		if ferr != nil {
+			r.err = r.wrap(ferr)
+			return 0, r.err
+		}
+		if m == 0 {
+			r.err = io.EOF
+			return 0, io.EOF
+		}
+		n = compact(dst[:m*r.d], bad[:m], r.d)
+		r.skipped += int64(m - n)
+		r.row += int64(m)
+		if n > 0 {
+			return n, nil
+		}
+	}
+}
+
+// wrap turns a source error into a *ReadError.
+func (r *UnitReader) wrap(err error) error {
+	re := &ReadError{File: r.path, Unit: r.unit, Row: -1, Err: err, batchRow: r.batchRow}
+	var ce *colError
+	if errors.As(err, &ce) {
+		re.Err = ce.err
+		if ce.col >= 0 {
+			re.Column = r.src.column(ce.col)
+		}
+		if ce.row >= 0 {
+			re.Row = r.rowBase + r.row + ce.row
+		}
+	}
+	return re
+}
+
+// Skipped returns how many rows were left out so far because of a null or NaN.
+func (r *UnitReader) Skipped() int64 { return r.skipped }
+
+// Close releases the decoder's buffers and closes the file.
+func (r *UnitReader) Close() error {
+	if r.src == nil && r.fh == nil {
+		return nil
+	}
+	var err error
+	if r.src != nil {
+		err = r.src.close()
+		r.src = nil
+	}
+	if r.fh != nil {
+		if cerr := r.fh.Close(); err == nil {
+			err = cerr
+		}
+		r.fh = nil
+	}
+	if r.err == nil {
+		r.err = errors.New("stream: read after Close")
+	}
+	if err != nil {
+		return &ReadError{File: r.path, Unit: r.unit, Row: -1, Err: err}
+	}
+	return nil
+}

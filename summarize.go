@@ -1,0 +1,118 @@
+package kgauge
+
+import (
+	"math"
+	"slices"
+
+	"github.com/kgauge/kgauge/criteria"
+	"github.com/kgauge/kgauge/internal/kmeans"
+	"github.com/kgauge/kgauge/sketch"
+)
+
+// Scaling is the affine map applied to every feature before the criteria: z = (x − Center) / Spread.
+type Scaling struct {
+	Method Scale     `json:"method"`
+	Center []float64 `json:"center"`
+	Spread []float64 `json:"spread"`
+}
+
+// scalingOf computes the scaling from the exact statistics of the whole sketch.
+func scalingOf(sk *sketch.Sketch, method Scale) Scaling {
+	m := sk.Moments()
+	d := sk.Dims()
+	sc := Scaling{Method: method, Center: make([]float64, d), Spread: make([]float64, d)}
+	mean := m.MeanTo(nil)
+	variance := m.VarTo(nil)
+	for j := range d {
+		switch method {
+		case ZScore:
+			sc.Center[j], sc.Spread[j] = mean[j], math.Sqrt(variance[j])
+		case Range:
+			sc.Center[j], sc.Spread[j] = m.Min[j], m.Max[j]-m.Min[j]
+		default:
+			sc.Center[j], sc.Spread[j] = 0, 1
+		}
+		if !(sc.Spread[j] > 0) || math.IsInf(sc.Spread[j], 0) {
+			sc.Spread[j] = 1
+		}
+	}
+	return sc
+}
+
+func (sc Scaling) apply(x []float64) []float64 {
+	d := len(sc.Center)
+	out := make([]float64, len(x))
+	for i, v := range x {
+		j := i % d
+		out[i] = (v - sc.Center[j]) / sc.Spread[j]
+	}
+	return out
+}
+
+// Summarize turns a sketch into the criteria's input in the scaled space: exact moments and box,
+// the sampled covariance, the coreset and uniform sample, and one set of mini-batch centres per k
+// (when the sketch merged several parts, their centres are pooled with their counts as weights and
+// reduced to k by weighted Lloyd from the part with the most rows).
+func Summarize(sk *sketch.Sketch, method Scale) (criteria.Summary, Scaling) {
+	sc := scalingOf(sk, method)
+	d := sk.Dims()
+	m := sk.Moments()
+	cross := sk.Cross()
+	s := criteria.Summary{D: d, N: float64(m.N), Seeds: map[int][]float64{}}
+	s.Mean = sc.apply(m.MeanTo(nil))
+	s.Min = sc.apply(m.Min)
+	s.Max = sc.apply(m.Max)
+	s.Cov = cross.CovTo(nil)
+	if cross.N < 2 {
+		// Too few sampled rows for cross-products: fall back to the exact diagonal.
+		clear(s.Cov)
+		v := m.VarTo(nil)
+		for j := range d {
+			s.Cov[j*d+j] = v[j]
+		}
+	}
+	for j := range d {
+		for l := range d {
+			s.Cov[j*d+l] /= sc.Spread[j] * sc.Spread[l]
+		}
+	}
+	cx, cw := sk.Coreset()
+	s.Coreset = kmeans.Data{X: sc.apply(cx), W: cw, D: d}
+	s.Sample = kmeans.Data{X: sc.apply(sk.Sample()), D: d}
+	cfg := sk.Config()
+	for k := cfg.MinK; k <= cfg.MaxK; k++ {
+		if c := reconcile(sk.CentreSets(k), k, sc); c != nil {
+			s.Seeds[k] = c
+		}
+	}
+	return s, sc
+}
+
+// reconcile pools the parts' mini-batch centres for one k into k centres in the scaled space.
+func reconcile(parts []sketch.CentreSet, k int, sc Scaling) []float64 {
+	if len(parts) == 0 {
+		return nil
+	}
+	best, bestRows := 0, -1.0
+	var pool kmeans.Data
+	pool.D = len(sc.Center)
+	for i, p := range parts {
+		var rows float64
+		for _, c := range p.Counts {
+			rows += c
+		}
+		if rows > bestRows {
+			best, bestRows = i, rows
+		}
+		pool.X = append(pool.X, sc.apply(p.Centres)...)
+		pool.W = append(pool.W, p.Counts...)
+	}
+	init := sc.apply(parts[best].Centres)
+	if len(parts) == 1 {
+		return init
+	}
+	if slices.ContainsFunc(pool.W, func(w float64) bool { return w > 0 }) {
+		return kmeans.Lloyd(pool, init, kmeans.LloydOptions{}).Centres
+	}
+	return init
+}

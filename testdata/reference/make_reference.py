@@ -1,0 +1,111 @@
+#!/usr/bin/env python3
+"""Reference values for kgauge's criteria tests, computed with scikit-learn and SciPy.
+
+Usage:
+    python3 make_reference.py [--out DIR] [--write-mixtures]
+
+Reads the point sets committed beside this script (ruspini.csv and the seeded mixtures
+mix3_2d.csv, mix5_4d.csv) and writes reference.json into DIR (default: this directory).
+--write-mixtures regenerates the mixture CSVs with numpy's seeded default_rng first.
+
+For every point set and k it records:
+  * labels of sklearn KMeans(n_clusters=k, n_init=10, random_state=0) and its inertia_;
+  * silhouette_score, calinski_harabasz_score, davies_bouldin_score on those labels;
+  * a GaussianMixture(covariance_type="diag", reg_covar=1e-6, tol=1e-10, max_iter=5000) fit
+    started from the KMeans labels (weights_init = cluster shares, means_init = cluster means,
+    precisions_init = 1 / (within-cluster variance + 1e-6)): weights_, means_, covariances_,
+    score_samples(X).sum(), bic(X), aic(X), n_iter_;
+  * scipy.cluster.hierarchy.linkage(X, method="ward") merge heights (column 2).
+"""
+import argparse
+import json
+import os
+import sys
+
+import numpy as np
+import scipy
+import sklearn
+from scipy.cluster.hierarchy import linkage
+from sklearn.cluster import KMeans
+from sklearn.metrics import calinski_harabasz_score, davies_bouldin_score, silhouette_score
+from sklearn.mixture import GaussianMixture
+
+HERE = os.path.dirname(os.path.abspath(__file__))
+
+SETS = {
+    # name: (file, list of k)
+    "ruspini": ("ruspini.csv", [1, 2, 3, 4, 5, 6]),
+    "mix3_2d": ("mix3_2d.csv", [1, 2, 3, 4, 5]),
+    "mix5_4d": ("mix5_4d.csv", [1, 2, 3, 5, 7]),
+}
+
+
+def write_mixtures():
+    # Invented test data (seeded): 3 Gaussian clusters in 2-D, 150 points.
+    rng = np.random.default_rng(20240601)
+    centres = np.array([[0.0, 0.0], [6.0, 1.0], [2.0, 7.0]])
+    x = np.vstack([c + rng.normal(size=(50, 2)) for c in centres])
+    np.savetxt(os.path.join(HERE, "mix3_2d.csv"), x, delimiter=",", fmt="%.17g")
+    # 5 clusters in 4-D with unequal sizes and per-dimension scales, 300 points.
+    rng = np.random.default_rng(20240602)
+    sizes = [100, 80, 60, 40, 20]
+    scale = np.array([1.0, 0.5, 2.0, 1.5])
+    x = np.vstack([rng.normal(scale=8.0, size=4) + scale * rng.normal(size=(n, 4)) for n in sizes])
+    np.savetxt(os.path.join(HERE, "mix5_4d.csv"), x, delimiter=",", fmt="%.17g")
+
+
+def load(path):
+    return np.loadtxt(path, delimiter=",", ndmin=2)
+
+
+def main():
+    ap = argparse.ArgumentParser()
+    ap.add_argument("--out", default=HERE)
+    ap.add_argument("--write-mixtures", action="store_true")
+    a = ap.parse_args()
+    if a.write_mixtures:
+        write_mixtures()
+    out = {
+        "versions": {"sklearn": sklearn.__version__, "scipy": scipy.__version__, "numpy": np.__version__},
+        "sets": {},
+    }
+    for name, (fname, ks) in SETS.items():
+        x = load(os.path.join(HERE, fname))
+        rec = {"file": fname, "n": int(x.shape[0]), "d": int(x.shape[1]), "per_k": {}}
+        for k in ks:
+            km = KMeans(n_clusters=k, n_init=10, random_state=0).fit(x)
+            r = {"labels": km.labels_.tolist(), "inertia": float(km.inertia_)}
+            if k >= 2:
+                r["silhouette"] = float(silhouette_score(x, km.labels_))
+                r["calinski_harabasz"] = float(calinski_harabasz_score(x, km.labels_))
+                r["davies_bouldin"] = float(davies_bouldin_score(x, km.labels_))
+            # Fixed EM start from the KMeans labels: weights = cluster shares, means = cluster
+            # means, variances = within-cluster variances (ddof 0) + reg_covar.
+            lab = km.labels_
+            w0 = np.array([np.mean(lab == j) for j in range(k)])
+            m0 = np.array([x[lab == j].mean(axis=0) for j in range(k)])
+            v0 = np.array([((x[lab == j] - m0[j]) ** 2).mean(axis=0) for j in range(k)]) + 1e-6
+            gm = GaussianMixture(n_components=k, covariance_type="diag", reg_covar=1e-6, tol=1e-10,
+                                 max_iter=5000, weights_init=w0, means_init=m0, precisions_init=1.0 / v0,
+                                 random_state=0).fit(x)
+            r["gmm"] = {
+                "weights": gm.weights_.tolist(),
+                "means": gm.means_.ravel().tolist(),
+                "vars": gm.covariances_.ravel().tolist(),
+                "loglik": float(gm.score_samples(x).sum()),
+                "bic": float(gm.bic(x)),
+                "aic": float(gm.aic(x)),
+                "n_iter": int(gm.n_iter_),
+            }
+            rec["per_k"][str(k)] = r
+        rec["ward_heights"] = linkage(x, method="ward")[:, 2].tolist()
+        out["sets"][name] = rec
+    os.makedirs(a.out, exist_ok=True)
+    with open(os.path.join(a.out, "reference.json"), "w") as f:
+        json.dump(out, f, indent=None, separators=(",", ":"))
+        f.write("\n")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
