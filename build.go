@@ -7,6 +7,7 @@ import (
 	"io"
 	"math"
 	"math/rand/v2"
+	"strings"
 	"sync"
 	"time"
 
@@ -72,6 +73,9 @@ func Build(ctx context.Context, paths []string, opt Options) (*sketch.Sketch, *I
 	}
 	defer ds.Close()
 	in := describe(ds)
+	if opt, err = opt.fitMemory(ds.Dims()); err != nil {
+		return nil, nil, tm, err
+	}
 	if p := opt.Progress; p != nil {
 		p.TotalRows.Store(ds.Rows)
 		p.TotalBytes.Store(ds.Bytes)
@@ -95,8 +99,9 @@ func Build(ctx context.Context, paths []string, opt Options) (*sketch.Sketch, *I
 	opt.Progress.stage("pass")
 	cfg := opt.Sketch
 	cfg.Columns = ds.Columns
-	cfg.ExpectedRows = ds.Rows
-	sk, err := pass(ctx, ds, units, unitID, cfg, pr, opt)
+	cfg.ExpectedRows = expectedRows(ds)
+	nulls := make([]int64, ds.Dims())
+	sk, err := pass(ctx, ds, units, unitID, cfg, pr, opt, nulls)
 	if err != nil {
 		return nil, nil, tm, err
 	}
@@ -104,10 +109,42 @@ func Build(ctx context.Context, paths []string, opt Options) (*sketch.Sketch, *I
 	for _, f := range ds.Files {
 		sk.Meta.Sources = append(sk.Meta.Sources, f.Path)
 	}
+	sk.Meta.ProbeRows = pr.Rows
 	if sk.Rows() == 0 {
-		return nil, nil, tm, fmt.Errorf("%w in %d file(s) (%d skipped for null or NaN values)", ErrNoRows, len(ds.Files), sk.Meta.SkippedRows)
+		return nil, nil, tm, fmt.Errorf("%w in %d file(s) (%d skipped for null or NaN values%s)", ErrNoRows,
+			len(ds.Files), sk.Meta.SkippedRows, blame(ds.Columns, nulls, sk.Meta.SkippedRows))
 	}
 	return sk, in, tm, nil
+}
+
+// blame names the columns that were null or NaN in every skipped row.
+func blame(columns []string, nulls []int64, skipped int64) string {
+	if skipped == 0 {
+		return ""
+	}
+	var names []string
+	for j, c := range nulls {
+		if c == skipped {
+			names = append(names, fmt.Sprintf("%q", columns[j]))
+		}
+	}
+	if len(names) == 0 {
+		return ""
+	}
+	return "; null or NaN in every one of them: column " + strings.Join(names, ", ")
+}
+
+// expectedRows is the metadata's row count plus, for units that do not state theirs (Arrow IPC),
+// an estimate from their size at 8 bytes per feature value. It only sets the rate at which rows
+// feed mini-batch k-means, so an estimate does.
+func expectedRows(ds *stream.Dataset) int64 {
+	n := ds.Rows
+	for _, u := range ds.Units {
+		if u.Rows < 0 {
+			n += max(1, u.Bytes/int64(8*ds.Dims()))
+		}
+	}
+	return n
 }
 
 func describe(ds *stream.Dataset) *Input {
@@ -226,11 +263,12 @@ func startCentres(p kmeans.Data, k int, rng *rand.Rand) []float64 {
 // shuffled order, so each worker's sketch is a function of the input, the seed and W; the worker
 // sketches are merged in worker order.
 func pass(ctx context.Context, ds *stream.Dataset, units []stream.Unit, unitID map[stream.Unit]int,
-	cfg sketch.Config, pr sketch.Probe, opt Options) (*sketch.Sketch, error) {
+	cfg sketch.Config, pr sketch.Probe, opt Options, nulls []int64) (*sketch.Sketch, error) {
 	workers := min(opt.Workers, max(1, len(units)))
 	ctx, cancel := context.WithCancel(ctx)
 	defer cancel()
 	sketches := make([]*sketch.Sketch, workers)
+	perWorker := make([][]int64, workers)
 	errs := make([]error, workers)
 	var wg sync.WaitGroup
 	for w := range workers {
@@ -239,10 +277,11 @@ func pass(ctx context.Context, ds *stream.Dataset, units []stream.Unit, unitID m
 			return nil, err
 		}
 		sketches[w] = sk
+		perWorker[w] = make([]int64, ds.Dims())
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			if err := work(ctx, ds, units, unitID, w, workers, sk, opt); err != nil {
+			if err := work(ctx, ds, units, unitID, w, workers, sk, opt, perWorker[w]); err != nil {
 				errs[w] = err
 				cancel()
 			}
@@ -262,6 +301,11 @@ func pass(ctx context.Context, ds *stream.Dataset, units []stream.Unit, unitID m
 			return nil, err
 		}
 	}
+	for _, counts := range perWorker {
+		for j, c := range counts {
+			nulls[j] += c
+		}
+	}
 	total := sketches[0]
 	for _, sk := range sketches[1:] {
 		if err := total.Merge(sk); err != nil {
@@ -272,7 +316,7 @@ func pass(ctx context.Context, ds *stream.Dataset, units []stream.Unit, unitID m
 }
 
 func work(ctx context.Context, ds *stream.Dataset, units []stream.Unit, unitID map[stream.Unit]int,
-	w, workers int, sk *sketch.Sketch, opt Options) error {
+	w, workers int, sk *sketch.Sketch, opt Options, nulls []int64) error {
 	d := ds.Dims()
 	buf := make([]float64, opt.BatchRows*d)
 	for i := w; i < len(units); i += workers {
@@ -306,6 +350,9 @@ func work(ctx context.Context, ds *stream.Dataset, units []stream.Unit, unitID m
 			}
 		}
 		sk.Meta.SkippedRows += r.Skipped()
+		for j, c := range r.SkippedByColumn() {
+			nulls[j] += c
+		}
 		if err := r.Close(); err != nil {
 			return err
 		}

@@ -9,6 +9,7 @@ import (
 	"os"
 	"time"
 
+	"github.com/kgauge/kgauge/bench/model"
 	"github.com/kgauge/kgauge/criteria"
 	"github.com/kgauge/kgauge/sketch"
 )
@@ -23,6 +24,7 @@ type Result struct {
 	RunnerUp    *int              `json:"runner_up"`
 	Agreement   float64           `json:"agreement"`
 	Structure   bool              `json:"structure"`
+	AtMaxK      bool              `json:"at_max_k"`
 	Agree       []string          `json:"agreeing"`
 	Disagree    []string          `json:"disagreeing"`
 	Rule        string            `json:"rule"`
@@ -43,6 +45,8 @@ type Result struct {
 	Seed        uint64            `json:"seed"`
 	Version     string            `json:"version"`
 	Timings     Timings           `json:"timings"`
+	Throughput  *Throughput       `json:"throughput,omitempty"` // the pass's measured speed (see Project)
+	Projection  []model.Row       `json:"projection,omitempty"` // the model's time for 1×, 10×, 100× the input
 
 	criteria *criteria.Result
 }
@@ -79,7 +83,7 @@ func Evaluate(ctx context.Context, sk *sketch.Sketch, opt Options) (*Result, err
 	if err != nil {
 		return nil, err
 	}
-	r := &Result{K: cr.Verdict.K, Agreement: cr.Verdict.Agreement, Structure: cr.Verdict.Structure,
+	r := &Result{K: cr.Verdict.K, Agreement: cr.Verdict.Agreement, Structure: cr.Verdict.Structure, AtMaxK: cr.Verdict.AtMaxK,
 		Agree: cr.Verdict.Agree, Disagree: cr.Verdict.Disagree, Rule: cr.Verdict.Rule,
 		Votes: map[string]*int{}, VoteList: cr.Votes, PerK: cr.PerK,
 		Rows: sk.Rows(), SkippedRows: sk.Meta.SkippedRows, ProbeRows: sk.Meta.ProbeRows,

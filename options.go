@@ -47,6 +47,7 @@ type Options struct {
 	Sketch     sketch.Config
 	Criteria   criteria.Options
 	Seed       uint64
+	Memory     int64     // bytes the run may hold at most (estimated); 0 means no limit
 	Progress   *Progress // optional; updated as rows are read
 }
 
@@ -107,6 +108,8 @@ func (o Options) Validate() error {
 		return fmt.Errorf("batch rows must be positive, got %d", o.BatchRows)
 	case o.ProbeRows < 1:
 		return fmt.Errorf("probe rows must be positive, got %d", o.ProbeRows)
+	case o.Memory < 0:
+		return fmt.Errorf("memory limit must not be negative, got %d", o.Memory)
 	case o.ProbeUnits < 1:
 		return fmt.Errorf("probe units must be positive, got %d", o.ProbeUnits)
 	}

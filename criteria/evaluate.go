@@ -35,9 +35,9 @@ func rngFor(seed uint64, k, purpose int) *rand.Rand {
 	return rand.New(rand.NewPCG(seed, z))
 }
 
-// gapLloyd are the Lloyd settings of every gap-statistic fit, data side and references alike: a
+// gapTol is the Lloyd tolerance of every gap-statistic fit, data side and references alike: a
 // relative tolerance of 1e-5 changes ln W by about 1e-5, far below the simulation error s_k.
-var gapLloyd = kmeans.LloydOptions{MaxIter: 100, Tol: 1e-5}
+const gapTol = 1e-5
 
 // wardDirectMax is the largest coreset agglomerated directly by Ward linkage (O(m^3)); larger
 // coresets are first reduced to the centroids of a finer k-means fit.
@@ -60,7 +60,14 @@ const wardDirectMax = 400
 // every k. Ward linkage runs on the weighted coreset itself when it has at most 400 points, and
 // otherwise on the weighted centroids of a finer fit with max(3 MaxK, 50) centres.
 //
-// A k is Valid when its coreset fit has no empty cluster and positive WCSS; criteria consider
+// The gap fits use opt.GapRestarts k-means++ seedings and a Lloyd tolerance of 1e-5 on both
+// sides. Each criterion then votes (Result.Votes, CriterionNames order): elbow = Kneedle on WCSS(k)
+// over the valid k; silhouette, simplified_silhouette and calinski_harabasz = argmax over k >= 2;
+// davies_bouldin = argmin over k >= 2; gap_box and gap_pca = GapRule; bic_gmm, aic_gmm and
+// bic_kmeans = argmin over all k; ward = the largest relative jump of the merge costs (see
+// wardVote); the verdict combines them as documented on Verdict.Rule (see verdict in verdict.go).
+//
+// A k is Valid when its coreset fit has no empty cluster; criteria consider
 // valid k only (k larger than the number of distinct points is never valid). If every coreset
 // point coincides (zero spread), all scores but WCSS are NaN, every criterion abstains and the
 // verdict is k = 1 with Structure false. Work is spread over opt.Workers goroutines, one k at a
@@ -129,11 +136,17 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 		res.Fits[i] = fit
 		sc := nanScores(k)
 		sc.WCSS = fit.Cost * scale
-		sc.Valid = fit.Cost > 1e-12*tss
+		// A fit with zero cost and no empty cluster (k equal to the number of distinct points) is a
+		// perfect partition and stays valid; an empty cluster means k exceeds what the data holds.
+		sc.Valid = true
 		for _, z := range fit.Sizes {
 			if !(z > 0) {
 				sc.Valid = false
 			}
+		}
+		res.PerK[i] = sc
+		if ctx.Err() != nil {
+			return
 		}
 		if sc.Valid {
 			if k >= 2 {
@@ -142,6 +155,9 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 				sc.SimplifiedSilhouette = SimplifiedSilhouette(core, fit.Labels, fit.Centres)
 				sc.CalinskiHarabasz = CalinskiHarabasz(core, fit.Labels, k)
 				sc.DaviesBouldin = DaviesBouldin(core, fit.Labels, k)
+			}
+			if ctx.Err() != nil {
+				return
 			}
 			_, ll, _ := GMMFit(core, fit, GMMOptions{Reg: reg})
 			ll *= scale
@@ -153,8 +169,12 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 			}
 			sc.BICKMeans = BICKMeans(sizes, fit.Cost*scale, s.D)
 		}
+		res.PerK[i] = sc
+		if ctx.Err() != nil {
+			return
+		}
 		if nref >= k {
-			w := kmeans.Fit(gapData, k, kmeans.FitOptions{Restarts: opt.GapRestarts, Lloyd: gapLloyd,
+			w := kmeans.Fit(gapData, k, kmeans.FitOptions{Restarts: opt.GapRestarts, Lloyd: kmeans.LloydOptions{Tol: gapTol},
 				Rand: rngFor(opt.Seed, k, streamGapData)}).Cost
 			if w > 0 {
 				sc.LogW = math.Log(w)
@@ -216,7 +236,7 @@ func refLogW(refs []kmeans.Data, k, restarts int, rng *rand.Rand) (mean, sk floa
 	}
 	lw := make([]float64, len(refs))
 	for b, r := range refs {
-		c := kmeans.Fit(r, k, kmeans.FitOptions{Restarts: restarts, Lloyd: gapLloyd, Rand: rng}).Cost
+		c := kmeans.Fit(r, k, kmeans.FitOptions{Restarts: restarts, Lloyd: kmeans.LloydOptions{Tol: gapTol}, Rand: rng}).Cost
 		if !(c > 0) {
 			return 0, 0, false
 		}

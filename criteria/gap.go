@@ -34,7 +34,7 @@ func GapAt(data kmeans.Data, refs []kmeans.Data, k, restarts int, rng *rand.Rand
 	if data.Len() < k || len(refs) == 0 {
 		return out
 	}
-	w := kmeans.Fit(data, k, kmeans.FitOptions{Restarts: restarts, Lloyd: gapLloyd, Rand: rng}).Cost
+	w := kmeans.Fit(data, k, kmeans.FitOptions{Restarts: restarts, Lloyd: kmeans.LloydOptions{Tol: gapTol}, Rand: rng}).Cost
 	if w > 0 {
 		out.LogW = math.Log(w)
 	}

@@ -7,20 +7,21 @@ import (
 
 // Options controls Evaluate. DefaultOptions gives the values used when a field is zero.
 type Options struct {
-	MinK, MaxK  int    // candidate range; default 1, 20
-	Restarts    int    // k-means++ restarts per k on the coreset (plus the Summary's seed centres); default 3
-	Anchors     int    // silhouette anchors, stratified by cluster; default 1000
-	GapRefs     int    // B Monte Carlo reference sets per reference; default 10
-	GapSample   int    // points per gap reference set and on the data side; default 2000
-	GapRestarts int    // k-means++ restarts of every gap-statistic fit (data side and references); default 1
-	Workers     int    // goroutines across k; 0 = GOMAXPROCS. Results do not depend on it
-	Seed        uint64 // seed of every random stream
+	MinK        int    `json:"min_k"`        // candidate range MinK..MaxK; default 1..20
+	MaxK        int    `json:"max_k"`        // default 20
+	Restarts    int    `json:"restarts"`     // k-means++ restarts per k on the coreset (plus the Summary's seed centres); default 3
+	Anchors     int    `json:"anchors"`      // silhouette anchors, stratified by cluster; default 1000
+	GapRefs     int    `json:"gap_refs"`     // B Monte Carlo reference sets per reference; default 5 (bench/report/DEFAULTS.md)
+	GapSample   int    `json:"gap_sample"`   // points per gap reference set and on the data side; default 2000
+	GapRestarts int    `json:"gap_restarts"` // k-means++ restarts of every gap fit (data side and references); default 1
+	Workers     int    `json:"-"`            // goroutines across k; 0 = GOMAXPROCS. Results do not depend on it
+	Seed        uint64 `json:"seed"`         // seed of every random stream (DefaultOptions: 1; 0 is a valid seed)
 }
 
-// DefaultOptions returns MinK 1, MaxK 20, Restarts 3, Anchors 1000, GapRefs 10, GapSample 2000,
+// DefaultOptions returns MinK 1, MaxK 20, Restarts 3, Anchors 1000, GapRefs 5, GapSample 2000,
 // Workers 0 (GOMAXPROCS) and Seed 1.
 func DefaultOptions() Options {
-	return Options{MinK: 1, MaxK: 20, Restarts: 3, Anchors: 1000, GapRefs: 10, GapSample: 2000, GapRestarts: 1, Seed: 1}
+	return Options{MinK: 1, MaxK: 20, Restarts: 3, Anchors: 1000, GapRefs: 5, GapSample: 2000, GapRestarts: 1, Seed: 1}
 }
 
 // withDefaults replaces zero fields by DefaultOptions' values.

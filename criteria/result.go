@@ -9,23 +9,23 @@ import (
 
 // Criterion names, in the fixed order of Result.Votes. They are stable JSON keys.
 const (
-	Elbow                = "elbow"
-	Silhouette           = "silhouette"
-	SimplifiedSil        = "simplified_silhouette"
-	GapBox               = "gap_box"
-	GapPCA               = "gap_pca"
-	BICGMM               = "bic_gmm"
-	AICGMM               = "aic_gmm"
-	BICKMeansName        = "bic_kmeans"
-	WardName             = "ward"
-	CalinskiHarabaszName = "calinski_harabasz"
-	DaviesBouldinName    = "davies_bouldin"
+	NameElbow                = "elbow"
+	NameSilhouette           = "silhouette"
+	NameSimplifiedSilhouette = "simplified_silhouette"
+	NameGapBox               = "gap_box"
+	NameGapPCA               = "gap_pca"
+	NameBICGMM               = "bic_gmm"
+	NameAICGMM               = "aic_gmm"
+	NameBICKMeans            = "bic_kmeans"
+	NameWard                 = "ward"
+	NameCalinskiHarabasz     = "calinski_harabasz"
+	NameDaviesBouldin        = "davies_bouldin"
 )
 
 // CriterionNames returns the criterion names in the order of Result.Votes.
 func CriterionNames() []string {
-	return []string{Elbow, Silhouette, SimplifiedSil, GapBox, GapPCA, BICGMM, AICGMM, BICKMeansName,
-		WardName, CalinskiHarabaszName, DaviesBouldinName}
+	return []string{NameElbow, NameSilhouette, NameSimplifiedSilhouette, NameGapBox, NameGapPCA, NameBICGMM,
+		NameAICGMM, NameBICKMeans, NameWard, NameCalinskiHarabasz, NameDaviesBouldin}
 }
 
 // Result is the outcome of Evaluate.
@@ -47,7 +47,12 @@ type Vote struct {
 	Note      string `json:"note,omitempty"`
 }
 
-// Verdict is the combined choice of k.
+// Verdict is the combined choice of k. Stage 1: if more than half of the non-abstaining criteria
+// able to say k = 1 (gap_box, gap_pca, bic_gmm, bic_kmeans) name 1, K is 1 and Structure false.
+// Stage 2: otherwise K is the k >= 2 named by most criteria (votes for 1 count as disagreeing);
+// ties go to the k with more gap_box/gap_pca votes, then to the smaller k. Agreement is the share
+// of non-abstaining criteria that named K; RunnerUp the next k in the same order (0 if none). If no
+// criterion names any k >= 2, K is max(MinK, 1) with Structure false.
 type Verdict struct {
 	K         int      `json:"k"`
 	RunnerUp  int      `json:"runner_up"` // 0 = none
@@ -55,6 +60,7 @@ type Verdict struct {
 	Agree     []string `json:"agree"`
 	Disagree  []string `json:"disagree"`
 	Structure bool     `json:"structure"` // false when K = 1, "no cluster structure"
+	AtMaxK    bool     `json:"at_max_k"`  // most criteria still improve at MaxK: the best k may be larger
 	Rule      string   `json:"rule"`
 }
 

@@ -21,18 +21,49 @@ func silhouetteOf(p kmeans.Data, labels []int32, i int, sum, wt []float64) float
 		sum[j], wt[j] = 0, 0
 	}
 	xi := p.Point(i)
-	n := p.Len()
-	for j := 0; j < n; j++ {
+	n, d := p.Len(), p.D
+	labels = labels[:n]
+	var ws []float64
+	if p.W != nil {
+		ws = p.W[:n]
+	}
+	add := func(j int, dist2 float64) {
 		if j == i {
-			continue
+			return
 		}
-		w := p.Weight(j)
-		if w == 0 {
-			continue
+		w := 1.0
+		if ws != nil {
+			w = ws[j]
+			if w == 0 {
+				return
+			}
 		}
 		l := labels[j]
-		sum[l] += w * math.Sqrt(kmeans.Dist2(xi, p.Point(j)))
+		sum[l] += w * math.Sqrt(dist2)
 		wt[l] += w
+	}
+	j := 0
+	for ; j+3 < n; j += 4 {
+		x0 := p.X[j*d : j*d+d : j*d+d]
+		x1 := p.X[(j+1)*d : (j+1)*d+d : (j+1)*d+d]
+		x2 := p.X[(j+2)*d : (j+2)*d+d : (j+2)*d+d]
+		x3 := p.X[(j+3)*d : (j+3)*d+d : (j+3)*d+d]
+		x0, x1, x2, x3 = x0[:len(xi)], x1[:len(xi)], x2[:len(xi)], x3[:len(xi)]
+		var s0, s1, s2, s3 float64
+		for t, v := range xi {
+			e0, e1, e2, e3 := v-x0[t], v-x1[t], v-x2[t], v-x3[t]
+			s0 += e0 * e0
+			s1 += e1 * e1
+			s2 += e2 * e2
+			s3 += e3 * e3
+		}
+		add(j, s0)
+		add(j+1, s1)
+		add(j+2, s2)
+		add(j+3, s3)
+	}
+	for ; j < n; j++ {
+		add(j, kmeans.Dist2(xi, p.X[j*d:j*d+d]))
 	}
 	own := labels[i]
 	if wt[own] == 0 {

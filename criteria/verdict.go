@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"slices"
+	"strings"
 )
 
 // pick returns the k (from per) with the best finite value of f among valid k >= lo, the largest
@@ -29,8 +30,14 @@ func votes(per []Scores, wardK int, opt Options) []Vote {
 	var out []Vote
 	add := func(name string, k int, ok bool, note string) {
 		if !ok {
+			if !strings.HasPrefix(note, "no ") {
+				note = "no valid k"
+			}
 			out = append(out, Vote{Criterion: name, Abstain: true, Note: note})
 			return
+		}
+		if k == opt.MaxK && opt.MaxK > opt.MinK {
+			note += "; at max-k, the best k may be larger"
 		}
 		out = append(out, Vote{Criterion: name, K: k, Note: note})
 	}
@@ -45,9 +52,9 @@ func votes(per []Scores, wardK int, opt Options) []Vote {
 	}
 	diff := make([]float64, len(ys))
 	if i, ok := Kneedle(xs, ys, 1, diff); ok {
-		add(Elbow, ks[i], true, "Kneedle knee of WCSS(k), S=1")
+		add(NameElbow, ks[i], true, "Kneedle knee of WCSS(k), S=1")
 	} else {
-		add(Elbow, 0, false, "no knee in WCSS(k)")
+		add(NameElbow, 0, false, "no knee in WCSS(k)")
 	}
 	for i, k := range ks {
 		per[k-opt.MinK].Kneedle = diff[i]
@@ -59,16 +66,20 @@ func votes(per []Scores, wardK int, opt Options) []Vote {
 		s := per[k-opt.MinK]
 		note = fmt.Sprintf("max mean silhouette %.4f (95%% CI %.4f..%.4f)", v, s.SilhouetteLo, s.SilhouetteHi)
 	}
-	add(Silhouette, k, ok, note)
+	add(NameSilhouette, k, ok, note)
 	k, v, ok = pick(per, 2, true, func(s Scores) float64 { return s.SimplifiedSilhouette })
-	add(SimplifiedSil, k, ok, fmt.Sprintf("max simplified silhouette %.4f", v))
+	note = "no valid k >= 2"
+	if ok {
+		note = fmt.Sprintf("max simplified silhouette %.4f", v)
+	}
+	add(NameSimplifiedSilhouette, k, ok, note)
 
 	for _, g := range []struct {
 		name string
 		f    func(Scores) (float64, float64)
 	}{
-		{GapBox, func(s Scores) (float64, float64) { return s.GapBox, s.GapBoxS }},
-		{GapPCA, func(s Scores) (float64, float64) { return s.GapPCA, s.GapPCAS }},
+		{NameGapBox, func(s Scores) (float64, float64) { return s.GapBox, s.GapBoxS }},
+		{NameGapPCA, func(s Scores) (float64, float64) { return s.GapPCA, s.GapPCAS }},
 	} {
 		gap, sk := make([]float64, len(per)), make([]float64, len(per))
 		for i, s := range per {
@@ -82,31 +93,46 @@ func votes(per []Scores, wardK int, opt Options) []Vote {
 	}
 
 	k, _, ok = pick(per, 1, false, func(s Scores) float64 { return s.BICGMM })
-	add(BICGMM, k, ok, "min BIC of a diagonal Gaussian mixture")
+	add(NameBICGMM, k, ok, "min BIC of a diagonal Gaussian mixture")
 	k, _, ok = pick(per, 1, false, func(s Scores) float64 { return s.AICGMM })
-	add(AICGMM, k, ok, "min AIC of a diagonal Gaussian mixture")
+	add(NameAICGMM, k, ok, "min AIC of a diagonal Gaussian mixture")
 	k, _, ok = pick(per, 1, false, func(s Scores) float64 { return s.BICKMeans })
-	add(BICKMeansName, k, ok, "min spherical k-means BIC (per-dimension variance)")
-	add(WardName, wardK, wardK > 0, "largest relative jump of Ward merge cost")
+	add(NameBICKMeans, k, ok, "min spherical k-means BIC (per-dimension variance)")
+	add(NameWard, wardK, wardK > 0, "largest relative jump of Ward merge cost")
 	k, _, ok = pick(per, 2, true, func(s Scores) float64 { return s.CalinskiHarabasz })
-	add(CalinskiHarabaszName, k, ok, "max Calinski-Harabasz")
+	add(NameCalinskiHarabasz, k, ok, "max Calinski-Harabasz")
 	k, _, ok = pick(per, 2, false, func(s Scores) float64 { return s.DaviesBouldin })
-	add(DaviesBouldinName, k, ok, "min Davies-Bouldin")
+	add(NameDaviesBouldin, k, ok, "min Davies-Bouldin")
 	return out
 }
 
-// canSayOne lists the criteria that can express "no cluster structure" (k = 1).
-var canSayOne = []string{GapBox, GapPCA, BICGMM, BICKMeansName}
+// canSayOne reports whether a criterion is one of those that can express "no cluster
+// structure" (k = 1) in the verdict's first stage.
+func canSayOne(name string) bool {
+	return name == NameGapBox || name == NameGapPCA || name == NameBICGMM || name == NameBICKMeans
+}
 
 // verdictRule is Verdict.Rule for a decision over k >= 2.
-const verdictRule = "k=1 if most of gap_box, gap_pca, bic_gmm, bic_kmeans say 1; else the k>=2 with most votes " +
-	"(ties: more gap votes, then smaller k)"
+const verdictRule = "k=1 if most of gap_box, gap_pca, bic_gmm, bic_kmeans say 1; else the k>=2 inside the range with most votes " +
+	"(votes at max-k count only as 'k may be larger'; ties: more gap votes, then smaller k)"
 
-// verdict combines the votes. Stage 1: among the non-abstaining criteria able to say k = 1
-// (gap_box, gap_pca, bic_gmm, bic_kmeans), if more than half name 1 the verdict is 1 with
-// Structure false. Stage 2: otherwise the k >= 2 with the most votes wins (votes for 1 count as
-// disagreeing); ties go to the k with more gap_box/gap_pca votes, then to the smaller k.
-// Agreement is the share of non-abstaining criteria that named K; RunnerUp the next most voted k
+// edgeRule is Verdict.Rule when the criteria peaking at MaxK outnumber every k inside the range.
+const edgeRule = "most criteria are still improving at max-k: the best k may be larger; widen --max-k"
+
+// verdict combines the votes.
+//
+// Stage 1: among the non-abstaining criteria able to say k = 1 (gap_box, gap_pca, bic_gmm,
+// bic_kmeans), if more than half name 1 the verdict is 1 with Structure false.
+//
+// Stage 2: a criterion whose best k is MaxK (with more than two k in range) has found no optimum
+// inside the range, only that the best k is MaxK or larger (common practice: a boundary optimum is
+// inconclusive); information criteria on large samples of non-Gaussian clusters do this routinely.
+// Such votes do not elect a k inside the range. The k >= 2 below MaxK with the most votes wins;
+// ties go to the k with more gap_box/gap_pca votes, then to the smaller k. If the votes at MaxK
+// outnumber that winner (or there is none), the verdict is MaxK with AtMaxK set, telling the
+// caller to widen the range.
+//
+// Agreement is the share of non-abstaining criteria that named K; RunnerUp is the next most voted k
 // (same tie-break), 0 if none.
 func verdict(vs []Vote, opt Options) Verdict {
 	voting := 0
@@ -115,18 +141,24 @@ func verdict(vs []Vote, opt Options) Verdict {
 			voting++
 		}
 	}
+	edgeApplies := opt.MaxK-opt.MinK >= 2
 	count := map[int]int{}
 	gapCount := map[int]int{}
+	edge := 0
 	for _, v := range vs {
 		if v.Abstain {
 			continue
 		}
+		if edgeApplies && v.K == opt.MaxK {
+			edge++
+			continue
+		}
 		count[v.K]++
-		if v.Criterion == GapBox || v.Criterion == GapPCA {
+		if v.Criterion == NameGapBox || v.Criterion == NameGapPCA {
 			gapCount[v.K]++
 		}
 	}
-	var ranked []int // k >= 2 by votes, then gap votes, then smaller k
+	var ranked []int // k >= 2 inside the range by votes, then gap votes, then smaller k
 	for k := range count {
 		if k >= 2 {
 			ranked = append(ranked, k)
@@ -161,7 +193,7 @@ func verdict(vs []Vote, opt Options) Verdict {
 	if opt.MinK <= 1 {
 		n1, nv := 0, 0
 		for _, v := range vs {
-			if v.Abstain || !slices.Contains(canSayOne, v.Criterion) {
+			if v.Abstain || !canSayOne(v.Criterion) {
 				continue
 			}
 			nv++
@@ -177,6 +209,18 @@ func verdict(vs []Vote, opt Options) Verdict {
 			return build(1, false, fmt.Sprintf("k=1: %d of %d of gap_box, gap_pca, bic_gmm, bic_kmeans say 1 (no cluster structure)", n1, nv), runner)
 		}
 	}
+	best := 0
+	if len(ranked) > 0 {
+		best = count[ranked[0]]
+	}
+	if edge > 0 && edge > best {
+		v := build(opt.MaxK, true, edgeRule, 0)
+		if len(ranked) > 0 {
+			v.RunnerUp = ranked[0]
+		}
+		v.AtMaxK = true
+		return v
+	}
 	if len(ranked) == 0 {
 		k := max(opt.MinK, 1)
 		return build(k, false, "no criterion voted for k >= 2: no cluster structure found", 0)
@@ -184,6 +228,8 @@ func verdict(vs []Vote, opt Options) Verdict {
 	runner := 0
 	if len(ranked) > 1 {
 		runner = ranked[1]
+	} else if edge > 0 {
+		runner = opt.MaxK
 	}
 	return build(ranked[0], true, verdictRule, runner)
 }

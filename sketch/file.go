@@ -26,6 +26,8 @@ const (
 	fileVersion = 1
 	// MaxFileBytes bounds the size of a sketch file that Decode accepts.
 	MaxFileBytes = 1 << 30
+	// maxStateBytes is the mini-batch state Decode allows whatever the file size.
+	maxStateBytes = 64 << 20
 )
 
 // Errors returned by [Decode], wrapped with detail.
@@ -249,8 +251,15 @@ func (d *dec) sketch() (*Sketch, error) {
 		return nil, err
 	}
 	dim := len(c.Columns)
-	if int64(c.CoresetSize+c.SampleSize)*int64(dim)*8 > int64(len(d.b)) {
-		return nil, fmt.Errorf("sample sizes %d+%d×%d do not fit the file", c.CoresetSize, c.SampleSize, dim)
+	// New allocates the mini-batch state (k×dim centres for every k in range) and a mini-batch
+	// buffer from the config alone; a hostile config (the checks above allow max-k and the
+	// mini-batch size up to 2^20 and 2^28) would make it allocate terabytes before a centre is read.
+	ks := int64(c.MaxK - c.MinK + 1)
+	centres := ks * int64(c.MinK+c.MaxK) / 2 * int64(dim) * 8
+	buf := int64(c.MiniBatchSize) * int64(dim*8+4)
+	if centres+buf > max(maxStateBytes, 16*int64(len(d.b))) {
+		return nil, fmt.Errorf("k range %d..%d and mini-batch size %d with %d columns need %d bytes, more than the file justifies",
+			c.MinK, c.MaxK, c.MiniBatchSize, dim, centres+buf)
 	}
 	var meta Meta
 	meta.Sources = d.strs()

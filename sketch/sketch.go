@@ -10,10 +10,10 @@ import (
 
 // Defaults for [Config]; the benchmark report under bench/ records what each size costs and buys.
 const (
-	DefaultCoresetSize   = 8192
+	DefaultCoresetSize   = 16384
 	DefaultSampleSize    = 4096
 	DefaultMiniBatchSize = 1024
-	DefaultMiniBatchRows = 1 << 18
+	DefaultMiniBatchRows = 1 << 17
 	DefaultMinK          = 1
 	DefaultMaxK          = 20
 	// unknownRowsRate is the Bernoulli rate of the mini-batch feed when the row count is not known in
@@ -87,7 +87,7 @@ type Probe struct {
 	Center, Scale []float64         // raw units; Scale entries must be > 0
 	MeanSq        float64           // mean ‖(x−Center)/Scale‖² over the probe rows
 	Init          map[int][]float64 // k → k×d starting centres in the scaled space
-	Rows          int64             // rows the probe read
+	Rows          int64             // rows the probe read (recorded by the caller in Meta.ProbeRows)
 }
 
 // Meta records where a sketch's rows came from. It travels with the sketch through [Sketch.Merge]
@@ -145,7 +145,6 @@ func New(cfg Config, probe Probe) (*Sketch, error) {
 		coreset: newTopK(cfg.CoresetSize+1, d), sample: newTopK(cfg.SampleSize, d),
 		mbBuf: make([]float64, cfg.MiniBatchSize*d), labels: make([]int32, cfg.MiniBatchSize),
 		scratch: make([]float64, d), parts: make([][]CentreSet, cfg.MaxK-cfg.MinK+1)}
-	s.Meta.ProbeRows = probe.Rows
 	for j, sc := range probe.Scale {
 		if !(sc > 0) || math.IsInf(sc, 0) {
 			return nil, fmt.Errorf("sketch: probe scale of column %q is %v, want a positive finite number", cfg.Columns[j], sc)

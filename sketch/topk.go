@@ -12,15 +12,10 @@ type topK struct {
 	wts  []float64 // per slot
 }
 
+// newTopK returns an empty reservoir. Its buffers grow as rows arrive, up to capacity rows, so a
+// reservoir that never fills (a small input, a decoded file) holds only what it keeps.
 func newTopK(capacity, d int) *topK {
-	return &topK{
-		cap:  capacity,
-		d:    d,
-		keys: make([]float64, 0, capacity),
-		slot: make([]int32, 0, capacity),
-		pts:  make([]float64, capacity*d),
-		wts:  make([]float64, capacity),
-	}
+	return &topK{cap: capacity, d: d}
 }
 
 // len reports how many rows are kept.
@@ -36,8 +31,8 @@ func (t *topK) min() float64 { return t.keys[0] }
 func (t *topK) offer(key float64, x []float64, w float64) {
 	if len(t.keys) < t.cap {
 		s := int32(len(t.keys))
-		copy(t.pts[int(s)*t.d:], x)
-		t.wts[s] = w
+		t.pts = append(t.pts, x...)
+		t.wts = append(t.wts, w)
 		t.keys = append(t.keys, key)
 		t.slot = append(t.slot, s)
 		t.up(len(t.keys) - 1)

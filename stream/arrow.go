@@ -3,7 +3,6 @@ package stream
 import (
 	"errors"
 	"fmt"
-	"os"
 
 	"github.com/apache/arrow/go/v17/arrow"
 	"github.com/apache/arrow/go/v17/arrow/array"
@@ -17,11 +16,15 @@ type arrowColumn struct {
 	scale int32 // decimals
 }
 
-func (d *Dataset) openArrow(i int, fh *os.File, f Format) ([]colInfo, error) {
+func (d *Dataset) openArrow(i int, fh Handle, f Format) ([]colInfo, error) {
 	path := d.Files[i].Path
 	var schema *arrow.Schema
+	if err := checkArrow(fh, f, -1); err != nil {
+		return nil, newError(path, "", err)
+	}
+	mem := newBoundedAllocator(d.Files[i].Size)
 	if f == ArrowFile {
-		fr, err := ipc.NewFileReader(fh)
+		fr, err := ipc.NewFileReader(fh, ipc.WithAllocator(mem))
 		if err != nil {
 			return nil, newError(path, "", err)
 		}
@@ -29,7 +32,7 @@ func (d *Dataset) openArrow(i int, fh *os.File, f Format) ([]colInfo, error) {
 		d.files[i].batches = fr.NumRecords()
 		fr.Close()
 	} else {
-		rd, err := ipc.NewReader(fh)
+		rd, err := ipc.NewReader(fh, ipc.WithAllocator(mem))
 		if err != nil {
 			return nil, newError(path, "", err)
 		}
@@ -106,8 +109,29 @@ func (s *arrowSource) resolve(schema *arrow.Schema) error {
 	return nil
 }
 
-func (d *Dataset) openArrowFileUnit(of *openFile, u Unit, fh *os.File) (*arrowSource, error) {
-	fr, err := ipc.NewFileReader(fh)
+// checkArrow checks the framing of an Arrow IPC file or stream (see guard.go)
+// before arrow's readers see it.
+// For a file, unit selects the record batch to check (-1: all of them).
+func checkArrow(fh Handle, f Format, unit int) error {
+	size, err := fileSize(fh)
+	if err != nil {
+		return err
+	}
+	if f == ArrowFile {
+		return checkArrowFile(fh, size, unit)
+	}
+	return checkIPCStream(fh, 0, size)
+}
+
+func (d *Dataset) openArrowFileUnit(of *openFile, u Unit, fh Handle) (*arrowSource, error) {
+	if err := checkArrow(fh, ArrowFile, u.Index); err != nil {
+		return nil, err
+	}
+	size, err := fileSize(fh)
+	if err != nil {
+		return nil, err
+	}
+	fr, err := ipc.NewFileReader(fh, ipc.WithAllocator(newBoundedAllocator(size)))
 	if err != nil {
 		return nil, err
 	}
@@ -127,8 +151,15 @@ func (d *Dataset) openArrowFileUnit(of *openFile, u Unit, fh *os.File) (*arrowSo
 	return s, nil
 }
 
-func (d *Dataset) openArrowStreamUnit(of *openFile, fh *os.File) (*arrowSource, error) {
-	rd, err := ipc.NewReader(fh)
+func (d *Dataset) openArrowStreamUnit(of *openFile, fh Handle) (*arrowSource, error) {
+	if err := checkArrow(fh, ArrowStream, 0); err != nil {
+		return nil, err
+	}
+	size, err := fileSize(fh)
+	if err != nil {
+		return nil, err
+	}
+	rd, err := ipc.NewReader(fh, ipc.WithAllocator(newBoundedAllocator(size)))
 	if err != nil {
 		return nil, err
 	}

@@ -4,7 +4,6 @@ import (
 	"errors"
 	"fmt"
 	"math/rand/v2"
-	"os"
 	"strings"
 
 	"github.com/parquet-go/parquet-go"
@@ -53,11 +52,12 @@ type Dataset struct {
 
 // openFile is what a Dataset keeps about one file.
 type openFile struct {
-	pq      *parquet.File // Parquet footer; its reader is closed, pages are read with PagesFrom
-	rowBase []int64       // Parquet: first row of each row group within the file
-	pqCols  []pqColumn    // Parquet: plan for each selected column
-	arCols  []arrowColumn // Arrow: plan for each selected column
-	batches int           // Arrow IPC file: number of record batches
+	pq       *parquet.File // Parquet footer; its reader is closed, pages are read with PagesFrom
+	footerAt int64         // Parquet: offset of the footer, where the data part ends
+	rowBase  []int64       // Parquet: first row of each row group within the file
+	pqCols   []pqColumn    // Parquet: plan for each selected column
+	arCols   []arrowColumn // Arrow: plan for each selected column
+	batches  int           // Arrow IPC file: number of record batches
 }
 
 // colInfo describes one top-level column of one file.
@@ -173,10 +173,10 @@ func Open(files []File, opt Options) (ds *Dataset, err error) {
 func (d *Dataset) openFile(i int, f File) (cols []colInfo, err error) {
 	defer func() {
 		if p := recover(); p != nil {
-			cols, err = nil, newError(f.Path, "", fmt.Errorf("panic while reading the schema: %v", p))
+			cols, err = nil, newError(f.Path, "", panicError("reading the schema", p))
 		}
 	}()
-	fh, err := os.Open(f.Path)
+	fh, err := openPath(f.Path)
 	if err != nil {
 		return nil, newError(f.Path, "", pathCause(err))
 	}

@@ -45,6 +45,8 @@ func Discover(patterns []string) ([]File, error) {
 		before := d.found
 		var err error
 		switch {
+		case isRemote(p):
+			err = d.remote(p)
 		case strings.ContainsAny(p, "*?["):
 			err = d.glob(p)
 		default:

@@ -34,6 +34,15 @@
 // the column and the row. Every error about a file or a column is, or wraps,
 // a *ReadError.
 //
+// Hostile files: before the decoding libraries see a file, the claimed
+// lengths they would allocate by are checked against the bytes that are there
+// (guard.go, guard_arrow.go): the Parquet footer's length and Thrift lists,
+// every selected column chunk's extent and page headers (page sizes, value
+// counts), and the Arrow IPC framing (message, body and block lengths, schema
+// field and child counts). Arrow buffers are allocated through an allocator
+// that refuses sizes beyond a bound derived from the file size. Failures wrap
+// ErrCorruptFile.
+//
 // The package starts no goroutines. A Dataset holds no open file descriptors
 // between calls: each UnitReader opens its own *os.File and closes it in
 // Close, so many units may be read in parallel from different goroutines.

@@ -3,7 +3,6 @@ package stream
 import (
 	"encoding/binary"
 	"io"
-	"os"
 )
 
 // Format is the container format of a data file.
@@ -32,7 +31,7 @@ func (f Format) String() string {
 // sniff returns the format of the file at path from its magic bytes, or 0
 // when it is none of the supported formats.
 func sniff(path string, size int64) (Format, error) {
-	f, err := os.Open(path)
+	f, err := openPath(path)
 	if err != nil {
 		return 0, err
 	}

@@ -1,9 +1,14 @@
 package stream
 
+import "math"
+
 // The kernels below copy one column's values for k consecutive rows into the
 // row-major output: value i goes to dst[o+i*d]. They mark bad[i] = 1 for a
 // null or NaN and return the index of the first ±Inf, or -1. The test v-v != 0
 // is true exactly for NaN and ±Inf, so finite values cost one compare.
+
+// nan is written where a value is null, so that a skipped row shows which columns made it bad.
+var nan = math.NaN()
 
 // number is the set of Go types the decoders hand out as typed slices.
 type number interface {
@@ -37,6 +42,7 @@ func putLevels[T number](dst []float64, o, d int, defs []byte, maxDef byte, src 
 	for i, lv := range defs {
 		if lv != maxDef {
 			bad[i] = 1
+			dst[o] = nan
 			o += d
 			continue
 		}
@@ -81,6 +87,7 @@ func putDictLevels(dst []float64, o, d int, defs []byte, maxDef byte, idx []int3
 	for i, lv := range defs {
 		if lv != maxDef {
 			bad[i] = 1
+			dst[o] = nan
 			o += d
 			continue
 		}
@@ -107,6 +114,7 @@ func putMasked[T number](dst []float64, o, d int, src []T, bitmap []byte, off in
 		b := off + i
 		if bitmap[b>>3]&(1<<(b&7)) == 0 {
 			bad[i] = 1
+			dst[o] = nan
 			o += d
 			continue
 		}
@@ -125,11 +133,17 @@ func putMasked[T number](dst []float64, o, d int, src []T, bitmap []byte, off in
 }
 
 // compact moves the rows not marked in bad to the front of dst (row width d)
-// and returns how many there are.
-func compact(dst []float64, bad []uint8, d int) int {
+// and returns how many there are; for each row it drops it counts, per
+// column, the nulls and NaNs in nulls.
+func compact(dst []float64, bad []uint8, d int, nulls []int64) int {
 	w := 0
 	for r, b := range bad {
 		if b != 0 {
+			for j, v := range dst[r*d : (r+1)*d] {
+				if v != v {
+					nulls[j]++
+				}
+			}
 			continue
 		}
 		if w != r {

@@ -7,7 +7,6 @@ import (
 	"io"
 	"math"
 	"math/big"
-	"os"
 
 	"github.com/apache/arrow/go/v17/arrow/decimal128"
 	"github.com/apache/arrow/go/v17/arrow/decimal256"
@@ -44,14 +43,19 @@ type pqColumn struct {
 	div    float64 // 10^scale for kDec32 and kDec64
 }
 
-func (d *Dataset) openParquet(i int, fh *os.File, size int64) ([]colInfo, error) {
+func (d *Dataset) openParquet(i int, fh Handle, size int64) ([]colInfo, error) {
 	path := d.Files[i].Path
+	footerAt, err := checkParquetFooter(fh, size)
+	if err != nil {
+		return nil, newError(path, "", err)
+	}
 	pf, err := parquet.OpenFile(fh, size, parquet.SkipPageIndex(true), parquet.SkipBloomFilters(true))
 	if err != nil {
 		return nil, newError(path, "", err)
 	}
 	of := &d.files[i]
 	of.pq = pf
+	of.footerAt = footerAt
 	var base int64
 	for _, rg := range pf.RowGroups() {
 		of.rowBase = append(of.rowBase, base)
@@ -325,13 +329,36 @@ type pqCursor struct {
 	scratch []float64 // converted page values for the conversion kinds
 }
 
-func (d *Dataset) openParquetUnit(of *openFile, u Unit, fh *os.File) (*pqSource, error) {
+func (d *Dataset) openParquetUnit(of *openFile, u Unit, fh Handle) (*pqSource, error) {
 	rgs := of.pq.RowGroups()
 	if u.Index < 0 || u.Index >= len(rgs) {
 		return nil, fmt.Errorf("no row group %d", u.Index)
 	}
 	rg := rgs[u.Index]
 	chunks := rg.ColumnChunks()
+	size, err := fileSize(fh)
+	if err != nil {
+		return nil, err
+	}
+	meta := of.pq.Metadata().RowGroups
+	if u.Index >= len(meta) {
+		return nil, fmt.Errorf("no row group %d in the footer", u.Index)
+	}
+	for c, plan := range of.pqCols {
+		if plan.leaf >= len(meta[u.Index].Columns) || plan.leaf >= len(chunks) {
+			return nil, &ReadError{File: d.Files[u.File].Path, Unit: u.Index, Row: -1, Column: d.Columns[c],
+				Err: corruptf("row group %d has no column chunk %d", u.Index, plan.leaf)}
+		}
+		cm := &meta[u.Index].Columns[plan.leaf].MetaData
+		start := cm.DataPageOffset
+		if cm.DictionaryPageOffset != 0 { // as parquet-go's FilePages does
+			start = cm.DictionaryPageOffset
+		}
+		if err := checkColumnChunk(fh, start, cm.TotalCompressedSize, min(of.footerAt, size), rg.NumRows()); err != nil {
+			return nil, &ReadError{File: d.Files[u.File].Path, Unit: u.Index, Row: -1, Column: d.Columns[c],
+				Err: fmt.Errorf("row group %d: %w", u.Index, err)}
+		}
+	}
 	s := &pqSource{cols: make([]pqCursor, len(of.pqCols)), remaining: rg.NumRows()}
 	for c, plan := range of.pqCols {
 		fc, ok := chunks[plan.leaf].(*parquet.FileColumnChunk)

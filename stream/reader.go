@@ -4,7 +4,6 @@ import (
 	"errors"
 	"fmt"
 	"io"
-	"os"
 )
 
 // source is one unit's decoder: Parquet row group or Arrow record batches.
@@ -33,11 +32,12 @@ type UnitReader struct {
 	unit     int
 	d        int
 	src      source
-	fh       *os.File
+	fh       Handle
 	rowBase  int64 // first row of the unit in the file (Parquet), or 0
 	batchRow bool  // rows count from the start of the record batch
 	row      int64 // rows consumed so far, skipped ones included
 	skipped  int64
+	nulls    []int64 // per column, nulls and NaNs among the skipped rows
 	bad      []uint8
 	err      error // sticky: io.EOF or the first failure
 }
@@ -55,10 +55,10 @@ func (d *Dataset) OpenUnit(u Unit) (r *UnitReader, err error) {
 			if r != nil && r.fh != nil {
 				r.fh.Close()
 			}
-			r, err = nil, &ReadError{File: f.Path, Unit: u.Index, Row: -1, Err: fmt.Errorf("panic while opening the unit: %v", p)}
+			r, err = nil, &ReadError{File: f.Path, Unit: u.Index, Row: -1, Err: panicError("opening the unit", p)}
 		}
 	}()
-	fh, err := os.Open(f.Path)
+	fh, err := openPath(f.Path)
 	if err != nil {
 		return nil, &ReadError{File: f.Path, Unit: u.Index, Row: -1, Err: pathCause(err)}
 	}
@@ -106,7 +106,7 @@ func (r *UnitReader) Read(dst []float64) (n int, err error) {
 	}
 	defer func() {
 		if p := recover(); p != nil {
-			r.err = r.wrap(&colError{col: -1, row: -1, err: fmt.Errorf("panic while decoding: %v", p)})
+			r.err = r.wrap(&colError{col: -1, row: -1, err: panicError("decoding", p)})
 			n, err = 0, r.err
 		}
 	}()
@@ -126,7 +126,10 @@ func (r *UnitReader) Read(dst []float64) (n int, err error) {
 			r.err = io.EOF
 			return 0, io.EOF
 		}
-		n = compact(dst[:m*r.d], bad[:m], r.d)
+		if r.nulls == nil {
+			r.nulls = make([]int64, r.d)
+		}
+		n = compact(dst[:m*r.d], bad[:m], r.d, r.nulls)
 		r.skipped += int64(m - n)
 		r.row += int64(m)
 		if n > 0 {
@@ -153,6 +156,10 @@ func (r *UnitReader) wrap(err error) error {
 
 // Skipped returns how many rows were left out so far because of a null or NaN.
 func (r *UnitReader) Skipped() int64 { return r.skipped }
+
+// SkippedByColumn returns, per selected column, how many of the skipped rows had a null or NaN
+// there (a row may count in several columns). It returns nil before any row was skipped.
+func (r *UnitReader) SkippedByColumn() []int64 { return r.nulls }
 
 // Close releases the decoder's buffers and closes the file.
 func (r *UnitReader) Close() error {

@@ -20,6 +20,14 @@
 // values of a household do not depend on Order (Sorted and Shuffled files hold the same
 // rows in another order).
 //
+// # Concurrency
+//
+// WriteLoads and WriteMixture generate rows on one extra goroutine, at most two pieces of
+// 32,768 rows ahead of the writer, and stop it before they return. All functions are safe
+// to call concurrently with different paths.
+//
+// # Files
+//
 // Files are written to a temporary name in the target directory and renamed into place,
 // so a reader never sees a half-written file.
 package synth

@@ -133,10 +133,10 @@ func MeanCurve(a int) []float64 {
 // size scales its curve log-normally, its habits shift the day by a fraction of an hour,
 // and each day adds a little more of both.
 const (
-	homeAmpSD   = 0.18 // log-sd of a household's size
-	homeShiftSD = 0.35 // hours
-	dayAmpSD    = 0.08
-	dayShiftSD  = 0.25
+	homeAmpSD   = 0.10 // log-sd of a household's size
+	homeShiftSD = 0.25 // hours
+	dayAmpSD    = 0.04
+	dayShiftSD  = 0.15
 	maxShift    = 1.5
 )
 

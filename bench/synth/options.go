@@ -261,10 +261,10 @@ func (o MixtureOptions) Validate() error {
 	switch {
 	case o.Rows < 1 || o.Rows > maxRows:
 		return fmt.Errorf("synth: rows must be 1..%d, got %d", int64(maxRows), o.Rows)
-	case o.Dims < 1 || o.Dims > 10_000:
-		return fmt.Errorf("synth: dims must be 1..10000, got %d", o.Dims)
-	case o.K < 1 || o.K > 100_000:
-		return fmt.Errorf("synth: k must be 1..100000, got %d", o.K)
+	case o.Dims < 1 || o.Dims > 1000:
+		return fmt.Errorf("synth: dims must be 1..1000, got %d", o.Dims)
+	case o.K < 1 || o.K > 10_000:
+		return fmt.Errorf("synth: k must be 1..10000, got %d", o.K)
 	case !(o.Separation >= 0) || math.IsInf(o.Separation, 0):
 		return fmt.Errorf("synth: separation must be a finite value >= 0, got %v", o.Separation)
 	case o.Elongation != 0 && !(o.Elongation >= 1 && o.Elongation <= 1e6):

@@ -10,6 +10,7 @@ import (
 
 	"github.com/apache/arrow/go/v17/arrow"
 	"github.com/apache/arrow/go/v17/arrow/array"
+	"github.com/apache/arrow/go/v17/arrow/memory"
 	"github.com/apache/arrow/go/v17/parquet"
 	"github.com/apache/arrow/go/v17/parquet/compress"
 	"github.com/apache/arrow/go/v17/parquet/file"
@@ -272,4 +273,36 @@ func sameFields(a, b *arrow.Schema) bool {
 		}
 	}
 	return true
+}
+
+// TestWriteReleasesMemory checks with arrow's checked allocator that every builder,
+// array and record is released, for both generators and every format.
+func TestWriteReleasesMemory(t *testing.T) {
+	var checked []*memory.CheckedAllocator
+	saved := newAllocator
+	newAllocator = func() memory.Allocator {
+		c := memory.NewCheckedAllocator(memory.NewGoAllocator())
+		checked = append(checked, c)
+		return c
+	}
+	defer func() { newAllocator = saved }()
+	for _, f := range allFormats {
+		o := smallLoads(3000)
+		o.Format, o.RowGroup, o.NullShare = f, 1000, 0.1
+		if _, err := WriteLoads(t.TempDir(), o); err != nil {
+			t.Fatal(err)
+		}
+		m := MixtureOptions{Rows: 3000, Dims: 3, K: 2, RowGroup: 1000, Format: f, Nullable: true, NullShare: 0.1}
+		if err := WriteMixture(filepath.Join(t.TempDir(), "m"), m); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if len(checked) != 6 {
+		t.Fatalf("%d allocators used, want 6", len(checked))
+	}
+	for i, c := range checked {
+		if n := c.CurrentAlloc(); n != 0 {
+			t.Errorf("file %d: %d bytes not released", i, n)
+		}
+	}
 }

@@ -20,6 +20,7 @@ const (
 	ExitUsage       = 2
 	ExitInput       = 3
 	ExitOutput      = 4
+	ExitDrift       = 5 // track: a newly profiled partition drifted
 	ExitInterrupted = 130
 )
 
@@ -51,7 +52,7 @@ func exitCode(err error) int {
 		return ExitOK
 	case errors.Is(err, context.Canceled):
 		return ExitInterrupted
-	case errors.As(err, &ue):
+	case errors.As(err, &ue), errors.Is(err, kgauge.ErrMemoryLimit):
 		return ExitUsage
 	case errors.As(err, &oe):
 		return ExitOutput

@@ -13,7 +13,9 @@ import (
 	"time"
 
 	"github.com/kgauge/kgauge"
+	"github.com/kgauge/kgauge/bench/model"
 	"github.com/kgauge/kgauge/internal/atomicfile"
+	htmlreport "github.com/kgauge/kgauge/report"
 	"github.com/kgauge/kgauge/sketch"
 	"github.com/schollz/progressbar/v3"
 	"golang.org/x/term"
@@ -33,6 +35,8 @@ type estimateFlags struct {
 	quiet      bool
 	out        string
 	saveSketch string
+	memory     string
+	report     string
 }
 
 func (f *estimateFlags) register(fs *flag.FlagSet) {
@@ -53,10 +57,12 @@ func (f *estimateFlags) register(fs *flag.FlagSet) {
 	fs.IntVar(&o.Criteria.GapSample, "gap-sample", o.Criteria.GapSample, "points per gap reference set and on the data side")
 	fs.IntVar(&o.ProbeRows, "probe-rows", o.ProbeRows, "rows read before the pass to fix the scale")
 	fs.IntVar(&o.BatchRows, "batch-rows", o.BatchRows, "rows per read batch")
+	fs.StringVar(&f.memory, "memory", "", "memory limit such as 512MiB or 2GiB: sizes shrink to fit the estimate (default: no limit)")
 	fs.BoolVar(&f.asJSON, "json", false, "print one JSON document instead of the table")
 	fs.BoolVar(&f.quiet, "quiet", false, "no progress bar")
 	fs.StringVar(&f.out, "out", "", "also write the JSON result to this file (atomically)")
 	fs.StringVar(&f.saveSketch, "save-sketch", "", "write the merged sketch to this file (atomically)")
+	fs.StringVar(&f.report, "report", "", "also write a self-contained HTML report with plots to this file (atomically)")
 }
 
 // options returns the bound options after checking the flag values.
@@ -80,6 +86,11 @@ func (f *estimateFlags) options() (kgauge.Options, error) {
 		return o, usageErrorf("--scale: %v", err)
 	}
 	o.Scale = sc
+	if f.memory != "" {
+		if o.Memory, err = kgauge.ParseBytes(f.memory); err != nil {
+			return o, usageErrorf("--memory: %v", err)
+		}
+	}
 	if f.columns != "" {
 		for _, c := range strings.Split(f.columns, ",") {
 			if c = strings.TrimSpace(c); c != "" {
@@ -141,17 +152,24 @@ func (c *EstimateCommand) Run(ctx context.Context, args []string) error {
 // runEstimate runs the estimate with a progress bar when stderr is a terminal, then writes the
 // requested files.
 func runEstimate(ctx context.Context, paths []string, opt kgauge.Options, f *estimateFlags, stderr io.Writer) (*kgauge.Result, error) {
-	for _, p := range []string{f.out, f.saveSketch} {
+	for _, p := range []string{f.out, f.saveSketch, f.report} {
 		if p != "" {
 			if err := checkOutputDir(p); err != nil {
 				return nil, err
 			}
 		}
 	}
+	// The model prices the run from the footers before it starts: the bar's first ETA, the
+	// projection to 10× and 100× the input, and the report's plan section.
+	work, plan := planFor(paths, opt)
 	var stopBar func()
 	if !f.quiet && isTerminal(stderr) {
 		opt.Progress = new(kgauge.Progress)
-		stopBar = showProgress(opt.Progress, stderr)
+		var terms model.Terms
+		if plan != nil {
+			terms = plan.Terms
+		}
+		stopBar = showProgress(opt.Progress, stderr, terms)
 	}
 	res, sk, err := kgauge.Estimate(ctx, paths, opt)
 	if stopBar != nil {
@@ -159,6 +177,12 @@ func runEstimate(ctx context.Context, paths []string, opt kgauge.Options, f *est
 	}
 	if err != nil {
 		return nil, err
+	}
+	kgauge.Project(res, work)
+	if f.report != "" {
+		if err := htmlreport.Write(f.report, res, plan); err != nil {
+			return nil, &outputError{err}
+		}
 	}
 	if f.saveSketch != "" {
 		if err := saveSketch(f.saveSketch, sk); err != nil {
@@ -199,13 +223,17 @@ func isTerminal(w io.Writer) bool {
 	return ok && term.IsTerminal(int(f.Fd()))
 }
 
-// showProgress draws a bar of rows read on w until the returned function is called.
-func showProgress(p *kgauge.Progress, w io.Writer) func() {
+// showProgress draws a bar of rows read on w until the returned function is called. Its ETA starts
+// from the model's predicted terms (zero when unknown) and moves to the rate
+// measured on the rows read so far as the pass advances.
+func showProgress(p *kgauge.Progress, w io.Writer, pred model.Terms) func() {
 	done := make(chan struct{})
 	finished := make(chan struct{})
+	start := time.Now()
 	go func() {
 		defer close(finished)
 		var bar *progressbar.ProgressBar
+		lastStage, stageStart := "", time.Now()
 		tick := time.NewTicker(150 * time.Millisecond)
 		defer tick.Stop()
 		for {
@@ -227,20 +255,59 @@ func showProgress(p *kgauge.Progress, w io.Writer) func() {
 					progressbar.OptionSetItsString("rows"),
 					progressbar.OptionThrottle(100*time.Millisecond),
 					progressbar.OptionClearOnFinish(),
-					progressbar.OptionSetPredictTime(true))
+					progressbar.OptionSetPredictTime(false))
 			}
-			if bar != nil {
-				bar.Set64(p.Rows.Load())
-				if s, _ := p.Stage.Load().(string); s == "criteria" {
-					bar.Describe("scoring k")
-				}
+			if bar == nil {
+				continue
 			}
+			rows := p.Rows.Load()
+			stage, _ := p.Stage.Load().(string)
+			if stage != lastStage {
+				lastStage, stageStart = stage, time.Now()
+			}
+			bar.Set64(rows)
+			label := "reading"
+			if stage == "criteria" {
+				label = "scoring k"
+			}
+			if eta := progressETA(pred, time.Since(start).Seconds(), stage, stageStart, rows, total); eta >= 0 {
+				label += fmt.Sprintf(" · about %s left", secondsText(eta))
+			}
+			bar.Describe(label)
 		}
 	}()
 	return func() {
 		close(done)
 		<-finished
 	}
+}
+
+// progressETA is the remaining seconds of the run, or -1 when nothing is known. Before the pass it is
+// the model's prediction less the time elapsed. During the pass, at a share f of the rows read, the
+// pass's remaining time is (1−f)·(model's) + f·(measured rate's), so the model leads at the start and
+// the measurement at the end; the model's criteria time follows. While scoring k it is the model's
+// criteria time less the time spent on them.
+func progressETA(pred model.Terms, elapsed float64, stage string, stageStart time.Time, rows, total int64) float64 {
+	total0 := pred.Open + pred.Probe + pred.Pass + pred.Criteria
+	inStage := time.Since(stageStart).Seconds()
+	switch {
+	case stage == "criteria":
+		if total0 <= 0 {
+			return -1
+		}
+		return max(pred.Criteria-inStage, 0)
+	case stage == "pass" && total > 0 && rows > 0:
+		f := min(float64(rows)/float64(total), 1)
+		measured := inStage * (1 - f) / f
+		if total0 <= 0 {
+			return measured
+		}
+		return (1-f)*max(pred.Pass-inStage, 0) + f*measured + pred.Criteria
+	}
+	if total0 <= 0 {
+		return -1
+	}
+	return max(total0-elapsed, 0)
 }
 
 func writeJSON(w io.Writer, res *kgauge.Result) error {

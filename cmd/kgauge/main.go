@@ -28,8 +28,12 @@ func Run(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	switch args[0] {
 	case "estimate":
 		err = (&EstimateCommand{Stdout: stdout, Stderr: stderr}).Run(ctx, args[1:])
+	case "plan":
+		err = (&PlanCommand{Stdout: stdout, Stderr: stderr}).Run(ctx, args[1:])
 	case "synth":
 		err = (&SynthCommand{Stdout: stdout, Stderr: stderr}).Run(ctx, args[1:])
+	case "track":
+		return runTrack(ctx, args[1:], stdout, stderr)
 	case "demo":
 		err = (&DemoCommand{Stdout: stdout, Stderr: stderr}).Run(ctx, args[1:])
 	case "version":
@@ -48,8 +52,10 @@ const usageText = `kgauge estimates the number of clusters k in Parquet and Arro
 
 Usage:
   kgauge estimate [flags] PATH...   score every k in range and give a verdict
+  kgauge plan [flags] PATH...       predict the estimate's wall time and peak memory before it runs
   kgauge synth [flags]              write the demo lake of household load profiles
   kgauge demo [flags]               synthesise a small partition and estimate its k
+  kgauge track ROOT --ledger FILE   profile new KEY=VALUE partitions into a ledger, flag drift
   kgauge version                    print the version
 
 PATH is a file, a directory (read recursively), a glob (** matches any depth), or a sketch file
@@ -61,6 +67,7 @@ Exit codes:
   2    usage: unknown command or flag, bad flag value
   3    bad input: missing, unreadable or invalid file; column problems; too few usable rows
   4    an output file could not be written
+  5    track: a newly profiled partition drifted (see the ledger's drift reasons)
   130  interrupted (SIGINT or SIGTERM); no partial output is left behind
 
 A cluster count is evidence for a person to review, not a fact.

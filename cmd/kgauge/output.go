@@ -92,6 +92,9 @@ func writeTable(w io.Writer, res *kgauge.Result) error {
 		fmt.Fprintf(&b, " · runner-up k = %d", *res.RunnerUp)
 	}
 	b.WriteString("\n")
+	if res.AtMaxK {
+		fmt.Fprintf(&b, "  most criteria are still improving at --max-k %d: the best k may be larger; widen the range\n", res.MaxK)
+	}
 	if len(res.Agree) > 0 {
 		fmt.Fprintf(&b, "  for k = %d: %s\n", res.K, strings.Join(res.Agree, ", "))
 	}

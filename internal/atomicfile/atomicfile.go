@@ -10,6 +10,10 @@ import (
 	"path/filepath"
 )
 
+// WrapWriter, when set, wraps the temporary file's writer before fill sees it. It is a test seam
+// (a full disk is simulated with a writer that fails with ENOSPC); production code leaves it nil.
+var WrapWriter func(io.Writer) io.Writer
+
 // Write calls fill with a writer on a temporary file next to path and, when fill succeeds, syncs the
 // file and renames it to path. On any failure the temporary file is removed and path is untouched.
 func Write(path string, perm os.FileMode, fill func(w io.Writer) error) (err error) {
@@ -25,7 +29,11 @@ func Write(path string, perm os.FileMode, fill func(w io.Writer) error) (err err
 			os.Remove(tmp)
 		}
 	}()
-	if err = fill(f); err != nil {
+	var w io.Writer = f
+	if WrapWriter != nil {
+		w = WrapWriter(f)
+	}
+	if err = fill(w); err != nil {
 		return fmt.Errorf("write %s: %w", path, err)
 	}
 	if err = f.Chmod(perm); err != nil {

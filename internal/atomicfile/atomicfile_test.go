@@ -5,6 +5,7 @@ import (
 	"io"
 	"os"
 	"path/filepath"
+	"syscall"
 	"testing"
 )
 
@@ -39,3 +40,24 @@ func TestWrite(t *testing.T) {
 		t.Fatal("writing into a missing directory succeeded")
 	}
 }
+
+// TestFullDisk: a write that fails with ENOSPC (simulated through WrapWriter) leaves neither the
+// target nor a temporary file.
+func TestFullDisk(t *testing.T) {
+	dir := t.TempDir()
+	path := filepath.Join(dir, "out.json")
+	WrapWriter = func(io.Writer) io.Writer { return fullWriter{} }
+	defer func() { WrapWriter = nil }()
+	err := Write(path, 0o644, func(w io.Writer) error { _, err := io.WriteString(w, "{}"); return err })
+	if !errors.Is(err, syscall.ENOSPC) {
+		t.Fatalf("got %v, want ENOSPC", err)
+	}
+	if entries, _ := os.ReadDir(dir); len(entries) != 0 {
+		t.Fatalf("files left behind: %v", entries)
+	}
+}
+
+// fullWriter fails every write as a full disk does.
+type fullWriter struct{}
+
+func (fullWriter) Write([]byte) (int, error) { return 0, syscall.ENOSPC }

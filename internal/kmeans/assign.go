@@ -183,13 +183,25 @@ func assignWith(x []float64, d int, centres, norms []float64, labels []int32, di
 	}
 }
 
-// Dist2 returns the squared Euclidean distance between a and b (equal lengths).
+// Dist2 returns the squared Euclidean distance between a and b (len(b) >= len(a)). It keeps
+// four partial sums so the additions do not wait on each other.
 func Dist2(a, b []float64) float64 {
 	b = b[:len(a)]
-	s := 0.0
-	for i, v := range a {
-		t := v - b[i]
-		s += t * t
+	var s0, s1, s2, s3 float64
+	i := 0
+	for ; i+3 < len(a); i += 4 {
+		t0 := a[i] - b[i]
+		t1 := a[i+1] - b[i+1]
+		t2 := a[i+2] - b[i+2]
+		t3 := a[i+3] - b[i+3]
+		s0 += t0 * t0
+		s1 += t1 * t1
+		s2 += t2 * t2
+		s3 += t3 * t3
 	}
-	return s
+	for ; i < len(a); i++ {
+		t := a[i] - b[i]
+		s0 += t * t
+	}
+	return (s0 + s1) + (s2 + s3)
 }

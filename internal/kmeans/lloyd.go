@@ -33,13 +33,17 @@ func (o LloydOptions) withDefaults() LloydOptions {
 
 // Lloyd runs weighted Lloyd iterations (Lloyd 1982, "Least squares quantization in PCM") from
 // init (k*D values; copied, not modified): assign every point to its nearest centre, move each
-// centre to the weighted mean of its points, until the relative decrease of the weighted cost
-// is <= opt.Tol or opt.MaxIter iterations have run. The returned Labels are the nearest centres of
-// the returned Centres and Cost is recomputed exactly as sum w ||x - c||^2 (not in the dot form).
+// centre to the weighted mean of its points, until no label changes, the relative decrease of the
+// weighted cost is <= opt.Tol, or opt.MaxIter iterations have run. Assignments use Hamerly's
+// bounds (Hamerly 2010, "Making k-means even faster", SIAM SDM): an upper bound on the distance to
+// the assigned centre and a lower bound on the distance to every other centre, moved by the centre
+// shifts, skip points whose label cannot change; the result is that of plain Lloyd up to
+// floating-point ties. The returned Labels are the nearest centres of the returned Centres and Cost
+// is computed exactly as sum w ||x - c||^2.
 //
 // Empty clusters: after each assignment a cluster with no weight is re-seeded with the point
-// farthest (largest squared distance) from its current centre among points not yet used for
-// re-seeding; if every point is at distance 0 (fewer distinct points than k) the centre is left
+// farthest (largest squared distance) from its current centre among points whose cluster keeps
+// some weight; if every point is at distance 0 (fewer distinct points than k) the centre is left
 // where it is, and the final Result then has duplicate centres with Sizes 0.
 func Lloyd(p Data, init []float64, opt LloydOptions) Result {
 	p.check()
@@ -55,27 +59,193 @@ func Lloyd(p Data, init []float64, opt LloydOptions) Result {
 	if n == 0 {
 		return res
 	}
-	var a Assigner
-	dist2 := make([]float64, n)
+	h := newHamerly(p, k)
 	sums := make([]float64, k*d)
+	old := make([]float64, k*d)
 	prev := math.Inf(1)
 	for it := 1; it <= opt.MaxIter; it++ {
 		res.Iters = it
-		a.Assign(p.X, d, c, res.Labels, dist2)
-		cost := 0.0
-		for i := 0; i < n; i++ {
-			cost += p.Weight(i) * dist2[i]
+		changed := h.assign(c, res.Labels, it == 1)
+		if it > 1 && changed == 0 {
+			break // labels unchanged: the centres are already their means
 		}
-		reseedEmpty(p, res.Labels, dist2, res.Sizes, k)
+		if h.reseed(c, res.Labels, res.Sizes) {
+			changed++
+		}
+		copy(old, c)
 		update(p, res.Labels, c, sums, res.Sizes)
+		cost := exactCost(p, c, res.Labels, res.Sizes)
+		h.move(old, c, res.Labels)
 		if cost == 0 || (!math.IsInf(prev, 1) && prev-cost <= opt.Tol*prev) {
 			break
 		}
 		prev = cost
 	}
-	a.Assign(p.X, d, c, res.Labels, nil)
+	h.assign(c, res.Labels, false)
 	res.Cost = exactCost(p, c, res.Labels, res.Sizes)
 	return res
+}
+
+// hamerly holds the per-point bounds of Hamerly's algorithm (Euclidean distances).
+type hamerly struct {
+	p     Data
+	k     int
+	upper []float64 // >= distance to the assigned centre
+	lower []float64 // <= distance to every other centre
+	half  []float64 // half the distance from each centre to its nearest other centre
+	shift []float64
+}
+
+func newHamerly(p Data, k int) *hamerly {
+	n := p.Len()
+	return &hamerly{p: p, k: k, upper: make([]float64, n), lower: make([]float64, n),
+		half: make([]float64, k), shift: make([]float64, k)}
+}
+
+// nearest2 returns the nearest and second-nearest squared distances of x to the centres,
+// four centres at a time (independent sums, x loaded once per four centres).
+func nearest2(x, c []float64, k, d int) (best int, d1, d2 float64) {
+	d1, d2 = math.Inf(1), math.Inf(1)
+	consider := func(v float64, j int) {
+		if v < d1 {
+			d2, d1, best = d1, v, j
+		} else if v < d2 {
+			d2 = v
+		}
+	}
+	j := 0
+	for ; j+3 < k; j += 4 {
+		c0 := c[j*d : j*d+d : j*d+d]
+		c1 := c[(j+1)*d : (j+1)*d+d : (j+1)*d+d]
+		c2 := c[(j+2)*d : (j+2)*d+d : (j+2)*d+d]
+		c3 := c[(j+3)*d : (j+3)*d+d : (j+3)*d+d]
+		c0, c1, c2, c3 = c0[:len(x)], c1[:len(x)], c2[:len(x)], c3[:len(x)]
+		var s0, s1, s2, s3 float64
+		for t, v := range x {
+			e0, e1, e2, e3 := v-c0[t], v-c1[t], v-c2[t], v-c3[t]
+			s0 += e0 * e0
+			s1 += e1 * e1
+			s2 += e2 * e2
+			s3 += e3 * e3
+		}
+		consider(s0, j)
+		consider(s1, j+1)
+		consider(s2, j+2)
+		consider(s3, j+3)
+	}
+	for ; j < k; j++ {
+		consider(Dist2(x, c[j*d:j*d+d]), j)
+	}
+	return best, d1, d2
+}
+
+// assign updates labels (all points when full) and returns the number of changed labels.
+func (h *hamerly) assign(c []float64, labels []int32, full bool) int {
+	p, k, d := h.p, h.k, h.p.D
+	if k == 1 {
+		changed := 0
+		for i := range labels {
+			if labels[i] != 0 {
+				labels[i] = 0
+				changed++
+			}
+		}
+		if full {
+			return len(labels)
+		}
+		return changed
+	}
+	if !full {
+		for j := 0; j < k; j++ {
+			m := math.Inf(1)
+			for jj := 0; jj < k; jj++ {
+				if jj != j {
+					m = math.Min(m, Dist2(c[j*d:j*d+d], c[jj*d:jj*d+d]))
+				}
+			}
+			h.half[j] = 0.5 * math.Sqrt(m)
+		}
+	}
+	changed := 0
+	for i := range labels {
+		x := p.Point(i)
+		if !full {
+			a := labels[i]
+			m := math.Max(h.half[a], h.lower[i])
+			if h.upper[i] <= m {
+				continue
+			}
+			h.upper[i] = math.Sqrt(Dist2(x, c[int(a)*d:int(a)*d+d]))
+			if h.upper[i] <= m {
+				continue
+			}
+		}
+		b, d1, d2 := nearest2(x, c, k, d)
+		if full || int32(b) != labels[i] {
+			changed++
+		}
+		labels[i] = int32(b)
+		h.upper[i], h.lower[i] = math.Sqrt(d1), math.Sqrt(d2)
+	}
+	return changed
+}
+
+// reseed re-seeds empty clusters with the farthest points (see Lloyd); it reports whether it did.
+func (h *hamerly) reseed(c []float64, labels []int32, sizes []float64) bool {
+	p, d := h.p, h.p.D
+	for j := range sizes {
+		sizes[j] = 0
+	}
+	for i, l := range labels {
+		sizes[l] += p.Weight(i)
+	}
+	empty := false
+	for _, s := range sizes {
+		if s == 0 {
+			empty = true
+		}
+	}
+	if !empty {
+		return false
+	}
+	dist2 := make([]float64, len(labels))
+	for i, l := range labels {
+		dist2[i] = Dist2(p.Point(i), c[int(l)*d:int(l)*d+d])
+	}
+	before := append([]int32(nil), labels...)
+	reseedEmpty(p, labels, dist2, sizes, h.k)
+	did := false
+	for i := range labels {
+		if labels[i] != before[i] {
+			// The point now sits on its own (moved) centre; 0 is a valid lower bound.
+			h.upper[i], h.lower[i] = 0, 0
+			did = true
+		}
+	}
+	return did
+}
+
+// move shifts the bounds by the centre movements from old to c.
+func (h *hamerly) move(old, c []float64, labels []int32) {
+	k, d := h.k, h.p.D
+	m1, m2, arg := 0.0, 0.0, -1
+	for j := 0; j < k; j++ {
+		s := math.Sqrt(Dist2(old[j*d:j*d+d], c[j*d:j*d+d]))
+		h.shift[j] = s
+		if s > m1 {
+			m2, m1, arg = m1, s, j
+		} else if s > m2 {
+			m2 = s
+		}
+	}
+	for i, l := range labels {
+		h.upper[i] += h.shift[l]
+		if int(l) == arg {
+			h.lower[i] -= m2
+		} else {
+			h.lower[i] -= m1
+		}
+	}
 }
 
 // reseedEmpty moves the farthest points into empty clusters (see Lloyd).

@@ -1,0 +1,326 @@
+package model
+
+import (
+	"bytes"
+	_ "embed"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"math"
+)
+
+// Calibration holds the measured constants of the cost model. Rates are per worker (one goroutine on
+// one core); times are seconds; sizes are bytes.
+type Calibration struct {
+	Source  string `json:"source"`  // how the constants were obtained
+	Machine string `json:"machine"` // where: CPU count, GOARCH, Go version
+	Command string `json:"command"` // the command that wrote them
+
+	OpenFileSeconds float64 `json:"open_file_seconds"` // reading one footer or schema
+	OpenUnitSeconds float64 `json:"open_unit_seconds"` // opening one row group or record batch
+	ScanBytesPerSec float64 `json:"scan_bytes_per_second"`
+	AddSecPerValue  float64 `json:"add_seconds_per_value"` // sketch.Add per row and column, steady state
+	KernelPKDPerSec float64 `json:"kernel_pkd_per_second"` // mini-batch points × k × d per second
+
+	CriteriaWorkPerSec float64 `json:"criteria_work_per_second"` // small criteria run: work units per second
+	CriteriaScaleUp    float64 `json:"criteria_scale_up"`        // full-size rate ÷ small-run rate
+	CriteriaFixed      float64 `json:"criteria_fixed_seconds"`   // summary, PCA box, Ward, votes
+
+	PassOverhead     float64 `json:"pass_overhead"`     // measured pass ÷ pass priced from probe rates (0 means 1)
+	ProbeOverhead    float64 `json:"probe_overhead"`    // the same for the estimate's own probe stage (0 means 1)
+	ParallelFraction float64 `json:"parallel_fraction"` // p of Amdahl's law for the pass
+	Cores            int     `json:"cores"`             // CPUs the constants were measured with
+
+	PageBytes int64 `json:"page_bytes"` // page buffer held per column chunk being read
+	BaseBytes int64 `json:"base_bytes"` // Go runtime, binary and footers
+
+	// Probe records what a plan's timed probe replaced, for the report; empty for the defaults.
+	Probe *ProbeTiming `json:"probe,omitempty"`
+}
+
+// ProbeTiming is what a plan's short timed read measured on the real input.
+type ProbeTiming struct {
+	Units           int     `json:"units"`          // whole units read
+	Rows            int64   `json:"rows"`           // rows read
+	Bytes           int64   `json:"bytes"`          // unit bytes read
+	ReadSeconds     float64 `json:"read_seconds"`   // reading them
+	OpenSeconds     float64 `json:"open_seconds"`   // opening them
+	SketchSeconds   float64 `json:"sketch_seconds"` // sketch.Add, steady state and with full feed
+	CriteriaSeconds float64 `json:"criteria_seconds"`
+}
+
+//go:embed calibration.json
+var defaultJSON []byte
+
+// Default returns the committed benchmark-derived constants (calibration.json).
+func Default() Calibration {
+	c, err := Parse(defaultJSON)
+	if err != nil {
+		panic("model: embedded calibration.json: " + err.Error())
+	}
+	return c
+}
+
+// Parse decodes and checks a calibration file.
+func Parse(b []byte) (Calibration, error) {
+	var c Calibration
+	dec := json.NewDecoder(bytes.NewReader(b))
+	dec.DisallowUnknownFields()
+	if err := dec.Decode(&c); err != nil {
+		return c, fmt.Errorf("model: calibration: %w", err)
+	}
+	return c, c.Validate()
+}
+
+// Validate reports the first constant that is missing or out of range.
+func (c Calibration) Validate() error {
+	for _, f := range []struct {
+		name string
+		v    float64
+	}{{"scan_bytes_per_second", c.ScanBytesPerSec}, {"add_seconds_per_value", c.AddSecPerValue},
+		{"kernel_pkd_per_second", c.KernelPKDPerSec}, {"criteria_work_per_second", c.CriteriaWorkPerSec},
+		{"criteria_scale_up", c.CriteriaScaleUp}} {
+		if !(f.v > 0) || math.IsInf(f.v, 0) {
+			return fmt.Errorf("model: calibration %s must be a positive number, got %v", f.name, f.v)
+		}
+	}
+	switch {
+	case c.OpenFileSeconds < 0 || c.OpenUnitSeconds < 0 || c.CriteriaFixed < 0 || c.PassOverhead < 0 || c.ProbeOverhead < 0:
+		return errors.New("model: calibration times must not be negative")
+	case !(c.ParallelFraction >= 0 && c.ParallelFraction <= 1):
+		return fmt.Errorf("model: calibration parallel_fraction must be in [0, 1], got %v", c.ParallelFraction)
+	case c.Cores < 1:
+		return fmt.Errorf("model: calibration cores must be at least 1, got %d", c.Cores)
+	case c.PageBytes < 0 || c.BaseBytes < 0:
+		return errors.New("model: calibration sizes must not be negative")
+	}
+	return nil
+}
+
+// JSON encodes c as calibration.json is written.
+func (c Calibration) JSON() ([]byte, error) {
+	b, err := json.MarshalIndent(c, "", "  ")
+	return append(b, '\n'), err
+}
+
+// Workload is what the model needs to know about a run: the input's shape from its metadata and the
+// estimate's settings.
+type Workload struct {
+	Files, Units int
+	Rows         int64 // from metadata; when unknown (Arrow IPC) estimated from Bytes
+	Bytes        int64 // stream unit bytes of the selected columns
+	Dims         int
+	Workers      int
+	Cores        int // CPUs available; 0 means the calibration's
+
+	MinK, MaxK    int
+	Coreset       int
+	Sample        int
+	MiniBatchRows int64
+	BatchRows     int
+	ProbeRows     int
+	ProbeUnits    int
+	Restarts      int
+	Anchors       int
+	GapRefs       int
+	GapSample     int
+	GapRestarts   int
+}
+
+// Validate reports a workload the model cannot price.
+func (w Workload) Validate() error {
+	switch {
+	case w.Dims < 1:
+		return fmt.Errorf("model: workload needs at least one column, got %d", w.Dims)
+	case w.Workers < 1:
+		return fmt.Errorf("model: workload needs at least one worker, got %d", w.Workers)
+	case w.MinK < 1 || w.MaxK < w.MinK:
+		return fmt.Errorf("model: bad k range %d..%d", w.MinK, w.MaxK)
+	case w.Rows < 0 || w.Bytes < 0:
+		return errors.New("model: workload rows and bytes must not be negative")
+	}
+	return nil
+}
+
+// Scaled returns w with f times the rows, bytes, units and files (f = 10 for "ten times the data").
+func (w Workload) Scaled(f float64) Workload {
+	w.Rows = int64(math.Round(float64(w.Rows) * f))
+	w.Bytes = int64(math.Round(float64(w.Bytes) * f))
+	w.Units = max(1, int(math.Round(float64(w.Units)*f)))
+	w.Files = max(1, int(math.Round(float64(w.Files)*f)))
+	return w
+}
+
+// SumK is Σk over the candidate range.
+func (w Workload) SumK() int64 {
+	return int64(w.MaxK+w.MinK) * int64(w.MaxK-w.MinK+1) / 2
+}
+
+// CriteriaWork counts the criteria's arithmetic in work units (one unit = one point × centre × column,
+// or one point × anchor × column): the coreset fits (restarts plus the mini-batch seed) and the mixture
+// fit, the gap statistic's data-side fit and 2B reference fits, and the silhouette anchors against
+// the coreset. Lloyd iterations are not counted; the calibrated rate absorbs them.
+func CriteriaWork(coreset, minK, maxK, d, restarts, gapRefs, gapSample, gapRestarts, anchors int) float64 {
+	nk := float64(maxK - minK + 1)
+	sumK := float64(maxK+minK) * nk / 2
+	m, g := float64(coreset), float64(gapSample)
+	fits := sumK * (float64(restarts+2)*m + float64(1+2*gapRefs)*float64(max(1, gapRestarts))*g)
+	sil := nk * float64(anchors) * m
+	return float64(d) * (fits + sil)
+}
+
+// Speedup is Amdahl's law: the speed-up of a job with parallel fraction p on n workers.
+func Speedup(p float64, n int) float64 {
+	if n < 1 {
+		n = 1
+	}
+	return 1 / ((1 - p) + p/float64(n))
+}
+
+// Terms are the predicted seconds of each stage and of the pass's parts.
+type Terms struct {
+	Open     float64 `json:"open_seconds"`
+	Probe    float64 `json:"probe_seconds"`
+	Scan     float64 `json:"scan_seconds"`   // reading and decoding, one worker
+	Sketch   float64 `json:"sketch_seconds"` // sketch.Add without the feed, one worker
+	Feed     float64 `json:"feed_seconds"`   // mini-batch k-means on the fed rows, one worker
+	Pass     float64 `json:"pass_seconds"`   // (scan + sketch + feed) / speed-up
+	Criteria float64 `json:"criteria_seconds"`
+	Speedup  float64 `json:"pass_speedup"` // effective workers of the pass
+}
+
+// Memory are the predicted bytes of the peak's parts.
+type Memory struct {
+	Base        int64 `json:"base_bytes"`
+	Sketches    int64 `json:"sketch_bytes"`      // all workers' sketches
+	ReadBuffers int64 `json:"read_buffer_bytes"` // row-major batches, all workers
+	PageBuffers int64 `json:"page_buffer_bytes"` // library pages, one per column chunk per worker
+	Probe       int64 `json:"probe_bytes"`       // probe rows held before the pass
+	Criteria    int64 `json:"criteria_bytes"`    // gap references, Ward, fits
+	Peak        int64 `json:"peak_bytes"`
+}
+
+// Prediction is the model's answer for one workload.
+type Prediction struct {
+	Seconds   float64 `json:"predicted_seconds"`
+	PeakBytes int64   `json:"predicted_peak_bytes"`
+	Terms     Terms   `json:"terms"`
+	Memory    Memory  `json:"memory"`
+}
+
+// rowsOf returns the rows of w, estimated from its bytes when the metadata does not say.
+func (w Workload) rowsOf() float64 {
+	if w.Rows > 0 || w.Bytes == 0 {
+		return float64(w.Rows)
+	}
+	return float64(w.Bytes) / float64(8*w.Dims)
+}
+
+// Predict prices w with the constants c.
+func Predict(w Workload, c Calibration) Prediction {
+	var p Prediction
+	d := float64(w.Dims)
+	rows := w.rowsOf()
+	cores := w.Cores
+	if cores < 1 {
+		cores = c.Cores
+	}
+	t := &p.Terms
+	t.Open = float64(w.Files) * c.OpenFileSeconds
+
+	// The probe reads ProbeRows rows spread over ProbeUnits units, then seeds k-means++ for every k
+	// on up to 8192 of them (one distance per row, centre and column).
+	probeUnits := min(w.Units, max(w.ProbeUnits, 1))
+	probeRows := math.Min(rows, float64(w.ProbeRows))
+	bytesPerRow := 0.0
+	if rows > 0 {
+		bytesPerRow = float64(w.Bytes) / rows
+	}
+	seedRows := math.Min(probeRows, 8192)
+	t.Probe = (float64(probeUnits)*c.OpenUnitSeconds + probeRows*bytesPerRow/c.ScanBytesPerSec +
+		seedRows*float64(w.SumK())*d/c.KernelPKDPerSec) * Overhead(c.ProbeOverhead)
+
+	fed := math.Min(rows, float64(w.MiniBatchRows))
+	over := Overhead(c.PassOverhead)
+	t.Scan = (float64(w.Units)*c.OpenUnitSeconds + float64(w.Bytes)/c.ScanBytesPerSec) * over
+	t.Sketch = rows * d * c.AddSecPerValue * over
+	t.Feed = fed * float64(w.SumK()) * d / c.KernelPKDPerSec * over
+	n := min(w.Workers, cores, max(w.Units, 1))
+	t.Speedup = Speedup(c.ParallelFraction, n)
+	t.Pass = (t.Scan + t.Sketch + t.Feed) / t.Speedup
+
+	m := min(w.Coreset, int(math.Max(rows, 1)))
+	g := min(w.GapSample, w.Sample, int(math.Max(rows, 1)))
+	work := CriteriaWork(m, w.MinK, w.MaxK, w.Dims, w.Restarts, w.GapRefs, g, w.GapRestarts, min(w.Anchors, m))
+	// The rate was measured with the criteria spreading the k over all c.Cores; rescale to this machine.
+	cores0 := Speedup(c.ParallelFraction, c.Cores)
+	coresNow := Speedup(c.ParallelFraction, min(cores, w.MaxK-w.MinK+1))
+	t.Criteria = c.CriteriaFixed + work/(c.CriteriaWorkPerSec*c.CriteriaScaleUp)*cores0/coresNow
+	p.Seconds = t.Open + t.Probe + t.Pass + t.Criteria
+
+	mem := &p.Memory
+	W := int64(min(w.Workers, max(w.Units, 1)))
+	D := int64(w.Dims)
+	nk := int64(w.MaxK - w.MinK + 1)
+	// Per sketch: coreset and sample rows with their keys and weights, the mini-batch centres, counts
+	// and buffer (1024 rows), the d×d cross products and the moments.
+	sk := (int64(w.Coreset+1)*(D+2)+int64(w.Sample)*(D+1))*8 + w.SumK()*(D+1)*8*2 + 1024*(D+1)*8 + D*D*8 + 6*D*8
+	mem.Base = c.BaseBytes
+	mem.Sketches = W * sk
+	mem.ReadBuffers = W * int64(w.BatchRows) * D * 8
+	chunk := int64(0)
+	if w.Units > 0 {
+		chunk = w.Bytes / int64(w.Units) / max(D, 1)
+	}
+	mem.PageBuffers = W * D * 2 * min(c.PageBytes, max(chunk, 1))
+	mem.Probe = int64(probeRows) * D * 8
+	gs := int64(g)
+	mem.Criteria = (int64(1+2*w.GapRefs)*gs*D+nk*int64(m)*2+int64(m)*D*2)*8 + 400*400*8
+	mem.Peak = mem.Base + mem.Sketches + mem.ReadBuffers + mem.PageBuffers + mem.Probe + mem.Criteria
+	p.PeakBytes = mem.Peak
+	return p
+}
+
+// Overhead reads an overhead factor, where 0 (absent) means 1.
+func Overhead(f float64) float64 {
+	if f > 0 {
+		return f
+	}
+	return 1
+}
+
+// Row is one line of a scaling table: the prediction for a number of workers or a multiple of the data.
+type Row struct {
+	Workers   int     `json:"workers"`
+	DataScale float64 `json:"data_scale"`
+	Rows      int64   `json:"rows"`
+	Bytes     int64   `json:"bytes"`
+	Seconds   float64 `json:"predicted_seconds"`
+	PeakBytes int64   `json:"predicted_peak_bytes"`
+	Speedup   float64 `json:"pass_speedup"`
+}
+
+// WorkerTable predicts w with each number of workers.
+func WorkerTable(w Workload, c Calibration, workers ...int) []Row {
+	var rows []Row
+	for _, n := range workers {
+		v := w
+		v.Workers = n
+		p := Predict(v, c)
+		rows = append(rows, Row{Workers: n, DataScale: 1, Rows: v.Rows, Bytes: v.Bytes, Seconds: p.Seconds,
+			PeakBytes: p.PeakBytes, Speedup: p.Terms.Speedup})
+	}
+	return rows
+}
+
+// ScaleTable predicts w with each multiple of its data.
+func ScaleTable(w Workload, c Calibration, factors ...float64) []Row {
+	var rows []Row
+	for _, f := range factors {
+		v := w.Scaled(f)
+		p := Predict(v, c)
+		rows = append(rows, Row{Workers: v.Workers, DataScale: f, Rows: v.Rows, Bytes: v.Bytes, Seconds: p.Seconds,
+			PeakBytes: p.PeakBytes, Speedup: p.Terms.Speedup})
+	}
+	return rows
+}

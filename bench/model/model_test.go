@@ -1,0 +1,157 @@
+package model
+
+import (
+	"math"
+	"strings"
+	"testing"
+)
+
+// testCal is a calibration with round numbers, so that terms can be checked by hand.
+func testCal() Calibration {
+	return Calibration{Source: "test", OpenFileSeconds: 0.01, OpenUnitSeconds: 0.001,
+		ScanBytesPerSec: 1e8, AddSecPerValue: 1e-9, KernelPKDPerSec: 1e9,
+		CriteriaWorkPerSec: 1e9, CriteriaScaleUp: 2, CriteriaFixed: 0.5, PassOverhead: 1,
+		ParallelFraction: 0.8, Cores: 2, PageBytes: 1 << 20, BaseBytes: 1 << 24}
+}
+
+func testWork() Workload {
+	return Workload{Files: 2, Units: 20, Rows: 1_000_000, Bytes: 128_000_000, Dims: 16, Workers: 2, Cores: 2,
+		MinK: 1, MaxK: 20, Coreset: 8192, Sample: 4096, MiniBatchRows: 1 << 18, BatchRows: 4096,
+		ProbeRows: 65536, ProbeUnits: 16, Restarts: 3, Anchors: 1000, GapRefs: 10, GapSample: 2000, GapRestarts: 1}
+}
+
+func TestDefaultCalibrationIsValid(t *testing.T) {
+	c := Default()
+	if err := c.Validate(); err != nil {
+		t.Fatal(err)
+	}
+	if c.Command == "" || c.Source == "" {
+		t.Errorf("calibration.json does not say how it was made: source %q, command %q", c.Source, c.Command)
+	}
+}
+
+func TestParseRejects(t *testing.T) {
+	good, err := testCal().JSON()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := Parse(good); err != nil {
+		t.Fatalf("round trip: %v", err)
+	}
+	for _, tc := range []struct{ name, from, to, want string }{
+		{"zero scan rate", `"scan_bytes_per_second": 100000000`, `"scan_bytes_per_second": 0`, "scan_bytes_per_second"},
+		{"fraction above one", `"parallel_fraction": 0.8`, `"parallel_fraction": 1.5`, "parallel_fraction"},
+		{"no cores", `"cores": 2`, `"cores": 0`, "cores"},
+		{"unknown field", `"cores": 2`, `"cores": 2, "speed": 3`, "unknown field"},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			b := strings.Replace(string(good), tc.from, tc.to, 1)
+			if b == string(good) {
+				t.Fatalf("test fixture: %q not found in %s", tc.from, good)
+			}
+			_, err := Parse([]byte(b))
+			if err == nil || !strings.Contains(err.Error(), tc.want) {
+				t.Errorf("Parse: error %v, want one naming %q", err, tc.want)
+			}
+		})
+	}
+}
+
+func TestSpeedup(t *testing.T) {
+	for _, tc := range []struct {
+		p    float64
+		n    int
+		want float64
+	}{{0, 8, 1}, {1, 4, 4}, {0.5, 2, 1 / 0.75}, {0.8, 1, 1}, {0.9, 0, 1}} {
+		if got := Speedup(tc.p, tc.n); math.Abs(got-tc.want) > 1e-12 {
+			t.Errorf("Speedup(%v, %d) = %v, want %v", tc.p, tc.n, got, tc.want)
+		}
+	}
+}
+
+// TestPredictTerms checks the terms against the formulas in the package doc, by hand.
+func TestPredictTerms(t *testing.T) {
+	c, w := testCal(), testWork()
+	p := Predict(w, c)
+	tm := p.Terms
+	near := func(name string, got, want float64) {
+		t.Helper()
+		if math.Abs(got-want) > 1e-9*math.Max(1, math.Abs(want)) {
+			t.Errorf("%s = %v, want %v", name, got, want)
+		}
+	}
+	near("open", tm.Open, 2*0.01)
+	near("scan", tm.Scan, 20*0.001+128e6/1e8)
+	near("sketch", tm.Sketch, 1e6*16*1e-9)
+	near("feed", tm.Feed, float64(1<<18)*210*16/1e9)
+	near("speed-up", tm.Speedup, 1/(0.2+0.4))
+	near("pass", tm.Pass, (tm.Scan+tm.Sketch+tm.Feed)*0.6)
+	work := CriteriaWork(8192, 1, 20, 16, 3, 10, 2000, 1, 1000)
+	near("criteria", tm.Criteria, 0.5+work/2e9)
+	near("total", p.Seconds, tm.Open+tm.Probe+tm.Pass+tm.Criteria)
+	m := p.Memory
+	if m.Peak != m.Base+m.Sketches+m.ReadBuffers+m.PageBuffers+m.Probe+m.Criteria || p.PeakBytes != m.Peak {
+		t.Errorf("peak %d is not the sum of its parts %+v", p.PeakBytes, m)
+	}
+	if m.ReadBuffers != 2*4096*16*8 {
+		t.Errorf("read buffers %d, want %d", m.ReadBuffers, 2*4096*16*8)
+	}
+}
+
+// TestScaling: ten times the data multiplies the rows-proportional terms by ten and leaves the
+// criteria, which depend on the coreset only, and the memory unchanged.
+func TestScaling(t *testing.T) {
+	c, w := testCal(), testWork()
+	rows := ScaleTable(w, c, 1, 10, 100)
+	if len(rows) != 3 || rows[1].Rows != 10*w.Rows || rows[2].Bytes != 100*w.Bytes {
+		t.Fatalf("scale rows %+v", rows)
+	}
+	p1, p10 := Predict(w, c), Predict(w.Scaled(10), c)
+	if p10.Terms.Criteria != p1.Terms.Criteria {
+		t.Errorf("criteria changed with the data: %v vs %v", p10.Terms.Criteria, p1.Terms.Criteria)
+	}
+	if got := p10.Terms.Scan / p1.Terms.Scan; math.Abs(got-10) > 1e-9 {
+		t.Errorf("scan grew %v×, want 10×", got)
+	}
+	if p10.Terms.Feed != p1.Terms.Feed {
+		t.Errorf("the mini-batch feed is capped by MiniBatchRows; it changed from %v to %v", p1.Terms.Feed, p10.Terms.Feed)
+	}
+	if p10.PeakBytes != p1.PeakBytes {
+		t.Errorf("peak memory depends on the data size: %d vs %d", p10.PeakBytes, p1.PeakBytes)
+	}
+	if !(rows[0].Seconds < rows[1].Seconds && rows[1].Seconds < rows[2].Seconds) {
+		t.Errorf("time does not grow with the data: %+v", rows)
+	}
+}
+
+// TestWorkersBeyondCores: on 2 cores, 4 and 8 workers are no faster than 2, but hold more memory.
+func TestWorkersBeyondCores(t *testing.T) {
+	rows := WorkerTable(testWork(), testCal(), 1, 2, 4, 8)
+	if !(rows[1].Seconds < rows[0].Seconds) {
+		t.Errorf("2 workers (%v s) not faster than 1 (%v s)", rows[1].Seconds, rows[0].Seconds)
+	}
+	if rows[2].Seconds != rows[1].Seconds || rows[3].Seconds != rows[1].Seconds {
+		t.Errorf("more workers than cores changed the time: %+v", rows)
+	}
+	if !(rows[3].PeakBytes > rows[1].PeakBytes) {
+		t.Errorf("8 workers hold no more memory than 2: %+v", rows)
+	}
+	w := testWork()
+	w.Units = 1
+	if got := Predict(w, testCal()).Terms.Speedup; got != 1 {
+		t.Errorf("one unit can keep only one worker busy; speed-up %v", got)
+	}
+}
+
+func TestUnknownRowsFromBytes(t *testing.T) {
+	w := testWork()
+	w.Rows = -1
+	if err := w.Validate(); err == nil {
+		t.Error("negative rows accepted")
+	}
+	w.Rows = 0
+	p := Predict(w, testCal())
+	if want := float64(w.Bytes) / (8 * 16) * 16 * 1e-9; math.Abs(p.Terms.Sketch-want) > 1e-12 {
+		t.Errorf("sketch term %v with rows from bytes, want %v", p.Terms.Sketch, want)
+	}
+}

@@ -1,0 +1,418 @@
+package kgauge
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"runtime"
+	"slices"
+	"time"
+
+	"github.com/kgauge/kgauge/bench/model"
+	"github.com/kgauge/kgauge/criteria"
+	"github.com/kgauge/kgauge/sketch"
+	"github.com/kgauge/kgauge/stream"
+)
+
+// Throughput is what the pass of an estimate achieved.
+type Throughput struct {
+	Workers        int     `json:"workers"`
+	PassSeconds    float64 `json:"pass_seconds"`
+	RowsPerSecond  float64 `json:"rows_per_second"`
+	BytesPerSecond float64 `json:"bytes_per_second"` // unit bytes (compressed column chunks) per second
+	Bytes          int64   `json:"bytes"`
+}
+
+// PlanWorkers is the worker counts of a plan's scaling table.
+var PlanWorkers = []int{1, 2, 4, 8}
+
+// PlanScales is the data multiples of a plan's and an estimate's projection.
+var PlanScales = []float64{1, 10, 100}
+
+// CapacityPlan is what PlanCapacity predicts for an estimate of the same inputs and options.
+type CapacityPlan struct {
+	Input       *Input            `json:"input"`
+	Workload    model.Workload    `json:"workload"`
+	Calibration model.Calibration `json:"calibration"`
+	model.Prediction
+	Workers     []model.Row `json:"by_workers"`
+	Scales      []model.Row `json:"by_data_scale"`
+	Cores       int         `json:"cores"`
+	PlanSeconds float64     `json:"plan_seconds"` // what the plan itself took
+	Notes       []string    `json:"notes"`
+}
+
+// PlanCapacity reads only the footers and metadata of the data files named by paths and a few whole row
+// groups (at most a twentieth of the rows), times that read, sketch.Add and a small criteria run on
+// the rows read, and predicts the wall time and peak memory of Estimate with opt on this machine.
+// With probe false it skips the timed read and uses the committed calibration alone.
+func PlanCapacity(ctx context.Context, paths []string, opt Options, probe bool) (*CapacityPlan, error) {
+	start := time.Now()
+	if err := opt.Validate(); err != nil {
+		return nil, err
+	}
+	opt = opt.withDefaults()
+	files, err := stream.Discover(paths)
+	if err != nil {
+		return nil, err
+	}
+	ds, err := stream.Open(files, stream.Options{Columns: opt.Columns})
+	if err != nil {
+		return nil, err
+	}
+	defer ds.Close()
+	cal := model.Default()
+	if probe {
+		if cal, err = TimedProbe(ctx, ds, opt, cal); err != nil {
+			return nil, err
+		}
+	}
+	p := &CapacityPlan{Input: describe(ds), Workload: WorkloadOf(ds, opt), Calibration: cal, Cores: runtime.NumCPU()}
+	p.Prediction = model.Predict(p.Workload, cal)
+	p.Workers = model.WorkerTable(p.Workload, cal, PlanWorkers...)
+	p.Scales = model.ScaleTable(p.Workload, cal, PlanScales...)
+	if p.Cores <= 2 {
+		p.Notes = append(p.Notes, fmt.Sprintf("this machine has %d CPUs: more than %d workers gain nothing", p.Cores, p.Cores))
+	}
+	if opt.Workers > len(ds.Units) {
+		p.Notes = append(p.Notes, fmt.Sprintf("only %d units (row groups, batches): at most %d workers are busy", len(ds.Units), len(ds.Units)))
+	}
+	p.PlanSeconds = time.Since(start).Seconds()
+	return p, nil
+}
+
+// PlanWorkload opens the footers of the data files named by paths and describes the estimate opt
+// would run on them, without reading any rows.
+func PlanWorkload(paths []string, opt Options) (model.Workload, error) {
+	opt = opt.withDefaults()
+	_, data, err := splitInputs(paths)
+	if err != nil {
+		return model.Workload{}, err
+	}
+	if len(data) == 0 {
+		return model.Workload{}, errors.New("plan: only saved sketches given; nothing to read")
+	}
+	files, err := stream.Discover(data)
+	if err != nil {
+		return model.Workload{}, err
+	}
+	ds, err := stream.Open(files, stream.Options{Columns: opt.Columns})
+	if err != nil {
+		return model.Workload{}, err
+	}
+	defer ds.Close()
+	return WorkloadOf(ds, opt), nil
+}
+
+// WorkloadOf describes the estimate opt would run on the opened dataset ds.
+func WorkloadOf(ds *stream.Dataset, opt Options) model.Workload {
+	opt = opt.withDefaults()
+	c := opt.Criteria
+	s := opt.Sketch
+	cs, ss := s.CoresetSize, s.SampleSize
+	if cs == 0 {
+		cs = sketch.DefaultCoresetSize
+	}
+	if ss == 0 {
+		ss = sketch.DefaultSampleSize
+	}
+	mb := s.MiniBatchRows
+	if mb == 0 {
+		mb = sketch.DefaultMiniBatchRows
+	}
+	dc := criteria.DefaultOptions()
+	pick := func(v, def int) int {
+		if v == 0 {
+			return def
+		}
+		return v
+	}
+	return model.Workload{Files: len(ds.Files), Units: len(ds.Units), Rows: ds.Rows, Bytes: ds.Bytes,
+		Dims: ds.Dims(), Workers: opt.Workers, Cores: runtime.NumCPU(), MinK: c.MinK, MaxK: c.MaxK,
+		Coreset: cs, Sample: ss, MiniBatchRows: mb, BatchRows: opt.BatchRows, ProbeRows: opt.ProbeRows,
+		ProbeUnits: opt.ProbeUnits, Restarts: pick(c.Restarts, dc.Restarts), Anchors: pick(c.Anchors, dc.Anchors),
+		GapRefs: pick(c.GapRefs, dc.GapRefs), GapSample: pick(c.GapSample, dc.GapSample),
+		GapRestarts: pick(c.GapRestarts, dc.GapRestarts)}
+}
+
+// Probe limits of TimedProbe.
+const (
+	probeMaxUnits  = 3
+	probeShare     = 20      // read at most 1/probeShare of the rows
+	probeKeepRows  = 1 << 17 // rows kept in memory for the sketch and criteria timings
+	probeFeedRows  = 1 << 15 // rows fed to mini-batch k-means when timing the kernel
+	probeMinTiming = 0.05    // seconds of steady-state sketch.Add to time at least
+)
+
+// TimedProbe reads a few whole units of ds in the seeded order the estimate uses (at most
+// probeMaxUnits and, beyond the first, no more than a twentieth of the rows; of a unit of unknown
+// length, an Arrow batch or stream, at most probeKeepRows rows), times the read,
+// sketch.Add with and without the mini-batch feed, and a small criteria run on the rows read, and
+// returns cal with those machine- and file-dependent rates replaced. The ratios that a short run
+// cannot measure (criteria scale-up, pass overhead, parallel fraction) stay those of cal.
+func TimedProbe(ctx context.Context, ds *stream.Dataset, opt Options, cal model.Calibration) (model.Calibration, error) {
+	opt = opt.withDefaults()
+	d := ds.Dims()
+	units := stream.Shuffle(ds.Units, opt.Seed)
+	budget := ds.Rows / probeShare
+	pt := &model.ProbeTiming{}
+	var rows []float64
+	buf := make([]float64, opt.BatchRows*d)
+	for _, u := range units {
+		if pt.Units >= probeMaxUnits || (pt.Units >= 1 && (u.Rows < 0 || pt.Rows+u.Rows > budget)) {
+			break
+		}
+		if err := ctx.Err(); err != nil {
+			return cal, err
+		}
+		t0 := time.Now()
+		r, err := ds.OpenUnit(u)
+		if err != nil {
+			return cal, err
+		}
+		t1 := time.Now()
+		var got int64
+		for {
+			n, err := r.Read(buf)
+			if len(rows) < probeKeepRows*d {
+				rows = append(rows, buf[:min(n*d, probeKeepRows*d-len(rows))]...)
+			}
+			got += int64(n)
+			if err == io.EOF {
+				break
+			}
+			if err != nil {
+				r.Close()
+				return cal, err
+			}
+			if u.Rows < 0 && got >= probeKeepRows {
+				break // an Arrow batch or stream of unknown length: a part is enough
+			}
+		}
+		pt.ReadSeconds += time.Since(t1).Seconds()
+		r.Close()
+		pt.OpenSeconds += t1.Sub(t0).Seconds()
+		pt.Rows += got
+		if u.Rows >= 0 {
+			pt.Bytes += u.Bytes
+		} else {
+			pt.Bytes += got * int64(d) * 8 // the values decoded; Arrow IPC holds them uncompressed
+		}
+		pt.Units++
+	}
+	if pt.Units == 0 {
+		return cal, nil
+	}
+	cal.Source = "probe of the input; ratios from " + cal.Source
+	cal.Probe = pt
+	if pt.ReadSeconds > 0 && pt.Bytes > 0 {
+		cal.ScanBytesPerSec = float64(pt.Bytes) / pt.ReadSeconds
+	}
+	cal.OpenUnitSeconds = pt.OpenSeconds / float64(pt.Units)
+	n := len(rows) / d
+	if n < max(2*opt.Criteria.MaxK, 64) {
+		return cal, nil // too few rows to time the sketch; keep the defaults
+	}
+	t0 := time.Now()
+	if err := timeSketch(&cal, rows, ds.Columns, opt); err != nil {
+		return cal, err
+	}
+	pt.SketchSeconds = time.Since(t0).Seconds()
+	t0 = time.Now()
+	if err := timeCriteria(ctx, &cal, rows, ds.Columns, opt); err != nil {
+		return cal, err
+	}
+	pt.CriteriaSeconds = time.Since(t0).Seconds()
+	return cal, nil
+}
+
+// probeFor returns a sketch.Probe for rows: their mean and spread, and the first k rows as the
+// starting centres of every k (the timing does not depend on where the centres start).
+func probeFor(rows []float64, d, minK, maxK int) sketch.Probe {
+	n := len(rows) / d
+	p := sketch.Probe{Center: make([]float64, d), Scale: make([]float64, d), Init: map[int][]float64{}, Rows: int64(n)}
+	for j := range d {
+		var s, s2 float64
+		for i := range n {
+			s += rows[i*d+j]
+		}
+		mean := s / float64(n)
+		for i := range n {
+			v := rows[i*d+j] - mean
+			s2 += v * v
+		}
+		p.Center[j], p.Scale[j] = mean, math.Sqrt(s2/float64(n))
+		if !(p.Scale[j] > 0) || math.IsInf(p.Scale[j], 0) {
+			p.Scale[j] = 1
+		}
+	}
+	p.MeanSq = float64(d)
+	for k := minK; k <= maxK; k++ {
+		c := make([]float64, k*d)
+		for i := range c {
+			j := i % d
+			c[i] = (rows[i] - p.Center[j]) / p.Scale[j]
+		}
+		p.Init[k] = c
+	}
+	return p
+}
+
+// timeSketch sets cal's sketch.Add cost per value (steady state, once the coreset and sample are
+// full) and its mini-batch kernel rate (a fresh sketch feeding every row, less one feeding none).
+func timeSketch(cal *model.Calibration, rows []float64, cols []string, opt Options) error {
+	d := len(cols)
+	n := len(rows) / d
+	cfg := opt.Sketch
+	cfg.Columns = cols
+	cfg.ExpectedRows = 1 << 60 // a feed rate of ~0: rows pass the moments, coreset and sample only
+	pr := probeFor(rows, d, cfg.MinK, cfg.MaxK)
+	base, err := sketch.New(cfg, pr)
+	if err != nil {
+		return err
+	}
+	feedN := min(n, probeFeedRows)
+	t0 := time.Now()
+	base.Add(rows[:feedN*d])
+	fresh := time.Since(t0).Seconds()
+	// Steady state: keep adding until the sketch has seen several times its capacity and enough time
+	// has been measured.
+	warm := int64(4 * (cfg.CoresetSize + cfg.SampleSize))
+	for base.Rows() < warm {
+		base.Add(rows)
+	}
+	var per []float64
+	for range smallRuns {
+		var added int64
+		t0 = time.Now()
+		for added < int64(n) || time.Since(t0).Seconds() < probeMinTiming {
+			base.Add(rows)
+			added += int64(n)
+		}
+		per = append(per, time.Since(t0).Seconds()/float64(added*int64(d)))
+	}
+	slices.Sort(per)
+	if v := per[len(per)/2]; v > 0 {
+		cal.AddSecPerValue = v
+	}
+	fcfg := cfg
+	fcfg.MiniBatchRows = int64(feedN)
+	fcfg.ExpectedRows = int64(feedN) // rate 1: every row is fed
+	feed, err := sketch.New(fcfg, pr)
+	if err != nil {
+		return err
+	}
+	t0 = time.Now()
+	feed.Add(rows[:feedN*d])
+	fed := time.Since(t0).Seconds()
+	sumK := float64(cfg.MaxK+cfg.MinK) * float64(cfg.MaxK-cfg.MinK+1) / 2
+	if fed > fresh {
+		cal.KernelPKDPerSec = float64(feedN) * sumK * float64(d) / (fed - fresh)
+	}
+	return nil
+}
+
+// Sizes of the small criteria run of the probe.
+const (
+	smallCoreset   = 1024
+	smallSample    = 512
+	smallAnchors   = 200
+	smallGapRefs   = 2
+	smallGapSample = 400
+	smallRuns      = 3
+)
+
+// timeCriteria runs the criteria at small sizes on a sketch of the probe rows and sets cal's criteria
+// rate in work units per second.
+func timeCriteria(ctx context.Context, cal *model.Calibration, rows []float64, cols []string, opt Options) error {
+	d := len(cols)
+	n := len(rows) / d
+	cfg := opt.Sketch
+	cfg.Columns = cols
+	cfg.CoresetSize = max(min(smallCoreset, n/2), 2*cfg.MaxK)
+	cfg.SampleSize = min(smallSample, n/2)
+	cfg.ExpectedRows = int64(n)
+	cfg.MiniBatchRows = int64(min(n, probeFeedRows))
+	sk, err := sketch.New(cfg, probeFor(rows, d, cfg.MinK, cfg.MaxK))
+	if err != nil {
+		return err
+	}
+	sk.Add(rows)
+	sum, _ := Summarize(sk, opt.Scale)
+	co := opt.Criteria
+	co.Restarts = 1
+	co.Anchors = smallAnchors
+	co.GapRefs = smallGapRefs
+	co.GapSample = smallGapSample
+	// The median of a few runs: one short run is at the mercy of whatever else the machine does.
+	var runs []float64
+	for len(runs) < smallRuns {
+		t0 := time.Now()
+		if _, err := criteria.Evaluate(ctx, sum, co); err != nil {
+			return fmt.Errorf("plan: small criteria run: %w", err)
+		}
+		runs = append(runs, time.Since(t0).Seconds())
+	}
+	slices.Sort(runs)
+	s := runs[len(runs)/2]
+	m := sum.Coreset.Len()
+	g := min(smallGapSample, sum.Sample.Len())
+	work := model.CriteriaWork(m, co.MinK, co.MaxK, d, co.Restarts, co.GapRefs, g, max(co.GapRestarts, 1), min(smallAnchors, m))
+	if s > 0 {
+		cal.CriteriaWorkPerSec = work / s
+	}
+	return nil
+}
+
+// Project fills r.Throughput from its pass and r.Projection with the model's prediction for 1, 10
+// and 100 times its input, after fitting the committed constants to the stages this run measured
+// (so the 1× row reproduces the run, and the others extrapolate it). w describes the run's input
+// (PlanWorkload); a result made from saved sketches only, with no pass, gets neither.
+func Project(r *Result, w model.Workload) {
+	if r == nil || r.Timings.Pass <= 0 || w.Dims == 0 {
+		return
+	}
+	r.Throughput = &Throughput{Workers: w.Workers, PassSeconds: r.Timings.Pass,
+		RowsPerSecond:  float64(r.Rows+r.SkippedRows) / r.Timings.Pass,
+		BytesPerSecond: float64(w.Bytes) / r.Timings.Pass, Bytes: w.Bytes}
+	cal := FitToRun(model.Default(), w, r.Timings)
+	r.Projection = model.ScaleTable(w, cal, PlanScales...)
+}
+
+// FitToRun rescales the constants of cal so that the model reproduces the measured stage times tm
+// of a run of w: the open, probe and criteria terms by their ratios, and the rows-proportional part
+// of the pass (unit opens, scan and sketch) so that the whole pass matches; when the fixed feed term
+// alone exceeds the measured pass, the pass overhead takes the whole ratio instead.
+func FitToRun(cal model.Calibration, w model.Workload, tm Timings) model.Calibration {
+	p := model.Predict(w, cal)
+	t := p.Terms
+	if tm.Open > 0 && t.Open > 0 && w.Files > 0 {
+		cal.OpenFileSeconds *= tm.Open / t.Open
+	}
+	if tm.Criteria > 0 && t.Criteria > 0 {
+		f := tm.Criteria / t.Criteria
+		cal.CriteriaFixed *= f
+		cal.CriteriaWorkPerSec /= f
+	}
+	if tm.Pass > 0 && t.Pass > 0 {
+		linear := t.Scan + t.Sketch
+		want := tm.Pass*t.Speedup - t.Feed
+		if linear > 0 && want > 0.1*linear {
+			f := want / linear
+			cal.ScanBytesPerSec /= f
+			cal.AddSecPerValue *= f
+			cal.OpenUnitSeconds *= f
+		} else {
+			cal.PassOverhead = model.Overhead(cal.PassOverhead) * tm.Pass / t.Pass
+		}
+	}
+	// The probe shares the scan and kernel rates just refitted: fit it last.
+	if p := model.Predict(w, cal).Terms.Probe; tm.Probe > 0 && p > 0 {
+		cal.ProbeOverhead = model.Overhead(cal.ProbeOverhead) * tm.Probe / p
+	}
+	cal.Source = "fitted to this run; " + cal.Source
+	cal.Probe = nil
+	return cal
+}

@@ -1,0 +1,176 @@
+package kgauge
+
+import (
+	"context"
+	"math"
+	"os"
+	"path/filepath"
+	"testing"
+
+	"github.com/kgauge/kgauge/bench/model"
+	"github.com/kgauge/kgauge/bench/synth"
+	"github.com/kgauge/kgauge/sketch"
+)
+
+func smallMixture(t *testing.T, rows, rowGroup int) string {
+	t.Helper()
+	o := synth.DefaultMixtureOptions()
+	o.Rows, o.Dims, o.K, o.RowGroup = rows, 6, 4, rowGroup
+	path := filepath.Join(t.TempDir(), "m.parquet")
+	if err := synth.WriteMixture(path, o); err != nil {
+		t.Fatal(err)
+	}
+	return path
+}
+
+func quickOptions() Options {
+	o := DefaultOptions()
+	o.Criteria.MaxK = 6
+	o.Sketch.CoresetSize = 800
+	o.Sketch.SampleSize = 800
+	o.Criteria.GapRefs = 3
+	o.Criteria.GapSample = 400
+	o.Criteria.Anchors = 200
+	o.Workers = 2
+	return o
+}
+
+// TestTimedProbeLimits: the plan's probe reads whole units, at most three and, beyond the first, no
+// more than a twentieth of the rows, and replaces the machine rates with positive measurements.
+func TestTimedProbeLimits(t *testing.T) {
+	path := smallMixture(t, 100_000, 2048)
+	p, err := PlanCapacity(context.Background(), []string{path}, quickOptions(), true)
+	if err != nil {
+		t.Fatal(err)
+	}
+	pt := p.Calibration.Probe
+	if pt == nil {
+		t.Fatal("no probe timing recorded")
+	}
+	if pt.Units < 1 || pt.Units > probeMaxUnits || pt.Rows != int64(pt.Units)*2048 {
+		t.Errorf("probe read %d rows in %d units; want whole 2048-row units, 1 to %d of them", pt.Rows, pt.Units, probeMaxUnits)
+	}
+	if pt.Units > 1 && pt.Rows > 100_000/probeShare {
+		t.Errorf("probe read %d rows, more than a twentieth of 100000", pt.Rows)
+	}
+	c := p.Calibration
+	for name, v := range map[string]float64{"scan": c.ScanBytesPerSec, "add": c.AddSecPerValue,
+		"kernel": c.KernelPKDPerSec, "criteria": c.CriteriaWorkPerSec} {
+		if !(v > 0) || math.IsInf(v, 0) {
+			t.Errorf("%s rate %v after the probe", name, v)
+		}
+	}
+	if err := c.Validate(); err != nil {
+		t.Error(err)
+	}
+	if p.Workload.Rows != 100_000 || p.Workload.Units != 100_000/2048+1 || p.Workload.Dims != 6 {
+		t.Errorf("workload %+v does not match the file", p.Workload)
+	}
+	if p.Seconds != p.Terms.Open+p.Terms.Probe+p.Terms.Pass+p.Terms.Criteria {
+		t.Errorf("predicted seconds %v is not the sum of the terms %+v", p.Seconds, p.Terms)
+	}
+	noProbe, err := PlanCapacity(context.Background(), []string{path}, quickOptions(), false)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if noProbe.Calibration.Probe != nil || noProbe.Calibration != model.Default() {
+		t.Error("a plan without the probe does not use the committed calibration as it is")
+	}
+}
+
+// TestFitToRun: after fitting, the model reproduces the measured open, probe, pass and criteria times of
+// the run, whatever they were.
+func TestFitToRun(t *testing.T) {
+	w := model.Workload{Files: 3, Units: 40, Rows: 2_000_000, Bytes: 256_000_000, Dims: 16, Workers: 2, Cores: 2,
+		MinK: 1, MaxK: 20, Coreset: 8192, Sample: 4096, MiniBatchRows: 1 << 17, BatchRows: 4096, ProbeRows: 65536,
+		ProbeUnits: 16, Restarts: 3, Anchors: 1000, GapRefs: 10, GapSample: 2000, GapRestarts: 1}
+	for _, tm := range []Timings{{Open: 0.01, Probe: 0.2, Pass: 4, Criteria: 9}, {Open: 0.5, Probe: 1, Pass: 40, Criteria: 2},
+		{Open: 0.001, Probe: 0.1, Pass: 0.05, Criteria: 30}} {
+		cal := FitToRun(model.Default(), w, tm)
+		if err := cal.Validate(); err != nil {
+			t.Fatalf("fitted calibration: %v", err)
+		}
+		p := model.Predict(w, cal).Terms
+		for _, c := range []struct {
+			name      string
+			got, want float64
+		}{{"open", p.Open, tm.Open}, {"probe", p.Probe, tm.Probe}, {"pass", p.Pass, tm.Pass}, {"criteria", p.Criteria, tm.Criteria}} {
+			if math.Abs(c.got-c.want) > 1e-9*c.want {
+				t.Errorf("%+v: fitted %s %v, measured %v", tm, c.name, c.got, c.want)
+			}
+		}
+	}
+}
+
+func TestProject(t *testing.T) {
+	path := smallMixture(t, 20_000, 4096)
+	opt := quickOptions()
+	w, err := PlanWorkload([]string{path}, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	res, sk, err := Estimate(context.Background(), []string{path}, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	Project(res, w)
+	if res.Throughput == nil || res.Throughput.Bytes != w.Bytes || !(res.Throughput.RowsPerSecond > 0) {
+		t.Fatalf("throughput %+v", res.Throughput)
+	}
+	if len(res.Projection) != 3 || res.Projection[2].Rows != 100*w.Rows {
+		t.Fatalf("projection %+v", res.Projection)
+	}
+	// A result merged from saved sketches has no pass to measure.
+	kgs := filepath.Join(t.TempDir(), "s.kgs")
+	if err := saveTo(kgs, sk); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := PlanWorkload([]string{kgs}, opt); err == nil {
+		t.Error("PlanWorkload priced a saved sketch")
+	}
+	merged, _, err := Estimate(context.Background(), []string{kgs}, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	Project(merged, model.Workload{})
+	if merged.Throughput != nil || merged.Projection != nil {
+		t.Error("a sketch-only result got a throughput or projection")
+	}
+}
+
+func saveTo(path string, sk *sketch.Sketch) error {
+	f, err := os.Create(path)
+	if err != nil {
+		return err
+	}
+	if err := sk.Encode(f); err != nil {
+		f.Close()
+		return err
+	}
+	return f.Close()
+}
+
+// TestTimedProbeArrowStream: an Arrow IPC stream is one unit of unknown length; the probe reads only
+// a part of it.
+func TestTimedProbeArrowStream(t *testing.T) {
+	o := synth.DefaultMixtureOptions()
+	o.Rows, o.Dims, o.K, o.Format, o.RowGroup = 200_000, 6, 4, synth.ArrowStream, 8192
+	path := filepath.Join(t.TempDir(), "m.arrows")
+	if err := synth.WriteMixture(path, o); err != nil {
+		t.Fatal(err)
+	}
+	p, err := PlanCapacity(context.Background(), []string{path}, quickOptions(), true)
+	if err != nil {
+		t.Fatal(err)
+	}
+	pt := p.Calibration.Probe
+	if pt == nil || pt.Units != 1 || pt.Rows < probeKeepRows || pt.Rows >= 200_000 {
+		t.Fatalf("probe of a 200000-row stream: %+v; want one unit, at least %d rows and not all", pt, probeKeepRows)
+	}
+	if pt.Bytes != pt.Rows*6*8 {
+		t.Errorf("probe bytes %d, want the %d values read × 8", pt.Bytes, pt.Rows*6)
+	}
+	if !(p.Seconds > 0) {
+		t.Errorf("predicted %v s", p.Seconds)
+	}
+}

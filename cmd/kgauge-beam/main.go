@@ -1,0 +1,205 @@
+// Command kgauge-beam runs kgauge's estimate as an Apache Beam pipeline: locally on the embedded
+// prism runner, or on Flink, Spark or Dataflow through Beam's runners. It takes the data flags of
+// `kgauge estimate` and Beam's own flags (--runner, --endpoint, --environment_type, …), and prints
+// the same JSON result as `kgauge estimate --json`.
+//
+// Usage:
+//
+//	kgauge-beam [flags] PATH...
+//
+// The runner may start this same binary as a worker (with --worker); beam.Init then serves the
+// work and exits, so main parses flags and calls it before doing anything else.
+package main
+
+import (
+	"context"
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"os"
+	"os/signal"
+	"path/filepath"
+	"strings"
+	"syscall"
+
+	abeam "github.com/apache/beam/sdks/v2/go/pkg/beam"
+	"github.com/apache/beam/sdks/v2/go/pkg/beam/runners"
+	_ "github.com/apache/beam/sdks/v2/go/pkg/beam/x/beamx" // registers every runner and file system
+	"github.com/kgauge/kgauge"
+	kbeam "github.com/kgauge/kgauge/beam"
+	"github.com/kgauge/kgauge/stream"
+	"github.com/kgauge/kgauge/stream/objstore"
+	_ "gocloud.dev/blob/azureblob" // azblob:// inputs; this binary links the big SDKs anyway
+	_ "gocloud.dev/blob/gcsblob"   // gs:// inputs
+)
+
+// Exit codes, as those of kgauge.
+const (
+	exitOK          = 0
+	exitInternal    = 1
+	exitUsage       = 2
+	exitInput       = 3
+	exitInterrupted = 130
+)
+
+type usageError struct{ msg string }
+
+func (e *usageError) Error() string { return e.msg }
+
+// flags are the estimate flags kgauge-beam shares with `kgauge estimate`.
+type flags struct {
+	opt     kgauge.Options
+	columns string
+	scale   string
+	memory  string
+	out     string
+}
+
+func (f *flags) register(fs *flag.FlagSet) {
+	f.opt = kgauge.DefaultOptions()
+	o := &f.opt
+	fs.StringVar(&f.columns, "columns", "", "comma-separated feature columns (default: every numeric column)")
+	fs.StringVar(&f.scale, "scale", string(o.Scale), "feature scaling: zscore, range or none")
+	fs.IntVar(&o.Criteria.MinK, "min-k", o.Criteria.MinK, "smallest k to score")
+	fs.IntVar(&o.Criteria.MaxK, "max-k", o.Criteria.MaxK, "largest k to score")
+	fs.Uint64Var(&o.Seed, "seed", o.Seed, "seed of every random choice")
+	fs.IntVar(&o.Sketch.CoresetSize, "coreset", o.Sketch.CoresetSize, "rows in the weighted coreset")
+	fs.IntVar(&o.Sketch.SampleSize, "sample", o.Sketch.SampleSize, "rows in the uniform sample")
+	fs.Int64Var(&o.Sketch.MiniBatchRows, "minibatch-rows", o.Sketch.MiniBatchRows, "rows fed to mini-batch k-means over the pass")
+	fs.IntVar(&o.Criteria.Restarts, "restarts", o.Criteria.Restarts, "k-means++ restarts per k on the coreset")
+	fs.IntVar(&o.Criteria.Anchors, "anchors", o.Criteria.Anchors, "silhouette anchor points, stratified by cluster")
+	fs.IntVar(&o.Criteria.GapRefs, "gap-refs", o.Criteria.GapRefs, "Monte Carlo reference sets (B) of the gap statistic")
+	fs.IntVar(&o.Criteria.GapSample, "gap-sample", o.Criteria.GapSample, "points per gap reference set and on the data side")
+	fs.IntVar(&o.ProbeRows, "probe-rows", o.ProbeRows, "rows read before the pass to fix the scale")
+	fs.IntVar(&o.BatchRows, "batch-rows", o.BatchRows, "rows per read batch")
+	fs.StringVar(&f.memory, "memory", "", "memory limit of each worker's sketch such as 512MiB (default: no limit)")
+	fs.StringVar(&f.out, "out", "", "file the pipeline writes the JSON result to (default with prism: a temporary file); the workers must be able to write it")
+}
+
+// options checks the flag values as `kgauge estimate` does.
+func (f *flags) options() (kgauge.Options, error) {
+	o := f.opt
+	o.Workers = 1 // the runner parallelises; each work item is read by one goroutine
+	for _, c := range []struct {
+		name string
+		v    int64
+	}{{"--coreset", int64(o.Sketch.CoresetSize)}, {"--sample", int64(o.Sketch.SampleSize)},
+		{"--minibatch-rows", o.Sketch.MiniBatchRows}, {"--restarts", int64(o.Criteria.Restarts)},
+		{"--anchors", int64(o.Criteria.Anchors)}, {"--gap-refs", int64(o.Criteria.GapRefs)},
+		{"--gap-sample", int64(o.Criteria.GapSample)}, {"--probe-rows", int64(o.ProbeRows)},
+		{"--batch-rows", int64(o.BatchRows)}, {"--min-k", int64(o.Criteria.MinK)}, {"--max-k", int64(o.Criteria.MaxK)}} {
+		if c.v < 1 {
+			return o, &usageError{fmt.Sprintf("%s must be at least 1, got %d", c.name, c.v)}
+		}
+	}
+	sc, err := kgauge.ParseScale(f.scale)
+	if err != nil {
+		return o, &usageError{"--scale: " + err.Error()}
+	}
+	o.Scale = sc
+	if f.memory != "" {
+		if o.Memory, err = kgauge.ParseBytes(f.memory); err != nil {
+			return o, &usageError{"--memory: " + err.Error()}
+		}
+	}
+	for _, c := range strings.Split(f.columns, ",") {
+		if c = strings.TrimSpace(c); c != "" {
+			o.Columns = append(o.Columns, c)
+		}
+	}
+	if f.columns != "" && len(o.Columns) == 0 {
+		return o, &usageError{"--columns: no column named"}
+	}
+	if err := o.Validate(); err != nil {
+		return o, &usageError{err.Error()}
+	}
+	return o, nil
+}
+
+func main() {
+	var f flags
+	f.register(flag.CommandLine)
+	flag.Usage = func() {
+		fmt.Fprintf(os.Stderr, "usage: kgauge-beam [flags] PATH...\n\nkgauge's estimate as an Apache Beam pipeline; "+
+			"prints the JSON result of `kgauge estimate --json`.\nBeam's flags (--runner, --endpoint, --environment_type, "+
+			"--environment_config, --worker_binary, …) are listed with the others.\n\n")
+		flag.PrintDefaults()
+	}
+	flag.Parse()
+	// A worker started by the runner serves its work here and exits.
+	abeam.Init()
+
+	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
+	defer stop()
+	os.Exit(report(run(ctx, &f, flag.Args(), os.Stdout), os.Stderr))
+}
+
+// run plans and runs the pipeline, then prints the result when the launcher can read it.
+func run(ctx context.Context, f *flags, paths []string, stdout io.Writer) error {
+	opt, err := f.options()
+	if err != nil {
+		return err
+	}
+	if len(paths) == 0 {
+		return &usageError{"no PATH given (files, directories or globs)"}
+	}
+	runner := *runners.Runner
+	if runner == "" {
+		runner = "prism"
+	}
+	out := f.out
+	if out == "" {
+		if runner != "prism" {
+			return &usageError{"--out is required with --runner " + runner}
+		}
+		dir, err := os.MkdirTemp("", "kgauge-beam-")
+		if err != nil {
+			return err
+		}
+		defer os.RemoveAll(dir)
+		out = filepath.Join(dir, "result.json")
+	}
+	if _, err := kbeam.Run(ctx, runner, paths, opt, out); err != nil {
+		return err
+	}
+	var data []byte
+	if objstore.IsURL(out) {
+		fmt.Fprintf(os.Stderr, "kgauge-beam: the result is in %s\n", out)
+		return nil
+	}
+	data, err = os.ReadFile(out)
+	if err != nil {
+		fmt.Fprintf(os.Stderr, "kgauge-beam: the result was written by the workers to %s\n", out)
+		return nil
+	}
+	_, err = stdout.Write(data)
+	return err
+}
+
+// report prints err as one line and returns its exit code.
+func report(err error, stderr io.Writer) int {
+	if err == nil {
+		return exitOK
+	}
+	code := exitInternal
+	var ue *usageError
+	var re *stream.ReadError
+	var ie *kgauge.InputError
+	switch {
+	case errors.Is(err, context.Canceled):
+		code = exitInterrupted
+	case errors.As(err, &ue), errors.Is(err, kgauge.ErrMemoryLimit):
+		code = exitUsage
+	case errors.As(err, &re), errors.As(err, &ie), errors.Is(err, kgauge.ErrNoRows), errors.Is(err, kgauge.ErrTooFewRows),
+		errors.Is(err, os.ErrNotExist), errors.Is(err, stream.ErrNoDataFiles), errors.Is(err, stream.ErrUnknownColumn),
+		errors.Is(err, stream.ErrNotNumeric), errors.Is(err, stream.ErrMissingColumn), errors.Is(err, stream.ErrInfinite):
+		code = exitInput
+	}
+	msg := strings.ReplaceAll(err.Error(), "\n", "; ")
+	if !strings.HasPrefix(msg, "kgauge") {
+		msg = "kgauge-beam: " + msg
+	}
+	fmt.Fprintln(stderr, msg)
+	return code
+}

@@ -1,0 +1,231 @@
+package report
+
+import (
+	"bytes"
+	"context"
+	"encoding/base64"
+	"encoding/json"
+	"html"
+	"math/rand/v2"
+	"os"
+	"path/filepath"
+	"regexp"
+	"strings"
+	"sync"
+	"testing"
+
+	"github.com/apache/arrow/go/v17/arrow"
+	"github.com/apache/arrow/go/v17/arrow/array"
+	"github.com/apache/arrow/go/v17/arrow/memory"
+	"github.com/apache/arrow/go/v17/parquet/pqarrow"
+	"github.com/kgauge/kgauge"
+	"github.com/kgauge/kgauge/bench/model"
+)
+
+// Hostile names: a feature column, an ignored column and a folder that would run script if the page
+// did not escape them.
+const (
+	hostileColumn  = "<script>alert(1)</script>"
+	hostileIgnored = `<img src=x onerror="document.title='pwned'">`
+	hostileDir     = "lake-<i onmouseover=alert(3)>x"
+)
+
+// writeBlobs writes a small Parquet file of three separated blobs (invented data, for the renderer
+// only) with the hostile column names.
+func writeBlobs(t testing.TB, path string) {
+	t.Helper()
+	schema := arrow.NewSchema([]arrow.Field{
+		{Name: hostileColumn, Type: arrow.PrimitiveTypes.Float64},
+		{Name: "y", Type: arrow.PrimitiveTypes.Float64},
+		{Name: "z", Type: arrow.PrimitiveTypes.Float64},
+		{Name: hostileIgnored, Type: arrow.BinaryTypes.String},
+	}, nil)
+	b := array.NewRecordBuilder(memory.DefaultAllocator, schema)
+	defer b.Release()
+	rng := rand.New(rand.NewPCG(3, 4))
+	centres := [][3]float64{{0, 0, 0}, {8, 0, 0}, {0, 8, 4}}
+	for i := range 3000 {
+		c := centres[i%3]
+		for j := range 3 {
+			b.Field(j).(*array.Float64Builder).Append(c[j] + rng.NormFloat64())
+		}
+		b.Field(3).(*array.StringBuilder).Append("row")
+	}
+	rec := b.NewRecord()
+	defer rec.Release()
+	f, err := os.Create(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	w, err := pqarrow.NewFileWriter(schema, f, nil, pqarrow.DefaultWriterProps())
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := w.Write(rec); err != nil {
+		t.Fatal(err)
+	}
+	if err := w.Close(); err != nil {
+		t.Fatal(err)
+	}
+}
+
+var (
+	fixtureOnce sync.Once
+	fixtureRes  *kgauge.Result
+	fixtureErr  error
+)
+
+// fixture runs a small estimate on the hostile file once per test binary.
+func fixture(t testing.TB) *kgauge.Result {
+	t.Helper()
+	fixtureOnce.Do(func() {
+		dir, err := os.MkdirTemp("", "kgauge-report-test-")
+		if err != nil {
+			fixtureErr = err
+			return
+		}
+		defer os.RemoveAll(dir)
+		sub := filepath.Join(dir, hostileDir)
+		if fixtureErr = os.Mkdir(sub, 0o755); fixtureErr != nil {
+			return
+		}
+		writeBlobs(t, filepath.Join(sub, "part-0.parquet"))
+		opt := kgauge.DefaultOptions()
+		opt.Criteria.MaxK = 6
+		opt.Sketch.CoresetSize = 600
+		opt.Sketch.SampleSize = 600
+		opt.Criteria.GapRefs = 4
+		opt.Criteria.GapSample = 400
+		opt.Criteria.Anchors = 150
+		opt.Workers = 2
+		w, err := kgauge.PlanWorkload([]string{sub}, opt)
+		if err != nil {
+			fixtureErr = err
+			return
+		}
+		fixtureRes, _, fixtureErr = kgauge.Estimate(context.Background(), []string{sub}, opt)
+		if fixtureErr == nil {
+			kgauge.Project(fixtureRes, w)
+		}
+	})
+	if fixtureErr != nil {
+		t.Fatal(fixtureErr)
+	}
+	return fixtureRes
+}
+
+func render(t testing.TB) string {
+	t.Helper()
+	res := fixture(t)
+	plan := model.Predict(model.Workload{Files: 1, Units: 1, Rows: 3000, Bytes: 72000, Dims: 3, Workers: 2,
+		MinK: 1, MaxK: 6, Coreset: 600, Sample: 600, MiniBatchRows: 1 << 17, BatchRows: 4096, ProbeRows: 65536,
+		ProbeUnits: 16, Restarts: 3, Anchors: 150, GapRefs: 4, GapSample: 400, GapRestarts: 1}, model.Default())
+	var b bytes.Buffer
+	if err := Render(&b, res, &plan); err != nil {
+		t.Fatal(err)
+	}
+	return b.String()
+}
+
+func TestRenderEscapesNames(t *testing.T) {
+	page := render(t)
+	for _, raw := range []string{hostileColumn, "<img src=x", "<i onmouseover"} {
+		if strings.Contains(page, raw) {
+			t.Errorf("page contains the raw name %q", raw)
+		}
+	}
+	for _, escaped := range []string{"&lt;script&gt;alert(1)&lt;/script&gt;", "&lt;img src=x onerror=", "lake-&lt;i onmouseover=alert(3)&gt;x"} {
+		if !strings.Contains(page, escaped) {
+			t.Errorf("page lacks the escaped text %q", escaped)
+		}
+	}
+	// The only script element is the JSON data block.
+	if n := strings.Count(page, "<script"); n != 1 || !strings.Contains(page, `<script type="application/json" id="kgauge-result">`) {
+		t.Errorf("%d script elements; want only the JSON block", n)
+	}
+}
+
+func TestRenderSections(t *testing.T) {
+	page := render(t)
+	res := fixture(t)
+	for _, want := range []string{Caution, `id="fig-wcss"`, `id="fig-silhouette"`, `id="fig-gap"`, `id="fig-ic"`,
+		`id="fig-ward"`, `id="votes"`, `id="per-k"`, `id="accuracy"`, `id="runtime"`, `id="projection"`, `id="throughput"`,
+		"rows skipped", "Columns not used", "planned s"} {
+		if !strings.Contains(page, want) {
+			t.Errorf("page lacks %q", want)
+		}
+	}
+	// html/template writes '+' in attributes as &#43;; the browser reads the same URI.
+	imgs := regexp.MustCompile(`<img src="(data:image/svg[^"]*)"`).FindAllStringSubmatch(page, -1)
+	if len(imgs) != 5 {
+		t.Errorf("%d inline SVG plots, want 5", len(imgs))
+	}
+	for _, m := range imgs {
+		uri := html.UnescapeString(m[1])
+		body, ok := strings.CutPrefix(uri, "data:image/svg+xml;base64,")
+		svg, err := base64.StdEncoding.DecodeString(body)
+		if !ok || err != nil || !bytes.Contains(svg, []byte("<svg")) {
+			t.Errorf("plot is not a base64 SVG data URI (%v): %.80s", err, uri)
+		}
+	}
+	if regexp.MustCompile(`(?i)(src|href)="(https?:)?//`).MatchString(page) {
+		t.Error("page refers to a network resource")
+	}
+	// One per-k row per k, and the verdict's row is highlighted.
+	if got := strings.Count(page, `<tr class="chosen">`); got != 1 {
+		t.Errorf("%d highlighted per-k rows, want 1", got)
+	}
+	if len(res.PerK) != 6 {
+		t.Fatalf("fixture has %d k", len(res.PerK))
+	}
+}
+
+// TestEmbeddedJSON: the JSON block decodes to the result the page was made from.
+func TestEmbeddedJSON(t *testing.T) {
+	page := render(t)
+	res := fixture(t)
+	m := regexp.MustCompile(`(?s)<script type="application/json" id="kgauge-result">(.*?)</script>`).FindStringSubmatch(page)
+	if m == nil {
+		t.Fatal("no JSON block")
+	}
+	var got kgauge.Result
+	if err := json.Unmarshal([]byte(m[1]), &got); err != nil {
+		t.Fatalf("embedded JSON does not decode: %v", err)
+	}
+	if got.K != res.K || got.Rows != res.Rows || len(got.PerK) != len(res.PerK) || got.Columns[0] != hostileColumn {
+		t.Errorf("embedded result k=%d rows=%d per_k=%d col0=%q; want k=%d rows=%d per_k=%d col0=%q",
+			got.K, got.Rows, len(got.PerK), got.Columns[0], res.K, res.Rows, len(res.PerK), hostileColumn)
+	}
+	if strings.Contains(m[1], "</") {
+		t.Error("the JSON block contains '</', which could end the script element")
+	}
+}
+
+func TestWriteAtomic(t *testing.T) {
+	res := fixture(t)
+	dir := t.TempDir()
+	path := filepath.Join(dir, "r.html")
+	if err := Write(path, res, nil); err != nil {
+		t.Fatal(err)
+	}
+	b, err := os.ReadFile(path)
+	if err != nil || !bytes.HasPrefix(b, []byte("<!DOCTYPE html>")) {
+		t.Fatalf("report not written: %v", err)
+	}
+	// A failed render leaves neither the target nor a temporary file behind.
+	bad := filepath.Join(dir, "bad.html")
+	if err := Write(bad, nil, nil); err == nil {
+		t.Fatal("Write of a nil result succeeded")
+	}
+	if err := Write(filepath.Join(dir, "missing", "x.html"), res, nil); err == nil {
+		t.Error("Write into a missing directory succeeded")
+	}
+	entries, _ := os.ReadDir(dir)
+	if len(entries) != 1 {
+		var names []string
+		for _, e := range entries {
+			names = append(names, e.Name())
+		}
+		t.Errorf("directory holds %v, want only r.html", names)
+	}
+}

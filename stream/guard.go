@@ -1,0 +1,390 @@
+package stream
+
+import (
+	"encoding/binary"
+	"errors"
+	"fmt"
+	"io"
+
+	"github.com/apache/arrow/go/v17/arrow/ipc"
+	"github.com/apache/arrow/go/v17/arrow/memory"
+	"github.com/parquet-go/parquet-go/encoding/thrift"
+	"github.com/parquet-go/parquet-go/format"
+)
+
+// Guards against hostile files. The decoding libraries trust the sizes a file
+// claims: parquet-go allocates a Thrift list of whatever length the footer
+// states (a few bytes claiming billions of row groups end the process with
+// "out of memory", which no recover catches) and a page buffer of whatever
+// size a page header states; arrow's IPC stream reader allocates the metadata
+// and body lengths a message states. The checks below compare every claimed
+// length with the bytes that are really there, and bound what may be
+// allocated for decompressed data, before the libraries see the file.
+
+// ErrCorruptFile means a file's framing claims more bytes, items or values
+// than the file holds or the memory bound allows.
+var ErrCorruptFile = errors.New("corrupt file")
+
+const (
+	// maxThriftDepth bounds the nesting of Thrift structures in a footer or
+	// page header (the real ones nest less than ten deep).
+	maxThriftDepth = 64
+	// minPageBound is the uncompressed size any page may claim, whatever its
+	// compressed size.
+	minPageBound = 256 << 20
+	// pageRatio is the largest compression ratio trusted beyond minPageBound.
+	pageRatio = 64
+	// maxPageValues bounds the values (nulls included) of one Parquet page.
+	maxPageValues = 1 << 24
+	// maxPageHeader bounds the size of one Parquet page header.
+	maxPageHeader = 16 << 20
+)
+
+func corruptf(format string, args ...any) error {
+	return fmt.Errorf("%w: "+format, append([]any{ErrCorruptFile}, args...)...)
+}
+
+// checkThrift walks one Thrift compact-protocol struct at the start of b
+// without decoding it and returns its length in bytes. Every list, set, map
+// and binary length is checked against the bytes that remain (each item takes
+// at least one byte), so that decoding it afterwards allocates at most in
+// proportion to len(b).
+func checkThrift(b []byte) (int, error) {
+	r := new(thrift.CompactProtocol).NewReaderFromBytes(b)
+	if err := walkStruct(r, len(b), 0); err != nil {
+		return 0, err
+	}
+	return r.BytesRead(), nil
+}
+
+func walkStruct(r thrift.Reader, size, depth int) error {
+	if depth > maxThriftDepth {
+		return corruptf("metadata nested deeper than %d", maxThriftDepth)
+	}
+	for {
+		f, err := r.ReadField()
+		if err != nil {
+			return err
+		}
+		switch f.Type {
+		case thrift.STOP:
+			return nil
+		case thrift.TRUE, thrift.FALSE: // the value is in the field header
+			continue
+		}
+		if err := walkValue(r, f.Type, size, depth+1); err != nil {
+			return err
+		}
+	}
+}
+
+func walkItems(r thrift.Reader, n int32, typ thrift.Type, size, depth int) error {
+	if n < 0 || int(n) > size-r.BytesRead() {
+		return corruptf("metadata claims %d items with %d bytes left", n, size-r.BytesRead())
+	}
+	for range n {
+		if err := walkValue(r, typ, size, depth); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+func walkValue(r thrift.Reader, typ thrift.Type, size, depth int) error {
+	var err error
+	switch typ {
+	case thrift.TRUE, thrift.FALSE:
+		_, err = r.ReadBool()
+	case thrift.I8:
+		_, err = r.ReadInt8()
+	case thrift.I16:
+		_, err = r.ReadInt16()
+	case thrift.I32:
+		_, err = r.ReadInt32()
+	case thrift.I64:
+		_, err = r.ReadInt64()
+	case thrift.DOUBLE:
+		_, err = r.ReadFloat64()
+	case thrift.BINARY:
+		_, err = r.ReadBytes() // a sub-slice, bounds-checked by the reader
+	case thrift.UUID:
+		for i := 0; i < 16 && err == nil; i++ {
+			_, err = r.ReadInt8()
+		}
+	case thrift.STRUCT:
+		err = walkStruct(r, size, depth)
+	case thrift.LIST, thrift.SET:
+		var l thrift.List
+		if l, err = r.ReadList(); err == nil {
+			err = walkItems(r, l.Size, l.Type, size, depth+1)
+		}
+	case thrift.MAP:
+		var m thrift.Map
+		if m, err = r.ReadMap(); err == nil {
+			if m.Size < 0 || int(m.Size) > size-r.BytesRead() {
+				return corruptf("metadata claims a map of %d entries with %d bytes left", m.Size, size-r.BytesRead())
+			}
+			for i := int32(0); i < m.Size && err == nil; i++ {
+				if err = walkValue(r, m.Key, size, depth+1); err == nil {
+					err = walkValue(r, m.Value, size, depth+1)
+				}
+			}
+		}
+	default:
+		err = corruptf("unknown Thrift type %d in metadata", typ)
+	}
+	return err
+}
+
+// checkParquetFooter checks that the footer length fits in the file and that
+// the footer's lists claim no more items than it has bytes. It returns the
+// offset where the footer starts.
+func checkParquetFooter(fh io.ReaderAt, size int64) (int64, error) {
+	if size < 12 {
+		return 0, corruptf("%d bytes is too small for a Parquet file", size)
+	}
+	var tail [8]byte
+	if _, err := fh.ReadAt(tail[:], size-8); err != nil {
+		return 0, err
+	}
+	if string(tail[4:]) != "PAR1" {
+		return 0, corruptf("no Parquet magic bytes at the end (truncated?)")
+	}
+	n := int64(binary.LittleEndian.Uint32(tail[:4]))
+	if n == 0 || n > size-12 {
+		return 0, corruptf("footer length %d does not fit in the file of %d bytes (truncated?)", n, size)
+	}
+	footer := make([]byte, n)
+	if _, err := fh.ReadAt(footer, size-8-n); err != nil {
+		return 0, err
+	}
+	if _, err := checkThrift(footer); err != nil {
+		return 0, fmt.Errorf("footer: %w", thriftCause(err))
+	}
+	return size - 8 - n, nil
+}
+
+// thriftCause turns an end of input while walking metadata into a corruption.
+func thriftCause(err error) error {
+	if errors.Is(err, io.EOF) || errors.Is(err, io.ErrUnexpectedEOF) {
+		return corruptf("metadata ends early")
+	}
+	return err
+}
+
+// checkColumnChunk checks that column chunk [start, start+total) lies inside
+// the data part of the file (before footerAt) and walks its page headers:
+// every page must fit in the chunk, and its uncompressed size and value count
+// must stay within the memory bound, before parquet-go allocates them.
+func checkColumnChunk(fh io.ReaderAt, start, total, footerAt, rows int64) error {
+	if start < 4 || total < 0 || start > footerAt || total > footerAt-start {
+		return corruptf("column chunk at %d of %d bytes lies outside the file's data (%d bytes)", start, total, footerAt)
+	}
+	end := start + total
+	buf := make([]byte, 256)
+	for pos := start; pos < end; {
+		var h format.PageHeader
+		var n int
+		for window := int64(256); ; window *= 16 {
+			w := min(window, end-pos)
+			if int64(cap(buf)) < w {
+				buf = make([]byte, w)
+			}
+			b := buf[:w]
+			if _, err := fh.ReadAt(b, pos); err != nil && !(err == io.EOF && len(b) > 0) {
+				return err
+			}
+			var err error
+			if n, err = checkThrift(b); err == nil {
+				if err = thrift.Unmarshal(new(thrift.CompactProtocol), b[:n], &h); err != nil {
+					return corruptf("page header at %d: %v", pos, err)
+				}
+				break
+			}
+			if w == end-pos || w >= maxPageHeader || !(errors.Is(err, io.EOF) || errors.Is(err, io.ErrUnexpectedEOF)) {
+				return fmt.Errorf("page header at %d: %w", pos, thriftCause(err))
+			}
+		}
+		comp, unc := int64(h.CompressedPageSize), int64(h.UncompressedPageSize)
+		left := end - pos - int64(n)
+		if comp < 0 || comp > left {
+			return corruptf("page at %d claims %d bytes, %d left in its column chunk", pos, comp, left)
+		}
+		if bound := minPageBound + pageRatio*comp; unc < 0 || unc > bound {
+			return corruptf("page at %d claims %d uncompressed bytes, more than the bound of %d", pos, unc, bound)
+		}
+		var values int64
+		switch {
+		case h.DataPageHeader.Valid:
+			values = int64(h.DataPageHeader.V.NumValues)
+		case h.DataPageHeaderV2.Valid:
+			values = max(int64(h.DataPageHeaderV2.V.NumValues), int64(h.DataPageHeaderV2.V.NumRows))
+		case h.DictionaryPageHeader.Valid:
+			values = int64(h.DictionaryPageHeader.V.NumValues)
+		}
+		if values < 0 || values > maxPageValues || !h.DictionaryPageHeader.Valid && values > max(rows, 0) {
+			return corruptf("page at %d claims %d values (row group of %d rows, bound %d)", pos, values, rows, maxPageValues)
+		}
+		pos += int64(n) + comp
+	}
+	return nil
+}
+
+// IPC framing: a message is [0xFFFFFFFF] int32 metadata length, a
+// flatbuffer Message of that length (which states the body length), and the
+// body. A zero length ends the stream.
+const ipcContinuation = 0xFFFFFFFF
+
+// checkIPCStream walks the messages of an Arrow IPC stream from offset start
+// to end and checks that every metadata and body length fits in what remains.
+func checkIPCStream(fh io.ReaderAt, start, end int64) error {
+	var head [8]byte
+	for pos := start; pos < end; {
+		left := end - pos
+		if left < 4 {
+			return corruptf("stream ends inside a message header at %d", pos)
+		}
+		if _, err := fh.ReadAt(head[:4], pos); err != nil {
+			return err
+		}
+		l, hdr := int64(int32(binary.LittleEndian.Uint32(head[:4]))), int64(4)
+		if binary.LittleEndian.Uint32(head[:4]) == ipcContinuation {
+			if left < 8 {
+				return corruptf("stream ends inside a message header at %d", pos)
+			}
+			if _, err := fh.ReadAt(head[4:8], pos+4); err != nil {
+				return err
+			}
+			l, hdr = int64(int32(binary.LittleEndian.Uint32(head[4:8]))), 8
+		}
+		if l == 0 {
+			return nil // end-of-stream marker
+		}
+		if l < 0 || l > left-hdr {
+			return corruptf("message at %d claims %d bytes of metadata, %d left in the file", pos, l, left-hdr)
+		}
+		meta := make([]byte, l)
+		if _, err := fh.ReadAt(meta, pos+hdr); err != nil {
+			return err
+		}
+		if err := checkMessage(meta); err != nil {
+			return fmt.Errorf("message at %d: %w", pos, err)
+		}
+		body, err := bodyLength(meta)
+		if err != nil {
+			return corruptf("message at %d: %v", pos, err)
+		}
+		if rest := left - hdr - l; body < 0 || body > rest {
+			return corruptf("message at %d claims a body of %d bytes, %d left in the file", pos, body, rest)
+		}
+		pos += hdr + l + body
+	}
+	return nil
+}
+
+// bodyLength reads the body length from a flatbuffer Message with arrow's
+// own decoder; garbage metadata makes it panic, which becomes an error.
+func bodyLength(meta []byte) (n int64, err error) {
+	defer func() {
+		if p := recover(); p != nil {
+			n, err = 0, fmt.Errorf("unreadable message metadata")
+		}
+	}()
+	if len(meta) < 8 {
+		return 0, fmt.Errorf("message metadata of %d bytes is too short", len(meta))
+	}
+	msg := ipc.NewMessage(memory.NewBufferBytes(meta), memory.NewBufferBytes(nil))
+	defer msg.Release()
+	return msg.BodyLen(), nil
+}
+
+// checkArrowFileFooter checks that an Arrow IPC file's footer length fits.
+func checkArrowFileFooter(fh io.ReaderAt, size int64) error {
+	const magic = "ARROW1"
+	if size < int64(2*8+4) {
+		return corruptf("%d bytes is too small for an Arrow IPC file", size)
+	}
+	var tail [10]byte
+	if _, err := fh.ReadAt(tail[:], size-10); err != nil {
+		return err
+	}
+	if string(tail[4:]) != magic {
+		return corruptf("no Arrow magic bytes at the end (truncated?)")
+	}
+	if n := int64(int32(binary.LittleEndian.Uint32(tail[:4]))); n <= 0 || n > size-18 {
+		return corruptf("footer length %d does not fit in the file of %d bytes", n, size)
+	}
+	return nil
+}
+
+// allocLimit is the largest single buffer arrow may allocate while reading a
+// file of size bytes: the file size (an uncompressed buffer cannot be
+// larger), or up to 64 times more for compressed buffers, at least 64 MiB
+// and at most 1 GiB unless the file itself is larger.
+func allocLimit(size int64) int64 {
+	return max(size, min(64*size, 1<<30), 64<<20)
+}
+
+// allocRefused is the panic value of boundedAllocator; the readers recover
+// it into an error.
+type allocRefused struct{ size, limit int64 }
+
+func (a *allocRefused) Error() string {
+	return fmt.Sprintf("%v: the file claims a buffer of %d bytes, beyond the bound of %d for this file", ErrCorruptFile, a.size, a.limit)
+}
+
+func (a *allocRefused) Unwrap() error { return ErrCorruptFile }
+
+// boundedAllocator refuses (by panicking with *allocRefused) any allocation
+// that is negative, larger than limit, or that would take the live total
+// beyond 4*limit. It is used by one goroutine.
+type boundedAllocator struct {
+	mem   memory.Allocator
+	limit int64
+	live  int64
+}
+
+func newBoundedAllocator(size int64) *boundedAllocator {
+	return &boundedAllocator{mem: memory.NewGoAllocator(), limit: allocLimit(size)}
+}
+
+func (a *boundedAllocator) check(size, old int) {
+	s := int64(size)
+	if size < 0 || s > a.limit || a.live-int64(old)+s > 4*a.limit {
+		panic(&allocRefused{size: s, limit: a.limit})
+	}
+	a.live += s - int64(old)
+}
+
+func (a *boundedAllocator) Allocate(size int) []byte {
+	a.check(size, 0)
+	return a.mem.Allocate(size)
+}
+
+func (a *boundedAllocator) Reallocate(size int, b []byte) []byte {
+	a.check(size, len(b))
+	return a.mem.Reallocate(size, b)
+}
+
+func (a *boundedAllocator) Free(b []byte) {
+	a.live -= int64(len(b))
+	a.mem.Free(b)
+}
+
+// panicError turns a recovered panic value into an error, keeping the
+// allocator's refusals as they are.
+func panicError(what string, p any) error {
+	if ar, ok := p.(*allocRefused); ok {
+		return ar
+	}
+	return fmt.Errorf("%w: panic while %s: %v", ErrCorruptFile, what, p)
+}
+
+// fileSize returns the current size of an open file.
+func fileSize(fh Handle) (int64, error) {
+	st, err := fh.Stat()
+	if err != nil {
+		return 0, err
+	}
+	return st.Size(), nil
+}

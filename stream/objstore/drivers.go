@@ -1,0 +1,3 @@
+package objstore
+
+import _ "gocloud.dev/blob/s3blob" // s3://

@@ -1,0 +1,5 @@
+//go:build kgauge_azblob
+
+package objstore
+
+import _ "gocloud.dev/blob/azureblob" // azblob://

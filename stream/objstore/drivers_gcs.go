@@ -1,0 +1,5 @@
+//go:build kgauge_gcs
+
+package objstore
+
+import _ "gocloud.dev/blob/gcsblob" // gs://

@@ -1,0 +1,83 @@
+package stream
+
+import (
+	"io"
+	"io/fs"
+	"os"
+)
+
+// Handle is an open input file: an *os.File for a local path, or what [Remote] returns for a URL.
+type Handle interface {
+	io.Reader
+	io.ReaderAt
+	io.Seeker
+	io.Closer
+	Stat() (fs.FileInfo, error)
+}
+
+// RemoteObject is one object listed by a [RemoteFS].
+type RemoteObject struct {
+	Path     string // the URL the object is opened by, such as s3://bucket/day=1/part-0.parquet
+	Key      string // its key within the bucket, whose key=value segments are its hive partition
+	Size     int64
+	Explicit bool // the pattern named this object itself: not being a data file is then an error
+}
+
+// RemoteFS lists and opens inputs that are not local files (URLs such as s3://bucket/prefix/).
+type RemoteFS interface {
+	// IsRemote reports whether path is a URL this file system handles.
+	IsRemote(path string) bool
+	// List returns the objects a URL names: the object itself, every object below a prefix, or the
+	// objects matching a glob ("**" included), sorted by Path, skipping names that start with "_"
+	// or ".". Errors name the URL.
+	List(pattern string) ([]RemoteObject, error)
+	// Open opens the object at path for ranged reads.
+	Open(path string) (Handle, error)
+}
+
+// Remote handles URL inputs in Discover, Open and OpenUnit; local paths always use os.File. It is nil
+// until a package such as stream/objstore sets it (in its init), and is not changed afterwards.
+var Remote RemoteFS
+
+// isRemote reports whether path is a URL for Remote.
+func isRemote(path string) bool { return Remote != nil && Remote.IsRemote(path) }
+
+// openPath opens a local file, or a URL through Remote.
+func openPath(path string) (Handle, error) {
+	if isRemote(path) {
+		return Remote.Open(path)
+	}
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, err // not a typed nil in the interface
+	}
+	return f, nil
+}
+
+// remote takes the data objects a URL names. Their partitions come from the key=value segments of
+// their keys; an object named exactly that is no data file is an error, as for a local file.
+func (d *discoverer) remote(pattern string) error {
+	objs, err := Remote.List(pattern)
+	if err != nil {
+		return newError(pattern, "", pathCause(err))
+	}
+	for _, o := range objs {
+		f, err := sniff(o.Path, o.Size)
+		if err != nil {
+			return newError(o.Path, "", err)
+		}
+		if f == 0 {
+			if o.Explicit {
+				return newError(o.Path, "", errNotData)
+			}
+			continue
+		}
+		d.found++
+		if d.seen[o.Path] {
+			continue
+		}
+		d.seen[o.Path] = true
+		d.files = append(d.files, File{Path: o.Path, Size: o.Size, Format: f, Partition: hivePartition(o.Key)})
+	}
+	return nil
+}
