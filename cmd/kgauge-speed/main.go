@@ -4,6 +4,7 @@
 //	kgauge-speed gen --rows N --dims D --out FILE    write a Gaussian-mixture Parquet file
 //	kgauge-speed scan --workers W FILE               bare parquet-go page scan (the floor)
 //	kgauge-speed run --out DIR                       the whole benchmark, report written to DIR
+//	kgauge-speed render --out DIR                    rewrite DIR/SPEED.md from DIR/speed.json
 package main
 
 import (
@@ -79,6 +80,13 @@ func run(ctx context.Context, args []string, stdout, stderr io.Writer) error {
 		}
 		return json.NewEncoder(stdout).Encode(map[string]any{"rows": r.Rows, "values": r.Values,
 			"sum": r.Sum, "seconds": time.Since(start).Seconds()})
+	case "render":
+		var cfg speed.Config
+		cfg.Register(fs)
+		if err := fs.Parse(args[1:]); err != nil {
+			return err
+		}
+		return speed.Render(cfg)
 	case "run":
 		var cfg speed.Config
 		cfg.Register(fs)
