@@ -29,15 +29,21 @@ const (
 	// maxThriftDepth bounds the nesting of Thrift structures in a footer or
 	// page header (the real ones nest less than ten deep).
 	maxThriftDepth = 64
-	// minPageBound is the uncompressed size any page may claim, whatever its
-	// compressed size.
-	minPageBound = 256 << 20
 	// pageRatio is the largest compression ratio trusted beyond minPageBound.
 	pageRatio = 64
-	// maxPageValues bounds the values (nulls included) of one Parquet page.
-	maxPageValues = 1 << 24
 	// maxPageHeader bounds the size of one Parquet page header.
 	maxPageHeader = 16 << 20
+)
+
+// The page bounds are variables only so that the fuzz tests can lower them (export_test.go): at
+// their production values a hostile page may cost a few hundred MiB before it fails, which is
+// within the memory bound but makes each fuzz execution take seconds.
+var (
+	// minPageBound is the uncompressed size any page may claim, whatever its
+	// compressed size.
+	minPageBound int64 = 256 << 20
+	// maxPageValues bounds the values (nulls included) of one Parquet page.
+	maxPageValues int64 = 1 << 24
 )
 
 func corruptf(format string, args ...any) error {
