@@ -2,7 +2,6 @@ package main
 
 import (
 	"context"
-	"errors"
 	"flag"
 	"fmt"
 	"io"
@@ -30,11 +29,8 @@ func (c *DemoCommand) Run(ctx context.Context, args []string) error {
 		fmt.Fprintln(c.Stderr, "Usage: kgauge demo [flags]\n\nSynthesise one day of household load profiles, estimate its k and compare with the truth.\nIt takes the flags of synth and estimate.\n\nFlags:")
 		fs.PrintDefaults()
 	}
-	if err := fs.Parse(args); err != nil {
-		if errors.Is(err, flag.ErrHelp) {
-			return err
-		}
-		return usageErrorf("demo: %v", err)
+	if err := parseArgs(fs, args); err != nil {
+		return err
 	}
 	if fs.NArg() > 0 {
 		return usageErrorf("demo: unexpected argument %q", fs.Arg(0))

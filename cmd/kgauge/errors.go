@@ -88,3 +88,15 @@ func report(err error, stderr io.Writer) int {
 }
 
 func versionString() string { return kgauge.Version }
+
+// parseArgs parses args into fs: -h comes back as flag.ErrHelp, any other problem as a usage
+// error prefixed with the command's name.
+func parseArgs(fs *flag.FlagSet, args []string) error {
+	if err := fs.Parse(args); err != nil {
+		if errors.Is(err, flag.ErrHelp) {
+			return err
+		}
+		return usageErrorf("%s: %v", fs.Name(), err)
+	}
+	return nil
+}

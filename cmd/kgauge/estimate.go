@@ -3,7 +3,6 @@ package main
 import (
 	"context"
 	"encoding/json"
-	"errors"
 	"flag"
 	"fmt"
 	"io"
@@ -129,11 +128,8 @@ func (c *EstimateCommand) Run(ctx context.Context, args []string) error {
 		fmt.Fprintln(c.Stderr, "Usage: kgauge estimate [flags] PATH...\n\nScore every k in range from one pass over PATH and give a verdict.\n\nFlags:")
 		fs.PrintDefaults()
 	}
-	if err := fs.Parse(args); err != nil {
-		if errors.Is(err, flag.ErrHelp) {
-			return err
-		}
-		return usageErrorf("estimate: %v", err)
+	if err := parseArgs(fs, args); err != nil {
+		return err
 	}
 	if fs.NArg() == 0 {
 		return usageErrorf("estimate: no PATH given")

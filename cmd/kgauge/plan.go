@@ -3,7 +3,6 @@ package main
 import (
 	"context"
 	"encoding/json"
-	"errors"
 	"flag"
 	"fmt"
 	"io"
@@ -31,11 +30,8 @@ func (c *PlanCommand) Run(ctx context.Context, args []string) error {
 		fmt.Fprintln(c.Stderr, "Usage: kgauge plan [flags] PATH...\n\nPredict the wall time and peak memory of \"kgauge estimate\" with the same flags, from the\nfiles' metadata and a short timed read of a few row groups.\n\nFlags:")
 		fs.PrintDefaults()
 	}
-	if err := fs.Parse(args); err != nil {
-		if errors.Is(err, flag.ErrHelp) {
-			return err
-		}
-		return usageErrorf("plan: %v", err)
+	if err := parseArgs(fs, args); err != nil {
+		return err
 	}
 	if fs.NArg() == 0 {
 		return usageErrorf("plan: no PATH given")

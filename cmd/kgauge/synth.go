@@ -2,7 +2,6 @@ package main
 
 import (
 	"context"
-	"errors"
 	"flag"
 	"fmt"
 	"io"
@@ -77,11 +76,8 @@ func (c *SynthCommand) Run(ctx context.Context, args []string) error {
 		fmt.Fprintln(c.Stderr, "Usage: kgauge synth [flags]\n\nWrite the demo lake: one row per meter per day, hourly kWh in h00..h23.\n\nFlags:")
 		fs.PrintDefaults()
 	}
-	if err := fs.Parse(args); err != nil {
-		if errors.Is(err, flag.ErrHelp) {
-			return err
-		}
-		return usageErrorf("synth: %v", err)
+	if err := parseArgs(fs, args); err != nil {
+		return err
 	}
 	if fs.NArg() > 0 {
 		return usageErrorf("synth: unexpected argument %q (use --out DIR)", fs.Arg(0))
