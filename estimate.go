@@ -68,12 +68,9 @@ func Evaluate(ctx context.Context, sk *sketch.Sketch, opt Options) (*Result, err
 	if err := opt.Validate(); err != nil {
 		return nil, err
 	}
+	// A k outside the sketch's own range has no mini-batch seed centres; its fits start from
+	// k-means++ restarts on the coreset alone.
 	opt = opt.withDefaults()
-	cfg := sk.Config()
-	if opt.Criteria.MinK < cfg.MinK || opt.Criteria.MaxK > cfg.MaxK {
-		// Mini-batch seeds exist only for the sketch's range; the criteria still run on the coreset.
-		opt.Criteria.MinK = max(opt.Criteria.MinK, 1)
-	}
 	if n := sk.Rows(); n < int64(opt.Criteria.MaxK) {
 		return nil, fmt.Errorf("%w: %d usable rows is fewer than max-k (%d)", ErrTooFewRows, n, opt.Criteria.MaxK)
 	}

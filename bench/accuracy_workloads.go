@@ -1,19 +1,18 @@
 package bench
 
 import (
-	"bufio"
 	"fmt"
 	"math"
 	"math/rand/v2"
 	"os"
 	"path/filepath"
 	"slices"
-	"strconv"
 	"strings"
 
 	"gonum.org/v1/gonum/stat"
 
 	"github.com/kgauge/kgauge/bench/synth"
+	"github.com/kgauge/kgauge/internal/refsets"
 )
 
 // Workload is an in-memory data set with a known number of clusters.
@@ -194,51 +193,11 @@ func reference(name string, dirs []string) (*Workload, error) {
 	return nil, fmt.Errorf("bench: reference set %s (%s) not found in %s", r.name, r.file, strings.Join(dirs, ", "))
 }
 
-// readPoints reads a plain-text point set: numbers separated by white space or commas, one point
-// a line; blank lines and lines starting with '#' are skipped, and a first line whose field count
-// differs from the next line's is a header.
+// readPoints reads a reference point set (internal/refsets).
 func readPoints(path string) ([]float64, int, error) {
-	f, err := os.Open(path)
+	x, d, err := refsets.Read(path)
 	if err != nil {
 		return nil, 0, fmt.Errorf("bench: %w", err)
-	}
-	defer f.Close()
-	var rows [][]float64
-	sc := bufio.NewScanner(f)
-	line := 0
-	for sc.Scan() {
-		line++
-		t := strings.TrimSpace(sc.Text())
-		if t == "" || strings.HasPrefix(t, "#") {
-			continue
-		}
-		fields := strings.FieldsFunc(t, func(r rune) bool { return r == ',' || r == ' ' || r == '\t' })
-		row := make([]float64, len(fields))
-		for j, s := range fields {
-			v, err := strconv.ParseFloat(s, 64)
-			if err != nil {
-				return nil, 0, fmt.Errorf("bench: %s line %d: %q is not a number", path, line, s)
-			}
-			row[j] = v
-		}
-		rows = append(rows, row)
-	}
-	if err := sc.Err(); err != nil {
-		return nil, 0, fmt.Errorf("bench: %s: %w", path, err)
-	}
-	if len(rows) >= 2 && len(rows[0]) != len(rows[1]) {
-		rows = rows[1:]
-	}
-	if len(rows) == 0 {
-		return nil, 0, fmt.Errorf("bench: %s holds no points", path)
-	}
-	d := len(rows[0])
-	x := make([]float64, 0, len(rows)*d)
-	for i, r := range rows {
-		if len(r) != d {
-			return nil, 0, fmt.Errorf("bench: %s: point %d has %d values, want %d", path, i+1, len(r), d)
-		}
-		x = append(x, r...)
 	}
 	return x, d, nil
 }
