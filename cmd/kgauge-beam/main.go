@@ -28,6 +28,7 @@ import (
 	_ "github.com/apache/beam/sdks/v2/go/pkg/beam/x/beamx" // registers every runner and file system
 	"github.com/kgauge/kgauge"
 	kbeam "github.com/kgauge/kgauge/beam"
+	"github.com/kgauge/kgauge/internal/cliflags"
 	"github.com/kgauge/kgauge/stream"
 	"github.com/kgauge/kgauge/stream/objstore"
 	_ "gocloud.dev/blob/azureblob" // azblob:// inputs; this binary links the big SDKs anyway
@@ -47,71 +48,22 @@ type usageError struct{ msg string }
 
 func (e *usageError) Error() string { return e.msg }
 
-// flags are the estimate flags kgauge-beam shares with `kgauge estimate`.
+// flags are the data flags kgauge-beam shares with `kgauge estimate` (internal/cliflags), and --out.
 type flags struct {
-	opt     kgauge.Options
-	columns string
-	scale   string
-	memory  string
-	out     string
+	cliflags.Data
+	out string
 }
 
 func (f *flags) register(fs *flag.FlagSet) {
-	f.opt = kgauge.DefaultOptions()
-	o := &f.opt
-	fs.StringVar(&f.columns, "columns", "", "comma-separated feature columns (default: every numeric column)")
-	fs.StringVar(&f.scale, "scale", string(o.Scale), "feature scaling: zscore, range or none")
-	fs.IntVar(&o.Criteria.MinK, "min-k", o.Criteria.MinK, "smallest k to score")
-	fs.IntVar(&o.Criteria.MaxK, "max-k", o.Criteria.MaxK, "largest k to score")
-	fs.Uint64Var(&o.Seed, "seed", o.Seed, "seed of every random choice")
-	fs.IntVar(&o.Sketch.CoresetSize, "coreset", o.Sketch.CoresetSize, "rows in the weighted coreset")
-	fs.IntVar(&o.Sketch.SampleSize, "sample", o.Sketch.SampleSize, "rows in the uniform sample")
-	fs.Int64Var(&o.Sketch.MiniBatchRows, "minibatch-rows", o.Sketch.MiniBatchRows, "rows fed to mini-batch k-means over the pass")
-	fs.IntVar(&o.Criteria.Restarts, "restarts", o.Criteria.Restarts, "k-means++ restarts per k on the coreset")
-	fs.IntVar(&o.Criteria.Anchors, "anchors", o.Criteria.Anchors, "silhouette anchor points, stratified by cluster")
-	fs.IntVar(&o.Criteria.GapRefs, "gap-refs", o.Criteria.GapRefs, "Monte Carlo reference sets (B) of the gap statistic")
-	fs.IntVar(&o.Criteria.GapSample, "gap-sample", o.Criteria.GapSample, "points per gap reference set and on the data side")
-	fs.IntVar(&o.ProbeRows, "probe-rows", o.ProbeRows, "rows read before the pass to fix the scale")
-	fs.IntVar(&o.BatchRows, "batch-rows", o.BatchRows, "rows per read batch")
-	fs.StringVar(&f.memory, "memory", "", "memory limit of each worker's sketch such as 512MiB (default: no limit)")
+	f.Data.Register(fs)
 	fs.StringVar(&f.out, "out", "", "file the pipeline writes the JSON result to (default with prism: a temporary file); the workers must be able to write it")
 }
 
 // options checks the flag values as `kgauge estimate` does.
 func (f *flags) options() (kgauge.Options, error) {
-	o := f.opt
-	o.Workers = 1 // the runner parallelises; each work item is read by one goroutine
-	for _, c := range []struct {
-		name string
-		v    int64
-	}{{"--coreset", int64(o.Sketch.CoresetSize)}, {"--sample", int64(o.Sketch.SampleSize)},
-		{"--minibatch-rows", o.Sketch.MiniBatchRows}, {"--restarts", int64(o.Criteria.Restarts)},
-		{"--anchors", int64(o.Criteria.Anchors)}, {"--gap-refs", int64(o.Criteria.GapRefs)},
-		{"--gap-sample", int64(o.Criteria.GapSample)}, {"--probe-rows", int64(o.ProbeRows)},
-		{"--batch-rows", int64(o.BatchRows)}, {"--min-k", int64(o.Criteria.MinK)}, {"--max-k", int64(o.Criteria.MaxK)}} {
-		if c.v < 1 {
-			return o, &usageError{fmt.Sprintf("%s must be at least 1, got %d", c.name, c.v)}
-		}
-	}
-	sc, err := kgauge.ParseScale(f.scale)
+	f.Opt.Workers = 1 // the runner parallelises; each work item is read by one goroutine
+	o, err := f.Data.Options()
 	if err != nil {
-		return o, &usageError{"--scale: " + err.Error()}
-	}
-	o.Scale = sc
-	if f.memory != "" {
-		if o.Memory, err = kgauge.ParseBytes(f.memory); err != nil {
-			return o, &usageError{"--memory: " + err.Error()}
-		}
-	}
-	for _, c := range strings.Split(f.columns, ",") {
-		if c = strings.TrimSpace(c); c != "" {
-			o.Columns = append(o.Columns, c)
-		}
-	}
-	if f.columns != "" && len(o.Columns) == 0 {
-		return o, &usageError{"--columns: no column named"}
-	}
-	if err := o.Validate(); err != nil {
 		return o, &usageError{err.Error()}
 	}
 	return o, nil

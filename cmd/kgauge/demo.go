@@ -40,7 +40,7 @@ func (c *DemoCommand) Run(ctx context.Context, args []string) error {
 		return err
 	}
 	gen.Partitions = 1
-	gen.Seed = ef.opt.Seed
+	gen.Seed = ef.Opt.Seed
 	opt, err := ef.options()
 	if err != nil {
 		return err

@@ -8,12 +8,12 @@ import (
 	"io"
 	"os"
 	"path/filepath"
-	"strings"
 	"time"
 
 	"github.com/kgauge/kgauge"
 	"github.com/kgauge/kgauge/bench/model"
 	"github.com/kgauge/kgauge/internal/atomicfile"
+	"github.com/kgauge/kgauge/internal/cliflags"
 	htmlreport "github.com/kgauge/kgauge/report"
 	"github.com/kgauge/kgauge/sketch"
 	"github.com/schollz/progressbar/v3"
@@ -25,38 +25,20 @@ type EstimateCommand struct {
 	Stdout, Stderr io.Writer
 }
 
-// estimateFlags binds the flags shared by estimate and demo into options.
+// estimateFlags binds the flags of estimate, shared by plan, track and demo: the data flags of
+// cliflags plus the workers and the outputs.
 type estimateFlags struct {
-	opt        kgauge.Options
-	columns    string
-	scale      string
+	cliflags.Data
 	asJSON     bool
 	quiet      bool
 	out        string
 	saveSketch string
-	memory     string
 	report     string
 }
 
 func (f *estimateFlags) register(fs *flag.FlagSet) {
-	f.opt = kgauge.DefaultOptions()
-	o := &f.opt
-	fs.StringVar(&f.columns, "columns", "", "comma-separated feature columns (default: every numeric column)")
-	fs.StringVar(&f.scale, "scale", string(o.Scale), "feature scaling: zscore, range or none")
-	fs.IntVar(&o.Criteria.MinK, "min-k", o.Criteria.MinK, "smallest k to score")
-	fs.IntVar(&o.Criteria.MaxK, "max-k", o.Criteria.MaxK, "largest k to score")
-	fs.IntVar(&o.Workers, "workers", o.Workers, "goroutines reading and sketching")
-	fs.Uint64Var(&o.Seed, "seed", o.Seed, "seed of every random choice; the same input, flags and seed give the same result")
-	fs.IntVar(&o.Sketch.CoresetSize, "coreset", o.Sketch.CoresetSize, "rows in the weighted coreset")
-	fs.IntVar(&o.Sketch.SampleSize, "sample", o.Sketch.SampleSize, "rows in the uniform sample")
-	fs.Int64Var(&o.Sketch.MiniBatchRows, "minibatch-rows", o.Sketch.MiniBatchRows, "rows fed to mini-batch k-means over the pass")
-	fs.IntVar(&o.Criteria.Restarts, "restarts", o.Criteria.Restarts, "k-means++ restarts per k on the coreset")
-	fs.IntVar(&o.Criteria.Anchors, "anchors", o.Criteria.Anchors, "silhouette anchor points, stratified by cluster")
-	fs.IntVar(&o.Criteria.GapRefs, "gap-refs", o.Criteria.GapRefs, "Monte Carlo reference sets (B) of the gap statistic")
-	fs.IntVar(&o.Criteria.GapSample, "gap-sample", o.Criteria.GapSample, "points per gap reference set and on the data side")
-	fs.IntVar(&o.ProbeRows, "probe-rows", o.ProbeRows, "rows read before the pass to fix the scale")
-	fs.IntVar(&o.BatchRows, "batch-rows", o.BatchRows, "rows per read batch")
-	fs.StringVar(&f.memory, "memory", "", "memory limit such as 512MiB or 2GiB: sizes shrink to fit the estimate (default: no limit)")
+	f.Data.Register(fs)
+	fs.IntVar(&f.Opt.Workers, "workers", f.Opt.Workers, "goroutines reading and sketching")
 	fs.BoolVar(&f.asJSON, "json", false, "print one JSON document instead of the table")
 	fs.BoolVar(&f.quiet, "quiet", false, "no progress bar")
 	fs.StringVar(&f.out, "out", "", "also write the JSON result to this file (atomically)")
@@ -66,56 +48,14 @@ func (f *estimateFlags) register(fs *flag.FlagSet) {
 
 // options returns the bound options after checking the flag values.
 func (f *estimateFlags) options() (kgauge.Options, error) {
-	o := f.opt
-	// Zero would mean "default" to the library; on the command line it is a mistake.
-	for _, c := range []struct {
-		name string
-		v    int64
-	}{{"--workers", int64(o.Workers)}, {"--coreset", int64(o.Sketch.CoresetSize)}, {"--sample", int64(o.Sketch.SampleSize)},
-		{"--minibatch-rows", o.Sketch.MiniBatchRows}, {"--restarts", int64(o.Criteria.Restarts)},
-		{"--anchors", int64(o.Criteria.Anchors)}, {"--gap-refs", int64(o.Criteria.GapRefs)},
-		{"--gap-sample", int64(o.Criteria.GapSample)}, {"--probe-rows", int64(o.ProbeRows)},
-		{"--batch-rows", int64(o.BatchRows)}, {"--min-k", int64(o.Criteria.MinK)}, {"--max-k", int64(o.Criteria.MaxK)}} {
-		if c.v < 1 {
-			return o, usageErrorf("%s must be at least 1, got %d", c.name, c.v)
-		}
+	if f.Opt.Workers < 1 {
+		return f.Opt, usageErrorf("--workers must be at least 1, got %d", f.Opt.Workers)
 	}
-	sc, err := kgauge.ParseScale(f.scale)
+	o, err := f.Data.Options()
 	if err != nil {
-		return o, usageErrorf("--scale: %v", err)
-	}
-	o.Scale = sc
-	if f.memory != "" {
-		if o.Memory, err = kgauge.ParseBytes(f.memory); err != nil {
-			return o, usageErrorf("--memory: %v", err)
-		}
-	}
-	if f.columns != "" {
-		for _, c := range strings.Split(f.columns, ",") {
-			if c = strings.TrimSpace(c); c != "" {
-				o.Columns = append(o.Columns, c)
-			}
-		}
-		if len(o.Columns) == 0 {
-			return o, usageErrorf("--columns: no column named")
-		}
-	}
-	if err := o.Validate(); err != nil {
-		return o, usageErrorf("%v", flagNames(err))
+		return o, &usageError{msg: err.Error()}
 	}
 	return o, nil
-}
-
-// flagNames rewrites option names in validation messages as the flags users typed.
-func flagNames(err error) string {
-	msg := err.Error()
-	for _, r := range [][2]string{{"max-k", "--max-k"}, {"min-k", "--min-k"}, {"workers", "--workers"},
-		{"batch rows", "--batch-rows"}, {"probe rows", "--probe-rows"}, {"coreset size", "--coreset"},
-		{"sample size", "--sample"}, {"mini-batch rows", "--minibatch-rows"}, {"restarts", "--restarts"},
-		{"anchors", "--anchors"}, {"gap refs", "--gap-refs"}, {"gap sample", "--gap-sample"}} {
-		msg = strings.Replace(msg, r[0], r[1], 1)
-	}
-	return msg
 }
 
 // Run parses args and runs the estimate.

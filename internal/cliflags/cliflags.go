@@ -1,0 +1,105 @@
+// Package cliflags binds the command-line flags that choose what an estimate computes to
+// kgauge.Options. The kgauge commands and kgauge-beam share it, so that a flag means the same in
+// every binary.
+package cliflags
+
+import (
+	"flag"
+	"fmt"
+	"strings"
+
+	"github.com/kgauge/kgauge"
+)
+
+// UsageError is a bad flag value; its message names the flag.
+type UsageError struct{ Msg string }
+
+func (e *UsageError) Error() string { return e.Msg }
+
+func usagef(format string, args ...any) error { return &UsageError{Msg: fmt.Sprintf(format, args...)} }
+
+// Data holds the estimate's data flags once registered: the input columns, scaling, k range,
+// seed, every sample size, and the memory limit. Opt carries the library defaults until the flags
+// are parsed.
+type Data struct {
+	Opt     kgauge.Options
+	columns string
+	scale   string
+	memory  string
+}
+
+// Register binds the flags into d, with the library's defaults.
+func (d *Data) Register(fs *flag.FlagSet) {
+	d.Opt = kgauge.DefaultOptions()
+	o := &d.Opt
+	fs.StringVar(&d.columns, "columns", "", "comma-separated feature columns (default: every numeric column)")
+	fs.StringVar(&d.scale, "scale", string(o.Scale), "feature scaling: zscore, range or none")
+	fs.IntVar(&o.Criteria.MinK, "min-k", o.Criteria.MinK, "smallest k to score")
+	fs.IntVar(&o.Criteria.MaxK, "max-k", o.Criteria.MaxK, "largest k to score")
+	fs.Uint64Var(&o.Seed, "seed", o.Seed, "seed of every random choice; the same input, flags and seed give the same result")
+	fs.IntVar(&o.Sketch.CoresetSize, "coreset", o.Sketch.CoresetSize, "rows in the weighted coreset")
+	fs.IntVar(&o.Sketch.SampleSize, "sample", o.Sketch.SampleSize, "rows in the uniform sample")
+	fs.Int64Var(&o.Sketch.MiniBatchRows, "minibatch-rows", o.Sketch.MiniBatchRows, "rows fed to mini-batch k-means over the pass")
+	fs.IntVar(&o.Criteria.Restarts, "restarts", o.Criteria.Restarts, "k-means++ restarts per k on the coreset")
+	fs.IntVar(&o.Criteria.Anchors, "anchors", o.Criteria.Anchors, "silhouette anchor points, stratified by cluster")
+	fs.IntVar(&o.Criteria.GapRefs, "gap-refs", o.Criteria.GapRefs, "Monte Carlo reference sets (B) of the gap statistic")
+	fs.IntVar(&o.Criteria.GapSample, "gap-sample", o.Criteria.GapSample, "points per gap reference set and on the data side")
+	fs.IntVar(&o.ProbeRows, "probe-rows", o.ProbeRows, "rows read before the pass to fix the scale")
+	fs.IntVar(&o.BatchRows, "batch-rows", o.BatchRows, "rows per read batch")
+	fs.StringVar(&d.memory, "memory", "", "memory limit such as 512MiB or 2GiB: sizes shrink to fit the estimate (default: no limit)")
+}
+
+// Options returns the bound options after checking the values; a bad one is a *UsageError
+// naming its flag.
+func (d *Data) Options() (kgauge.Options, error) {
+	o := d.Opt
+	// Zero would mean "default" to the library; on the command line it is a mistake.
+	for _, c := range []struct {
+		name string
+		v    int64
+	}{{"--coreset", int64(o.Sketch.CoresetSize)}, {"--sample", int64(o.Sketch.SampleSize)},
+		{"--minibatch-rows", o.Sketch.MiniBatchRows}, {"--restarts", int64(o.Criteria.Restarts)},
+		{"--anchors", int64(o.Criteria.Anchors)}, {"--gap-refs", int64(o.Criteria.GapRefs)},
+		{"--gap-sample", int64(o.Criteria.GapSample)}, {"--probe-rows", int64(o.ProbeRows)},
+		{"--batch-rows", int64(o.BatchRows)}, {"--min-k", int64(o.Criteria.MinK)}, {"--max-k", int64(o.Criteria.MaxK)}} {
+		if c.v < 1 {
+			return o, usagef("%s must be at least 1, got %d", c.name, c.v)
+		}
+	}
+	sc, err := kgauge.ParseScale(d.scale)
+	if err != nil {
+		return o, usagef("--scale: %v", err)
+	}
+	o.Scale = sc
+	if d.memory != "" {
+		if o.Memory, err = kgauge.ParseBytes(d.memory); err != nil {
+			return o, usagef("--memory: %v", err)
+		}
+	}
+	if d.columns != "" {
+		for _, c := range strings.Split(d.columns, ",") {
+			if c = strings.TrimSpace(c); c != "" {
+				o.Columns = append(o.Columns, c)
+			}
+		}
+		if len(o.Columns) == 0 {
+			return o, usagef("--columns: no column named")
+		}
+	}
+	if err := o.Validate(); err != nil {
+		return o, usagef("%s", flagNames(err))
+	}
+	return o, nil
+}
+
+// flagNames rewrites option names in validation messages as the flags users typed.
+func flagNames(err error) string {
+	msg := err.Error()
+	for _, r := range [][2]string{{"max-k", "--max-k"}, {"min-k", "--min-k"}, {"workers", "--workers"},
+		{"batch rows", "--batch-rows"}, {"probe rows", "--probe-rows"}, {"coreset size", "--coreset"},
+		{"sample size", "--sample"}, {"mini-batch rows", "--minibatch-rows"}, {"restarts", "--restarts"},
+		{"anchors", "--anchors"}, {"gap refs", "--gap-refs"}, {"gap sample", "--gap-sample"}} {
+		msg = strings.Replace(msg, r[0], r[1], 1)
+	}
+	return msg
+}
