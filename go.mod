@@ -7,6 +7,7 @@ require (
 	github.com/apache/beam/sdks/v2 v2.77.0
 	github.com/google/flatbuffers v25.12.19+incompatible
 	github.com/johannesboyne/gofakes3 v1.2.0
+	github.com/klauspost/compress v1.19.2
 	github.com/parquet-go/parquet-go v0.32.0
 	github.com/schollz/progressbar/v3 v3.19.1
 	gocloud.dev v0.47.0
@@ -89,7 +90,6 @@ require (
 	github.com/googleapis/enterprise-certificate-proxy v0.3.21 // indirect
 	github.com/googleapis/gax-go/v2 v2.24.1 // indirect
 	github.com/klauspost/asmfmt v1.3.2 // indirect
-	github.com/klauspost/compress v1.19.2 // indirect
 	github.com/klauspost/cpuid/v2 v2.4.0 // indirect
 	github.com/kylelemons/godebug v1.1.0 // indirect
 	github.com/minio/asm2plan9s v0.0.0-20200509001527-cdd76441f9d8 // indirect

@@ -29,7 +29,7 @@ func ParseScale(s string) (Scale, error) {
 
 // Defaults for [Options].
 const (
-	DefaultBatchRows  = 256
+	DefaultBatchRows  = 4096
 	DefaultProbeRows  = 65536
 	DefaultProbeUnits = 16
 	// probeInitRows caps the probe rows used for k-means++ starting centres.

@@ -136,23 +136,19 @@ func (b *Builder) Build(ctx context.Context, id int) (*sketch.Sketch, error) {
 		return nil, err
 	}
 	defer r.Close()
-	d := ds.Dims()
-	buf := make([]float64, max(1, p.Options.BatchRows)*d)
 	sk.BeginUnit(id)
 	for {
 		if err := ctx.Err(); err != nil {
 			return nil, err
 		}
-		n, err := r.Read(buf)
-		if n > 0 {
-			sk.Add(buf[:n*d])
-		}
+		cols, err := r.ReadColumns(max(1, p.Options.BatchRows))
 		if err == io.EOF {
 			break
 		}
 		if err != nil {
 			return nil, err
 		}
+		sk.AddColumns(cols)
 	}
 	sk.Meta.SkippedRows += r.Skipped()
 	if err := r.Close(); err != nil {

@@ -27,3 +27,32 @@ func BenchmarkAdd(b *testing.B) {
 	}
 	b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(b.N*4096), "ns/row")
 }
+
+// BenchmarkAddColumns is BenchmarkAdd with the rows given by column, as the pass gives them.
+func BenchmarkAddColumns(b *testing.B) {
+	rng := rand.New(rand.NewPCG(1, 1))
+	d := 16
+	x, _ := blobs(rng, 1<<16, d, []float64{1, 1, 1, 1}, 4)
+	cfg := Config{Columns: columns(d), MaxK: 20, ExpectedRows: 100_000_000}
+	s, err := New(cfg, probeOf(b, x, d, 20))
+	if err != nil {
+		b.Fatal(err)
+	}
+	for range 40 {
+		s.Add(x)
+	}
+	const rows = 4096
+	cols := make([][]float64, d)
+	for j := range cols {
+		cols[j] = make([]float64, rows)
+		for i := range rows {
+			cols[j][i] = x[i*d+j]
+		}
+	}
+	b.SetBytes(rows * int64(d) * 8)
+	b.ReportAllocs()
+	for b.Loop() {
+		s.AddColumns(cols)
+	}
+	b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(b.N*rows), "ns/row")
+}

@@ -25,6 +25,76 @@ func newMoments(shift []float64) Moments {
 	return m
 }
 
+// addColumn accumulates the values col of column j (finite, raw units) into m's sums and box, and
+// adds each value's squared shifted distance times inv2 to norm2 (setting it for column 0). The
+// sums use two interleaved accumulators, so they do not wait on each other; the box is updated
+// behind a comparison that is rarely true, because the builtin min and max of floats (which order
+// NaNs and signed zeros) chain several dependent instructions per value.
+func (m *Moments) addColumn(j int, col []float64, inv2 float64, norm2 []float64) {
+	sh, lo, hi := m.Shift[j], m.Min[j], m.Max[j]
+	norm2 = norm2[:len(col)]
+	var a0, a1, b0, b1 float64
+	i := 0
+	if j == 0 {
+		for ; i+2 <= len(col); i += 2 {
+			v0, v1 := col[i], col[i+1]
+			d0, d1 := v0-sh, v1-sh
+			q0, q1 := d0*d0, d1*d1
+			a0 += d0
+			a1 += d1
+			b0 += q0
+			b1 += q1
+			norm2[i] = q0 * inv2
+			norm2[i+1] = q1 * inv2
+			if v0 < lo || v1 < lo {
+				lo = min(lo, v0, v1)
+			}
+			if v0 > hi || v1 > hi {
+				hi = max(hi, v0, v1)
+			}
+		}
+	} else {
+		for ; i+2 <= len(col); i += 2 {
+			v0, v1 := col[i], col[i+1]
+			d0, d1 := v0-sh, v1-sh
+			q0, q1 := d0*d0, d1*d1
+			a0 += d0
+			a1 += d1
+			b0 += q0
+			b1 += q1
+			norm2[i] += q0 * inv2
+			norm2[i+1] += q1 * inv2
+			if v0 < lo || v1 < lo {
+				lo = min(lo, v0, v1)
+			}
+			if v0 > hi || v1 > hi {
+				hi = max(hi, v0, v1)
+			}
+		}
+	}
+	for ; i < len(col); i++ {
+		v := col[i]
+		dv := v - sh
+		q := dv * dv
+		a0 += dv
+		b0 += q
+		if j == 0 {
+			norm2[i] = q * inv2
+		} else {
+			norm2[i] += q * inv2
+		}
+		if v < lo {
+			lo = v
+		}
+		if v > hi {
+			hi = v
+		}
+	}
+	m.S1[j] += a0 + a1
+	m.S2[j] += b0 + b1
+	m.Min[j], m.Max[j] = lo, hi
+}
+
 // MeanTo writes the column means into dst (allocated when nil) and returns it.
 func (m *Moments) MeanTo(dst []float64) []float64 {
 	dst = sized(dst, len(m.Shift))

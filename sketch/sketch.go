@@ -124,6 +124,12 @@ type Sketch struct {
 	labels  []int32
 	scratch []float64
 
+	// Buffers of AddColumns and Add.
+	norm2    []float64   // per row of a batch, Σ_j (x_j − shift_j)² / scale_j²
+	row      []float64   // one gathered row
+	colBuf   []float64   // Add: addChunk rows by column
+	colViews [][]float64 // Add: the columns in colBuf
+
 	rng  rand.PCG
 	skip int64 // rows to pass before the next one fed to mini-batch k-means
 }
@@ -144,7 +150,7 @@ func New(cfg Config, probe Probe) (*Sketch, error) {
 		meanSq:  probe.MeanSq,
 		coreset: newTopK(cfg.CoresetSize+1, d), sample: newTopK(cfg.SampleSize, d),
 		mbBuf: make([]float64, cfg.MiniBatchSize*d), labels: make([]int32, cfg.MiniBatchSize),
-		scratch: make([]float64, d), parts: make([][]CentreSet, cfg.MaxK-cfg.MinK+1)}
+		scratch: make([]float64, d), row: make([]float64, d), parts: make([][]CentreSet, cfg.MaxK-cfg.MinK+1)}
 	for j, sc := range probe.Scale {
 		if !(sc > 0) || math.IsInf(sc, 0) {
 			return nil, fmt.Errorf("sketch: probe scale of column %q is %v, want a positive finite number", cfg.Columns[j], sc)
@@ -222,49 +228,96 @@ func (s *Sketch) nextSkip() int64 {
 	return int64(g)
 }
 
+// addChunk is how many rows Add turns into columns at a time; colStride spaces the columns in its
+// buffer so that they do not start at multiples of 4 KiB, which would map them to the same cache sets.
+const (
+	addChunk  = 1024
+	colStride = addChunk + 8
+)
+
 // Add adds the rows of batch (row-major, raw units, len a multiple of Dims) and does not modify it.
-// It does not allocate.
+// It turns them into columns a chunk at a time and adds those with [Sketch.AddColumns], so both give
+// the same sketch for the same rows in the same chunks. It does not allocate in steady state.
 func (s *Sketch) Add(batch []float64) {
 	d := s.d
 	if len(batch)%d != 0 {
 		panic(fmt.Sprintf("sketch: batch of %d values is not a whole number of %d-column rows", len(batch), d))
 	}
-	shift, inv2 := s.mom.Shift, s.inv2
-	s1, s2, lo, hi := s.mom.S1[:d], s.mom.S2[:d], s.mom.Min[:d], s.mom.Max[:d]
+	if s.colBuf == nil {
+		s.colBuf = make([]float64, colStride*d)
+		s.colViews = make([][]float64, d)
+	}
 	n := len(batch) / d
-	for i := range n {
-		x := batch[i*d : i*d+d]
-		var norm2 float64
-		for j, v := range x {
-			dx := v - shift[j]
-			s1[j] += dx
-			sq := dx * dx
-			s2[j] += sq
-			norm2 += sq * inv2[j]
-			if v < lo[j] {
-				lo[j] = v
-			}
-			if v > hi[j] {
-				hi[j] = v
+	for start := 0; start < n; start += addChunk {
+		m := min(addChunk, n-start)
+		cols := s.colViews
+		for j := range cols {
+			cols[j] = s.colBuf[j*colStride : j*colStride+m]
+		}
+		rows := batch[start*d : (start+m)*d]
+		for i := range m {
+			for j, v := range rows[i*d : i*d+d] {
+				cols[j][i] = v
 			}
 		}
+		s.AddColumns(cols)
+	}
+}
+
+// AddColumns adds rows given by column: cols[j] holds column j's values (raw units), every slice of
+// the same length. It neither modifies nor keeps cols, so they may alias a decoder's memory. The
+// moments are accumulated column by column over contiguous values; the per-row work is two random
+// keys and, for the rare row a reservoir or the mini-batch feed takes, gathering the row. It does not
+// allocate in steady state.
+func (s *Sketch) AddColumns(cols [][]float64) {
+	d := s.d
+	if len(cols) != d {
+		panic(fmt.Sprintf("sketch: %d columns for a %d-column sketch", len(cols), d))
+	}
+	n := len(cols[0])
+	for _, c := range cols {
+		if len(c) != n {
+			panic(fmt.Sprintf("sketch: columns of %d and %d values", n, len(c)))
+		}
+	}
+	if n == 0 {
+		return
+	}
+	if cap(s.norm2) < n {
+		s.norm2 = make([]float64, n)
+	}
+	norm2 := s.norm2[:n]
+	for j, col := range cols {
+		s.mom.addColumn(j, col, s.inv2[j], norm2)
+	}
+	sample, coreset, meanSq := s.sample, s.coreset, s.meanSq
+	for i, q := range norm2 {
 		// Uniform sample: keep the smallest keys u, i.e. the largest −u.
-		if u := s.uniform(); !s.sample.full() || -u > s.sample.min() {
-			s.sample.offer(-u, x, 1)
+		if u := s.uniform(); !sample.full() || -u > sample.min() {
+			sample.offer(-u, s.gather(cols, i), 1)
 		}
 		// Coreset: priority w/u with w = c + ‖z‖².
-		w := s.meanSq + norm2
-		if p := w / s.uniform(); !s.coreset.full() || p > s.coreset.min() {
-			s.coreset.offer(p, x, w)
+		w := meanSq + q
+		if p := w / s.uniform(); !coreset.full() || p > coreset.min() {
+			coreset.offer(p, s.gather(cols, i), w)
 		}
 		if s.skip > 0 {
 			s.skip--
 			continue
 		}
-		s.feed(x)
+		s.feed(s.gather(cols, i))
 		s.skip = s.nextSkip()
 	}
 	s.mom.N += int64(n)
+}
+
+// gather copies row i of cols into the sketch's row scratch and returns it.
+func (s *Sketch) gather(cols [][]float64, i int) []float64 {
+	row := s.row
+	for j, c := range cols {
+		row[j] = c[i]
+	}
+	return row
 }
 
 // feed passes one row to the covariance estimate and the mini-batch buffer.

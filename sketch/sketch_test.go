@@ -388,3 +388,78 @@ func TestConfigValidate(t *testing.T) {
 		}
 	}
 }
+
+// TestAddColumnsEqualsAdd: rows given by column, in batches of other sizes than Add's chunks, give
+// the same reservoirs and mini-batch centres as Add, and moments equal up to the order of summation.
+func TestAddColumnsEqualsAdd(t *testing.T) {
+	rng := rand.New(rand.NewPCG(21, 22))
+	d := 5
+	x, _ := blobs(rng, 30000, d, []float64{1, 2, 1}, 4)
+	cfg := Config{Columns: columns(d), MaxK: 5, CoresetSize: 2000, SampleSize: 500, ExpectedRows: 30000, MiniBatchRows: 5000}
+	p := probeOf(t, x, d, 5)
+	rows := build(t, cfg, p, x, 7000, 0)
+	for _, batch := range []int{1, 3, 1000, 4099} {
+		s, err := New(cfg, p)
+		if err != nil {
+			t.Fatal(err)
+		}
+		cols := make([][]float64, d)
+		for u, off := 0, 0; off < len(x)/d; u, off = u+1, off+7000 {
+			s.BeginUnit(u)
+			end := min(len(x)/d, off+7000)
+			for b := off; b < end; b += batch {
+				e := min(end, b+batch)
+				for j := range cols {
+					cols[j] = cols[j][:0]
+					for i := b; i < e; i++ {
+						cols[j] = append(cols[j], x[i*d+j])
+					}
+				}
+				s.AddColumns(cols)
+			}
+		}
+		if s.Rows() != rows.Rows() {
+			t.Fatalf("batch %d: %d rows, want %d", batch, s.Rows(), rows.Rows())
+		}
+		gx, gw := s.Coreset()
+		wx, ww := rows.Coreset()
+		if !slices.Equal(gx, wx) || !slices.Equal(gw, ww) || !slices.Equal(s.Sample(), rows.Sample()) {
+			t.Errorf("batch %d: the coreset or the sample differ from Add's", batch)
+		}
+		for k := 1; k <= 5; k++ {
+			g, w := s.CentreSets(k), rows.CentreSets(k)
+			if len(g) != len(w) || len(g) == 0 || !slices.Equal(g[0].Centres, w[0].Centres) {
+				t.Errorf("batch %d, k=%d: mini-batch centres differ from Add's", batch, k)
+			}
+		}
+		gm, wm := s.Moments(), rows.Moments()
+		for j := range d {
+			if math.Abs(gm.S1[j]-wm.S1[j]) > 1e-9*math.Sqrt(wm.S2[j]) || math.Abs(gm.S2[j]-wm.S2[j]) > 1e-12*wm.S2[j] ||
+				gm.Min[j] != wm.Min[j] || gm.Max[j] != wm.Max[j] {
+				t.Errorf("batch %d, column %d: moments %v %v [%v %v], want %v %v [%v %v]", batch, j,
+					gm.S1[j], gm.S2[j], gm.Min[j], gm.Max[j], wm.S1[j], wm.S2[j], wm.Min[j], wm.Max[j])
+			}
+		}
+	}
+}
+
+func TestAddColumnsDoesNotAllocate(t *testing.T) {
+	rng := rand.New(rand.NewPCG(14, 15))
+	d := 8
+	x, _ := blobs(rng, 40960, d, []float64{1, 1, 1}, 3)
+	cfg := Config{Columns: columns(d), MaxK: 6, ExpectedRows: 1}
+	s, err := New(cfg, probeOf(t, x, d, 6))
+	if err != nil {
+		t.Fatal(err)
+	}
+	s.Add(x)
+	cols := make([][]float64, d)
+	for j := range cols {
+		for i := range 4096 {
+			cols[j] = append(cols[j], x[i*d+j])
+		}
+	}
+	if a := testing.AllocsPerRun(5, func() { s.AddColumns(cols) }); a != 0 {
+		t.Errorf("AddColumns allocates %v times per call", a)
+	}
+}

@@ -223,6 +223,31 @@ func (s *arrowSource) fill(dst []float64, bad []uint8, rows int) (int, error) {
 	return m, nil
 }
 
+func (s *arrowSource) fillColumns(cols, scratch [][]float64, bad []uint8, rows int) (int, error) {
+	if err := s.advance(); err != nil {
+		return 0, err
+	}
+	if s.done {
+		return 0, nil
+	}
+	m := min(rows, int(s.rec.NumRows())-s.pos)
+	for c := range s.cols {
+		arr := s.rec.Column(s.field[c])
+		var inf int
+		if a, ok := arr.(*array.Float64); ok && arr.NullN() == 0 {
+			inf = viewDense(&cols[c], a.Float64Values()[s.pos:s.pos+m], bad)
+		} else {
+			cols[c] = scratch[c][:m]
+			inf = s.put(c, arr, cols[c], 0, 1, s.pos, m, bad[:m])
+		}
+		if inf >= 0 {
+			return 0, &colError{col: c, row: int64(inf), err: ErrInfinite}
+		}
+	}
+	s.pos += m
+	return m, nil
+}
+
 // put copies rows [p, p+m) of arr to dst[o], dst[o+d], ...
 func (s *arrowSource) put(c int, arr arrow.Array, dst []float64, o, d, p, m int, bad []uint8) int {
 	switch a := arr.(type) {

@@ -92,6 +92,52 @@ func BenchmarkParquetScan(b *testing.B) {
 	_ = sum
 }
 
+// BenchmarkParquetScanColumns reads every row through ReadColumns, at most 4096 rows per call.
+func BenchmarkParquetScanColumns(b *testing.B) {
+	p := writeBenchFile(b)
+	files, err := stream.Discover([]string{p})
+	if err != nil {
+		b.Fatal(err)
+	}
+	ds, err := stream.Open(files, stream.Options{})
+	if err != nil {
+		b.Fatal(err)
+	}
+	b.SetBytes(benchRows * 16 * 8)
+	b.ResetTimer()
+	var sum float64
+	for i := 0; i < b.N; i++ {
+		rows := 0
+		for _, u := range ds.Units {
+			r, err := ds.OpenUnit(u)
+			if err != nil {
+				b.Fatal(err)
+			}
+			for {
+				cols, err := r.ReadColumns(4096)
+				if err == io.EOF {
+					break
+				}
+				if err != nil {
+					b.Fatal(err)
+				}
+				rows += len(cols[0])
+				for _, c := range cols {
+					for _, v := range c {
+						sum += v
+					}
+				}
+			}
+			r.Close()
+		}
+		if rows != benchRows {
+			b.Fatalf("read %d rows, want %d", rows, benchRows)
+		}
+	}
+	b.ReportMetric(float64(benchRows)*float64(b.N)/b.Elapsed().Seconds(), "rows/s")
+	_ = sum
+}
+
 // BenchmarkParquetScanBare is the baseline: the same pages through
 // parquet-go's page API, summing Page.Data().Double() directly.
 func BenchmarkParquetScanBare(b *testing.B) {

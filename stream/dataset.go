@@ -137,6 +137,9 @@ func Open(files []File, opt Options) (ds *Dataset, err error) {
 				return nil, newError(f.Path, name, fmt.Errorf("%w: %s (%s)", ErrNotNumeric, c.typ, c.reason))
 			}
 			if f.Format == Parquet {
+				if err := checkCodecs(of.pq, c.pq.leaf); err != nil {
+					return nil, newError(f.Path, name, err)
+				}
 				of.pqCols = append(of.pqCols, c.pq)
 			} else {
 				of.arCols = append(of.arCols, c.ar)

@@ -4,7 +4,8 @@
 // independently readable units: a Parquet row group, an Arrow IPC-file record
 // batch, or a whole Arrow IPC stream (Dataset.OpenUnit, UnitReader.Read).
 //
-// Downstream code sees only row-major float64 rows:
+// Downstream code sees float64 rows, row-major through Read or by column through ReadColumns (the
+// pass uses ReadColumns: a float64 page without nulls is handed over as a view, not copied):
 //
 //	files, err := stream.Discover([]string{"lake/**/*.parquet"})
 //	ds, err := stream.Open(files, stream.Options{})
@@ -38,7 +39,9 @@
 // lengths they would allocate by are checked against the bytes that are there
 // (guard.go, guard_arrow.go): the Parquet footer's length and Thrift lists,
 // every selected column chunk's extent and page headers (page sizes, value
-// counts), and the Arrow IPC framing (message, body and block lengths, schema
+// counts), the run-length encoded dictionary indexes and definition levels of
+// its data pages (whose runs parquet-go expands before it checks them against
+// the page's value count), and the Arrow IPC framing (message, body and block lengths, schema
 // field and child counts). Arrow buffers are allocated through an allocator
 // that refuses sizes beyond a bound derived from the file size. Failures wrap
 // ErrCorruptFile.

@@ -6,6 +6,7 @@ import (
 	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"slices"
 	"testing"
 	"time"
 
@@ -264,16 +265,35 @@ func writeArrowIPC(t testing.TB, path string, g *genData, batch int, file bool) 
 }
 
 // readAll reads every unit of ds in order with a buffer of bufRows rows.
+// readAll reads every unit of ds with Read and a bufRows-row buffer, and again with ReadColumns and
+// at most bufRows rows per call, and fails unless both ways give the same rows and skip counts, or
+// both fail. It returns what Read gave.
 func readAll(t testing.TB, ds *stream.Dataset, bufRows int) ([][]float64, int64, error) {
+	t.Helper()
+	rows, skipped, byCol, err := readRows(t, ds, bufRows)
+	cRows, cSkipped, cByCol, cErr := readColumns(t, ds, bufRows)
+	switch {
+	case (err == nil) != (cErr == nil):
+		t.Fatalf("Read gave error %v, ReadColumns %v", err, cErr)
+	case err == nil && (skipped != cSkipped || !slices.Equal(byCol, cByCol)):
+		t.Fatalf("Read skipped %d rows (%v by column), ReadColumns %d (%v)", skipped, byCol, cSkipped, cByCol)
+	case err == nil && !slices.EqualFunc(rows, cRows, slices.Equal[[]float64]):
+		t.Fatalf("Read and ReadColumns gave different rows (%d and %d)", len(rows), len(cRows))
+	}
+	return rows, skipped, err
+}
+
+func readRows(t testing.TB, ds *stream.Dataset, bufRows int) ([][]float64, int64, []int64, error) {
 	t.Helper()
 	d := ds.Dims()
 	buf := make([]float64, bufRows*d)
 	var rows [][]float64
 	var skipped int64
+	byCol := make([]int64, d)
 	for _, u := range ds.Units {
 		r, err := ds.OpenUnit(u)
 		if err != nil {
-			return rows, skipped, err
+			return rows, skipped, byCol, err
 		}
 		for {
 			n, err := r.Read(buf)
@@ -285,18 +305,63 @@ func readAll(t testing.TB, ds *stream.Dataset, bufRows int) ([][]float64, int64,
 			}
 			if err != nil {
 				skipped += r.Skipped()
+				addCounts(byCol, r.SkippedByColumn())
 				r.Close()
 				if err.Error() == "EOF" {
 					break
 				}
-				return rows, skipped, err
+				return rows, skipped, byCol, err
 			}
 		}
 	}
-	return rows, skipped, nil
+	return rows, skipped, byCol, nil
 }
 
-// openPaths discovers and opens paths.
+func readColumns(t testing.TB, ds *stream.Dataset, maxRows int) ([][]float64, int64, []int64, error) {
+	t.Helper()
+	var rows [][]float64
+	var skipped int64
+	byCol := make([]int64, ds.Dims())
+	for _, u := range ds.Units {
+		r, err := ds.OpenUnit(u)
+		if err != nil {
+			return rows, skipped, byCol, err
+		}
+		for {
+			cols, err := r.ReadColumns(maxRows)
+			if err != nil {
+				skipped += r.Skipped()
+				addCounts(byCol, r.SkippedByColumn())
+				r.Close()
+				if err.Error() == "EOF" {
+					break
+				}
+				return rows, skipped, byCol, err
+			}
+			if len(cols) != ds.Dims() || len(cols[0]) == 0 || len(cols[0]) > maxRows {
+				t.Fatalf("ReadColumns returned %d columns of %d rows (max %d)", len(cols), len(cols[0]), maxRows)
+			}
+			for i := range cols[0] {
+				row := make([]float64, len(cols))
+				for j, c := range cols {
+					if len(c) != len(cols[0]) {
+						t.Fatalf("ReadColumns returned columns of %d and %d rows", len(cols[0]), len(c))
+					}
+					row[j] = c[i]
+				}
+				rows = append(rows, row)
+			}
+		}
+	}
+	return rows, skipped, byCol, nil
+}
+
+func addCounts(dst, src []int64) {
+	for j, c := range src {
+		dst[j] += c
+	}
+}
+
 func openPaths(t testing.TB, opt stream.Options, paths ...string) (*stream.Dataset, error) {
 	t.Helper()
 	files, err := stream.Discover(paths)

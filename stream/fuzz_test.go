@@ -22,9 +22,11 @@ func fuzzRead(t *testing.T, data []byte, f stream.Format) {
 	}
 	var before, after runtime.MemStats
 	runtime.ReadMemStats(&before)
-	done := make(chan struct{})
+	// The read runs in its own goroutine so a hang can be reported; a panic there would kill the
+	// fuzzing worker without a message, so it is carried back and reported here.
+	done := make(chan any, 1)
 	go func() {
-		defer close(done)
+		defer func() { done <- recover() }()
 		ds, err := stream.Open([]stream.File{{Path: path, Format: f}}, stream.Options{})
 		if err != nil {
 			return
@@ -38,7 +40,10 @@ func fuzzRead(t *testing.T, data []byte, f stream.Format) {
 		readAll(t, ds, 64)
 	}()
 	select {
-	case <-done:
+	case p := <-done:
+		if p != nil {
+			t.Fatalf("reading %d bytes as %v panicked: %v", len(data), f, p)
+		}
 	case <-time.After(10 * time.Second):
 		t.Fatalf("reading %d bytes as %v did not finish in 10 s", len(data), f)
 	}

@@ -8,6 +8,8 @@ import (
 
 	"github.com/apache/arrow/go/v17/arrow/ipc"
 	"github.com/apache/arrow/go/v17/arrow/memory"
+	"github.com/klauspost/compress/snappy"
+	"github.com/parquet-go/parquet-go"
 	"github.com/parquet-go/parquet-go/encoding/thrift"
 	"github.com/parquet-go/parquet-go/format"
 )
@@ -182,12 +184,19 @@ func thriftCause(err error) error {
 // the data part of the file (before footerAt) and walks its page headers:
 // every page must fit in the chunk, and its uncompressed size and value count
 // must stay within the memory bound, before parquet-go allocates them.
-func checkColumnChunk(fh io.ReaderAt, start, total, footerAt, rows int64) error {
+//
+// It also checks page bodies where parquet-go would trust them too far (checkPage): for data pages
+// whose dictionary indexes or definition levels are run-length encoded it walks the runs
+// (decompressing the page once more when it is compressed), because parquet-go decodes every run
+// before it compares the result with the page's value count, so a few bytes claiming billions of
+// repeats would cost that much time and memory.
+func checkColumnChunk(fh io.ReaderAt, start, total, footerAt, rows int64, shape chunkShape) error {
 	if start < 4 || total < 0 || start > footerAt || total > footerAt-start {
 		return corruptf("column chunk at %d of %d bytes lies outside the file's data (%d bytes)", start, total, footerAt)
 	}
 	end := start + total
 	buf := make([]byte, 256)
+	var body pageBody
 	for pos := start; pos < end; {
 		var h format.PageHeader
 		var n int
@@ -231,7 +240,174 @@ func checkColumnChunk(fh io.ReaderAt, start, total, footerAt, rows int64) error 
 		if values < 0 || values > maxPageValues || !h.DictionaryPageHeader.Valid && values > max(rows, 0) {
 			return corruptf("page at %d claims %d values (row group of %d rows, bound %d)", pos, values, rows, maxPageValues)
 		}
+		if err := shape.checkPage(fh, &h, pos+int64(n), comp, values, &body); err != nil {
+			return fmt.Errorf("page at %d: %w", pos, err)
+		}
 		pos += int64(n) + comp
+	}
+	return nil
+}
+
+// errLZ4 refuses LZ4_RAW column chunks. parquet-go v0.32.0 decodes an LZ4_RAW page into a fresh
+// buffer whenever its output guess (three times the compressed size) exceeds the pooled page buffer,
+// and then keeps the pooled buffer, stale bytes and all, when the output has exactly the page's size:
+// poorly compressible pages (floating-point data) come back as other data, silently. It also retries
+// a corrupt LZ4 block with ever larger buffers until memory runs out. (Both seen in its
+// compress/lz4 and Column.decompress code; the first by comparing with its own row reader.)
+var errLZ4 = errors.New("LZ4_RAW compression is not supported: parquet-go v0.32.0 misreads such pages; rewrite the file with snappy, zstd or gzip")
+
+// checkCodecs refuses a column whose chunks in pf use a codec that cannot be read reliably.
+func checkCodecs(pf *parquet.File, leaf int) error {
+	for _, rg := range pf.Metadata().RowGroups {
+		if leaf < len(rg.Columns) && rg.Columns[leaf].MetaData.Codec == format.Lz4Raw {
+			return errLZ4
+		}
+	}
+	return nil
+}
+
+// chunkShape is what checkColumnChunk needs to know of a column chunk to walk its pages' runs.
+type chunkShape struct {
+	codec  format.CompressionCodec
+	maxDef byte // 0 for a required column, 1 for an optional one (nested columns are not read)
+}
+
+// pageBody holds the buffers checkRuns reuses from page to page.
+type pageBody struct{ raw, plain []byte }
+
+// checkPage checks the body of the page with header h whose comp bytes start at off. It walks the
+// run-length encoded parts of a data page, the definition levels of an optional column and the
+// indexes of a dictionary-encoded page; values is the page's value count, nulls included.
+func (c chunkShape) checkPage(fh io.ReaderAt, h *format.PageHeader, off, comp, values int64, b *pageBody) error {
+	var dict, levels, v2 bool
+	var defLen int64
+	switch {
+	case h.DataPageHeader.Valid:
+		v := &h.DataPageHeader.V
+		dict = v.Encoding == format.RLEDictionary || v.Encoding == format.PlainDictionary
+		levels = c.maxDef > 0 && v.DefinitionLevelEncoding == format.RLE
+	case h.DataPageHeaderV2.Valid:
+		v := &h.DataPageHeaderV2.V
+		dict, levels, v2 = v.Encoding == format.RLEDictionary || v.Encoding == format.PlainDictionary, c.maxDef > 0, true
+		defLen = int64(v.DefinitionLevelsByteLength)
+		if v.RepetitionLevelsByteLength != 0 || defLen < 0 || defLen > comp {
+			return corruptf("level lengths %d and %d do not fit in %d bytes", v.RepetitionLevelsByteLength, defLen, comp)
+		}
+	}
+	if !dict && !levels {
+		return nil
+	}
+	if int64(cap(b.raw)) < comp {
+		b.raw = make([]byte, comp)
+	}
+	raw := b.raw[:comp]
+	if _, err := fh.ReadAt(raw, off); err != nil && !(err == io.EOF && len(raw) > 0) {
+		return err
+	}
+	// The part after the levels: in a v1 page the whole body (levels included) is compressed, in a
+	// v2 page only what follows the levels, and only when the header says so.
+	data, size := raw, int64(h.UncompressedPageSize)
+	compressed := c.codec != format.Uncompressed
+	if v2 {
+		if levels {
+			if err := checkHybrid(raw[:defLen], 1, values, "definition levels"); err != nil {
+				return err
+			}
+		}
+		data, size = raw[defLen:], size-defLen
+		if h.DataPageHeaderV2.V.IsCompressed.Valid && !h.DataPageHeaderV2.V.IsCompressed.V {
+			compressed = false
+		}
+		if !dict {
+			return nil
+		}
+	}
+	if compressed {
+		var err error
+		if data, err = b.decompress(c.codec, data, size); err != nil {
+			return err
+		}
+	}
+	if !v2 && levels {
+		if len(data) < 4 {
+			return nil // parquet-go reports the truncation itself
+		}
+		l := int64(binary.LittleEndian.Uint32(data))
+		if l > int64(len(data)-4) {
+			return nil
+		}
+		if err := checkHybrid(data[4:4+l], 1, values, "definition levels"); err != nil {
+			return err
+		}
+		data = data[4+l:]
+	} else if !v2 && c.maxDef > 0 {
+		return nil // bit-packed levels of unknown length: the indexes cannot be found
+	}
+	if !dict || len(data) == 0 {
+		return nil
+	}
+	return checkHybrid(data[1:], int(data[0]), values, "dictionary indexes")
+}
+
+// decompress decodes a page's data with parquet-go's codec into b.plain, refusing output beyond the
+// page's stated uncompressed size.
+func (b *pageBody) decompress(codec format.CompressionCodec, src []byte, size int64) ([]byte, error) {
+	if size < 0 {
+		return nil, corruptf("page states %d uncompressed bytes", size)
+	}
+	switch codec {
+	case format.Snappy:
+		// snappy allocates the length its header claims before decoding.
+		if n, err := snappy.DecodedLen(src); err != nil || int64(n) > size {
+			return nil, corruptf("snappy data claims %d bytes, more than the page's %d", n, size)
+		}
+	}
+	out, err := parquet.LookupCompressionCodec(codec).Decode(b.plain[:0], src)
+	if err != nil {
+		return nil, corruptf("decompressing: %v", err)
+	}
+	if int64(len(out)) > size {
+		return nil, corruptf("page decompresses to %d bytes, more than its stated %d", len(out), size)
+	}
+	b.plain = out
+	return out, nil
+}
+
+// checkHybrid walks the run headers of RLE/bit-packed hybrid data of the given bit width and fails
+// when the runs hold more than about limit values (a bit-packed run pads to groups of eight; writers
+// pad at most the last one). A malformed header ends the walk: parquet-go reports it while decoding.
+func checkHybrid(b []byte, bitWidth int, limit int64, what string) error {
+	if bitWidth < 0 || bitWidth > 32 {
+		return nil // parquet-go refuses the bit width itself
+	}
+	bound := limit + 512
+	var total int64
+	for i := 0; i < len(b); {
+		u, n := binary.Uvarint(b[i:])
+		if n <= 0 {
+			return nil
+		}
+		i += n
+		count := u >> 1
+		if count == 0 {
+			continue // an empty run, with no value bytes (as parquet-go reads it)
+		}
+		if u&1 == 1 { // bit-packed: count groups of eight values, bitWidth bytes per group
+			if count > uint64(bound) {
+				return corruptf("%s claim more than %d values, the page holds %d", what, bound, limit)
+			}
+			total += 8 * int64(count)
+			i += int(count) * bitWidth
+		} else {
+			if count > uint64(bound) {
+				return corruptf("%s claim more than %d values, the page holds %d", what, bound, limit)
+			}
+			total += int64(count)
+			i += (bitWidth + 7) / 8
+		}
+		if total > bound {
+			return corruptf("%s claim more than %d values, the page holds %d", what, bound, limit)
+		}
 	}
 	return nil
 }

@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"encoding/binary"
 	"errors"
+	"hash/crc32"
 
 	"os"
 	"path/filepath"
@@ -141,6 +142,34 @@ func TestHostileParquet(t *testing.T) {
 	if dictOffset == 0 {
 		t.Fatal("column y has no dictionary page; the fixture is wrong")
 	}
+	// The first run of y's dictionary indexes, rewritten to repeat index 0 2^30 times in six bytes:
+	// parquet-go v0.32.0 decodes every run before it compares with the page's 1000 values (found by
+	// FuzzParquet: a 3 KB input ran for tens of seconds).
+	var yPage format.PageHeader
+	hr := new(thrift.CompactProtocol).NewReaderFromBytes(data[col(1).DataPageOffset:])
+	if err := thrift.NewDecoder(hr).Decode(&yPage); err != nil {
+		t.Fatal(err)
+	}
+	runsAt := col(1).DataPageOffset + int64(hr.BytesRead())
+	if col(1).Codec != format.Uncompressed || data[runsAt] != 3 {
+		t.Fatalf("y's first data page is not an uncompressed page of 3-bit indexes (codec %v, byte %d); the fixture is wrong",
+			col(1).Codec, data[runsAt])
+	}
+	// parquet-go checks the page's CRC, so the rewritten page gets a fresh one (a header of the same
+	// length: the CRC is a varint, so the repeated index is chosen to keep it).
+	var hugeRun []byte
+	for v := byte(0); v < 7 && hugeRun == nil; v++ {
+		b := patch(runsAt+1, append(binary.AppendUvarint(nil, 1<<30<<1), v))
+		h := yPage
+		h.CRC = int32(crc32.ChecksumIEEE(b[runsAt : runsAt+int64(yPage.CompressedPageSize)]))
+		if hb := header(h); int64(len(hb)) == runsAt-col(1).DataPageOffset {
+			copy(b[col(1).DataPageOffset:], hb)
+			hugeRun = b
+		}
+	}
+	if hugeRun == nil {
+		t.Fatal("no rewritten page header kept its length; the fixture is wrong")
+	}
 	footerLen := binary.LittleEndian.Uint32(data[len(data)-8:])
 	hugeLen := bytes.Clone(data)
 	binary.LittleEndian.PutUint32(hugeLen[len(hugeLen)-8:], 0xFFFFFFF0)
@@ -165,6 +194,7 @@ func TestHostileParquet(t *testing.T) {
 		{"dictionary claims 2 GiB", patch(dictOffset, header(format.PageHeader{Type: format.DictionaryPage,
 			CompressedPageSize: 1<<31 - 1, UncompressedPageSize: 1<<31 - 1,
 			DictionaryPageHeader: thrift.Null[format.DictionaryPageHeader]{Valid: true, V: format.DictionaryPageHeader{NumValues: 7}}})), "claims"},
+		{"dictionary indexes repeat 2^30 times", hugeRun, "dictionary indexes claim"},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			checkHostile(t, writeFile(t, "hostile.parquet", tc.data), stream.Parquet, tc.msg)

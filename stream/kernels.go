@@ -1,6 +1,9 @@
 package stream
 
-import "math"
+import (
+	"math"
+	"slices"
+)
 
 // The kernels below copy one column's values for k consecutive rows into the
 // row-major output: value i goes to dst[o+i*d]. They mark bad[i] = 1 for a
@@ -150,6 +153,79 @@ func compact(dst []float64, bad []uint8, d int, nulls []int64) int {
 			copy(dst[w*d:(w+1)*d], dst[r*d:(r+1)*d])
 		}
 		w++
+	}
+	return w
+}
+
+// allFinite reports whether every value of v is finite: v−v is 0 for a finite value and NaN for NaN
+// and ±Inf, and a NaN anywhere makes the sums NaN. Four sums keep the additions independent.
+func allFinite(v []float64) bool {
+	var s0, s1, s2, s3 float64
+	i := 0
+	for ; i+4 <= len(v); i += 4 {
+		s0 += v[i] - v[i]
+		s1 += v[i+1] - v[i+1]
+		s2 += v[i+2] - v[i+2]
+		s3 += v[i+3] - v[i+3]
+	}
+	for ; i < len(v); i++ {
+		s0 += v[i] - v[i]
+	}
+	return s0+s1+s2+s3 == 0
+}
+
+// markBad marks bad[i] = 1 for each NaN of v and returns the index of the first ±Inf, or -1.
+func markBad(v []float64, bad []uint8) int {
+	bad = bad[:len(v)]
+	for i, x := range v {
+		if x-x != 0 {
+			if x != x {
+				bad[i] = 1
+			} else {
+				return i
+			}
+		}
+	}
+	return -1
+}
+
+// viewDense sets *col to the view v of a float64 column with no nulls when its values are all
+// finite, marking its NaNs in bad otherwise. It returns the index of the first ±Inf, or -1.
+func viewDense(col *[]float64, v []float64, bad []uint8) int {
+	*col = v
+	if allFinite(v) {
+		return -1
+	}
+	return markBad(v, bad)
+}
+
+// compactColumns drops the rows marked in bad from every column, counting per column the nulls
+// and NaNs among them in nulls, and returns how many rows are left. Columns that are views are
+// copied into their scratch first; the others are compacted in place.
+func compactColumns(cols, scratch [][]float64, bad []uint8, nulls []int64) int {
+	first := slices.Index(bad, 1)
+	if first < 0 {
+		return len(bad)
+	}
+	w := 0
+	for c, col := range cols {
+		dst := scratch[c][:len(bad)]
+		w = first
+		if &dst[0] != &col[0] {
+			copy(dst[:first], col[:first])
+		}
+		for r := first; r < len(bad); r++ {
+			v := col[r]
+			if bad[r] != 0 {
+				if v != v {
+					nulls[c]++
+				}
+				continue
+			}
+			dst[w] = v
+			w++
+		}
+		cols[c] = dst[:w]
 	}
 	return w
 }

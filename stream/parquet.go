@@ -354,7 +354,8 @@ func (d *Dataset) openParquetUnit(of *openFile, u Unit, fh Handle) (*pqSource, e
 		if cm.DictionaryPageOffset != 0 { // as parquet-go's FilePages does
 			start = cm.DictionaryPageOffset
 		}
-		if err := checkColumnChunk(fh, start, cm.TotalCompressedSize, min(of.footerAt, size), rg.NumRows()); err != nil {
+		if err := checkColumnChunk(fh, start, cm.TotalCompressedSize, min(of.footerAt, size), rg.NumRows(),
+			chunkShape{codec: cm.Codec, maxDef: plan.maxDef}); err != nil {
 			return nil, &ReadError{File: d.Files[u.File].Path, Unit: u.Index, Row: -1, Column: d.Columns[c],
 				Err: fmt.Errorf("row group %d: %w", u.Index, err)}
 		}
@@ -389,6 +390,39 @@ func (s *pqSource) fill(dst []float64, bad []uint8, rows int) (int, error) {
 				return 0, &colError{col: c, row: int64(filled + inf), err: ErrInfinite}
 			}
 			filled += k
+		}
+	}
+	s.remaining -= int64(m)
+	return m, nil
+}
+
+func (s *pqSource) fillColumns(cols, scratch [][]float64, bad []uint8, rows int) (int, error) {
+	m := int(min(int64(rows), s.remaining))
+	if m == 0 {
+		return 0, nil
+	}
+	// Stop where the first page of any column ends, so that each column is one run of one page.
+	for c := range s.cols {
+		cur := &s.cols[c]
+		if cur.pos == cur.nrows {
+			if err := cur.next(); err != nil {
+				return 0, &colError{col: c, row: -1, err: err}
+			}
+		}
+		m = min(m, cur.nrows-cur.pos)
+	}
+	for c := range s.cols {
+		cur := &s.cols[c]
+		var inf int
+		if cur.defs == nil && cur.mode == mF64 {
+			inf = viewDense(&cols[c], cur.f64[cur.pos:cur.pos+m], bad)
+			cur.pos += m
+		} else {
+			cols[c] = scratch[c][:m]
+			inf = cur.put(cols[c], 0, 1, m, bad[:m])
+		}
+		if inf >= 0 {
+			return 0, &colError{col: c, row: int64(inf), err: ErrInfinite}
 		}
 	}
 	s.remaining -= int64(m)

@@ -12,6 +12,10 @@ type source interface {
 	// sets bad[r] = 1 for rows with a null or NaN, and returns the number of
 	// rows written; 0 means the unit is exhausted.
 	fill(dst []float64, bad []uint8, rows int) (int, error)
+	// fillColumns is fill by column: it sets cols[c] to the values of column c for up to rows rows,
+	// either a view of the decoder's memory (valid until the next call) or scratch[c] (of capacity
+	// at least rows) filled, and returns the number of rows.
+	fillColumns(cols, scratch [][]float64, bad []uint8, rows int) (int, error)
 	column(c int) string
 	close() error
 }
@@ -39,7 +43,9 @@ type UnitReader struct {
 	skipped  int64
 	nulls    []int64 // per column, nulls and NaNs among the skipped rows
 	bad      []uint8
-	err      error // sticky: io.EOF or the first failure
+	cols     [][]float64 // ReadColumns: the columns returned
+	scratch  [][]float64 // ReadColumns: per column, converted or compacted values
+	err      error       // sticky: io.EOF or the first failure
 }
 
 // OpenUnit opens one unit for reading. It is safe to call from several
@@ -134,6 +140,59 @@ func (r *UnitReader) Read(dst []float64) (n int, err error) {
 		r.row += int64(m)
 		if n > 0 {
 			return n, nil
+		}
+	}
+}
+
+// ReadColumns reads up to max rows (max > 0) by column: cols[c] holds the values of the c-th selected
+// column, all of the same length n > 0. The slices may alias the decoded pages or record batches
+// (float64 columns without nulls are not copied), stay valid until the next call on r or Close, and
+// must not be modified. At the end it returns nil and io.EOF. Rows are skipped, counted and
+// reported as by Read, and a run of rows may be shorter than max wherever a page or record batch
+// ends. ReadColumns and Read must not be mixed on one reader.
+func (r *UnitReader) ReadColumns(max int) (cols [][]float64, err error) {
+	if r.err != nil {
+		return nil, r.err
+	}
+	if max <= 0 {
+		return nil, fmt.Errorf("stream: ReadColumns: max = %d rows, want a positive number", max)
+	}
+	defer func() {
+		if p := recover(); p != nil {
+			r.err = r.wrap(&colError{col: -1, row: -1, err: panicError("decoding", p)})
+			cols, err = nil, r.err
+		}
+	}()
+	if r.cols == nil {
+		r.cols, r.scratch = make([][]float64, r.d), make([][]float64, r.d)
+		r.nulls = make([]int64, r.d)
+	}
+	if cap(r.bad) < max {
+		r.bad = make([]uint8, max)
+	}
+	for c := range r.scratch {
+		if cap(r.scratch[c]) < max {
+			r.scratch[c] = make([]float64, max)
+		}
+		r.scratch[c] = r.scratch[c][:max]
+	}
+	for {
+		bad := r.bad[:max]
+		clear(bad)
+		m, ferr := r.src.fillColumns(r.cols, r.scratch, bad, max)
+		if ferr != nil {
+			r.err = r.wrap(ferr)
+			return nil, r.err
+		}
+		if m == 0 {
+			r.err = io.EOF
+			return nil, io.EOF
+		}
+		n := compactColumns(r.cols, r.scratch, bad[:m], r.nulls)
+		r.skipped += int64(m - n)
+		r.row += int64(m)
+		if n > 0 {
+			return r.cols, nil
 		}
 	}
 }
