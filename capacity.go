@@ -6,12 +6,15 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"math/rand/v2"
 	"runtime"
 	"slices"
+	"sync"
 	"time"
 
 	"github.com/kgauge/kgauge/bench/model"
 	"github.com/kgauge/kgauge/criteria"
+	"github.com/kgauge/kgauge/internal/kmeans"
 	"github.com/kgauge/kgauge/sketch"
 	"github.com/kgauge/kgauge/stream"
 )
@@ -45,8 +48,9 @@ type CapacityPlan struct {
 }
 
 // PlanCapacity reads only the footers and metadata of the data files named by paths and a few whole row
-// groups (at most a twentieth of the rows), times that read, sketch.Add and a small criteria run on
-// the rows read, and predicts the wall time and peak memory of Estimate with opt on this machine.
+// groups (at most a twentieth of the rows), times that read, sketch.Add and a few full-size criteria
+// runs on the rows read, and predicts the wall time and peak memory of Estimate with opt on this
+// machine.
 // With probe false it skips the timed read and uses the committed calibration alone.
 func PlanCapacity(ctx context.Context, paths []string, opt Options, probe bool) (*CapacityPlan, error) {
 	start := time.Now()
@@ -130,11 +134,12 @@ func WorkloadOf(ds *stream.Dataset, opt Options) model.Workload {
 		return v
 	}
 	return model.Workload{Files: len(ds.Files), Units: len(ds.Units), Rows: ds.Rows, Bytes: ds.Bytes,
-		Dims: ds.Dims(), Workers: opt.Workers, Cores: runtime.NumCPU(), MinK: c.MinK, MaxK: c.MaxK,
+		Dims: ds.Dims(), Workers: opt.Workers, Cores: runtime.GOMAXPROCS(0), MinK: c.MinK, MaxK: c.MaxK,
 		Coreset: cs, Sample: ss, MiniBatchRows: mb, BatchRows: opt.BatchRows, ProbeRows: opt.ProbeRows,
 		ProbeUnits: opt.ProbeUnits, Restarts: pick(c.Restarts, dc.Restarts), Anchors: pick(c.Anchors, dc.Anchors),
 		GapRefs: pick(c.GapRefs, dc.GapRefs), GapSample: pick(c.GapSample, dc.GapSample),
-		GapRestarts: pick(c.GapRestarts, dc.GapRestarts)}
+		GapRestarts: pick(c.GapRestarts, dc.GapRestarts),
+		WardLeaves:  wardLeaves(int(min(int64(cs), max(ds.Rows, 1))), c.MaxK)}
 }
 
 // Probe limits of TimedProbe.
@@ -149,9 +154,11 @@ const (
 // TimedProbe reads a few whole units of ds in the seeded order the estimate uses (at most
 // probeMaxUnits and, beyond the first, no more than a twentieth of the rows; of a unit of unknown
 // length, an Arrow batch or stream, at most probeKeepRows rows), times the read,
-// sketch.Add with and without the mini-batch feed, and a small criteria run on the rows read, and
-// returns cal with those machine- and file-dependent rates replaced. The ratios that a short run
-// cannot measure (criteria scale-up, pass overhead, parallel fraction) stay those of cal.
+// sketch.Add with and without the mini-batch feed, and the criteria for a few k at the estimate's
+// option sizes on a sketch of the rows read (timeCriteria), and returns cal with those machine- and
+// file-dependent rates replaced and the criteria runs in cal.Probe.Criteria, from which
+// model.Predict prices the criteria stage. The ratios that a short run cannot measure (pass and
+// probe overheads, parallel fraction) stay those of cal.
 func TimedProbe(ctx context.Context, ds *stream.Dataset, opt Options, cal model.Calibration) (model.Calibration, error) {
 	opt = opt.withDefaults()
 	d := ds.Dims()
@@ -221,15 +228,14 @@ func TimedProbe(ctx context.Context, ds *stream.Dataset, opt Options, cal model.
 	}
 	pt.SketchSeconds = time.Since(t0).Seconds()
 	t0 = time.Now()
-	if err := timeCriteria(ctx, &cal, rows, ds.Columns, opt); err != nil {
+	if err := timeCriteria(ctx, &cal, rows, ds.Columns, opt, WorkloadOf(ds, opt)); err != nil {
 		return cal, err
 	}
 	pt.CriteriaSeconds = time.Since(t0).Seconds()
 	return cal, nil
 }
 
-// probeFor returns a sketch.Probe for rows: their mean and spread, and the first k rows as the
-// starting centres of every k (the timing does not depend on where the centres start).
+// probeFor returns a sketch.Probe for rows: their mean and spread, and starting centres for every k.
 func probeFor(rows []float64, d, minK, maxK int) sketch.Probe {
 	n := len(rows) / d
 	p := sketch.Probe{Center: make([]float64, d), Scale: make([]float64, d), Init: map[int][]float64{}, Rows: int64(n)}
@@ -249,13 +255,18 @@ func probeFor(rows []float64, d, minK, maxK int) sketch.Probe {
 		}
 	}
 	p.MeanSq = float64(d)
+	// Starting centres as the estimate's probe makes them: k-means++ on up to 8192 scaled rows. The
+	// mini-batch fit from them seeds one of each k's coreset fits, whose Lloyd iterations (and so the
+	// criteria's cost) depend on how good they are.
+	m := min(n, 8192)
+	x := make([]float64, m*d)
+	for i := range x {
+		j := i % d
+		x[i] = (rows[i] - p.Center[j]) / p.Scale[j]
+	}
+	rng := rand.New(rand.NewPCG(1, 2))
 	for k := minK; k <= maxK; k++ {
-		c := make([]float64, k*d)
-		for i := range c {
-			j := i % d
-			c[i] = (rows[i] - p.Center[j]) / p.Scale[j]
-		}
-		p.Init[k] = c
+		p.Init[k] = kmeans.PlusPlus(kmeans.Data{X: x, D: d}, min(k, m), rng, nil)
 	}
 	return p
 }
@@ -284,7 +295,7 @@ func timeSketch(cal *model.Calibration, rows []float64, cols []string, opt Optio
 		base.Add(rows)
 	}
 	var per []float64
-	for range smallRuns {
+	for range addRuns {
 		var added int64
 		t0 = time.Now()
 		for added < int64(n) || time.Since(t0).Seconds() < probeMinTiming {
@@ -314,25 +325,50 @@ func timeSketch(cal *model.Calibration, rows []float64, cols []string, opt Optio
 	return nil
 }
 
-// Sizes of the small criteria run of the probe.
-const (
-	smallCoreset   = 1024
-	smallSample    = 512
-	smallAnchors   = 200
-	smallGapRefs   = 2
-	smallGapSample = 400
-	smallRuns      = 3
-)
+// addRuns is the number of timed repetitions of the probe's steady-state sketch.Add measurement.
+const addRuns = 3
 
-// timeCriteria runs the criteria at small sizes on a sketch of the probe rows and sets cal's criteria
-// rate in work units per second.
-func timeCriteria(ctx context.Context, cal *model.Calibration, rows []float64, cols []string, opt Options) error {
+// probeRuns returns the probe's criteria runs, the most expensive first (the order they start in):
+// without the Ward linkage the largest k, the middle of the range from the smallest k >= 2 and that
+// smallest k; k = 1 with the Ward linkage; and k = 1 without it.
+func probeRuns(minK, maxK int) []model.CriteriaRun {
+	lo := max(minK, 2)
+	var runs []model.CriteriaRun
+	if maxK > lo {
+		runs = append(runs, model.CriteriaRun{K: maxK})
+		if mid := (lo + maxK) / 2; mid > lo {
+			runs = append(runs, model.CriteriaRun{K: mid})
+		}
+	}
+	if maxK >= lo {
+		runs = append(runs, model.CriteriaRun{K: lo})
+	}
+	return append(runs, model.CriteriaRun{K: 1, Ward: true}, model.CriteriaRun{K: 1})
+}
+
+// wardLeaves is the number of leaves of criteria.Evaluate's Ward linkage on a coreset of m points
+// with candidates up to maxK: the coreset itself up to 400 points, otherwise the centroids of a
+// k-means fit with max(3 maxK, 50) centres (or the coreset, if that is not fewer). A test checks it
+// against Evaluate's Result.Ward.Leaves.
+func wardLeaves(m, maxK int) int {
+	if kf := max(3*maxK, 50); m > 400 && kf < m {
+		return kf
+	}
+	return m
+}
+
+// timeCriteria times the criteria at the estimate's option sizes on a sketch of the probe rows (of
+// the estimate's coreset and sample sizes as far as the rows go; model.CriteriaFromRuns scales a
+// smaller coreset up), for the few k of probeRuns only:
+// one criteria.Evaluate per run on one worker, as many side by side as the estimate's criteria run
+// (one per CPU), without the Ward linkage but in one run, and records the runs in
+// cal.Probe.Criteria for model.CriteriaFromRuns. It also sets cal's criteria work rate to what those
+// runs imply for w, for the record.
+func timeCriteria(ctx context.Context, cal *model.Calibration, rows []float64, cols []string, opt Options, w model.Workload) error {
 	d := len(cols)
 	n := len(rows) / d
 	cfg := opt.Sketch
 	cfg.Columns = cols
-	cfg.CoresetSize = max(min(smallCoreset, n/2), 2*cfg.MaxK)
-	cfg.SampleSize = min(smallSample, n/2)
 	cfg.ExpectedRows = int64(n)
 	cfg.MiniBatchRows = int64(min(n, probeFeedRows))
 	sk, err := sketch.New(cfg, probeFor(rows, d, cfg.MinK, cfg.MaxK))
@@ -341,27 +377,51 @@ func timeCriteria(ctx context.Context, cal *model.Calibration, rows []float64, c
 	}
 	sk.Add(rows)
 	sum, _ := Summarize(sk, opt.Scale)
-	co := opt.Criteria
-	co.Restarts = 1
-	co.Anchors = smallAnchors
-	co.GapRefs = smallGapRefs
-	co.GapSample = smallGapSample
-	// The median of a few runs: one short run is at the mercy of whatever else the machine does.
-	var runs []float64
-	for len(runs) < smallRuns {
-		t0 := time.Now()
-		if _, err := criteria.Evaluate(ctx, sum, co); err != nil {
-			return fmt.Errorf("plan: small criteria run: %w", err)
-		}
-		runs = append(runs, time.Since(t0).Seconds())
+	runs := probeRuns(opt.Criteria.MinK, opt.Criteria.MaxK)
+	par := opt.Criteria.Workers
+	if par == 0 {
+		par = runtime.GOMAXPROCS(0)
 	}
-	slices.Sort(runs)
-	s := runs[len(runs)/2]
-	m := sum.Coreset.Len()
-	g := min(smallGapSample, sum.Sample.Len())
-	work := model.CriteriaWork(m, co.MinK, co.MaxK, d, co.Restarts, co.GapRefs, g, max(co.GapRestarts, 1), min(smallAnchors, m))
-	if s > 0 {
+	par = min(par, len(runs))
+	errs := make([]error, len(runs))
+	next := make(chan int)
+	var wg sync.WaitGroup
+	for range par {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for i := range next {
+				r := &runs[i]
+				co := opt.Criteria
+				co.MinK, co.MaxK, co.Workers, co.SkipWard = r.K, r.K, 1, !r.Ward
+				t0 := time.Now()
+				res, err := criteria.Evaluate(ctx, sum, co)
+				r.Seconds = time.Since(t0).Seconds()
+				if err != nil {
+					errs[i] = err
+					continue
+				}
+				r.Leaves = res.Ward.Leaves
+			}
+		}()
+	}
+	for i := range runs {
+		next <- i
+	}
+	close(next)
+	wg.Wait()
+	if err := errors.Join(errs...); err != nil {
+		return fmt.Errorf("plan: probe criteria run: %w", err)
+	}
+	slices.SortStableFunc(runs, func(a, b model.CriteriaRun) int { return a.K - b.K })
+	cp := &model.CriteriaProbe{Coreset: sum.Coreset.Len(), Parallel: par, Runs: runs}
+	cal.Probe.Criteria = cp
+	if s, ok := model.CriteriaFromRuns(w, cp, w.Cores); ok && s > 0 {
+		m := min(w.Coreset, int(max(w.Rows, 1)))
+		g := min(w.GapSample, w.Sample, int(max(w.Rows, 1)))
+		work := model.CriteriaWork(m, w.MinK, w.MaxK, w.Dims, w.Restarts, w.GapRefs, g, w.GapRestarts, min(w.Anchors, m))
 		cal.CriteriaWorkPerSec = work / s
+		cal.CriteriaScaleUp, cal.CriteriaFixed = 0, 0
 	}
 	return nil
 }

@@ -2,13 +2,18 @@ package kgauge
 
 import (
 	"context"
+	"fmt"
 	"math"
+	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"reflect"
 	"testing"
 
 	"github.com/kgauge/kgauge/bench/model"
 	"github.com/kgauge/kgauge/bench/synth"
+	"github.com/kgauge/kgauge/criteria"
+	"github.com/kgauge/kgauge/internal/kmeans"
 	"github.com/kgauge/kgauge/sketch"
 )
 
@@ -62,6 +67,25 @@ func TestTimedProbeLimits(t *testing.T) {
 	}
 	if err := c.Validate(); err != nil {
 		t.Error(err)
+	}
+	// The criteria runs: k = 6, 4 and 2 without the Ward linkage, k = 1 with and without it, at the
+	// estimate's sizes (the probe's rows fill the 800-point coreset).
+	cp := pt.Criteria
+	if cp == nil {
+		t.Fatal("no criteria runs recorded")
+	}
+	want := []model.CriteriaRun{{K: 1, Ward: true, Leaves: 50}, {K: 1}, {K: 2}, {K: 4}, {K: 6}}
+	if len(cp.Runs) != len(want) || cp.Coreset != 800 || cp.Parallel < 1 {
+		t.Fatalf("criteria runs %+v, want k = 1 (Ward), 1, 2, 4, 6 on an 800-point coreset", cp)
+	}
+	for i, r := range cp.Runs {
+		if r.K != want[i].K || r.Ward != want[i].Ward || r.Leaves != want[i].Leaves || !(r.Seconds > 0) {
+			t.Errorf("criteria run %d: %+v, want %+v with a positive time", i, r, want[i])
+		}
+	}
+	fromRuns, ok := model.CriteriaFromRuns(p.Workload, cp, p.Workload.Cores)
+	if !ok || p.Terms.Criteria != fromRuns {
+		t.Errorf("criteria term %v is not the runs' price %v (ok %v)", p.Terms.Criteria, fromRuns, ok)
 	}
 	if p.Workload.Rows != 100_000 || p.Workload.Units != 100_000/2048+1 || p.Workload.Dims != 6 {
 		t.Errorf("workload %+v does not match the file", p.Workload)
@@ -172,5 +196,87 @@ func TestTimedProbeArrowStream(t *testing.T) {
 	}
 	if !(p.Seconds > 0) {
 		t.Errorf("predicted %v s", p.Seconds)
+	}
+}
+
+func TestProbeRuns(t *testing.T) {
+	type run struct {
+		k    int
+		ward bool
+	}
+	for _, tc := range []struct {
+		minK, maxK int
+		want       []run
+	}{
+		{1, 20, []run{{20, false}, {11, false}, {2, false}, {1, true}, {1, false}}},
+		{1, 40, []run{{40, false}, {21, false}, {2, false}, {1, true}, {1, false}}},
+		{1, 3, []run{{3, false}, {2, false}, {1, true}, {1, false}}},
+		{1, 2, []run{{2, false}, {1, true}, {1, false}}},
+		{1, 1, []run{{1, true}, {1, false}}},
+		{5, 9, []run{{9, false}, {7, false}, {5, false}, {1, true}, {1, false}}},
+	} {
+		var got []run
+		for _, r := range probeRuns(tc.minK, tc.maxK) {
+			got = append(got, run{r.K, r.Ward})
+		}
+		if !reflect.DeepEqual(got, tc.want) {
+			t.Errorf("probeRuns(%d, %d) = %v, want %v", tc.minK, tc.maxK, got, tc.want)
+		}
+	}
+}
+
+// blobs draws n points in d dims around k centres (invented data for property tests only).
+func blobs(n, d, k int) kmeans.Data {
+	rng := rand.New(rand.NewPCG(3, 4))
+	x := make([]float64, n*d)
+	for i := range n {
+		for j := range d {
+			x[i*d+j] = float64(5*((i%k)+j%2)) + rng.NormFloat64()
+		}
+	}
+	return kmeans.Data{X: x, D: d}
+}
+
+// TestWardLeaves: the plan's count of the Ward linkage's leaves is what criteria.Evaluate reports,
+// and SkipWard (the probe's runs) drops the linkage and its vote and changes no other score.
+func TestWardLeaves(t *testing.T) {
+	for _, tc := range []struct{ m, maxK int }{{300, 6}, {800, 6}, {800, 20}, {800, 40}, {450, 200}} {
+		s := criteria.ExactSummary(blobs(tc.m, 3, 4))
+		o := criteria.DefaultOptions()
+		o.MinK, o.MaxK, o.GapRefs, o.GapSample, o.Anchors = tc.maxK, tc.maxK, 1, 100, 50
+		res, err := criteria.Evaluate(context.Background(), s, o)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if got := wardLeaves(tc.m, tc.maxK); got != res.Ward.Leaves {
+			t.Errorf("wardLeaves(%d, %d) = %d, Evaluate's linkage had %d leaves", tc.m, tc.maxK, got, res.Ward.Leaves)
+		}
+	}
+	s := criteria.ExactSummary(blobs(600, 3, 4))
+	o := criteria.DefaultOptions()
+	o.MaxK, o.GapRefs, o.GapSample, o.Anchors = 6, 2, 200, 100
+	full, err := criteria.Evaluate(context.Background(), s, o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	o.SkipWard = true
+	skip, err := criteria.Evaluate(context.Background(), s, o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if skip.Ward.Leaves != 0 || len(skip.Ward.Merges) != 0 || full.Ward.Leaves == 0 {
+		t.Errorf("Ward leaves %d with SkipWard, %d without", skip.Ward.Leaves, full.Ward.Leaves)
+	}
+	for i := range full.PerK {
+		a, b := full.PerK[i], skip.PerK[i]
+		a.WardHeight, a.WardJump, b.WardHeight, b.WardJump = 0, 0, 0, 0
+		if fmt.Sprint(a) != fmt.Sprint(b) { // fmt, not DeepEqual: undefined scores are NaN
+			t.Errorf("k=%d: SkipWard changed the scores:\n%+v\n%+v", a.K, a, b)
+		}
+	}
+	for _, v := range skip.Votes {
+		if v.Criterion == criteria.NameWard && !v.Abstain {
+			t.Errorf("Ward vote %+v without the linkage; want an abstention", v)
+		}
 	}
 }

@@ -211,7 +211,9 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 			}
 		}()
 	}
-	jobs <- 0
+	if !opt.SkipWard {
+		jobs <- 0
+	}
 	for k := opt.MaxK; k >= opt.MinK; k-- {
 		jobs <- k
 	}

@@ -7,11 +7,20 @@
 //	open     = files·OpenFile
 //	probe    = probe units·OpenUnit + probe bytes/ScanRate + seed rows·Σk·d/KernelRate
 //	pass     = PassOverhead·(units·OpenUnit + bytes/ScanRate + rows·d·AddPerValue + fed·Σk·d/KernelRate) / S(W)
-//	criteria = CriteriaFixed + work(m, k range, d, B, gap sample, anchors) / (CriteriaRate·CriteriaScaleUp)
+//	criteria = setup + makespan(Ward job, job of k = MaxK … MinK; cores)                  with a probe
+//	criteria = CriteriaFixed + work(m, k range, d, B, gap sample, anchors) / CriteriaRate  without
 //
 // where fed = min(rows, mini-batch rows) is the mini-batch feed, Σk the sum of the candidate k, and
 // S(W) = 1 / ((1−p) + p/min(W, cores, units)) Amdahl's speed-up with the measured parallel fraction p.
 // Criteria work does not grow with the rows: it is fixed by the coreset and the option sizes.
+//
+// With a probe the criteria are priced from what they cost on this input (CriteriaFromRuns): a plan
+// runs them at the estimate's option sizes on a sketch of the probe rows for k = 1 (with and without
+// the Ward linkage), the smallest k ≥ 2, the middle and the largest k, and interpolates the others.
+// A k's cost is not a constant times its work units: Lloyd and EM iterations depend on how k compares
+// with the clusters in the data (flat below them, growing beyond), and the silhouette's share of a
+// k's cost falls as k grows; both change with the column count and the k range, which is why a
+// small run scaled by one factor missed by a third at 8 and 32 columns.
 //
 // # Memory
 //
@@ -22,5 +31,5 @@
 // [Default] returns the constants committed in calibration.json, written by
 // "go run ./cmd/kgauge-calibrate" from timed runs on generated files; a plan replaces the
 // machine-dependent rates by what its short timed probe of the real input measured (see
-// [Calibration.WithProbe]). No constant is asserted in a test: the tests check the model's algebra.
+// kgauge.TimedProbe and [ProbeTiming]). No constant is asserted in a test: the tests check the model's algebra.
 package model

@@ -22,9 +22,11 @@ type Calibration struct {
 	AddSecPerValue  float64 `json:"add_seconds_per_value"` // sketch.Add per row and column, steady state
 	KernelPKDPerSec float64 `json:"kernel_pkd_per_second"` // mini-batch points × k × d per second
 
-	CriteriaWorkPerSec float64 `json:"criteria_work_per_second"` // small criteria run: work units per second
-	CriteriaScaleUp    float64 `json:"criteria_scale_up"`        // full-size rate ÷ small-run rate
-	CriteriaFixed      float64 `json:"criteria_fixed_seconds"`   // summary, PCA box, Ward, votes
+	// Without a probe, the criteria are priced from work units (CriteriaWork): the full-size criteria
+	// stage of the calibration run does CriteriaWorkPerSec·CriteriaScaleUp of them per second.
+	CriteriaWorkPerSec float64 `json:"criteria_work_per_second"`
+	CriteriaScaleUp    float64 `json:"criteria_scale_up,omitempty"` // legacy factor on the rate (0 means 1)
+	CriteriaFixed      float64 `json:"criteria_fixed_seconds"`      // summary, PCA box, Ward, votes
 
 	PassOverhead     float64 `json:"pass_overhead"`     // measured pass ÷ pass priced from probe rates (0 means 1)
 	ProbeOverhead    float64 `json:"probe_overhead"`    // the same for the estimate's own probe stage (0 means 1)
@@ -47,6 +49,29 @@ type ProbeTiming struct {
 	OpenSeconds     float64 `json:"open_seconds"`   // opening them
 	SketchSeconds   float64 `json:"sketch_seconds"` // sketch.Add, steady state and with full feed
 	CriteriaSeconds float64 `json:"criteria_seconds"`
+
+	// Criteria is what the full-size criteria runs on a sketch of the probe rows measured; with it,
+	// Predict prices the criteria stage from these runs instead of from work units.
+	Criteria *CriteriaProbe `json:"criteria,omitempty"`
+}
+
+// CriteriaRun is one timed criteria run of a probe: the criteria for the single k K, on one
+// worker, with the estimate's option sizes (restarts, anchors, gap references and sample), without
+// the Ward linkage unless Ward.
+type CriteriaRun struct {
+	K       int     `json:"k"`
+	Ward    bool    `json:"ward,omitempty"`        // the run included the Ward linkage
+	Leaves  int     `json:"ward_leaves,omitempty"` // its leaves (criteria.Result.Ward.Leaves)
+	Seconds float64 `json:"seconds"`
+}
+
+// CriteriaProbe is a probe's set of criteria runs: k = 1 without the Ward linkage (the setup every
+// run pays: gap references, PCA box; k = 1 itself costs almost nothing), k = 1 with it, and without
+// it the smallest k >= 2 of the range, its middle and its largest k.
+type CriteriaProbe struct {
+	Coreset  int           `json:"coreset"`  // coreset points of the probe's sketch
+	Parallel int           `json:"parallel"` // runs timed side by side, as the estimate runs its k
+	Runs     []CriteriaRun `json:"runs"`     // ascending k
 }
 
 //go:embed calibration.json
@@ -78,13 +103,14 @@ func (c Calibration) Validate() error {
 		name string
 		v    float64
 	}{{"scan_bytes_per_second", c.ScanBytesPerSec}, {"add_seconds_per_value", c.AddSecPerValue},
-		{"kernel_pkd_per_second", c.KernelPKDPerSec}, {"criteria_work_per_second", c.CriteriaWorkPerSec},
-		{"criteria_scale_up", c.CriteriaScaleUp}} {
+		{"kernel_pkd_per_second", c.KernelPKDPerSec}, {"criteria_work_per_second", c.CriteriaWorkPerSec}} {
 		if !(f.v > 0) || math.IsInf(f.v, 0) {
 			return fmt.Errorf("model: calibration %s must be a positive number, got %v", f.name, f.v)
 		}
 	}
 	switch {
+	case c.CriteriaScaleUp < 0 || math.IsInf(c.CriteriaScaleUp, 0):
+		return fmt.Errorf("model: calibration criteria_scale_up must be finite and not negative, got %v", c.CriteriaScaleUp)
 	case c.OpenFileSeconds < 0 || c.OpenUnitSeconds < 0 || c.CriteriaFixed < 0 || c.PassOverhead < 0 || c.ProbeOverhead < 0:
 		return errors.New("model: calibration times must not be negative")
 	case !(c.ParallelFraction >= 0 && c.ParallelFraction <= 1):
@@ -125,6 +151,7 @@ type Workload struct {
 	GapRefs       int
 	GapSample     int
 	GapRestarts   int
+	WardLeaves    int // leaves of the criteria's Ward linkage (0: as the probe's run had)
 }
 
 // Validate reports a workload the model cannot price.
@@ -251,11 +278,15 @@ func Predict(w Workload, c Calibration) Prediction {
 
 	m := min(w.Coreset, int(math.Max(rows, 1)))
 	g := min(w.GapSample, w.Sample, int(math.Max(rows, 1)))
-	work := CriteriaWork(m, w.MinK, w.MaxK, w.Dims, w.Restarts, w.GapRefs, g, w.GapRestarts, min(w.Anchors, m))
-	// The rate was measured with the criteria spreading the k over all c.Cores; rescale to this machine.
-	cores0 := Speedup(c.ParallelFraction, c.Cores)
-	coresNow := Speedup(c.ParallelFraction, min(cores, w.MaxK-w.MinK+1))
-	t.Criteria = c.CriteriaFixed + work/(c.CriteriaWorkPerSec*c.CriteriaScaleUp)*cores0/coresNow
+	if s, ok := CriteriaFromRuns(w, c.probeCriteria(), cores); ok {
+		t.Criteria = s
+	} else {
+		work := CriteriaWork(m, w.MinK, w.MaxK, w.Dims, w.Restarts, w.GapRefs, g, w.GapRestarts, min(w.Anchors, m))
+		// The rate was measured with the criteria spreading the k over all c.Cores; rescale to this machine.
+		cores0 := Speedup(c.ParallelFraction, c.Cores)
+		coresNow := Speedup(c.ParallelFraction, min(cores, w.MaxK-w.MinK+1))
+		t.Criteria = c.CriteriaFixed + work/(c.CriteriaWorkPerSec*Overhead(c.CriteriaScaleUp))*cores0/coresNow
+	}
 	p.Seconds = t.Open + t.Probe + t.Pass + t.Criteria
 
 	mem := &p.Memory
@@ -279,6 +310,101 @@ func Predict(w Workload, c Calibration) Prediction {
 	mem.Peak = mem.Base + mem.Sketches + mem.ReadBuffers + mem.PageBuffers + mem.Probe + mem.Criteria
 	p.PeakBytes = mem.Peak
 	return p
+}
+
+// probeCriteria returns the probe's criteria runs, if any.
+func (c Calibration) probeCriteria() *CriteriaProbe {
+	if c.Probe == nil {
+		return nil
+	}
+	return c.Probe.Criteria
+}
+
+// CriteriaFromRuns prices the criteria stage of w from a probe's criteria runs on cores CPUs, and
+// reports false when the runs cannot price it (none, or none of k = 1 with and without the Ward
+// linkage).
+//
+// The stage is its setup, then one job for the Ward linkage and one per k from the largest down on
+// min(cores, jobs) workers, each taking the next job when it is free (criteria.Evaluate); it takes
+// the setup plus the last finish of that schedule (Makespan). The setup is the k = 1 run without
+// the Ward linkage; a k's job is its run less the setup, and a k between two runs gets the linear
+// interpolation of theirs (a k's cost is flat while k is below the data's clusters and grows beyond
+// them, which the middle run catches); k = 1 costs nothing beyond the setup. The Ward job is the
+// k = 1 run with the linkage less the setup, × w.WardLeaves ÷ that run's leaves (the linkage's
+// k-means fit is linear in its centres). When the estimate's coreset is larger than the probe's,
+// every part grows in proportion (each criterion is linear in the coreset points it visits).
+func CriteriaFromRuns(w Workload, cp *CriteriaProbe, cores int) (float64, bool) {
+	if cp == nil {
+		return 0, false
+	}
+	var base, ward *CriteriaRun
+	var ks []int
+	var own []float64
+	for i, r := range cp.Runs {
+		switch {
+		case r.K == 1 && r.Ward:
+			ward = &cp.Runs[i]
+		case r.K == 1:
+			base = &cp.Runs[i]
+		}
+	}
+	if base == nil || ward == nil || ward.Leaves < 1 || !(base.Seconds >= 0) || !(ward.Seconds >= 0) {
+		return 0, false
+	}
+	for _, r := range cp.Runs {
+		if r.K >= 2 && !r.Ward && r.K >= w.MinK && r.K <= w.MaxK {
+			ks = append(ks, r.K)
+			own = append(own, math.Max(0, r.Seconds-base.Seconds))
+		}
+	}
+	part := func(k int) float64 {
+		switch {
+		case k < 2 || len(ks) == 0:
+			return 0
+		case k <= ks[0]:
+			return own[0]
+		}
+		for i := 1; i < len(ks); i++ {
+			if k <= ks[i] {
+				f := float64(k-ks[i-1]) / float64(ks[i]-ks[i-1])
+				return own[i-1] + f*(own[i]-own[i-1])
+			}
+		}
+		return own[len(own)-1]
+	}
+	scale := 1.0
+	if m := min(w.Coreset, int(math.Max(w.rowsOf(), 1))); cp.Coreset > 0 && m > 0 {
+		scale = float64(m) / float64(cp.Coreset)
+	}
+	leaves := w.WardLeaves
+	if leaves < 1 {
+		leaves = ward.Leaves
+	}
+	jobs := []float64{math.Max(0, ward.Seconds-base.Seconds) * float64(leaves) / float64(ward.Leaves) * scale}
+	for k := w.MaxK; k >= w.MinK; k-- {
+		jobs = append(jobs, part(k)*scale)
+	}
+	return base.Seconds*scale + Makespan(jobs, max(cores, 1)), true
+}
+
+// Makespan is the time n workers take to run jobs of the given lengths in order, each worker taking
+// the next job as soon as it is free.
+func Makespan(jobs []float64, n int) float64 {
+	free := make([]float64, max(1, min(n, len(jobs))))
+	for _, j := range jobs {
+		i := 0
+		for t := range free {
+			if free[t] < free[i] {
+				i = t
+			}
+		}
+		free[i] += j
+	}
+	end := 0.0
+	for _, f := range free {
+		end = math.Max(end, f)
+	}
+	return end
 }
 
 // Overhead reads an overhead factor, where 0 (absent) means 1.

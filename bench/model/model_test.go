@@ -155,3 +155,110 @@ func TestUnknownRowsFromBytes(t *testing.T) {
 		t.Errorf("sketch term %v with rows from bytes, want %v", p.Terms.Sketch, want)
 	}
 }
+
+// testRuns is a probe's criteria runs with round numbers: a setup of 0.1 s, a Ward linkage of 0.5 s
+// on 50 leaves, and own parts 0.4, 0.5 and 1.0 s at k = 2, 11 and 20.
+func testRuns() *CriteriaProbe {
+	return &CriteriaProbe{Coreset: 8192, Parallel: 2, Runs: []CriteriaRun{
+		{K: 1, Seconds: 0.1}, {K: 1, Ward: true, Leaves: 50, Seconds: 0.6},
+		{K: 2, Seconds: 0.5}, {K: 11, Seconds: 0.6}, {K: 20, Seconds: 1.1}}}
+}
+
+func TestMakespan(t *testing.T) {
+	for _, tc := range []struct {
+		jobs []float64
+		n    int
+		want float64
+	}{
+		{[]float64{3, 2, 2, 1}, 2, 4},    // 3 | 2+2, then 1 after the 3
+		{[]float64{3, 2, 2, 1}, 1, 8},    // one worker: the sum
+		{[]float64{1, 5}, 2, 5},          // the longest job bounds it
+		{[]float64{1, 1, 1}, 8, 1},       // idle workers change nothing
+		{[]float64{2, 1, 1, 1, 1}, 2, 3}, // 2+1 | 1+1+1
+		{nil, 2, 0},
+	} {
+		if got := Makespan(tc.jobs, tc.n); math.Abs(got-tc.want) > 1e-12 {
+			t.Errorf("Makespan(%v, %d) = %v, want %v", tc.jobs, tc.n, got, tc.want)
+		}
+	}
+}
+
+// TestCriteriaFromRuns checks the pricing from runs against the formula in its doc, by hand.
+func TestCriteriaFromRuns(t *testing.T) {
+	w := testWork() // k 1..20, coreset 8192 as the runs'
+	w.WardLeaves = 60
+	near := func(name string, got, want float64) {
+		t.Helper()
+		if math.Abs(got-want) > 1e-9 {
+			t.Errorf("%s = %v, want %v", name, got, want)
+		}
+	}
+	// One worker: setup 0.1 + Ward 0.5·60/50 + Σ own parts. k = 2..11 rise linearly 0.4 → 0.5 (sum
+	// 4.5), k = 12..20 linearly from 0.5 to 1.0 (sum 9·0.5 + 0.5/9·45 = 7).
+	s, ok := CriteriaFromRuns(w, testRuns(), 1)
+	if !ok {
+		t.Fatal("runs not usable")
+	}
+	near("one worker", s, 0.1+0.6+4.5+7)
+	// Two workers: the schedule of the jobs, never less than half the work nor more than half plus the
+	// longest job.
+	s2, _ := CriteriaFromRuns(w, testRuns(), 2)
+	if work := 0.6 + 4.5 + 7; !(s2 >= 0.1+work/2-1e-9 && s2 <= 0.1+work/2+1.0+1e-9) {
+		t.Errorf("two workers: %v outside [%v, %v]", s2, 0.1+work/2, 0.1+work/2+1)
+	}
+	// A k range that starts above 1: only its k, each at least the run below it.
+	w5 := w
+	w5.MinK, w5.MaxK = 11, 20
+	s5, _ := CriteriaFromRuns(w5, testRuns(), 1)
+	near("k 11..20", s5, 0.1+0.6+0.5+7)
+	// An estimate coreset four times the probe's costs four times as much.
+	w4 := w
+	w4.Coreset = 4 * 8192
+	s4, _ := CriteriaFromRuns(w4, testRuns(), 1)
+	near("4× coreset", s4, 4*s)
+	// Without the k = 1 runs the runs cannot price the stage, and Predict prices work units.
+	cp := testRuns()
+	cp.Runs = cp.Runs[2:]
+	if _, ok := CriteriaFromRuns(w, cp, 1); ok {
+		t.Error("runs without k = 1 priced the stage")
+	}
+}
+
+// TestPredictWithRuns: with the probe's criteria runs, Predict's criteria term is CriteriaFromRuns,
+// and without them the work-unit formula.
+func TestPredictWithRuns(t *testing.T) {
+	c, w := testCal(), testWork()
+	plain := Predict(w, c).Terms.Criteria
+	c.Probe = &ProbeTiming{Criteria: testRuns()}
+	want, _ := CriteriaFromRuns(w, testRuns(), w.Cores)
+	if got := Predict(w, c).Terms.Criteria; got != want || got == plain {
+		t.Errorf("criteria %v, want the runs' price %v (the work-unit price is %v)", got, want, plain)
+	}
+	c.Probe.Criteria.Runs = c.Probe.Criteria.Runs[2:]
+	if got := Predict(w, c).Terms.Criteria; got != plain {
+		t.Errorf("unusable runs: criteria %v, want the work-unit price %v", got, plain)
+	}
+	// The criteria runs do not depend on the data size: 10× the rows leaves the term alone.
+	c.Probe.Criteria = testRuns()
+	if a, b := Predict(w, c).Terms.Criteria, Predict(w.Scaled(10), c).Terms.Criteria; a != b {
+		t.Errorf("criteria changed with the data: %v vs %v", a, b)
+	}
+}
+
+func TestParseCriteriaFactors(t *testing.T) {
+	c := testCal()
+	c.CriteriaScaleUp = -1
+	if err := c.Validate(); err == nil || !strings.Contains(err.Error(), "criteria_scale_up") {
+		t.Errorf("negative criteria scale-up: %v", err)
+	}
+	c = testCal()
+	c.CriteriaScaleUp = 0 // legacy factor absent: the rate is the full-size rate
+	if err := c.Validate(); err != nil {
+		t.Errorf("no criteria_scale_up: %v", err)
+	}
+	w := testWork()
+	work := CriteriaWork(8192, 1, 20, 16, 3, 10, 2000, 1, 1000)
+	if got := Predict(w, c).Terms.Criteria; math.Abs(got-(0.5+work/1e9)) > 1e-9 {
+		t.Errorf("criteria %v without the legacy factor, want %v", got, 0.5+work/1e9)
+	}
+}
