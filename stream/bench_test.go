@@ -46,10 +46,9 @@ func writeBenchFile(b *testing.B) string {
 	return p
 }
 
-// BenchmarkParquetScan reads every row through Dataset/UnitReader with a
-// 4096-row buffer.
-func BenchmarkParquetScan(b *testing.B) {
-	p := writeBenchFile(b)
+// openBench opens the benchmark file at p.
+func openBench(b *testing.B, p string) *stream.Dataset {
+	b.Helper()
 	files, err := stream.Discover([]string{p})
 	if err != nil {
 		b.Fatal(err)
@@ -58,6 +57,14 @@ func BenchmarkParquetScan(b *testing.B) {
 	if err != nil {
 		b.Fatal(err)
 	}
+	return ds
+}
+
+// BenchmarkParquetScan reads every row through Dataset/UnitReader with a
+// 4096-row buffer.
+func BenchmarkParquetScan(b *testing.B) {
+	p := writeBenchFile(b)
+	ds := openBench(b, p)
 	buf := make([]float64, 4096*ds.Dims())
 	b.SetBytes(benchRows * 16 * 8)
 	b.ResetTimer()
@@ -95,14 +102,7 @@ func BenchmarkParquetScan(b *testing.B) {
 // BenchmarkParquetScanColumns reads every row through ReadColumns, at most 4096 rows per call.
 func BenchmarkParquetScanColumns(b *testing.B) {
 	p := writeBenchFile(b)
-	files, err := stream.Discover([]string{p})
-	if err != nil {
-		b.Fatal(err)
-	}
-	ds, err := stream.Open(files, stream.Options{})
-	if err != nil {
-		b.Fatal(err)
-	}
+	ds := openBench(b, p)
 	b.SetBytes(benchRows * 16 * 8)
 	b.ResetTimer()
 	var sum float64
@@ -185,4 +185,70 @@ func BenchmarkParquetScanBare(b *testing.B) {
 	}
 	b.ReportMetric(float64(benchRows)*float64(b.N)/b.Elapsed().Seconds(), "rows/s")
 	_ = sum
+}
+
+type dictRow struct {
+	C0, C1, C2, C3, C4, C5, C6, C7 *float64 `parquet:",optional,dict"`
+}
+
+// BenchmarkGuardDictSnappy prices the guard's walk of run-length encoded data (checkColumnChunk
+// decompresses every page of a dictionary-encoded or optional column once more to walk its runs):
+// "open" opens and closes every unit (footer checks and the walk), "read" also reads every row.
+// The file: benchRows × 8 optional, dictionary-encoded float64 columns of 64 distinct values, 1% nulls,
+// snappy.
+func BenchmarkGuardDictSnappy(b *testing.B) {
+	p := filepath.Join(b.TempDir(), "dict.parquet")
+	fh, err := os.Create(p)
+	if err != nil {
+		b.Fatal(err)
+	}
+	w := parquet.NewGenericWriter[dictRow](fh, parquet.MaxRowsPerRowGroup(128<<10), parquet.Compression(&parquet.Snappy))
+	r := rand.New(rand.NewPCG(3, 4))
+	rows := make([]dictRow, 8192)
+	vals := make([]float64, 8*8192)
+	for done := 0; done < benchRows; done += len(rows) {
+		for i := range rows {
+			f := []**float64{&rows[i].C0, &rows[i].C1, &rows[i].C2, &rows[i].C3, &rows[i].C4, &rows[i].C5, &rows[i].C6, &rows[i].C7}
+			for j, c := range f {
+				*c = nil
+				if r.IntN(100) != 0 {
+					vals[i*8+j] = float64(r.IntN(64))
+					*c = &vals[i*8+j]
+				}
+			}
+		}
+		if _, err := w.Write(rows); err != nil {
+			b.Fatal(err)
+		}
+	}
+	if err := w.Close(); err != nil {
+		b.Fatal(err)
+	}
+	fh.Close()
+	ds := openBench(b, p)
+	for _, read := range []bool{false, true} {
+		name := "open"
+		if read {
+			name = "read"
+		}
+		b.Run(name, func(b *testing.B) {
+			for b.Loop() {
+				for _, u := range ds.Units {
+					ur, err := ds.OpenUnit(u)
+					if err != nil {
+						b.Fatal(err)
+					}
+					for read {
+						if _, err := ur.ReadColumns(4096); err == io.EOF {
+							break
+						} else if err != nil {
+							b.Fatal(err)
+						}
+					}
+					ur.Close()
+				}
+			}
+			b.ReportMetric(float64(benchRows)*float64(b.N)/b.Elapsed().Seconds(), "rows/s")
+		})
+	}
 }
