@@ -5,9 +5,9 @@ import (
 	"testing"
 )
 
-// BenchmarkAdd measures Sketch.Add per row on 16 columns in 4096-row batches, in steady state
-// (reservoirs full, the mini-batch feed at the rate of a 100M-row input).
-func BenchmarkAdd(b *testing.B) {
+// steadySketch returns a 16-column sketch in steady state (reservoirs full, the mini-batch feed at
+// the rate of a 100M-row input) and the rows it was filled with.
+func steadySketch(b *testing.B) (*Sketch, []float64, int) {
 	rng := rand.New(rand.NewPCG(1, 1))
 	d := 16
 	x, _ := blobs(rng, 1<<16, d, []float64{1, 1, 1, 1}, 4)
@@ -19,6 +19,12 @@ func BenchmarkAdd(b *testing.B) {
 	for range 40 {
 		s.Add(x)
 	}
+	return s, x, d
+}
+
+// BenchmarkAdd measures Sketch.Add per row on 16 columns in 4096-row batches, in steady state.
+func BenchmarkAdd(b *testing.B) {
+	s, x, d := steadySketch(b)
 	batch := x[:4096*d]
 	b.SetBytes(int64(len(batch) * 8))
 	b.ReportAllocs()
@@ -30,25 +36,9 @@ func BenchmarkAdd(b *testing.B) {
 
 // BenchmarkAddColumns is BenchmarkAdd with the rows given by column, as the pass gives them.
 func BenchmarkAddColumns(b *testing.B) {
-	rng := rand.New(rand.NewPCG(1, 1))
-	d := 16
-	x, _ := blobs(rng, 1<<16, d, []float64{1, 1, 1, 1}, 4)
-	cfg := Config{Columns: columns(d), MaxK: 20, ExpectedRows: 100_000_000}
-	s, err := New(cfg, probeOf(b, x, d, 20))
-	if err != nil {
-		b.Fatal(err)
-	}
-	for range 40 {
-		s.Add(x)
-	}
+	s, x, d := steadySketch(b)
 	const rows = 4096
-	cols := make([][]float64, d)
-	for j := range cols {
-		cols[j] = make([]float64, rows)
-		for i := range rows {
-			cols[j][i] = x[i*d+j]
-		}
-	}
+	cols := byColumn(x[:rows*d], d)
 	b.SetBytes(rows * int64(d) * 8)
 	b.ReportAllocs()
 	for b.Loop() {

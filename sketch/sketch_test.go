@@ -266,6 +266,7 @@ func TestSmallInputKeepsEveryRow(t *testing.T) {
 	}
 }
 
+// TestAddDoesNotAllocate: Add and AddColumns allocate nothing in steady state.
 func TestAddDoesNotAllocate(t *testing.T) {
 	rng := rand.New(rand.NewPCG(12, 13))
 	d := 8
@@ -277,9 +278,24 @@ func TestAddDoesNotAllocate(t *testing.T) {
 	}
 	s.Add(x) // warm up: reservoirs fill, assigners size themselves
 	batch := x[:4096*d]
+	cols := byColumn(batch, d)
 	if a := testing.AllocsPerRun(5, func() { s.Add(batch) }); a != 0 {
 		t.Errorf("Add allocates %v times per call", a)
 	}
+	if a := testing.AllocsPerRun(5, func() { s.AddColumns(cols) }); a != 0 {
+		t.Errorf("AddColumns allocates %v times per call", a)
+	}
+}
+
+// byColumn returns the row-major rows x (width d) by column.
+func byColumn(x []float64, d int) [][]float64 {
+	cols := make([][]float64, d)
+	for i := 0; i < len(x)/d; i++ {
+		for j := range cols {
+			cols[j] = append(cols[j], x[i*d+j])
+		}
+	}
+	return cols
 }
 
 func TestMiniBatchFindsCentres(t *testing.T) {
@@ -440,26 +456,5 @@ func TestAddColumnsEqualsAdd(t *testing.T) {
 					gm.S1[j], gm.S2[j], gm.Min[j], gm.Max[j], wm.S1[j], wm.S2[j], wm.Min[j], wm.Max[j])
 			}
 		}
-	}
-}
-
-func TestAddColumnsDoesNotAllocate(t *testing.T) {
-	rng := rand.New(rand.NewPCG(14, 15))
-	d := 8
-	x, _ := blobs(rng, 40960, d, []float64{1, 1, 1}, 3)
-	cfg := Config{Columns: columns(d), MaxK: 6, ExpectedRows: 1}
-	s, err := New(cfg, probeOf(t, x, d, 6))
-	if err != nil {
-		t.Fatal(err)
-	}
-	s.Add(x)
-	cols := make([][]float64, d)
-	for j := range cols {
-		for i := range 4096 {
-			cols[j] = append(cols[j], x[i*d+j])
-		}
-	}
-	if a := testing.AllocsPerRun(5, func() { s.AddColumns(cols) }); a != 0 {
-		t.Errorf("AddColumns allocates %v times per call", a)
 	}
 }
