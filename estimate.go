@@ -128,8 +128,9 @@ func Estimate(ctx context.Context, inputs []string, opt Options) (*Result, *sket
 	// The pass discards decoded pages and the criteria their fits' buffers; with the collector's
 	// default target (a heap of twice the live data) the peak then depends on where collections
 	// fall, so it varied with the row count. Half the headroom keeps it flat and lower, at no
-	// measured cost in time (DEVELOPERS.md, measured design decisions). A lower setting is kept.
-	if old := debug.SetGCPercent(estimateGCPercent); old >= 0 && old < estimateGCPercent {
+	// measured cost in time (DEVELOPERS.md, measured design decisions). A lower setting, or the
+	// collector turned off (GOGC=off, -1), is kept.
+	if old := debug.SetGCPercent(estimateGCPercent); old < estimateGCPercent {
 		debug.SetGCPercent(old)
 	} else {
 		defer debug.SetGCPercent(old)
@@ -158,7 +159,9 @@ func Estimate(ctx context.Context, inputs []string, opt Options) (*Result, *sket
 			return nil, nil, fmt.Errorf("%s: %w", p, err)
 		}
 	}
-	releasePassMemory()
+	if len(dataPaths) > 0 {
+		releasePassMemory()
+	}
 	opt.Progress.stage("criteria")
 	r, err := Evaluate(ctx, total, opt)
 	if err != nil {

@@ -283,42 +283,53 @@ func readAll(t testing.TB, ds *stream.Dataset, bufRows int) ([][]float64, int64,
 	return rows, skipped, err
 }
 
+// readRows reads every unit with Read into a bufRows-row buffer.
 func readRows(t testing.TB, ds *stream.Dataset, bufRows int) ([][]float64, int64, []int64, error) {
 	t.Helper()
 	d := ds.Dims()
 	buf := make([]float64, bufRows*d)
-	var rows [][]float64
-	var skipped int64
-	byCol := make([]int64, d)
-	for _, u := range ds.Units {
-		r, err := ds.OpenUnit(u)
-		if err != nil {
-			return rows, skipped, byCol, err
+	return readUnits(ds, func(r *stream.UnitReader) ([][]float64, error) {
+		n, err := r.Read(buf)
+		if n > bufRows {
+			t.Fatalf("Read returned %d rows for a %d-row buffer", n, bufRows)
 		}
-		for {
-			n, err := r.Read(buf)
-			if n > bufRows {
-				t.Fatalf("Read returned %d rows for a %d-row buffer", n, bufRows)
-			}
-			for i := 0; i < n; i++ {
-				rows = append(rows, append([]float64(nil), buf[i*d:(i+1)*d]...))
-			}
-			if err != nil {
-				skipped += r.Skipped()
-				addCounts(byCol, r.SkippedByColumn())
-				r.Close()
-				if err.Error() == "EOF" {
-					break
-				}
-				return rows, skipped, byCol, err
-			}
+		var rows [][]float64
+		for i := 0; i < n; i++ {
+			rows = append(rows, append([]float64(nil), buf[i*d:(i+1)*d]...))
 		}
-	}
-	return rows, skipped, byCol, nil
+		return rows, err
+	})
 }
 
+// readColumns reads every unit with ReadColumns, at most maxRows rows per call, and returns rows.
 func readColumns(t testing.TB, ds *stream.Dataset, maxRows int) ([][]float64, int64, []int64, error) {
 	t.Helper()
+	return readUnits(ds, func(r *stream.UnitReader) ([][]float64, error) {
+		cols, err := r.ReadColumns(maxRows)
+		if err != nil {
+			return nil, err
+		}
+		if len(cols) != ds.Dims() || len(cols[0]) == 0 || len(cols[0]) > maxRows {
+			t.Fatalf("ReadColumns returned %d columns of %d rows (max %d)", len(cols), len(cols[0]), maxRows)
+		}
+		rows := make([][]float64, len(cols[0]))
+		for i := range rows {
+			rows[i] = make([]float64, len(cols))
+			for j, c := range cols {
+				if len(c) != len(cols[0]) {
+					t.Fatalf("ReadColumns returned columns of %d and %d rows", len(cols[0]), len(c))
+				}
+				rows[i][j] = c[i]
+			}
+		}
+		return rows, nil
+	})
+}
+
+// readUnits opens every unit of ds and calls next until it returns an error, keeping the rows it
+// returns (also those it returns with the error); it returns the rows, the skip counts, and the
+// first error other than io.EOF.
+func readUnits(ds *stream.Dataset, next func(*stream.UnitReader) ([][]float64, error)) ([][]float64, int64, []int64, error) {
 	var rows [][]float64
 	var skipped int64
 	byCol := make([]int64, ds.Dims())
@@ -328,7 +339,8 @@ func readColumns(t testing.TB, ds *stream.Dataset, maxRows int) ([][]float64, in
 			return rows, skipped, byCol, err
 		}
 		for {
-			cols, err := r.ReadColumns(maxRows)
+			got, err := next(r)
+			rows = append(rows, got...)
 			if err != nil {
 				skipped += r.Skipped()
 				addCounts(byCol, r.SkippedByColumn())
@@ -337,19 +349,6 @@ func readColumns(t testing.TB, ds *stream.Dataset, maxRows int) ([][]float64, in
 					break
 				}
 				return rows, skipped, byCol, err
-			}
-			if len(cols) != ds.Dims() || len(cols[0]) == 0 || len(cols[0]) > maxRows {
-				t.Fatalf("ReadColumns returned %d columns of %d rows (max %d)", len(cols), len(cols[0]), maxRows)
-			}
-			for i := range cols[0] {
-				row := make([]float64, len(cols))
-				for j, c := range cols {
-					if len(c) != len(cols[0]) {
-						t.Fatalf("ReadColumns returned columns of %d and %d rows", len(cols[0]), len(c))
-					}
-					row[j] = c[i]
-				}
-				rows = append(rows, row)
 			}
 		}
 	}
