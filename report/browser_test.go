@@ -144,3 +144,75 @@ func inkPixels(img image.Image, r0, g0, b0 int) int {
 }
 
 func near(v uint32, want int) bool { d := int(v) - want; return d > -24 && d < 24 }
+
+// geometryScript measures the laid-out page once it has loaded and writes the findings into the
+// title, where --dump-dom shows them: the page's width against the window, every figure's legend
+// against its plot and its other entries, and every table against the section that holds it.
+const geometryScript = `<script>
+window.addEventListener("load", function () {
+  var bad = [];
+  var W = window.innerWidth;
+  if (document.documentElement.scrollWidth > W) bad.push("page " + document.documentElement.scrollWidth + "px wide in a " + W + "px window");
+  function overlap(a, b) { return a.left < b.right - 0.5 && b.left < a.right - 0.5 && a.top < b.bottom - 0.5 && b.top < a.bottom - 0.5; }
+  var figs = document.querySelectorAll("figure");
+  figs.forEach(function (f) {
+    var img = f.querySelector("img").getBoundingClientRect();
+    if (img.height < 100) bad.push(f.id + ": plot only " + img.height + "px high");
+    var items = Array.prototype.map.call(f.querySelectorAll("ul.legend li"), function (li) { return li.getBoundingClientRect(); });
+    items.forEach(function (r, i) {
+      if (overlap(r, img)) bad.push(f.id + ": legend entry " + i + " covers the plot");
+      for (var j = 0; j < i; j++) if (overlap(r, items[j])) bad.push(f.id + ": legend entries " + j + " and " + i + " overlap");
+      if (r.right > f.getBoundingClientRect().right + 0.5) bad.push(f.id + ": legend entry " + i + " leaves its figure");
+    });
+  });
+  document.querySelectorAll("section table").forEach(function (t) {
+    var box = t.closest("section").getBoundingClientRect();
+    if (t.getBoundingClientRect().width > box.width + 0.5) bad.push((t.id || "a table") + " is " + Math.round(t.getBoundingClientRect().width) + "px in a " + Math.round(box.width) + "px section");
+  });
+  document.title = "GEOMETRY " + figs.length + " figures; " + (bad.length ? bad.join(" | ") : "ok");
+});
+</script>`
+
+// TestBrowserGeometry lays out a report of a 24-column input with k = 1..20 in a 1200-pixel
+// window and checks, from the DOM, that nothing is wider than the window, that no legend covers
+// a plot or another legend entry, and that the per-k tables fit their section. The page itself
+// runs no script; the test adds one to a copy, with a policy that allows it.
+func TestBrowserGeometry(t *testing.T) {
+	bin := chromium()
+	if bin == "" {
+		if os.Getenv("CI") == "true" && os.Getenv("KGAUGE_REQUIRE_BROWSER") == "1" {
+			t.Fatal("chromium not found, and CI requires the browser test (KGAUGE_REQUIRE_BROWSER=1)")
+		}
+		t.Skip("chromium not installed; the browser test runs in .ci/run")
+	}
+	var b bytes.Buffer
+	if err := Render(&b, wideFixture(t), nil); err != nil {
+		t.Fatal(err)
+	}
+	html := b.String()
+	csp := regexp.MustCompile(`<meta http-equiv="Content-Security-Policy"[^>]*>`)
+	if !csp.MatchString(html) {
+		t.Fatal("the page has no content security policy")
+	}
+	html = csp.ReplaceAllString(html, `<meta http-equiv="Content-Security-Policy" content="default-src 'none'; img-src data:; style-src 'unsafe-inline'; script-src 'unsafe-inline'">`)
+	html = strings.Replace(html, "</body>", geometryScript+"</body>", 1)
+	dir := t.TempDir()
+	if a := os.Getenv("KGAUGE_ARTIFACTS"); a != "" {
+		dir = a
+	}
+	page := filepath.Join(dir, "kgauge-report-wide.html")
+	if err := os.WriteFile(page, []byte(html), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	dom, _ := runChromium(t, bin, "file://"+page, "--dump-dom", "--window-size=1200,2400", "--virtual-time-budget=5000")
+	m := regexp.MustCompile(`<title>GEOMETRY ([^<]*)</title>`).FindStringSubmatch(dom)
+	if m == nil {
+		t.Fatal("the geometry script did not run")
+	}
+	if !strings.HasPrefix(m[1], "5 figures; ") || !strings.HasSuffix(m[1], "; ok") {
+		t.Errorf("layout at 1200 px: %s", m[1])
+	}
+	shot := filepath.Join(dir, "kgauge-report-wide.png")
+	runChromium(t, bin, "file://"+page, "--screenshot="+shot, "--window-size=1200,3000", "--hide-scrollbars", "--virtual-time-budget=5000")
+	t.Logf("screenshot: %s", shot)
+}

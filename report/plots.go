@@ -8,6 +8,8 @@ import (
 	"image/color"
 	"math"
 	"sort"
+	"strconv"
+	"strings"
 
 	"github.com/kgauge/kgauge/criteria"
 	"gonum.org/v1/plot"
@@ -28,12 +30,95 @@ var (
 	markerColour = color.RGBA{0xb8, 0x32, 0x2a, 0xff}
 )
 
-// Figure is one rendered plot: its title, a caption and the SVG as a data URI.
+// Figure is one rendered plot: its title, a caption, the SVG as a data URI and its legend. The
+// legend is drawn by the page under the plot, so that it can never cover a curve.
 type Figure struct {
 	ID      string
 	Title   string
 	Caption string
 	Src     template.URL
+	Legend  []LegendEntry
+}
+
+// LegendEntry is one line of a figure's legend: a label and how its mark looks.
+type LegendEntry struct {
+	Label  string
+	Colour string // CSS colour of the mark
+	Mark   string // "line", "dashed", "ring", "band" or "cut"
+}
+
+// legendOf collects a figure's legend while its plot is built.
+type legendOf []LegendEntry
+
+func (l *legendOf) add(label string, c color.Color, mark string) {
+	r, g, b, _ := c.RGBA()
+	*l = append(*l, LegendEntry{Label: label, Colour: fmt.Sprintf("#%02x%02x%02x", r>>8, g>>8, b>>8), Mark: mark})
+}
+
+// compactTicks are gonum's default tick positions with short labels: 125k rather than 125000.00.
+type compactTicks struct{ plot.Ticker }
+
+func (c compactTicks) Ticks(lo, hi float64) []plot.Tick {
+	t := c.Ticker
+	if t == nil {
+		t = plot.DefaultTicks{}
+	}
+	ticks := t.Ticks(lo, hi)
+	for i := range ticks {
+		if ticks[i].Label != "" {
+			ticks[i].Label = compact(ticks[i].Value)
+		}
+	}
+	return ticks
+}
+
+// compact formats v in at most about four characters of digits, with k, M, G or T for thousands.
+func compact(v float64) string {
+	a := math.Abs(v)
+	switch {
+	case a == 0:
+		return "0"
+	case a >= 1e13 || a < 1e-3:
+		return strconv.FormatFloat(v, 'g', 3, 64)
+	}
+	for _, u := range []struct {
+		div  float64
+		name string
+	}{{1e12, "T"}, {1e9, "G"}, {1e6, "M"}, {1e3, "k"}} {
+		if a >= u.div {
+			return strconv.FormatFloat(v/u.div, 'g', 3, 64) + u.name
+		}
+	}
+	return strconv.FormatFloat(v, 'g', 3, 64)
+}
+
+// kTicks labels the k axis at whole numbers only: every k when the range is short, otherwise
+// every 2nd, 5th, 10th… k so that at most a dozen labels share the axis, with an unlabelled tick
+// at every k in between while there are at most 120.
+type kTicks struct{}
+
+func (kTicks) Ticks(lo, hi float64) []plot.Tick {
+	a, b := math.Ceil(lo), math.Floor(hi)
+	if b < a {
+		return nil
+	}
+	step := 1.0
+	for _, s := range []float64{1, 2, 5, 10, 20, 50, 100, 200, 500} {
+		step = s
+		if (b-a)/s <= 12 {
+			break
+		}
+	}
+	var ticks []plot.Tick
+	for k := a; k <= b; k++ {
+		switch {
+		case math.Mod(k, step) == 0:
+			ticks = append(ticks, plot.Tick{Value: k, Label: fmt.Sprintf("%.0f", k)})
+		case b-a <= 120:
+			ticks = append(ticks, plot.Tick{Value: k})
+		}
+	}
+	return ticks
 }
 
 const (
@@ -54,8 +139,10 @@ func newPlot(title, xlabel, ylabel string) *plot.Plot {
 		a.Color = inkColour
 		a.Tick.Color = inkColour
 	}
-	p.Legend.TextStyle.Font = font.From(sans, 9)
-	p.Legend.Top = true
+	p.X.Tick.Marker = kTicks{}
+	p.Y.Tick.Marker = compactTicks{}
+	// A little room on both sides, so the marks at the first and last k are not cut by the frame.
+	p.X.Padding, p.Y.Padding = vg.Points(6), vg.Points(6)
 	g := plotter.NewGrid()
 	g.Vertical.Color = color.RGBA{0xdd, 0xdd, 0xd8, 0xff}
 	g.Horizontal.Color = g.Vertical.Color
@@ -85,7 +172,7 @@ func series(perK []criteria.Scores, v func(criteria.Scores) float64) plotter.XYs
 	return xy
 }
 
-func addLine(p *plot.Plot, xy plotter.XYs, c color.Color, name string, dashed bool) error {
+func addLine(p *plot.Plot, leg *legendOf, xy plotter.XYs, c color.Color, name string, dashed bool) error {
 	if len(xy) == 0 {
 		return nil
 	}
@@ -103,13 +190,17 @@ func addLine(p *plot.Plot, xy plotter.XYs, c color.Color, name string, dashed bo
 	s.Shape = draw.CircleGlyph{}
 	p.Add(l, s)
 	if name != "" {
-		p.Legend.Add(name, l, s)
+		mark := "line"
+		if dashed {
+			mark = "dashed"
+		}
+		leg.add(name, c, mark)
 	}
 	return nil
 }
 
 // markK draws a ring around the point at k on xy and names it in the legend.
-func markK(p *plot.Plot, xy plotter.XYs, k int, label string) error {
+func markK(p *plot.Plot, leg *legendOf, xy plotter.XYs, k int, label string) error {
 	for _, pt := range xy {
 		if int(pt.X) == k {
 			s, err := plotter.NewScatter(plotter.XYs{pt})
@@ -121,7 +212,7 @@ func markK(p *plot.Plot, xy plotter.XYs, k int, label string) error {
 			s.Color = markerColour
 			s.GlyphStyle.Shape = draw.RingGlyph{}
 			p.Add(s)
-			p.Legend.Add(label, s)
+			leg.add(label, markerColour, "ring")
 			return nil
 		}
 	}
@@ -146,40 +237,48 @@ type errPoints struct {
 
 func figures(perK []criteria.Scores, votes []criteria.Vote, ward criteria.Ward) ([]Figure, error) {
 	var figs []Figure
-	add := func(id, title, caption string, p *plot.Plot) error {
+	add := func(id, title, caption string, p *plot.Plot, leg legendOf) error {
 		src, err := svgURI(p)
 		if err != nil {
 			return err
 		}
-		figs = append(figs, Figure{ID: id, Title: title, Caption: caption, Src: src})
+		figs = append(figs, Figure{ID: id, Title: title, Caption: caption, Src: src, Legend: leg})
 		return nil
 	}
 
-	// WCSS with the elbow.
-	p := newPlot("Within-cluster sum of squares", "k", "WCSS (coreset estimate)")
+	// WCSS and its bend.
+	var leg legendOf
+	p := newPlot("Spread left inside the clusters", "k (number of clusters)", "within-cluster sum of squares")
 	wcss := series(perK, func(s criteria.Scores) float64 { return s.WCSS })
-	if err := addLine(p, wcss, tealColour, "WCSS", false); err != nil {
+	if err := addLine(p, &leg, wcss, tealColour, "within-cluster sum of squares at each k", false); err != nil {
 		return nil, err
 	}
 	if k := vote(votes, criteria.NameElbow); k > 0 {
-		if err := markK(p, wcss, k, fmt.Sprintf("elbow (Kneedle) at k = %d", k)); err != nil {
+		if err := markK(p, &leg, wcss, k, fmt.Sprintf("where the curve bends most (Kneedle rule): k = %d", k)); err != nil {
 			return nil, err
 		}
 	}
-	if err := add("fig-wcss", "WCSS and its elbow", "The ring marks the k the Kneedle rule picks on the WCSS curve.", p); err != nil {
+	if err := add("fig-wcss", "Spread left inside the clusters",
+		"Each added cluster removes some spread; past the true k it removes little. The ring marks the bend the Kneedle rule finds.", p, leg); err != nil {
 		return nil, err
 	}
 
-	// Silhouette with its confidence band.
-	p = newPlot("Silhouette", "k", "mean silhouette")
-	var band plotter.XYs
-	var lower plotter.XYs
+	// Silhouette with its confidence interval, drawn as a band and as bars so that a narrow
+	// interval stays visible.
+	leg = nil
+	p = newPlot("Silhouette", "k (number of clusters)", "mean silhouette (−1 to 1)")
+	var band, lower plotter.XYs
+	var bars errPoints
+	widest := 0.0
 	for _, s := range perK {
-		if math.IsNaN(s.SilhouetteLo) || math.IsNaN(s.SilhouetteHi) {
+		if math.IsNaN(s.SilhouetteLo) || math.IsNaN(s.SilhouetteHi) || math.IsNaN(s.Silhouette) {
 			continue
 		}
 		band = append(band, plotter.XY{X: float64(s.K), Y: s.SilhouetteHi})
 		lower = append(lower, plotter.XY{X: float64(s.K), Y: s.SilhouetteLo})
+		bars.XYs = append(bars.XYs, plotter.XY{X: float64(s.K), Y: s.Silhouette})
+		bars.YErrors = append(bars.YErrors, struct{ Low, High float64 }{s.Silhouette - s.SilhouetteLo, s.SilhouetteHi - s.Silhouette})
+		widest = math.Max(widest, s.SilhouetteHi-s.SilhouetteLo)
 	}
 	if len(band) >= 2 {
 		for i := len(lower) - 1; i >= 0; i-- {
@@ -192,35 +291,43 @@ func figures(perK []criteria.Scores, votes []criteria.Vote, ward criteria.Ward) 
 		poly.Color = bandColour
 		poly.LineStyle.Width = 0
 		p.Add(poly)
-		p.Legend.Add("95% interval", poly)
+		eb, err := plotter.NewYErrorBars(bars)
+		if err != nil {
+			return nil, err
+		}
+		eb.Color, eb.Width, eb.CapWidth = tealColour, vg.Points(1.2), vg.Points(7)
+		p.Add(eb)
+		leg.add("95% interval of the estimate", bandColour, "band")
 	}
 	sil := series(perK, func(s criteria.Scores) float64 { return s.Silhouette })
-	if err := addLine(p, sil, tealColour, "anchor estimate", false); err != nil {
+	if err := addLine(p, &leg, sil, tealColour, "estimated from anchor points", false); err != nil {
 		return nil, err
 	}
-	if err := addLine(p, series(perK, func(s criteria.Scores) float64 { return s.SimplifiedSilhouette }), amberColour, "simplified", true); err != nil {
+	if err := addLine(p, &leg, series(perK, func(s criteria.Scores) float64 { return s.SimplifiedSilhouette }), amberColour, "from distances to the centres only", true); err != nil {
 		return nil, err
 	}
 	if k := vote(votes, criteria.NameSilhouette); k > 0 {
-		if err := markK(p, sil, k, fmt.Sprintf("largest at k = %d", k)); err != nil {
+		if err := markK(p, &leg, sil, k, fmt.Sprintf("highest at k = %d", k)); err != nil {
 			return nil, err
 		}
 	}
-	if err := add("fig-silhouette", "Silhouette with its confidence band", "The shaded band is the 95% interval of the stratified anchor estimate.", p); err != nil {
+	if err := add("fig-silhouette", "Silhouette with its confidence interval",
+		fmt.Sprintf("How much closer points are to their own cluster than to the next one. Bars and band show the 95%% interval of the anchor estimate (widest %.3f).", widest), p, leg); err != nil {
 		return nil, err
 	}
 
 	// Gap statistic, both references, with s_k.
-	p = newPlot("Gap statistic", "k", "Gap(k) ± s_k")
+	leg = nil
+	p = newPlot("Gap statistic", "k (number of clusters)", "Gap(k) ± s_k")
 	for i, ref := range []struct {
 		name   string
 		v, s   func(criteria.Scores) float64
 		colour color.Color
 		vote   string
-	}{{"box reference", func(s criteria.Scores) float64 { return s.GapBox }, func(s criteria.Scores) float64 { return s.GapBoxS }, tealColour, criteria.NameGapBox},
-		{"PCA-box reference", func(s criteria.Scores) float64 { return s.GapPCA }, func(s criteria.Scores) float64 { return s.GapPCAS }, plumColour, criteria.NameGapPCA}} {
+	}{{"against uniform points in the data's box", func(s criteria.Scores) float64 { return s.GapBox }, func(s criteria.Scores) float64 { return s.GapBoxS }, tealColour, criteria.NameGapBox},
+		{"against uniform points in the box of the principal axes", func(s criteria.Scores) float64 { return s.GapPCA }, func(s criteria.Scores) float64 { return s.GapPCAS }, plumColour, criteria.NameGapPCA}} {
 		var pts errPoints
-		off := 0.08 * float64(2*i-1) // side by side, so the bars do not hide each other
+		off := 0.1 * float64(2*i-1) // side by side, so the bars do not hide each other
 		for _, s := range perK {
 			g, e := ref.v(s), ref.s(s)
 			if math.IsNaN(g) || math.IsNaN(e) {
@@ -232,67 +339,110 @@ func figures(perK []criteria.Scores, votes []criteria.Vote, ward criteria.Ward) 
 		if len(pts.XYs) == 0 {
 			continue
 		}
-		if err := addLine(p, pts.XYs, ref.colour, ref.name, i == 1); err != nil {
+		if err := addLine(p, &leg, pts.XYs, ref.colour, ref.name, i == 1); err != nil {
 			return nil, err
 		}
 		eb, err := plotter.NewYErrorBars(pts)
 		if err != nil {
 			return nil, err
 		}
-		eb.Color = ref.colour
+		eb.Color, eb.Width, eb.CapWidth = ref.colour, vg.Points(1.2), vg.Points(6)
 		p.Add(eb)
 		if k := vote(votes, ref.vote); k > 0 {
-			shifted := make(plotter.XYs, len(pts.XYs))
-			for j, q := range pts.XYs {
-				shifted[j] = plotter.XY{X: math.Round(q.X), Y: q.Y}
-			}
-			if err := markK(p, shifted, k, fmt.Sprintf("%s picks k = %d", ref.name, k)); err != nil {
+			if err := markK(p, &leg, pts.XYs, k, fmt.Sprintf("rule met first at k = %d (%s)", k, strings.TrimPrefix(ref.name, "against "))); err != nil {
 				return nil, err
 			}
 		}
 	}
-	p.Legend.Top = false // the gap rises with k: keep the legend low
-	p.Legend.YOffs = vg.Points(4)
-	if err := add("fig-gap", "Gap statistic against both references", "Error bars are s_k = sd_k·√(1 + 1/B) over the B reference sets.", p); err != nil {
+	if err := add("fig-gap", "Gap statistic against two references",
+		"How much tighter the clusters are than clusters of structureless points. Bars are s_k = sd_k·√(1 + 1/B) over the B reference sets; the rule takes the first k whose gap is within s of the next.", p, leg); err != nil {
 		return nil, err
 	}
 
-	// BIC and AIC of the Gaussian mixtures.
-	p = newPlot("Information criteria", "k", "lower is better")
-	bic := series(perK, func(s criteria.Scores) float64 { return s.BICGMM })
-	if err := addLine(p, bic, tealColour, "BIC (mixture)", false); err != nil {
+	// BIC and AIC, each as its distance from its own best k, so that the two share a scale and the
+	// minima are visible.
+	leg = nil
+	p = newPlot("Information criteria", "k (number of clusters)", "above the lowest value")
+	bic := relative(series(perK, func(s criteria.Scores) float64 { return s.BICGMM }))
+	aic := relative(series(perK, func(s criteria.Scores) float64 { return s.AICGMM }))
+	caption := "Gaussian mixtures fitted from each k-means solution, scored by BIC and AIC (lower is better), each shown as its distance above its lowest value."
+	if spansDecades(bic, aic) {
+		// Distances that span orders of magnitude squash the minimum into the axis: plot 1 + the
+		// distance on a log scale, so the best k sits at 1 and its neighbours stay apart.
+		for _, c := range []plotter.XYs{bic, aic} {
+			for i := range c {
+				c[i].Y++
+			}
+		}
+		p.Y.Scale = plot.LogScale{}
+		p.Y.Tick.Marker = compactTicks{plot.LogTicks{Prec: -1}}
+		p.Y.Label.Text = "1 + distance above the lowest value (log scale)"
+		caption += " The scale is logarithmic because the distances span orders of magnitude."
+	}
+	if err := addLine(p, &leg, bic, tealColour, "BIC of the mixture", false); err != nil {
 		return nil, err
 	}
-	if err := addLine(p, series(perK, func(s criteria.Scores) float64 { return s.AICGMM }), amberColour, "AIC (mixture)", true); err != nil {
+	if err := addLine(p, &leg, aic, amberColour, "AIC of the mixture", true); err != nil {
 		return nil, err
 	}
 	if k := vote(votes, criteria.NameBICGMM); k > 0 {
-		if err := markK(p, bic, k, fmt.Sprintf("BIC lowest at k = %d", k)); err != nil {
+		if err := markK(p, &leg, bic, k, fmt.Sprintf("BIC lowest at k = %d", k)); err != nil {
 			return nil, err
 		}
 	}
-	if err := add("fig-ic", "BIC and AIC of Gaussian mixtures", "Diagonal Gaussian mixtures fitted from each k-means solution.", p); err != nil {
+	if err := add("fig-ic", "BIC and AIC of Gaussian mixtures", caption, p, leg); err != nil {
 		return nil, err
 	}
 
 	// The top of the Ward dendrogram.
 	if len(ward.Merges) > 0 {
-		p, err := dendrogram(ward, vote(votes, criteria.NameWard))
+		leg = nil
+		p, err := dendrogram(ward, vote(votes, criteria.NameWard), &leg)
 		if err != nil {
 			return nil, err
 		}
 		if err := add("fig-ward", "Top of the Ward dendrogram",
-			fmt.Sprintf("The last %d merges of Ward linkage on %d weighted %s; squares are subtrees merged earlier.",
-				len(ward.Merges), ward.Leaves, ward.Source), p); err != nil {
+			fmt.Sprintf("The last %d merges of Ward linkage on %d weighted %s; squares are groups merged earlier.",
+				len(ward.Merges), ward.Leaves, ward.Source), p, leg); err != nil {
 			return nil, err
 		}
 	}
 	return figs, nil
 }
 
+// relative returns xy shifted so that its smallest value is 0.
+func relative(xy plotter.XYs) plotter.XYs {
+	if len(xy) == 0 {
+		return xy
+	}
+	lo := math.Inf(1)
+	for _, p := range xy {
+		lo = math.Min(lo, p.Y)
+	}
+	out := make(plotter.XYs, len(xy))
+	for i, p := range xy {
+		out[i] = plotter.XY{X: p.X, Y: p.Y - lo}
+	}
+	return out
+}
+
+// spansDecades reports whether the positive values of the curves span more than two orders of
+// magnitude, so that a linear axis would flatten all but the largest.
+func spansDecades(curves ...plotter.XYs) bool {
+	lo, hi := math.Inf(1), 0.0
+	for _, c := range curves {
+		for _, p := range c {
+			if p.Y > 0 {
+				lo, hi = math.Min(lo, p.Y), math.Max(hi, p.Y)
+			}
+		}
+	}
+	return hi > 100*lo
+}
+
 // dendrogram draws the last merges of a Ward linkage as a tree: height √(2·cost) as SciPy reports
 // it, subtrees formed before the first kept merge drawn as squares on the baseline.
-func dendrogram(w criteria.Ward, cutK int) (*plot.Plot, error) {
+func dendrogram(w criteria.Ward, cutK int, leg *legendOf) (*plot.Plot, error) {
 	p := newPlot("Ward linkage, top merges", "", "merge height √(2ΔWCSS)")
 	p.X.Tick.Marker = plot.ConstantTicks(nil)
 	m := w.Leaves
@@ -359,7 +509,7 @@ func dendrogram(w criteria.Ward, cutK int) (*plot.Plot, error) {
 			l.Color = markerColour
 			l.Dashes = []vg.Length{vg.Points(4), vg.Points(3)}
 			p.Add(l)
-			p.Legend.Add(fmt.Sprintf("cut at k = %d (Ward's vote)", cutK), l)
+			leg.add(fmt.Sprintf("cut that leaves k = %d groups (Ward's vote)", cutK), markerColour, "cut")
 		}
 	}
 	return p, nil

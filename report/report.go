@@ -8,8 +8,10 @@ import (
 	"html/template"
 	"io"
 	"math"
+	"path/filepath"
 	"sort"
 	"strings"
+	"time"
 
 	"github.com/kgauge/kgauge"
 	"github.com/kgauge/kgauge/bench/model"
@@ -28,6 +30,12 @@ var page = template.Must(template.New("page").Funcs(template.FuncMap{
 	"bytesf":  func(v float64) string { return bytesText(int64(v)) },
 	"seconds": func(v float64) string { return fmt.Sprintf("%.3f", v) },
 	"join":    strings.Join,
+	"swatch": func(e LegendEntry) template.CSS {
+		if e.Mark == "band" {
+			return template.CSS("background: " + e.Colour)
+		}
+		return template.CSS("border-color: " + e.Colour)
+	},
 	"partition": func(m map[string]string) string {
 		keys := make([]string, 0, len(m))
 		for k := range m {
@@ -46,16 +54,20 @@ const Caution = "A cluster count is evidence for a person to review, not a fact.
 
 // view is what the template sees.
 type view struct {
-	R        *kgauge.Result
-	Caution  string
-	RunnerUp string
-	Votes    []voteRow
-	Figures  []Figure
-	Ward     criteria.Ward
-	Accuracy accuracy
-	Plan     *model.Prediction
-	Stages   []stageRow
-	JSON     template.JS
+	R                      *kgauge.Result
+	Input                  string // what was read, in a few words
+	InputCount             string
+	Date                   string // when the page was written, UTC
+	FoldFiles, FoldColumns bool   // long lists start folded
+	Caution                string
+	RunnerUp               string
+	Votes                  []voteRow
+	Figures                []Figure
+	Ward                   criteria.Ward
+	Accuracy               accuracy
+	Plan                   *model.Prediction
+	Stages                 []stageRow
+	JSON                   template.JS
 }
 
 type voteRow struct {
@@ -91,7 +103,9 @@ func Render(w io.Writer, res *kgauge.Result, plan *model.Prediction) error {
 	if res == nil {
 		return fmt.Errorf("report: no result")
 	}
-	v := view{R: res, Caution: Caution, RunnerUp: "none", Plan: plan}
+	v := view{R: res, Caution: Caution, RunnerUp: "none", Plan: plan,
+		Input: inputName(res), InputCount: inputCount(res), Date: now().UTC().Format("2006-01-02 15:04 UTC"),
+		FoldFiles: len(res.Files)+len(res.Sketches) > foldRows, FoldColumns: len(res.Columns) > foldRows}
 	if res.RunnerUp != nil {
 		v.RunnerUp = fmt.Sprint(*res.RunnerUp)
 	}
@@ -166,6 +180,59 @@ func Write(path string, res *kgauge.Result, plan *model.Prediction) error {
 		return fmt.Errorf("report: %w", err)
 	}
 	return nil
+}
+
+// foldRows is the longest list of files or columns the page shows unfolded.
+const foldRows = 8
+
+// now is the clock of the page's date; tests replace it.
+var now = time.Now
+
+// inputName names what was read: the one file or sketch, or the folder that holds all of them.
+func inputName(res *kgauge.Result) string {
+	var paths []string
+	for _, f := range res.Files {
+		paths = append(paths, f.Path)
+	}
+	paths = append(paths, res.Sketches...)
+	switch len(paths) {
+	case 0:
+		return "no input recorded"
+	case 1:
+		return paths[0]
+	}
+	common := filepath.Dir(paths[0])
+	for _, p := range paths[1:] {
+		for common != "." && common != "/" && !strings.HasPrefix(p, common+string(filepath.Separator)) {
+			common = filepath.Dir(common)
+		}
+	}
+	if common == "." || common == "/" {
+		return fmt.Sprintf("%s and %d more", paths[0], len(paths)-1)
+	}
+	return common
+}
+
+// inputCount says how many files and sketches were read.
+func inputCount(res *kgauge.Result) string {
+	var parts []string
+	if n := len(res.Files); n > 0 || len(res.Sketches) == 0 {
+		parts = append(parts, plural(n, "data file"))
+	}
+	if n := len(res.Sketches); n > 0 {
+		parts = append(parts, plural(n, "saved sketch"))
+	}
+	return strings.Join(parts, " and ")
+}
+
+func plural(n int, what string) string {
+	if n == 1 {
+		return "1 " + what
+	}
+	if strings.HasSuffix(what, "sketch") {
+		return fmt.Sprintf("%d %ses", n, what)
+	}
+	return fmt.Sprintf("%d %ss", n, what)
 }
 
 func num(v float64) string {

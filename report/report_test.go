@@ -20,6 +20,7 @@ import (
 	"github.com/apache/arrow/go/v17/parquet/pqarrow"
 	"github.com/kgauge/kgauge"
 	"github.com/kgauge/kgauge/bench/model"
+	"github.com/kgauge/kgauge/bench/synth"
 )
 
 // Hostile names: a feature column, an ignored column and a folder that would run script if the page
@@ -114,6 +115,41 @@ func fixture(t testing.TB) *kgauge.Result {
 	return fixtureRes
 }
 
+var (
+	wideOnce sync.Once
+	wideRes  *kgauge.Result
+	wideErr  error
+)
+
+// wideFixture is the estimate of a small partition of the demo scenario (24 hourly columns) with
+// k = 1..20: the widest tables and the longest k axes a default run draws.
+func wideFixture(t testing.TB) *kgauge.Result {
+	t.Helper()
+	wideOnce.Do(func() {
+		dir, err := os.MkdirTemp("", "kgauge-report-wide-")
+		if err != nil {
+			wideErr = err
+			return
+		}
+		defer os.RemoveAll(dir)
+		gen := synth.DefaultLoadOptions()
+		gen.Rows, gen.RowGroup, gen.Partitions, gen.Seed = 6000, 2048, 1, 3
+		if _, wideErr = synth.WriteLoads(dir, gen); wideErr != nil {
+			return
+		}
+		opt := kgauge.DefaultOptions()
+		opt.Criteria.MaxK = 20
+		opt.Sketch.CoresetSize, opt.Sketch.SampleSize = 1500, 1000
+		opt.Criteria.GapRefs, opt.Criteria.GapSample, opt.Criteria.Anchors = 3, 500, 200
+		opt.Workers = 2
+		wideRes, _, wideErr = kgauge.Estimate(context.Background(), []string{dir}, opt)
+	})
+	if wideErr != nil {
+		t.Fatal(wideErr)
+	}
+	return wideRes
+}
+
 func render(t testing.TB) string {
 	t.Helper()
 	res := fixture(t)
@@ -171,9 +207,10 @@ func TestRenderSections(t *testing.T) {
 	if regexp.MustCompile(`(?i)(src|href)="(https?:)?//`).MatchString(page) {
 		t.Error("page refers to a network resource")
 	}
-	// One per-k row per k, and the verdict's row is highlighted.
-	if got := strings.Count(page, `<tr class="chosen">`); got != 1 {
-		t.Errorf("%d highlighted per-k rows, want 1", got)
+	// Two per-k tables (scores of the fits; references, mixtures and the dendrogram), each with
+	// the verdict's row highlighted.
+	if got := strings.Count(page, `<tr class="chosen">`); got != 2 {
+		t.Errorf("%d highlighted per-k rows, want 2 (one per table)", got)
 	}
 	if len(res.PerK) != 6 {
 		t.Fatalf("fixture has %d k", len(res.PerK))
