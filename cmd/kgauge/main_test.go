@@ -192,12 +192,28 @@ func TestSavedSketchesMerge(t *testing.T) {
 }
 
 func TestDemo(t *testing.T) {
-	code, out, errs := run(t, append([]string{"demo", "--rows", "20000"}, quickFlags...)...)
+	demoFlags := []string{"demo", "--rows", "20000", "--max-k", "8", "--workers", "2", "--quiet"}
+	code, out, errs := run(t, demoFlags...)
 	if code != 0 {
 		t.Fatalf("exit %d: %s", code, errs)
 	}
-	if !strings.Contains(out, "the generator used k = 5") || !strings.Contains(out, "verdict: k = ") {
+	if !strings.Contains(out, "the generator used k = 5") || !strings.Contains(out, "verdict: k = ") ||
+		!strings.Contains(out, "removed afterwards") {
 		t.Errorf("demo output:\n%s", out)
+	}
+	// Flags of the estimate's sketch sizes are not demo flags.
+	if code, _, errs := run(t, "demo", "--coreset", "2000"); code != ExitUsage || !strings.Contains(errs, "coreset") {
+		t.Errorf("demo --coreset: exit %d, %q; want a usage error naming the flag", code, errs)
+	}
+	// --keep writes the partition where asked and keeps it.
+	keep := filepath.Join(t.TempDir(), "kept")
+	code, out, errs = run(t, append(demoFlags, "--keep", keep)...)
+	if code != 0 {
+		t.Fatalf("demo --keep: exit %d: %s", code, errs)
+	}
+	files, _ := filepath.Glob(filepath.Join(keep, "day=*", "*.parquet"))
+	if len(files) != 1 || !strings.Contains(out, "kept in "+filepath.Dir(files[0])) {
+		t.Errorf("demo --keep %s: files %v, output:\n%s", keep, files, out)
 	}
 }
 
