@@ -57,14 +57,13 @@ func (f *demoFlags) register(fs *flag.FlagSet) {
 // Run parses args and runs the demo.
 func (c *DemoCommand) Run(ctx context.Context, args []string) error {
 	fs := flag.NewFlagSet("demo", flag.ContinueOnError)
-	fs.SetOutput(c.Stderr)
 	var f demoFlags
 	f.register(fs)
 	fs.Usage = func() {
-		fmt.Fprintln(c.Stderr, "Usage: kgauge demo [flags]\n\nSynthesise one day of household load profiles, estimate its k and compare with the\nk the generator used. Nothing is kept unless --keep names a directory.\n\nFlags:")
-		fs.PrintDefaults()
+		fmt.Fprintln(fs.Output(), "Usage: kgauge demo [flags]\n\nSynthesise one day of household load profiles, estimate its k and compare with the\nk the generator used. Nothing is kept unless --keep names a directory.\n\nFlags:")
+		printFlags(fs)
 	}
-	if err := parseArgs(fs, args); err != nil {
+	if err := parseArgs(fs, args, c.Stdout); err != nil {
 		return err
 	}
 	if fs.NArg() > 0 {

@@ -7,6 +7,7 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"regexp"
 	"strings"
 
 	"github.com/kgauge/kgauge"
@@ -80,23 +81,100 @@ func report(err error, stderr io.Writer) int {
 	if !strings.HasPrefix(msg, "kgauge") {
 		msg = "kgauge: " + msg
 	}
-	fmt.Fprintln(stderr, msg)
 	if code == ExitUsage {
-		fmt.Fprintln(stderr, `Try "kgauge help" or "kgauge COMMAND -h".`)
+		msg += ` (see "kgauge --help" or "kgauge COMMAND --help")`
 	}
+	fmt.Fprintln(stderr, msg)
 	return code
 }
 
 func versionString() string { return kgauge.Version }
 
-// parseArgs parses args into fs: -h comes back as flag.ErrHelp, any other problem as a usage
-// error prefixed with the command's name.
-func parseArgs(fs *flag.FlagSet, args []string) error {
-	if err := fs.Parse(args); err != nil {
-		if errors.Is(err, flag.ErrHelp) {
-			return err
+// parseArgs parses args into fs in the GNU style: flags may come before and after the PATHs
+// (fs.Args() returns the PATHs in order), "--" ends the flags, and -h or --help prints the
+// command's usage (fs.Usage, written to fs.Output()) on stdout and comes back as flag.ErrHelp. Any
+// other problem is a one-line usage error naming the command and the flag; nothing else is printed.
+func parseArgs(fs *flag.FlagSet, args []string, stdout io.Writer) error {
+	var flags, paths []string
+	for i := 0; i < len(args); i++ {
+		a := args[i]
+		if a == "--" {
+			paths = append(paths, args[i+1:]...)
+			break
 		}
-		return usageErrorf("%s: %v", fs.Name(), err)
+		if len(a) < 2 || a[0] != '-' {
+			paths = append(paths, a)
+			continue
+		}
+		flags = append(flags, a)
+		name := strings.TrimLeft(a, "-")
+		if strings.Contains(name, "=") {
+			continue
+		}
+		// A flag that takes a value takes the next argument, as flag.Parse would.
+		if f := fs.Lookup(name); f != nil && !isBoolFlag(f) {
+			if i+1 == len(args) {
+				return usageErrorf("%s: --%s needs a value", fs.Name(), name)
+			}
+			i++
+			flags = append(flags, args[i])
+		}
+	}
+	fs.SetOutput(io.Discard)
+	err := fs.Parse(append(append(flags, "--"), paths...))
+	switch {
+	case errors.Is(err, flag.ErrHelp):
+		fs.SetOutput(stdout)
+		fs.Usage()
+		return err
+	case err != nil:
+		return usageErrorf("%s: %s", fs.Name(), flagMessage(err))
 	}
 	return nil
+}
+
+// flagMessage words the flag package's parse errors in the user's terms, with the flags spelt
+// --name as the help and the README spell them.
+func flagMessage(err error) string {
+	msg := err.Error()
+	for _, r := range flagMessages {
+		if m := r.re.FindStringSubmatch(msg); m != nil {
+			return r.re.ReplaceAllString(msg, r.with)
+		}
+	}
+	return msg
+}
+
+var flagMessages = []struct {
+	re   *regexp.Regexp
+	with string
+}{
+	{regexp.MustCompile(`^flag provided but not defined: -+(.*)$`), "unknown flag --$1"},
+	{regexp.MustCompile(`^flag needs an argument: -+(.*)$`), "--$1 needs a value"},
+	{regexp.MustCompile(`^invalid value (".*") for flag -+([^:]*): (.*)$`), "--$2: invalid value $1: $3"},
+	{regexp.MustCompile(`^invalid boolean value (".*") for -+([^:]*): (.*)$`), "--$2: invalid value $1: $3"},
+}
+
+func isBoolFlag(f *flag.Flag) bool {
+	b, ok := f.Value.(interface{ IsBoolFlag() bool })
+	return ok && b.IsBoolFlag()
+}
+
+// printFlags lists the flags of fs on its output in the spelling the commands accept and the
+// README uses (--name), with the value's kind, its default and its meaning.
+func printFlags(fs *flag.FlagSet) {
+	w := fs.Output()
+	fs.VisitAll(func(f *flag.Flag) {
+		kind, usage := flag.UnquoteUsage(f)
+		line := "  --" + f.Name
+		if kind != "" {
+			line += " " + strings.ToUpper(kind)
+		}
+		fmt.Fprintln(w, line)
+		def := ""
+		if f.DefValue != "" && f.DefValue != "0" && f.DefValue != "false" {
+			def = fmt.Sprintf(" (default %s)", f.DefValue)
+		}
+		fmt.Fprintf(w, "        %s%s\n", usage, def)
+	})
 }

@@ -41,9 +41,26 @@ func (f *estimateFlags) register(fs *flag.FlagSet) {
 	fs.IntVar(&f.Opt.Workers, "workers", f.Opt.Workers, "goroutines reading and sketching")
 	fs.BoolVar(&f.asJSON, "json", false, "print one JSON document instead of the table")
 	fs.BoolVar(&f.quiet, "quiet", false, "no progress bar")
-	fs.StringVar(&f.out, "out", "", "also write the JSON result to this file (atomically)")
-	fs.StringVar(&f.saveSketch, "save-sketch", "", "write the merged sketch to this file (atomically)")
-	fs.StringVar(&f.report, "report", "", "also write a self-contained HTML report with plots to this file (atomically)")
+}
+
+// Output flags a command may take besides the data flags; each command registers only those it
+// uses, so that its --help lists exactly the flags it accepts.
+const (
+	withOut = 1 << iota
+	withSaveSketch
+	withReport
+)
+
+func (f *estimateFlags) registerOutputs(fs *flag.FlagSet, which int) {
+	if which&withOut != 0 {
+		fs.StringVar(&f.out, "out", "", "also write the JSON result to this file (atomically)")
+	}
+	if which&withSaveSketch != 0 {
+		fs.StringVar(&f.saveSketch, "save-sketch", "", "write the merged sketch to this file (atomically)")
+	}
+	if which&withReport != 0 {
+		fs.StringVar(&f.report, "report", "", "also write a self-contained HTML report with plots to this file (atomically)")
+	}
 }
 
 // options returns the bound options after checking the flag values.
@@ -61,14 +78,14 @@ func (f *estimateFlags) options() (kgauge.Options, error) {
 // Run parses args and runs the estimate.
 func (c *EstimateCommand) Run(ctx context.Context, args []string) error {
 	fs := flag.NewFlagSet("estimate", flag.ContinueOnError)
-	fs.SetOutput(c.Stderr)
 	var f estimateFlags
 	f.register(fs)
+	f.registerOutputs(fs, withOut|withSaveSketch|withReport)
 	fs.Usage = func() {
-		fmt.Fprintln(c.Stderr, "Usage: kgauge estimate [flags] PATH...\n\nScore every k in range from one pass over PATH and give a verdict.\n\nFlags:")
-		fs.PrintDefaults()
+		fmt.Fprintln(fs.Output(), "Usage: kgauge estimate [flags] PATH...\n\nScore every k in range from one pass over PATH and give a verdict.\n\nFlags:")
+		printFlags(fs)
 	}
-	if err := parseArgs(fs, args); err != nil {
+	if err := parseArgs(fs, args, c.Stdout); err != nil {
 		return err
 	}
 	if fs.NArg() == 0 {

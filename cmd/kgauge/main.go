@@ -36,10 +36,16 @@ func Run(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 		return runTrack(ctx, args[1:], stdout, stderr)
 	case "demo":
 		err = (&DemoCommand{Stdout: stdout, Stderr: stderr}).Run(ctx, args[1:])
-	case "version":
+	case "version", "--version", "-version":
 		fmt.Fprintln(stdout, "kgauge", versionString())
 		return ExitOK
 	case "help", "-h", "-help", "--help":
+		if args[0] == "help" && len(args) > 1 {
+			if _, ok := commands[args[1]]; ok {
+				return Run(ctx, []string{args[1], "--help"}, stdout, stderr)
+			}
+			return report(usageErrorf("help: unknown command %q", args[1]), stderr)
+		}
 		fmt.Fprint(stdout, usageText)
 		return ExitOK
 	default:
@@ -47,6 +53,9 @@ func Run(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	}
 	return report(err, stderr)
 }
+
+// commands are the subcommands "help COMMAND" knows.
+var commands = map[string]bool{"estimate": true, "plan": true, "synth": true, "track": true, "demo": true}
 
 const usageText = `kgauge estimates the number of clusters k in Parquet and Arrow IPC files, in one pass.
 
@@ -56,10 +65,13 @@ Usage:
   kgauge synth [flags]              write the demo lake of household load profiles
   kgauge demo [flags]               synthesise a small partition and estimate its k
   kgauge track ROOT --ledger FILE   profile new KEY=VALUE partitions into a ledger, flag drift
-  kgauge version                    print the version
+  kgauge version                    print the version (also --version)
+  kgauge help [COMMAND]             this text, or a command's flags
 
 PATH is a file, a directory (read recursively), a glob (** matches any depth), or a sketch file
-saved with --save-sketch. Run "kgauge COMMAND -h" for a command's flags.
+saved with --save-sketch. Flags may come before or after PATHs; "--" ends the flags. Run
+"kgauge help COMMAND" or "kgauge COMMAND --help" for a command's flags, "kgauge --version" for
+the version.
 
 Exit codes:
   0    success

@@ -22,25 +22,19 @@ type PlanCommand struct {
 // Run parses args, plans and prints the plan.
 func (c *PlanCommand) Run(ctx context.Context, args []string) error {
 	fs := flag.NewFlagSet("plan", flag.ContinueOnError)
-	fs.SetOutput(c.Stderr)
 	var f estimateFlags
 	f.register(fs)
+	f.registerOutputs(fs, withOut)
 	noProbe := fs.Bool("no-probe", false, "skip the timed read; use the committed calibration only")
 	fs.Usage = func() {
-		fmt.Fprintln(c.Stderr, "Usage: kgauge plan [flags] PATH...\n\nPredict the wall time and peak memory of \"kgauge estimate\" with the same flags, from the\nfiles' metadata and a short timed read of a few row groups.\n\nFlags:")
-		fs.PrintDefaults()
+		fmt.Fprintln(fs.Output(), "Usage: kgauge plan [flags] PATH...\n\nPredict the wall time and peak memory of \"kgauge estimate\" with the same flags, from the\nfiles' metadata and a short timed read of a few row groups.\n\nFlags:")
+		printFlags(fs)
 	}
-	if err := parseArgs(fs, args); err != nil {
+	if err := parseArgs(fs, args, c.Stdout); err != nil {
 		return err
 	}
 	if fs.NArg() == 0 {
 		return usageErrorf("plan: no PATH given")
-	}
-	if f.saveSketch != "" {
-		return usageErrorf("plan: --save-sketch belongs to estimate; a plan reads no sketch")
-	}
-	if f.report != "" {
-		return usageErrorf("plan: --report belongs to estimate; a plan has no result to report")
 	}
 	opt, err := f.options()
 	if err != nil {

@@ -68,15 +68,14 @@ func (f *synthFlags) options() (synth.LoadOptions, error) {
 // Run parses args and writes the lake under the directory given by --out.
 func (c *SynthCommand) Run(ctx context.Context, args []string) error {
 	fs := flag.NewFlagSet("synth", flag.ContinueOnError)
-	fs.SetOutput(c.Stderr)
 	var f synthFlags
 	f.register(fs, true)
 	out := fs.String("out", "lake/loads", "directory to write day=YYYY-MM-DD/part-000.* under")
 	fs.Usage = func() {
-		fmt.Fprintln(c.Stderr, "Usage: kgauge synth [flags]\n\nWrite the demo lake: one row per meter per day, hourly kWh in h00..h23.\n\nFlags:")
-		fs.PrintDefaults()
+		fmt.Fprintln(fs.Output(), "Usage: kgauge synth [flags]\n\nWrite the demo lake: one row per meter per day, hourly kWh in h00..h23.\n\nFlags:")
+		printFlags(fs)
 	}
-	if err := parseArgs(fs, args); err != nil {
+	if err := parseArgs(fs, args, c.Stdout); err != nil {
 		return err
 	}
 	if fs.NArg() > 0 {

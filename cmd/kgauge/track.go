@@ -48,7 +48,6 @@ func runTrack(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 // Run parses args and runs the tracking.
 func (c *TrackCommand) Run(ctx context.Context, args []string) error {
 	fs := flag.NewFlagSet("track", flag.ContinueOnError)
-	fs.SetOutput(c.Stderr)
 	var f estimateFlags
 	f.register(fs)
 	rules := ledger.DefaultRules()
@@ -61,29 +60,18 @@ func (c *TrackCommand) Run(ctx context.Context, args []string) error {
 	fs.Float64Var(&rules.WCSSRise, "wcss-rise", rules.WCSSRise, "WCSS per row at the window's k rising by more than this share of the window median is drift (0 = off)")
 	fs.DurationVar(&lockWait, "lock-wait", 0, "how long to wait for another run's lock on the ledger (0 = fail at once)")
 	fs.Usage = func() {
-		fmt.Fprintln(c.Stderr, `Usage: kgauge track ROOT --ledger FILE [flags]
+		fmt.Fprintln(fs.Output(), `Usage: kgauge track ROOT --ledger FILE [flags]
 
 Profile every KEY=VALUE partition under ROOT not yet in the ledger, save its sketch beside the
 ledger, and flag drift against the partitions before it. Exit code 5 when a new partition drifted.
 
 Flags:`)
-		fs.PrintDefaults()
+		printFlags(fs)
 	}
-	// Flags may come before and after ROOT.
-	var pos []string
-	for {
-		if err := fs.Parse(args); err != nil {
-			if errors.Is(err, flag.ErrHelp) {
-				return err
-			}
-			return usageErrorf("track: %v", err)
-		}
-		if fs.NArg() == 0 {
-			break
-		}
-		pos = append(pos, fs.Arg(0))
-		args = fs.Args()[1:]
+	if err := parseArgs(fs, args, c.Stdout); err != nil {
+		return err
 	}
+	pos := fs.Args()
 	switch {
 	case len(pos) == 0:
 		return usageErrorf("track: no ROOT given")
@@ -91,12 +79,6 @@ Flags:`)
 		return usageErrorf("track: one ROOT expected, got %d (%s)", len(pos), strings.Join(pos, " "))
 	case ledgerPath == "":
 		return usageErrorf("track: --ledger is required")
-	case f.out != "":
-		return usageErrorf("track: --out is not used by track; records go to the ledger")
-	case f.report != "":
-		return usageErrorf("track: --report is not used by track; run estimate --report on a partition or its sketch")
-	case f.saveSketch != "":
-		return usageErrorf("track: --save-sketch is not used by track; sketches go to %s", ledger.SketchDir(ledgerPath))
 	case lockWait < 0:
 		return usageErrorf("track: --lock-wait must not be negative, got %s", lockWait)
 	}
