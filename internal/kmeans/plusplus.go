@@ -35,6 +35,14 @@ func PlusPlus(p Data, k int, rng *rand.Rand, dst []float64) []float64 {
 	d2 := make([]float64, n)
 	cand := make([]float64, n)
 	best := make([]float64, n)
+	// near[i] is the centre d2[i] is measured to. A candidate x cannot bring point i closer when
+	// ||x - c_near(i)|| >= 2 sqrt(d2[i]) (triangle inequality), so those points keep d2[i]
+	// without measuring; the margin keeps rounding from ever skipping a point x does improve.
+	near := make([]int32, n)
+	candNear := make([]int32, n)
+	bestNear := make([]int32, n)
+	toCentre := make([]float64, k) // ||x - c_j||^2 for the candidate x
+	const margin = 4 * (1 + 1e-9)
 	for i := 0; i < n; i++ {
 		d2[i] = Dist2(p.Point(i), dst[:d])
 	}
@@ -53,22 +61,29 @@ func PlusPlus(p Data, k int, rng *rand.Rand, dst []float64) []float64 {
 		for t := 0; t < trials; t++ {
 			idx := drawWeighted(p, d2, rng)
 			x := p.Point(idx)
+			for j := 0; j < c; j++ {
+				toCentre[j] = Dist2(x, dst[j*d:(j+1)*d])
+			}
 			s := 0.0
 			for i := 0; i < n; i++ {
-				v := Dist2(p.Point(i), x)
-				if v > d2[i] {
-					v = d2[i]
+				v, l := d2[i], near[i]
+				if toCentre[l] < margin*v {
+					if u := Dist2(p.Point(i), x); u < v {
+						v, l = u, int32(c)
+					}
 				}
-				cand[i] = v
+				cand[i], candNear[i] = v, l
 				s += p.Weight(i) * v
 			}
 			if s < bestPot {
 				bestPot, bestIdx = s, idx
 				best, cand = cand, best
+				bestNear, candNear = candNear, bestNear
 			}
 		}
 		copy(dst[c*d:(c+1)*d], p.Point(bestIdx))
 		d2, best = best, d2
+		near, bestNear = bestNear, near
 	}
 	return dst
 }
