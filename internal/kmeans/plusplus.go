@@ -39,8 +39,6 @@ func PlusPlus(p Data, k int, rng *rand.Rand, dst []float64) []float64 {
 	// ||x - c_near(i)|| >= 2 sqrt(d2[i]) (triangle inequality), so those points keep d2[i]
 	// without measuring; the margin keeps rounding from ever skipping a point x does improve.
 	near := make([]int32, n)
-	candNear := make([]int32, n)
-	bestNear := make([]int32, n)
 	toCentre := make([]float64, k) // ||x - c_j||^2 for the candidate x
 	const margin = 4 * (1 + 1e-9)
 	for i := 0; i < n; i++ {
@@ -66,24 +64,25 @@ func PlusPlus(p Data, k int, rng *rand.Rand, dst []float64) []float64 {
 			}
 			s := 0.0
 			for i := 0; i < n; i++ {
-				v, l := d2[i], near[i]
-				if toCentre[l] < margin*v {
-					if u := Dist2(p.Point(i), x); u < v {
-						v, l = u, int32(c)
-					}
+				v := d2[i]
+				if toCentre[near[i]] < margin*v {
+					v = min(v, Dist2(p.Point(i), x))
 				}
-				cand[i], candNear[i] = v, l
+				cand[i] = v
 				s += p.Weight(i) * v
 			}
 			if s < bestPot {
 				bestPot, bestIdx = s, idx
 				best, cand = cand, best
-				bestNear, candNear = candNear, bestNear
 			}
 		}
 		copy(dst[c*d:(c+1)*d], p.Point(bestIdx))
+		for i, v := range best {
+			if v < d2[i] {
+				near[i] = int32(c)
+			}
+		}
 		d2, best = best, d2
-		near, bestNear = bestNear, near
 	}
 	return dst
 }
