@@ -16,6 +16,7 @@ type silGroups struct {
 	w      []float64 // their weights
 	start  []int     // cluster c is rows start[c]:start[c+1]
 	total  []float64 // total weight per cluster
+	row    []int     // row of point i of p (-1 for zero weight)
 	centre []float64 // weighted mean per cluster, k*d
 }
 
@@ -31,16 +32,18 @@ func newSilGroups(p kmeans.Data, labels []int32, k int) *silGroups {
 		g.start[c+1] += g.start[c]
 	}
 	m := g.start[k]
-	g.x, g.w = make([]float64, m*d), make([]float64, m)
+	g.x, g.w, g.row = make([]float64, m*d), make([]float64, m), make([]int, n)
 	next := append([]int(nil), g.start[:k]...)
 	for i := 0; i < n; i++ {
 		w := p.Weight(i)
+		g.row[i] = -1
 		if !(w > 0) {
 			continue
 		}
 		l := labels[i]
 		r := next[l]
 		next[l]++
+		g.row[i] = r
 		copy(g.x[r*d:(r+1)*d], p.Point(i))
 		g.w[r] = w
 		g.total[l] += w
@@ -137,7 +140,7 @@ func (g *silGroups) silhouettes(p kmeans.Data, labels []int32, anchors []int, ou
 		}
 		for q := 0; q < nb; q++ {
 			i := anchors[b+q]
-			out[b+q] = g.finish(sums[q*k:(q+1)*k], own[q], p.Weight(i), best[q])
+			out[b+q] = g.finish(sums[q*k:(q+1)*k], own[q], g.row[i], best[q])
 		}
 	}
 }
@@ -169,12 +172,20 @@ func (g *silGroups) meanDist(ax *[silBlock][]float64, c int) [silBlock]float64 {
 	return [silBlock]float64{t0, t1, t2, t3}
 }
 
-// finish returns s(i) from the anchor's weighted distance sum to its own cluster and b(i).
-func (g *silGroups) finish(sum []float64, own int32, wi, b float64) float64 {
+// finish returns s(i) from the anchor's weighted distance sum to its own cluster and b(i); row is
+// the anchor's row. The weight of the rest of its cluster is summed in index order, as the
+// definition reads.
+func (g *silGroups) finish(sum []float64, own int32, row int, b float64) float64 {
 	if g.start[own+1]-g.start[own] <= 1 {
 		return 0 // singleton
 	}
-	a := sum[own] / (g.total[own] - wi)
+	rest := 0.0
+	for r := g.start[own]; r < g.start[own+1]; r++ {
+		if r != row {
+			rest += g.w[r]
+		}
+	}
+	a := sum[own] / rest
 	if math.IsInf(b, 1) {
 		return math.NaN() // only one non-empty cluster
 	}
