@@ -239,9 +239,27 @@ func probe(ctx context.Context, ds *stream.Dataset, units []stream.Unit, opt Opt
 	p.MeanSq /= float64(n)
 	initRows := rows[:min(n, probeInitRows)*d]
 	data := kmeans.Data{X: initRows, D: d}
+	// The seedings are independent (one random stream per k): spread them over the workers,
+	// largest k first. They were most of the probe's time (issue 15).
+	ks := make(chan int)
+	inits := make([][]float64, opt.Criteria.MaxK+1)
+	var wg sync.WaitGroup
+	for range max(1, opt.Workers) {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for k := range ks {
+				inits[k] = startCentres(data, k, rand.New(rand.NewPCG(opt.Seed, uint64(k))))
+			}
+		}()
+	}
+	for k := opt.Criteria.MaxK; k >= opt.Criteria.MinK; k-- {
+		ks <- k
+	}
+	close(ks)
+	wg.Wait()
 	for k := opt.Criteria.MinK; k <= opt.Criteria.MaxK; k++ {
-		rng := rand.New(rand.NewPCG(opt.Seed, uint64(k)))
-		p.Init[k] = startCentres(data, k, rng)
+		p.Init[k] = inits[k]
 	}
 	return p, nil
 }

@@ -39,3 +39,17 @@ func BenchmarkEvaluate(b *testing.B) {
 		}
 	}
 }
+
+// BenchmarkSilhouetteAnchors times the anchor estimate with the default 1000 anchors on a
+// coreset-sized weighted set (16,384 points, 16 dimensions, 12 clusters fitted to 10).
+func BenchmarkSilhouetteAnchors(b *testing.B) {
+	p := mixture(3, 16384, 16, 10, 4)
+	p.W = make([]float64, p.Len())
+	for i := range p.W {
+		p.W[i] = 1 + float64(i%7)
+	}
+	fit := kmeans.Fit(p, 12, kmeans.FitOptions{Restarts: 1})
+	for b.Loop() {
+		criteria.SilhouetteAnchors(p, fit.Labels, 12, 1000, rand.New(rand.NewPCG(1, 2)))
+	}
+}

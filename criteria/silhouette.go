@@ -8,74 +8,184 @@ import (
 	"github.com/kgauge/kgauge/internal/kmeans"
 )
 
-// silhouetteOf returns s(i) for point i of p (Rousseeuw 1987):
+// silGroups holds the positive-weight points of p reordered by cluster (stable, so each cluster
+// keeps index order), for computing silhouettes of many points at once.
+type silGroups struct {
+	d      int
+	x      []float64 // points, row-major, cluster 0's first
+	w      []float64 // their weights
+	start  []int     // cluster c is rows start[c]:start[c+1]
+	total  []float64 // total weight per cluster
+	row    []int     // row of point i of p (-1 for zero weight)
+	centre []float64 // weighted mean per cluster, k*d
+}
+
+func newSilGroups(p kmeans.Data, labels []int32, k int) *silGroups {
+	n, d := p.Len(), p.D
+	g := &silGroups{d: d, start: make([]int, k+1), total: make([]float64, k)}
+	for i := 0; i < n; i++ {
+		if p.Weight(i) > 0 {
+			g.start[labels[i]+1]++
+		}
+	}
+	for c := 0; c < k; c++ {
+		g.start[c+1] += g.start[c]
+	}
+	m := g.start[k]
+	g.x, g.w, g.row = make([]float64, m*d), make([]float64, m), make([]int, n)
+	next := append([]int(nil), g.start[:k]...)
+	for i := 0; i < n; i++ {
+		w := p.Weight(i)
+		g.row[i] = -1
+		if !(w > 0) {
+			continue
+		}
+		l := labels[i]
+		r := next[l]
+		next[l]++
+		g.row[i] = r
+		copy(g.x[r*d:(r+1)*d], p.Point(i))
+		g.w[r] = w
+		g.total[l] += w
+	}
+	g.centre = make([]float64, k*d)
+	for c := 0; c < k; c++ {
+		m := g.centre[c*d : (c+1)*d]
+		for r := g.start[c]; r < g.start[c+1]; r++ {
+			for t, v := range g.x[r*d : (r+1)*d] {
+				m[t] += g.w[r] * v
+			}
+		}
+		if g.total[c] > 0 {
+			for t := range m {
+				m[t] /= g.total[c]
+			}
+		}
+	}
+	return g
+}
+
+// silBlock is the number of anchors silGroups.silhouettes measures per sweep over a cluster.
+const silBlock = 4
+
+// silhouettes writes s(i) of each anchor (point i of p with label labels[i] and weight > 0) into
+// out (Rousseeuw 1987):
 //
 //	a(i) = sum_{j in C(i), j != i} w_j ||x_i - x_j|| / sum_{j in C(i), j != i} w_j
 //	b(i) = min over non-empty clusters C != C(i) of sum_{j in C} w_j ||x_i - x_j|| / sum_{j in C} w_j
 //	s(i) = (b(i) - a(i)) / max(a(i), b(i))
 //
 // Singleton convention (Rousseeuw 1987): when no other point with positive weight shares the
-// cluster of i, s(i) = 0; s(i) = 0 also when a(i) = b(i) = 0. sum and wt are scratch of length k.
-func silhouetteOf(p kmeans.Data, labels []int32, i int, sum, wt []float64) float64 {
-	for j := range sum {
-		sum[j], wt[j] = 0, 0
-	}
-	xi := p.Point(i)
-	n, d := p.Len(), p.D
-	labels = labels[:n]
-	var ws []float64
-	if p.W != nil {
-		ws = p.W[:n]
-	}
-	add := func(j int, dist2 float64) {
-		if j == i {
-			return
+// cluster of i, s(i) = 0; s(i) = 0 also when a(i) = b(i) = 0; NaN when only one cluster is
+// non-empty.
+//
+// Only the clusters that can hold b(i) are measured. The weighted mean distance from x_i to the
+// points of C is at least the distance from x_i to their weighted mean c_C (the norm is convex:
+// Jensen's inequality), so once some cluster's mean distance is known, every cluster with
+// ||x_i - c_C|| above it is skipped; clusters are visited by increasing ||x_i - c_C||. The
+// result is that of measuring every cluster (the sums are formed in the same order). Anchors
+// are taken silBlock at a time, each point of a measured cluster loaded once per block; an
+// anchor's distance to itself is 0 and adds nothing to its cluster's sum.
+func (g *silGroups) silhouettes(p kmeans.Data, labels []int32, anchors []int, out []float64) {
+	d, k := g.d, len(g.total)
+	sums := make([]float64, silBlock*k)
+	lb := make([]float64, silBlock*k)
+	best := make([]float64, silBlock)
+	order := make([]int, 0, k)
+	key := make([]float64, k)
+	var ax [silBlock][]float64
+	var own [silBlock]int32
+	for b := 0; b < len(anchors); b += silBlock {
+		nb := min(silBlock, len(anchors)-b)
+		for q := 0; q < silBlock; q++ {
+			i := anchors[b+min(q, nb-1)] // a short block repeats its last anchor
+			ax[q], own[q] = p.Point(i), labels[i]
+			best[q] = math.Inf(1)
 		}
-		w := 1.0
-		if ws != nil {
-			w = ws[j]
-			if w == 0 {
-				return
+		order = order[:0]
+		for c := 0; c < k; c++ {
+			key[c] = math.Inf(1)
+			if g.start[c+1] == g.start[c] {
+				continue
+			}
+			for q := 0; q < silBlock; q++ {
+				// Shrunk by a relative 1e-9 so rounding can never skip the cluster holding b(i).
+				v := math.Sqrt(kmeans.Dist2(ax[q], g.centre[c*d:(c+1)*d])) * (1 - 1e-9)
+				if int32(c) == own[q] {
+					v = math.Inf(-1) // its own cluster is always measured (for a(i))
+				}
+				lb[q*k+c] = v
+				key[c] = min(key[c], v)
+			}
+			order = append(order, c)
+		}
+		sort.Slice(order, func(x, y int) bool { return key[order[x]] < key[order[y]] })
+		for _, c := range order {
+			need := false
+			for q := 0; q < nb; q++ {
+				if lb[q*k+c] < best[q] {
+					need = true
+				}
+			}
+			if !need {
+				continue
+			}
+			t := g.meanDist(&ax, c)
+			for q := 0; q < silBlock; q++ {
+				sums[q*k+c] = t[q]
+				if int32(c) != own[q] {
+					best[q] = min(best[q], t[q]/g.total[c])
+				}
 			}
 		}
-		l := labels[j]
-		sum[l] += w * math.Sqrt(dist2)
-		wt[l] += w
+		for q := 0; q < nb; q++ {
+			i := anchors[b+q]
+			out[b+q] = g.finish(sums[q*k:(q+1)*k], own[q], g.row[i], best[q])
+		}
 	}
-	j := 0
-	for ; j+3 < n; j += 4 {
-		x0 := p.X[j*d : j*d+d : j*d+d]
-		x1 := p.X[(j+1)*d : (j+1)*d+d : (j+1)*d+d]
-		x2 := p.X[(j+2)*d : (j+2)*d+d : (j+2)*d+d]
-		x3 := p.X[(j+3)*d : (j+3)*d+d : (j+3)*d+d]
-		x0, x1, x2, x3 = x0[:len(xi)], x1[:len(xi)], x2[:len(xi)], x3[:len(xi)]
+}
+
+// meanDist returns, for each of the silBlock anchors, sum_{j in C} w_j ||x_i - x_j||.
+func (g *silGroups) meanDist(ax *[silBlock][]float64, c int) [silBlock]float64 {
+	d := g.d
+	a0 := ax[0][:d]
+	a1, a2, a3 := ax[1][:d], ax[2][:d], ax[3][:d]
+	var t0, t1, t2, t3 float64
+	for r := g.start[c]; r < g.start[c+1]; r++ {
+		x := g.x[r*d : r*d+d : r*d+d]
+		x = x[:len(a0)]
 		var s0, s1, s2, s3 float64
-		for t, v := range xi {
-			e0, e1, e2, e3 := v-x0[t], v-x1[t], v-x2[t], v-x3[t]
+		for t, v := range a0 {
+			u := x[t]
+			e0, e1, e2, e3 := v-u, a1[t]-u, a2[t]-u, a3[t]-u
 			s0 += e0 * e0
 			s1 += e1 * e1
 			s2 += e2 * e2
 			s3 += e3 * e3
 		}
-		add(j, s0)
-		add(j+1, s1)
-		add(j+2, s2)
-		add(j+3, s3)
+		w := g.w[r]
+		t0 += w * math.Sqrt(s0)
+		t1 += w * math.Sqrt(s1)
+		t2 += w * math.Sqrt(s2)
+		t3 += w * math.Sqrt(s3)
 	}
-	for ; j < n; j++ {
-		add(j, kmeans.Dist2(xi, p.X[j*d:j*d+d]))
+	return [silBlock]float64{t0, t1, t2, t3}
+}
+
+// finish returns s(i) from the anchor's weighted distance sum to its own cluster and b(i); row is
+// the anchor's row. The weight of the rest of its cluster is summed in index order, as the
+// definition reads.
+func (g *silGroups) finish(sum []float64, own int32, row int, b float64) float64 {
+	if g.start[own+1]-g.start[own] <= 1 {
+		return 0 // singleton
 	}
-	own := labels[i]
-	if wt[own] == 0 {
-		return 0
-	}
-	a := sum[own] / wt[own]
-	b := math.Inf(1)
-	for c := range sum {
-		if int32(c) != own && wt[c] > 0 {
-			b = math.Min(b, sum[c]/wt[c])
+	rest := 0.0
+	for r := g.start[own]; r < g.start[own+1]; r++ {
+		if r != row {
+			rest += g.w[r]
 		}
 	}
+	a := sum[own] / rest
 	if math.IsInf(b, 1) {
 		return math.NaN() // only one non-empty cluster
 	}
@@ -95,14 +205,19 @@ func SilhouetteExact(p kmeans.Data, labels []int32, k int) float64 {
 	if len(labels) != p.Len() {
 		panic("criteria: SilhouetteExact: len(labels) != number of points")
 	}
-	sum, wt := make([]float64, k), make([]float64, k)
-	tot, tw := 0.0, 0.0
+	g := newSilGroups(p, labels, k)
+	var anchors []int
 	for i := 0; i < p.Len(); i++ {
-		w := p.Weight(i)
-		if w == 0 {
-			continue
+		if p.Weight(i) > 0 {
+			anchors = append(anchors, i)
 		}
-		s := silhouetteOf(p, labels, i, sum, wt)
+	}
+	sil := make([]float64, len(anchors))
+	g.silhouettes(p, labels, anchors, sil)
+	tot, tw := 0.0, 0.0
+	for a, i := range anchors {
+		w := p.Weight(i)
+		s := sil[a]
 		if math.IsNaN(s) {
 			return math.NaN()
 		}
@@ -166,41 +281,66 @@ func SilhouetteAnchors(p kmeans.Data, labels []int32, k, m int, rng *rand.Rand) 
 	if nonEmpty < 2 {
 		return out
 	}
-	sum, wt := make([]float64, k), make([]float64, k)
-	est, variance := 0.0, 0.0
+	// Draw every stratum's anchors first (the draws do not depend on the silhouettes), then
+	// measure them all in one batch.
+	type stratum struct {
+		c, from, to int
+		exact       bool
+	}
+	var strata []stratum
+	var anchors []int
 	for c := 0; c < k; c++ {
 		if wc[c] == 0 {
 			continue
 		}
-		share := wc[c] / W
-		mc := int(math.Round(float64(m) * share))
+		mc := int(math.Round(float64(m) * wc[c] / W))
 		if mc < minAnchorsPerCluster {
 			mc = minAnchorsPerCluster
 		}
+		st := stratum{c: c, from: len(anchors)}
 		if mc >= len(members[c]) {
+			st.exact = true
+			anchors = append(anchors, members[c]...)
+		} else {
+			for a := 0; a < mc; a++ {
+				u := rng.Float64() * wc[c]
+				j := sort.SearchFloat64s(cum[c], u)
+				if j >= len(members[c]) {
+					j = len(members[c]) - 1
+				}
+				for j < len(members[c])-1 && cum[c][j] <= u {
+					j++
+				}
+				anchors = append(anchors, members[c][j])
+			}
+		}
+		st.to = len(anchors)
+		strata = append(strata, st)
+	}
+	sil := make([]float64, len(anchors))
+	newSilGroups(p, labels, k).silhouettes(p, labels, anchors, sil)
+	est, variance := 0.0, 0.0
+	for _, st := range strata {
+		c := st.c
+		share := wc[c] / W
+		if st.exact {
 			t := 0.0
-			for _, i := range members[c] {
-				t += p.Weight(i) * silhouetteOf(p, labels, i, sum, wt)
+			for a := st.from; a < st.to; a++ {
+				t += p.Weight(anchors[a]) * sil[a]
 			}
 			est += share * t / wc[c]
-			out.Anchors += len(members[c])
+			out.Anchors += st.to - st.from
 			continue
 		}
 		var mean, m2 float64 // Welford
-		for a := 0; a < mc; a++ {
-			u := rng.Float64() * wc[c]
-			j := sort.SearchFloat64s(cum[c], u)
-			if j >= len(members[c]) {
-				j = len(members[c]) - 1
-			}
-			for j < len(members[c])-1 && cum[c][j] <= u {
-				j++
-			}
-			s := silhouetteOf(p, labels, members[c][j], sum, wt)
+		for a := st.from; a < st.to; a++ {
+			s := sil[a]
 			delta := s - mean
-			mean += delta / float64(a+1)
+			n := float64(a - st.from + 1)
+			mean += delta / n
 			m2 += delta * (s - mean)
 		}
+		mc := st.to - st.from
 		est += share * mean
 		variance += share * share * (m2 / float64(mc-1)) / float64(mc)
 		out.Anchors += mc

@@ -357,3 +357,53 @@ func TestFitUniformOneDimension(t *testing.T) {
 		}
 	}
 }
+
+// BenchmarkFit times a coreset-sized fit as the criteria run it (16,384 points, 16 dimensions,
+// 10 blobs, k = 20, 3 k-means++ restarts).
+func BenchmarkFit(b *testing.B) {
+	rng := rand.New(rand.NewPCG(1, 1))
+	n, d, k := 16384, 16, 20
+	x := randPoints(rng, n, d, 1)
+	centres := randPoints(rng, 10, d, 2)
+	for i := 0; i < n; i++ {
+		for t := 0; t < d; t++ {
+			x[i*d+t] += centres[(i%10)*d+t]
+		}
+	}
+	p := kmeans.Data{X: x, D: d}
+	for b.Loop() {
+		kmeans.Fit(p, k, kmeans.FitOptions{Restarts: 3, Rand: rand.New(rand.NewPCG(2, 2))})
+	}
+}
+
+// BenchmarkPlusPlus times the greedy k-means++ seeding of 16,384 points: 10 overlapping blobs in
+// 16 dimensions with k = 20, and 100 separated blobs in 2 dimensions (a grid, as Birch1) with
+// k = 100.
+func BenchmarkPlusPlus(b *testing.B) {
+	for _, c := range []struct {
+		name          string
+		d, blobs, k   int
+		spread, noise float64
+	}{{"overlap-d16-k20", 16, 10, 20, 2, 1}, {"grid-d2-k100", 2, 100, 100, 0, 0.05}} {
+		b.Run(c.name, func(b *testing.B) {
+			rng := rand.New(rand.NewPCG(1, 1))
+			n := 16384
+			x := randPoints(rng, n, c.d, c.noise)
+			centres := randPoints(rng, c.blobs, c.d, c.spread)
+			if c.spread == 0 {
+				for j := 0; j < c.blobs; j++ {
+					centres[j*2], centres[j*2+1] = float64(j%10), float64(j/10)
+				}
+			}
+			for i := 0; i < n; i++ {
+				for t := 0; t < c.d; t++ {
+					x[i*c.d+t] += centres[(i%c.blobs)*c.d+t]
+				}
+			}
+			p := kmeans.Data{X: x, D: c.d}
+			for b.Loop() {
+				kmeans.PlusPlus(p, c.k, rand.New(rand.NewPCG(2, 2)), nil)
+			}
+		})
+	}
+}

@@ -62,6 +62,7 @@ func Lloyd(p Data, init []float64, opt LloydOptions) Result {
 	h := newHamerly(p, k)
 	sums := make([]float64, k*d)
 	old := make([]float64, k*d)
+	cs := newCentred(p)
 	prev := math.Inf(1)
 	for it := 1; it <= opt.MaxIter; it++ {
 		res.Iters = it
@@ -73,8 +74,7 @@ func Lloyd(p Data, init []float64, opt LloydOptions) Result {
 			changed++
 		}
 		copy(old, c)
-		update(p, res.Labels, c, sums, res.Sizes)
-		cost := exactCost(p, c, res.Labels, res.Sizes)
+		cost := cs.update(p, res.Labels, c, sums, res.Sizes)
 		h.move(old, c, res.Labels)
 		if cost == 0 || (!math.IsInf(prev, 1) && prev-cost <= opt.Tol*prev) {
 			break
@@ -277,31 +277,90 @@ func reseedEmpty(p Data, labels []int32, dist2, sizes []float64, k int) {
 	}
 }
 
-// update moves each non-empty centre to the weighted mean of its points.
-func update(p Data, labels []int32, c, sums, sizes []float64) {
-	d := p.D
+// centred holds what Lloyd needs to get the cost of each iteration from the cluster sums
+// instead of a second sweep over the points: the weighted mean mu of the points, their weighted
+// squared distances q_i = w_i ||x_i - mu||^2 and tss = sum q_i.
+type centred struct {
+	mu  []float64
+	q   []float64
+	tss float64
+}
+
+func newCentred(p Data) *centred {
+	d, n := p.D, p.Len()
+	cs := &centred{mu: make([]float64, d), q: make([]float64, n)}
+	tw := 0.0
+	for i := 0; i < n; i++ {
+		w := p.Weight(i)
+		tw += w
+		for t, v := range p.Point(i) {
+			cs.mu[t] += w * v
+		}
+	}
+	if tw > 0 {
+		for t := range cs.mu {
+			cs.mu[t] /= tw
+		}
+	}
+	for i := 0; i < n; i++ {
+		cs.q[i] = p.Weight(i) * Dist2(p.Point(i), cs.mu)
+		cs.tss += cs.q[i]
+	}
+	return cs
+}
+
+// costRelFloor is the smallest cost, relative to the total sum of squares, that centred.update
+// takes from the identity; below it the cancellation could exceed about 1e-9 of the cost (against
+// Lloyd's default tolerance of 1e-7) and the cost is summed point by point instead.
+const costRelFloor = 1e-6
+
+// update moves each non-empty centre to the weighted mean of its points  and
+// returns the cost sum w ||x - c_label||^2 of the new centres, from the identity
+//
+//	sum_{i in j} w_i ||x_i - c_j||^2 = sum_{i in j} w_i ||x_i - mu||^2 - W_j ||c_j - mu||^2
+//
+// (c_j the weighted mean of cluster j, W_j its weight), which needs no second sweep over the
+// points. When the cost is below costRelFloor times the total sum of squares it is recomputed
+// exactly. It also fills sizes.
+func (cs *centred) update(p Data, labels []int32, c, sums, sizes []float64) float64 {
+	d, k := p.D, len(sizes)
 	for i := range sums {
 		sums[i] = 0
 	}
 	for j := range sizes {
 		sizes[j] = 0
 	}
+	var qs [64]float64
+	var q []float64
+	if k <= len(qs) {
+		q = qs[:k]
+	} else {
+		q = make([]float64, k)
+	}
 	for i, l := range labels {
 		w := p.Weight(i)
 		x := p.Point(i)
 		s := sums[int(l)*d : int(l)*d+d]
+		s = s[:len(x)]
 		for t, v := range x {
 			s[t] += w * v
 		}
 		sizes[l] += w
+		q[l] += cs.q[i]
 	}
+	cost := 0.0
 	for j, sz := range sizes {
 		if sz > 0 {
 			for t := 0; t < d; t++ {
 				c[j*d+t] = sums[j*d+t] / sz
 			}
+			cost += q[j] - sz*Dist2(c[j*d:(j+1)*d], cs.mu)
 		}
 	}
+	if !(cost > costRelFloor*cs.tss) {
+		return exactCost(p, c, labels, sizes)
+	}
+	return cost
 }
 
 // exactCost returns sum w ||x - c_label||^2 and fills sizes.

@@ -35,6 +35,12 @@ func PlusPlus(p Data, k int, rng *rand.Rand, dst []float64) []float64 {
 	d2 := make([]float64, n)
 	cand := make([]float64, n)
 	best := make([]float64, n)
+	// near[i] is the centre d2[i] is measured to. A candidate x cannot bring point i closer when
+	// ||x - c_near(i)|| >= 2 sqrt(d2[i]) (triangle inequality), so those points keep d2[i]
+	// without measuring; the margin keeps rounding from ever skipping a point x does improve.
+	near := make([]int32, n)
+	toCentre := make([]float64, k) // ||x - c_j||^2 for the candidate x
+	const margin = 4 * (1 + 1e-9)
 	for i := 0; i < n; i++ {
 		d2[i] = Dist2(p.Point(i), dst[:d])
 	}
@@ -53,11 +59,14 @@ func PlusPlus(p Data, k int, rng *rand.Rand, dst []float64) []float64 {
 		for t := 0; t < trials; t++ {
 			idx := drawWeighted(p, d2, rng)
 			x := p.Point(idx)
+			for j := 0; j < c; j++ {
+				toCentre[j] = Dist2(x, dst[j*d:(j+1)*d])
+			}
 			s := 0.0
 			for i := 0; i < n; i++ {
-				v := Dist2(p.Point(i), x)
-				if v > d2[i] {
-					v = d2[i]
+				v := d2[i]
+				if toCentre[near[i]] < margin*v {
+					v = min(v, Dist2(p.Point(i), x))
 				}
 				cand[i] = v
 				s += p.Weight(i) * v
@@ -68,6 +77,11 @@ func PlusPlus(p Data, k int, rng *rand.Rand, dst []float64) []float64 {
 			}
 		}
 		copy(dst[c*d:(c+1)*d], p.Point(bestIdx))
+		for i, v := range best {
+			if v < d2[i] {
+				near[i] = int32(c)
+			}
+		}
 		d2, best = best, d2
 	}
 	return dst
