@@ -66,11 +66,11 @@ func (c *DemoCommand) Run(ctx context.Context, args []string) error {
 		fmt.Fprintf(c.Stdout, "demo: written to %s, estimating k = %d..%d\n\n", paths[0], opt.Criteria.MinK, opt.Criteria.MaxK)
 	}
 	res, err := runEstimate(ctx, paths, opt, &ef, c.Stderr)
-	if err != nil {
+	if res == nil {
 		return err
 	}
-	if err := printResult(c.Stdout, res, ef.asJSON); err != nil {
-		return err
+	if perr := printResult(c.Stdout, res, ef.asJSON); perr != nil {
+		return perr
 	}
 	if !ef.asJSON {
 		verdict := "matches"
@@ -79,5 +79,5 @@ func (c *DemoCommand) Run(ctx context.Context, args []string) error {
 		}
 		fmt.Fprintf(c.Stdout, "\ndemo: the generator used k = %d; the verdict %s it.\n", truth, verdict)
 	}
-	return nil
+	return err // an output that could not be written
 }
