@@ -119,6 +119,16 @@ func Track(ctx context.Context, root, ledgerPath string, opt TrackOptions) (*Tra
 	}
 	defer lock.Unlock()
 
+	parts, outside, err := Partitions(absRoot)
+	if err != nil {
+		return nil, err
+	}
+	if len(parts) == 0 {
+		return nil, &kgauge.InputError{Path: root, Err: errors.New("no KEY=VALUE partition with data files")}
+	}
+	if err := checkTrackOutputs(real, ledgerPath, parts); err != nil {
+		return nil, err
+	}
 	removed, err := RemoveTemps(real)
 	for _, p := range removed {
 		warn(fmt.Sprintf("removed %s, left by an interrupted run", p))
@@ -133,19 +143,9 @@ func Track(ctx context.Context, root, ledgerPath string, opt TrackOptions) (*Tra
 	if l.Remnant != nil {
 		warn(fmt.Sprintf("%s: %s", ledgerPath, l.Remnant))
 	}
-	parts, outside, err := Partitions(absRoot)
-	if err != nil {
-		return nil, err
-	}
 	if len(outside) > 0 {
 		warn(fmt.Sprintf("%d data file(s) under %s are in no KEY=VALUE partition and are not tracked, the first %s",
 			len(outside), root, outside[0]))
-	}
-	if len(parts) == 0 {
-		return nil, &kgauge.InputError{Path: root, Err: errors.New("no KEY=VALUE partition with data files")}
-	}
-	if err := checkTrackOutputs(real, ledgerPath, parts); err != nil {
-		return nil, err
 	}
 	if err := badNames(parts, opt.Quarantine, opt.Release); err != nil {
 		return nil, &UsageError{err}

@@ -80,7 +80,8 @@ func Discover(patterns []string) ([]File, error) {
 // (twice named, or through a symbolic link) is taken once, under the name that is not
 // a link (the first by path among equals); a remote object once per key and ETag.
 //
-// A pattern containing *, ? or [ is a glob: its segments are matched with
+// A pattern containing *, ? or [ is a glob, unless a file or directory of that
+// very name exists (a partition value may hold such characters): its segments are matched with
 // path.Match, and a segment "**" matches any number of directories (zero
 // included). A directory matched by a glob is taken whole, like a directory
 // named explicitly. While walking or globbing, names starting with "_" or "."
@@ -102,7 +103,7 @@ func DiscoverWith(patterns []string, opt DiscoverOptions) (*Discovery, error) {
 		switch {
 		case isRemote(p):
 			err = d.remote(p)
-		case strings.ContainsAny(p, "*?["):
+		case strings.ContainsAny(p, "*?[") && !exists(p):
 			err = d.glob(p)
 		default:
 			err = d.path(p)
@@ -165,6 +166,12 @@ func (d *discoverer) unreadable(p string, cause error) error {
 	}
 	d.skipped = append(d.skipped, Skipped{Path: filepath.Clean(p), Reason: oneLine(pathCause(cause).Error()), Err: err})
 	return nil
+}
+
+// exists reports whether a file or directory (or a link) named p exists.
+func exists(p string) bool {
+	_, err := os.Lstat(p)
+	return err == nil
 }
 
 // oneLine joins the fields of s with single spaces.

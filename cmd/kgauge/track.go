@@ -197,6 +197,16 @@ func recordLine(r ledger.Record) string {
 		fmt.Fprintf(&b, "  runner-up %d", *r.RunnerUp)
 	}
 	fmt.Fprintf(&b, "  rows %d (skipped %d)  ", r.Rows, r.SkippedRows)
+	if r.Status == ledger.StatusIncomplete {
+		b.WriteString("INCOMPLETE ")
+		if len(r.SkippedFiles) > 0 {
+			fmt.Fprintf(&b, "(%d file(s) skipped, the first %s: %s) ", len(r.SkippedFiles),
+				inert(r.SkippedFiles[0].Path), inert(r.SkippedFiles[0].Reason))
+		}
+		if r.Error != "" {
+			fmt.Fprintf(&b, "(%s) ", inert(r.Error))
+		}
+	}
 	if !r.Drift.Drifted {
 		b.WriteString("ok")
 		return b.String()
