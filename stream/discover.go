@@ -333,6 +333,10 @@ func (d *discoverer) walkMatch(root string, pat []string) error {
 		return nil
 	})
 	if err != nil {
+		var re *ReadError
+		if errors.As(err, &re) {
+			return re
+		}
 		var pe *fs.PathError
 		if errors.As(err, &pe) {
 			return newError(pe.Path, "", pe.Err)
