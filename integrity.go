@@ -168,6 +168,9 @@ func InputKeys(inputs []string) map[string]string {
 		}
 	}
 	for _, in := range inputs {
+		if stream.Remote != nil && stream.Remote.IsRemote(in) {
+			continue // an object is never a local output; listing it twice would cost requests
+		}
 		if isSketchFile(in) {
 			add(in)
 			continue

@@ -42,9 +42,9 @@ func integrityLake(t *testing.T) (dir, file string, data []byte) {
 	return dir, file, data
 }
 
-// estimateJSON runs estimate --json with quickFlags and returns the exit code, the decoded result
+// integrityEstimate runs estimate --json with quickFlags and returns the exit code, the decoded result
 // (nil when stdout is not JSON) and stderr.
-func estimateJSON(t *testing.T, args ...string) (int, map[string]any, string) {
+func integrityEstimate(t *testing.T, args ...string) (int, map[string]any, string) {
 	t.Helper()
 	code, out, errs := run(t, append(append([]string{"estimate", "--json"}, quickFlags...), args...)...)
 	var m map[string]any
@@ -54,7 +54,7 @@ func estimateJSON(t *testing.T, args ...string) (int, map[string]any, string) {
 	return code, m, errs
 }
 
-func rowsOf(m map[string]any) float64 {
+func integrityRows(m map[string]any) float64 {
 	if m == nil {
 		return -1
 	}
@@ -71,11 +71,11 @@ func TestUnreadableFilesInDirectories(t *testing.T) {
 	cut := filepath.Join(dir, "part-001.parquet")
 	os.WriteFile(cut, data[:len(data)/2], 0o644)
 	for _, in := range []string{dir, filepath.Join(dir, "*.parquet"), filepath.Join(filepath.Dir(dir), "**")} {
-		code, m, errs := estimateJSON(t, in)
+		code, m, errs := integrityEstimate(t, in)
 		if code != ExitInput || m != nil || !strings.Contains(errs, cut) || !strings.Contains(errs, "--skip-unreadable") {
 			t.Errorf("%s: exit %d (want 3), stderr %q; want an error naming %s", in, code, errs, cut)
 		}
-		code, m, errs = estimateJSON(t, "--skip-unreadable", in)
+		code, m, errs = integrityEstimate(t, "--skip-unreadable", in)
 		if code != ExitOK || m == nil {
 			t.Fatalf("%s --skip-unreadable: exit %d: %s", in, code, errs)
 		}
@@ -86,8 +86,8 @@ func TestUnreadableFilesInDirectories(t *testing.T) {
 		if files, _ := m["files"].([]any); len(files) != 1 || files[0].(map[string]any)["path"] != file {
 			t.Errorf("%s: files %v, want only %s", in, m["files"], file)
 		}
-		if rowsOf(m) != 20000 {
-			t.Errorf("%s: %v rows, want the good file's 20000", in, rowsOf(m))
+		if integrityRows(m) != 20000 {
+			t.Errorf("%s: %v rows, want the good file's 20000", in, integrityRows(m))
 		}
 	}
 	code, out, _ := run(t, append(append([]string{"estimate"}, quickFlags...), "--skip-unreadable", dir)...)
@@ -100,17 +100,17 @@ func TestUnreadableFilesInDirectories(t *testing.T) {
 		footer[i] = 0x5A
 	}
 	os.WriteFile(cut, footer, 0o644)
-	if code, _, errs := estimateJSON(t, dir); code != ExitInput || !strings.Contains(errs, cut) {
+	if code, _, errs := integrityEstimate(t, dir); code != ExitInput || !strings.Contains(errs, cut) {
 		t.Errorf("broken footer: exit %d, stderr %q; want 3 naming %s", code, errs, cut)
 	}
-	if code, m, errs := estimateJSON(t, "--skip-unreadable", dir); code != ExitOK || rowsOf(m) != 20000 || m["skipped_files"] == nil {
-		t.Errorf("broken footer with --skip-unreadable: exit %d, rows %v, skipped %v: %s", code, rowsOf(m), m["skipped_files"], errs)
+	if code, m, errs := integrityEstimate(t, "--skip-unreadable", dir); code != ExitOK || integrityRows(m) != 20000 || m["skipped_files"] == nil {
+		t.Errorf("broken footer with --skip-unreadable: exit %d, rows %v, skipped %v: %s", code, integrityRows(m), m["skipped_files"], errs)
 	}
 	os.Remove(cut)
 	if os.Geteuid() != 0 {
 		locked := filepath.Join(dir, "part-002.parquet")
 		os.WriteFile(locked, data, 0o000)
-		if code, _, errs := estimateJSON(t, dir); code != ExitInput || !strings.Contains(errs, locked) || !strings.Contains(errs, "permission") {
+		if code, _, errs := integrityEstimate(t, dir); code != ExitInput || !strings.Contains(errs, locked) || !strings.Contains(errs, "permission") {
 			t.Errorf("unreadable file: exit %d, stderr %q; want 3 naming %s", code, errs, locked)
 		}
 		os.Remove(locked)
@@ -126,10 +126,10 @@ func TestSymlinksInDirectories(t *testing.T) {
 	if err := os.Symlink("no-such-file", dangling); err != nil {
 		t.Fatal(err)
 	}
-	if code, m, errs := estimateJSON(t, filepath.Join(dir, "*.parquet")); code != ExitOK || rowsOf(m) != 20000 {
-		t.Errorf("glob beside a dangling link: exit %d, rows %v: %s", code, rowsOf(m), errs)
+	if code, m, errs := integrityEstimate(t, filepath.Join(dir, "*.parquet")); code != ExitOK || integrityRows(m) != 20000 {
+		t.Errorf("glob beside a dangling link: exit %d, rows %v: %s", code, integrityRows(m), errs)
 	}
-	if code, _, errs := estimateJSON(t, dir); code != ExitInput || !strings.Contains(errs, dangling) {
+	if code, _, errs := integrityEstimate(t, dir); code != ExitInput || !strings.Contains(errs, dangling) {
 		t.Errorf("directory with a dangling link: exit %d, stderr %q; want 3 naming %s", code, errs, dangling)
 	}
 	os.Remove(dangling)
@@ -138,9 +138,9 @@ func TestSymlinksInDirectories(t *testing.T) {
 		t.Fatal(err)
 	}
 	for _, in := range [][]string{{dir}, {file, link}, {link, filepath.Join(dir, "*")}} {
-		code, m, errs := estimateJSON(t, in...)
-		if code != ExitOK || rowsOf(m) != 20000 {
-			t.Errorf("%v: exit %d, rows %v; want the one file's 20000 rows: %s", in, code, rowsOf(m), errs)
+		code, m, errs := integrityEstimate(t, in...)
+		if code != ExitOK || integrityRows(m) != 20000 {
+			t.Errorf("%v: exit %d, rows %v; want the one file's 20000 rows: %s", in, code, integrityRows(m), errs)
 			continue
 		}
 		if files, _ := m["files"].([]any); len(files) != 1 || files[0].(map[string]any)["path"] != file {
@@ -155,7 +155,7 @@ func TestEachInputCountedOnce(t *testing.T) {
 	dir, file, data := integrityLake(t)
 	out := t.TempDir()
 	sk := filepath.Join(out, "day.kgs")
-	if code, _, errs := estimateJSON(t, "--save-sketch", sk, dir); code != ExitOK {
+	if code, _, errs := integrityEstimate(t, "--save-sketch", sk, dir); code != ExitOK {
 		t.Fatalf("save: exit %d: %s", code, errs)
 	}
 	cp := filepath.Join(out, "copy.kgs")
@@ -163,9 +163,9 @@ func TestEachInputCountedOnce(t *testing.T) {
 	ln := filepath.Join(out, "link.kgs")
 	os.Symlink(sk, ln)
 	for _, in := range [][]string{{sk, sk}, {sk, ln}, {sk, cp}} {
-		code, m, errs := estimateJSON(t, in...)
-		if code != ExitOK || rowsOf(m) != 20000 {
-			t.Errorf("%v: exit %d, rows %v; want 20000: %s", in, code, rowsOf(m), errs)
+		code, m, errs := integrityEstimate(t, in...)
+		if code != ExitOK || integrityRows(m) != 20000 {
+			t.Errorf("%v: exit %d, rows %v; want 20000: %s", in, code, integrityRows(m), errs)
 		}
 		if s, _ := m["sketches"].([]any); len(s) != 1 {
 			t.Errorf("%v: sketches %v, want one", in, m["sketches"])
@@ -175,7 +175,7 @@ func TestEachInputCountedOnce(t *testing.T) {
 	other := filepath.Join(t.TempDir(), "elsewhere.parquet")
 	os.WriteFile(other, data, 0o644)
 	for _, in := range [][]string{{sk, dir}, {file, cp}, {sk, other}} {
-		code, m, errs := estimateJSON(t, in...)
+		code, m, errs := integrityEstimate(t, in...)
 		if code != ExitUsage || m != nil || !strings.Contains(errs, "same data") {
 			t.Errorf("%v: exit %d, stderr %q; want 2 and the same data named twice", in, code, errs)
 		}
@@ -191,10 +191,10 @@ func TestEachInputCountedOnce(t *testing.T) {
 	o.Seed = 43
 	another, _ := filepath.Glob(filepath.Join(lake(t, o), "*", "*.parquet"))
 	both := filepath.Join(out, "both.kgs")
-	if code, _, errs := estimateJSON(t, "--save-sketch", both, file, another[0]); code != ExitOK {
+	if code, _, errs := integrityEstimate(t, "--save-sketch", both, file, another[0]); code != ExitOK {
 		t.Fatalf("sketch of two days: exit %d: %s", code, errs)
 	}
-	if code, _, errs := estimateJSON(t, sk, both); code != ExitUsage || !strings.Contains(errs, "overlapping") {
+	if code, _, errs := integrityEstimate(t, sk, both); code != ExitUsage || !strings.Contains(errs, "overlapping") {
 		t.Errorf("overlapping sketches: exit %d, stderr %q; want 2", code, errs)
 	}
 }
@@ -216,21 +216,21 @@ func TestDuplicateColumnNames(t *testing.T) {
 	writeParquet(t, pq, schema, fill, 300)
 	i = 0
 	arrowPath := filepath.Join(dir, "dup.arrow")
-	writeArrowFile(t, arrowPath, schema, fill, 300)
+	integrityArrowFile(t, arrowPath, schema, fill, 300)
 	for _, p := range []string{pq, arrowPath} {
 		for _, extra := range [][]string{nil, {"--columns", "a,b"}} {
-			code, m, errs := estimateJSON(t, append(extra, p)...)
+			code, m, errs := integrityEstimate(t, append(extra, p)...)
 			if code != ExitInput || m != nil || !strings.Contains(errs, p) || !strings.Contains(errs, `"a"`) || !strings.Contains(errs, "duplicate column") {
 				t.Errorf("%s %v: exit %d, stderr %q; want 3 naming the file and \"a\"", p, extra, code, errs)
 			}
 		}
-		if code, m, errs := estimateJSON(t, "--columns", "b", "--max-k", "4", p); code != ExitOK || m == nil {
+		if code, m, errs := integrityEstimate(t, "--columns", "b", "--max-k", "4", p); code != ExitOK || m == nil {
 			t.Errorf("%s --columns b: exit %d (the duplicates are not features): %s", p, code, errs)
 		}
 	}
 }
 
-func writeArrowFile(t *testing.T, path string, schema *arrow.Schema, fill func(b *array.RecordBuilder), rows int) {
+func integrityArrowFile(t *testing.T, path string, schema *arrow.Schema, fill func(b *array.RecordBuilder), rows int) {
 	t.Helper()
 	b := array.NewRecordBuilder(memory.DefaultAllocator, schema)
 	defer b.Release()
@@ -263,7 +263,7 @@ func TestOutputsNeverOverwriteInputs(t *testing.T) {
 	link := filepath.Join(t.TempDir(), "innocent.json")
 	os.Symlink(file, link)
 	sk := filepath.Join(t.TempDir(), "s.kgs")
-	if code, _, errs := estimateJSON(t, "--save-sketch", sk, file); code != ExitOK {
+	if code, _, errs := integrityEstimate(t, "--save-sketch", sk, file); code != ExitOK {
 		t.Fatalf("save: %s", errs)
 	}
 	skData := mustRead(t, sk)
@@ -277,7 +277,7 @@ func TestOutputsNeverOverwriteInputs(t *testing.T) {
 		{"--report", file, []string{filepath.Join(dir, "*.parquet")}},
 		{"--save-sketch", sk, []string{sk}},
 	} {
-		code, m, errs := estimateJSON(t, append([]string{tc.flag, tc.out}, tc.inputs...)...)
+		code, m, errs := integrityEstimate(t, append([]string{tc.flag, tc.out}, tc.inputs...)...)
 		first := strings.SplitN(errs, "\n", 2)[0]
 		if code != ExitUsage || m != nil || !strings.Contains(first, tc.flag+" "+tc.out) || !strings.Contains(first, "input") {
 			t.Errorf("%s %s %v: exit %d, stderr %q; want 2 naming the output and the input", tc.flag, tc.out, tc.inputs, code, errs)
@@ -287,7 +287,7 @@ func TestOutputsNeverOverwriteInputs(t *testing.T) {
 		}
 	}
 	same := filepath.Join(t.TempDir(), "r.json")
-	if code, _, errs := estimateJSON(t, "--out", same, "--report", same, file); code != ExitUsage || !strings.Contains(errs, "--out") || !strings.Contains(errs, "--report") {
+	if code, _, errs := integrityEstimate(t, "--out", same, "--report", same, file); code != ExitUsage || !strings.Contains(errs, "--out") || !strings.Contains(errs, "--report") {
 		t.Errorf("--out and --report one file: exit %d, stderr %q; want 2 naming both", code, errs)
 	}
 }
@@ -306,12 +306,12 @@ func TestOutputsIndependent(t *testing.T) {
 		return w
 	}
 	defer func() { atomicfile.WrapWriter = nil }()
-	code, m, errs := estimateJSON(t, "--out", res, "--save-sketch", sk, dir)
+	code, m, errs := integrityEstimate(t, "--out", res, "--save-sketch", sk, dir)
 	if code != ExitOutput || !strings.Contains(errs, "--save-sketch") || !strings.Contains(errs, sk) || strings.Contains(errs, "--out") {
 		t.Errorf("exit %d, stderr %q; want 4 naming --save-sketch only", code, errs)
 	}
-	if m == nil || rowsOf(m) != 20000 {
-		t.Errorf("the result was not printed (rows %v)", rowsOf(m))
+	if m == nil || integrityRows(m) != 20000 {
+		t.Errorf("the result was not printed (rows %v)", integrityRows(m))
 	}
 	var written map[string]any
 	if err := json.Unmarshal(mustRead(t, res), &written); err != nil || written["k"] != m["k"] {
@@ -329,7 +329,7 @@ func TestOutputsIndependent(t *testing.T) {
 	}
 	stale := filepath.Join(outDir, ".result.json.tmp-"+strconv.Itoa(dead.Process.Pid)+"-42")
 	os.WriteFile(stale, []byte(`{"k": `), 0o644)
-	if code, _, errs := estimateJSON(t, "--out", res, dir); code != ExitOK {
+	if code, _, errs := integrityEstimate(t, "--out", res, dir); code != ExitOK {
 		t.Fatalf("exit %d: %s", code, errs)
 	}
 	if _, err := os.Stat(stale); !os.IsNotExist(err) {

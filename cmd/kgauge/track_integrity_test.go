@@ -19,9 +19,9 @@ import (
 // or incomplete partition is retried, a partition can be quarantined, a missing sketch is rebuilt,
 // and the ledger goes by its real file.
 
-// smallDays writes n days of 3,000 meters (three archetypes) under a new root and returns it and
+// integrityDays writes n days of 3,000 meters (three archetypes) under a new root and returns it and
 // the day keys.
-func smallDays(t *testing.T, n int) (string, []string) {
+func integrityDays(t *testing.T, n int) (string, []string) {
 	t.Helper()
 	o := synth.DefaultLoadOptions()
 	o.Rows, o.RowGroup, o.Archetypes, o.Partitions, o.Seed = 3000, 1500, 3, n, 7
@@ -37,8 +37,8 @@ func smallDays(t *testing.T, n int) (string, []string) {
 	return root, days
 }
 
-// latest returns the latest record of each partition in the ledger.
-func latest(t *testing.T, path string) map[string]ledger.Record {
+// latestByPartition returns the latest record of each partition in the ledger.
+func latestByPartition(t *testing.T, path string) map[string]ledger.Record {
 	t.Helper()
 	m := map[string]ledger.Record{}
 	for _, r := range readLedger(t, path) {
@@ -47,7 +47,7 @@ func latest(t *testing.T, path string) map[string]ledger.Record {
 	return m
 }
 
-func trackRun(t *testing.T, root, led string, extra ...string) (int, string, string) {
+func integrityTrack(t *testing.T, root, led string, extra ...string) (int, string, string) {
 	t.Helper()
 	args := append([]string{"track", root, "--ledger", led}, quickFlags...)
 	return run(t, append(args, extra...)...)
@@ -59,17 +59,17 @@ func trackRun(t *testing.T, root, led string, extra ...string) (int, string, str
 // incomplete with its skipped file, the later days are profiled, the run exits 3 naming it, and
 // the next run profiles it again. (It used to be recorded done with half its rows, for good.)
 func TestTrackUnreadableFile(t *testing.T) {
-	root, days := smallDays(t, 3)
+	root, days := integrityDays(t, 3)
 	good := mustRead(t, filepath.Join(root, days[1], "part-000.parquet"))
 	second := filepath.Join(root, days[1], "part-001.parquet")
 	os.WriteFile(second, good[:len(good)/2], 0o644)
 	led := filepath.Join(t.TempDir(), "loads.jsonl")
 
-	code, _, errs := trackRun(t, root, led)
+	code, _, errs := integrityTrack(t, root, led)
 	if code != ExitInput || !strings.Contains(errs, second) || !strings.Contains(errs, days[1]) || !strings.Contains(errs, "--quarantine") {
 		t.Fatalf("exit %d, stderr %q; want 3 naming %s and %s", code, errs, second, days[1])
 	}
-	m := latest(t, led)
+	m := latestByPartition(t, led)
 	if m[days[0]].Status != ledger.StatusDone || m[days[1]].Status != ledger.StatusFailed || !strings.Contains(m[days[1]].Error, "part-001.parquet") {
 		t.Errorf("states %q %q (%q); want done, failed naming the file", m[days[0]].Status, m[days[1]].Status, m[days[1]].Error)
 	}
@@ -78,14 +78,14 @@ func TestTrackUnreadableFile(t *testing.T) {
 	}
 
 	// --skip-unreadable: incomplete, listed, the day after it profiled, exit 3.
-	code, out, errs := trackRun(t, root, led, "--skip-unreadable")
+	code, out, errs := integrityTrack(t, root, led, "--skip-unreadable")
 	if code != ExitInput || !strings.Contains(errs, "incomplete") || !strings.Contains(errs, days[1]) {
 		t.Errorf("--skip-unreadable: exit %d, stderr %q; want 3 naming the incomplete %s", code, errs, days[1])
 	}
 	if !strings.Contains(out, days[1]+"  k ") || !strings.Contains(out, "INCOMPLETE") {
 		t.Errorf("no incomplete line for %s:\n%s", days[1], out)
 	}
-	m = latest(t, led)
+	m = latestByPartition(t, led)
 	r := m[days[1]]
 	if r.Status != ledger.StatusIncomplete || len(r.SkippedFiles) != 1 || r.SkippedFiles[0].Path != days[1]+"/part-001.parquet" || r.Rows+r.SkippedRows != 3000 {
 		t.Errorf("%s: status %q, skipped %v, rows %d; want incomplete, the cut file, 3000 rows", days[1], r.Status, r.SkippedFiles, r.Rows+r.SkippedRows)
@@ -96,15 +96,15 @@ func TestTrackUnreadableFile(t *testing.T) {
 
 	// Repaired: the next run profiles the day again, from both files, and is done.
 	os.WriteFile(second, good, 0o644)
-	code, out, errs = trackRun(t, root, led)
+	code, out, errs = integrityTrack(t, root, led)
 	if code != ExitOK || strings.Count(out, "\n") != 1 || !strings.HasPrefix(out, days[1]+" ") {
 		t.Fatalf("after the repair: exit %d, stdout %q: %s", code, out, errs)
 	}
-	r = latest(t, led)[days[1]]
+	r = latestByPartition(t, led)[days[1]]
 	if r.Status != ledger.StatusDone || len(r.Files) != 2 || r.Rows+r.SkippedRows != 6000 {
 		t.Errorf("repaired %s: status %q, %d files, %d rows; want done, 2, 6000", days[1], r.Status, len(r.Files), r.Rows+r.SkippedRows)
 	}
-	if code, out, _ := trackRun(t, root, led); code != ExitOK || out != "" {
+	if code, out, _ := integrityTrack(t, root, led); code != ExitOK || out != "" {
 		t.Errorf("rerun: exit %d, stdout %q; want 0 and nothing", code, out)
 	}
 }
@@ -113,7 +113,7 @@ func TestTrackUnreadableFile(t *testing.T) {
 // --quarantine sets it aside with a ledger entry, the later days are profiled, and the run (and
 // every later one, without the flag) exits 3 naming it; --release profiles it again.
 func TestTrackQuarantine(t *testing.T) {
-	root, days := smallDays(t, 4)
+	root, days := integrityDays(t, 4)
 	file := filepath.Join(root, days[1], "part-000.parquet")
 	good := mustRead(t, file)
 	bad := bytes.Clone(good)
@@ -123,24 +123,24 @@ func TestTrackQuarantine(t *testing.T) {
 	os.WriteFile(file, bad, 0o644)
 	led := filepath.Join(t.TempDir(), "loads.jsonl")
 	for range 2 {
-		if code, _, errs := trackRun(t, root, led); code != ExitInput || !strings.Contains(errs, days[1]) {
+		if code, _, errs := integrityTrack(t, root, led); code != ExitInput || !strings.Contains(errs, days[1]) {
 			t.Fatalf("exit %d, stderr %q; want 3 naming %s", code, errs, days[1])
 		}
 	}
-	if _, ok := latest(t, led)[days[2]]; ok {
+	if _, ok := latestByPartition(t, led)[days[2]]; ok {
 		t.Fatalf("%s profiled past the failing day", days[2])
 	}
-	if code, _, errs := trackRun(t, root, led, "--quarantine", "day=1999-01-01"); code != ExitUsage || !strings.Contains(errs, "day=1999-01-01") {
+	if code, _, errs := integrityTrack(t, root, led, "--quarantine", "day=1999-01-01"); code != ExitUsage || !strings.Contains(errs, "day=1999-01-01") {
 		t.Errorf("quarantine of no partition: exit %d, stderr %q; want 2", code, errs)
 	}
-	code, out, errs := trackRun(t, root, led, "--quarantine", days[1])
+	code, out, errs := integrityTrack(t, root, led, "--quarantine", days[1])
 	if code != ExitInput || !strings.Contains(errs, "quarantined") || !strings.Contains(errs, days[1]) {
 		t.Errorf("exit %d, stderr %q; want 3 naming the quarantined %s", code, errs, days[1])
 	}
 	if !strings.Contains(out, days[1]+"  QUARANTINED") {
 		t.Errorf("no quarantine line:\n%s", out)
 	}
-	m := latest(t, led)
+	m := latestByPartition(t, led)
 	for _, d := range days[2:] {
 		if m[d].Status != ledger.StatusDone {
 			t.Errorf("%s: %q, want done past the quarantined day", d, m[d].Status)
@@ -150,13 +150,13 @@ func TestTrackQuarantine(t *testing.T) {
 		t.Errorf("%s: %q, want quarantined", days[1], m[days[1]].Status)
 	}
 	before := len(readLedger(t, led))
-	code, out, errs = trackRun(t, root, led)
+	code, out, errs = integrityTrack(t, root, led)
 	if code != ExitInput || out != "" || !strings.Contains(errs, "quarantined") || len(readLedger(t, led)) != before {
 		t.Errorf("later run: exit %d, stdout %q, stderr %q; want 3, no new record", code, out, errs)
 	}
 	os.WriteFile(file, good, 0o644)
-	code, out, errs = trackRun(t, root, led, "--release", days[1])
-	if code != ExitOK || !strings.HasPrefix(out, days[1]+"  k ") || latest(t, led)[days[1]].Status != ledger.StatusDone {
+	code, out, errs = integrityTrack(t, root, led, "--release", days[1])
+	if code != ExitOK || !strings.HasPrefix(out, days[1]+"  k ") || latestByPartition(t, led)[days[1]].Status != ledger.StatusDone {
 		t.Errorf("--release: exit %d, stdout %q: %s", code, out, errs)
 	}
 }
@@ -165,14 +165,14 @@ func TestTrackQuarantine(t *testing.T) {
 // its sketch saved (it used to stay missing for good). A sketch that cannot be saved (full disk)
 // keeps the verdict as an incomplete record, exit 4, and is retried.
 func TestTrackRebuildsMissingSketch(t *testing.T) {
-	root, days := smallDays(t, 2)
+	root, days := integrityDays(t, 2)
 	led := filepath.Join(t.TempDir(), "loads.jsonl")
-	if code, _, errs := trackRun(t, root, led); code != ExitOK {
+	if code, _, errs := integrityTrack(t, root, led); code != ExitOK {
 		t.Fatalf("exit %d: %s", code, errs)
 	}
-	sk := filepath.Join(filepath.Dir(led), filepath.FromSlash(latest(t, led)[days[0]].Sketch))
+	sk := filepath.Join(filepath.Dir(led), filepath.FromSlash(latestByPartition(t, led)[days[0]].Sketch))
 	os.Remove(sk)
-	code, out, errs := trackRun(t, root, led)
+	code, out, errs := integrityTrack(t, root, led)
 	if code != ExitOK || !strings.HasPrefix(out, days[0]+" ") || !strings.Contains(errs, "missing") {
 		t.Errorf("exit %d, stdout %q, stderr %q; want %s profiled again", code, out, errs, days[0])
 	}
@@ -187,15 +187,15 @@ func TestTrackRebuildsMissingSketch(t *testing.T) {
 		}
 		return w
 	}
-	code, _, errs = trackRun(t, root, led)
+	code, _, errs = integrityTrack(t, root, led)
 	atomicfile.WrapWriter = nil
 	if code != ExitOutput || !strings.Contains(errs, days[0]) {
 		t.Errorf("full disk: exit %d, stderr %q; want 4 naming %s", code, errs, days[0])
 	}
-	if r := latest(t, led)[days[0]]; r.Status != ledger.StatusIncomplete || r.K == 0 || !strings.Contains(r.Error, "sketch not saved") {
+	if r := latestByPartition(t, led)[days[0]]; r.Status != ledger.StatusIncomplete || r.K == 0 || !strings.Contains(r.Error, "sketch not saved") {
 		t.Errorf("record after the failed sketch: status %q, k %d, error %q", r.Status, r.K, r.Error)
 	}
-	if code, out, errs := trackRun(t, root, led); code != ExitOK || !strings.HasPrefix(out, days[0]+" ") {
+	if code, out, errs := integrityTrack(t, root, led); code != ExitOK || !strings.HasPrefix(out, days[0]+" ") {
 		t.Errorf("retry: exit %d, stdout %q: %s", code, out, errs)
 	}
 }
@@ -204,7 +204,7 @@ func TestTrackRebuildsMissingSketch(t *testing.T) {
 // link waits for a run on the file; the link stays a link. A ledger that is a data file of the
 // lake is refused before anything is read (exit 2 naming both).
 func TestTrackLedgerSymlink(t *testing.T) {
-	root, days := smallDays(t, 1)
+	root, days := integrityDays(t, 1)
 	dir := t.TempDir()
 	led := filepath.Join(dir, "loads.jsonl")
 	link := filepath.Join(t.TempDir(), "current.jsonl")
@@ -215,12 +215,12 @@ func TestTrackLedgerSymlink(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	code, _, errs := trackRun(t, root, link)
+	code, _, errs := integrityTrack(t, root, link)
 	l.Unlock()
 	if code != ExitInput || !strings.Contains(errs, led+".lock") {
 		t.Errorf("through the link while the file is locked: exit %d, stderr %q; want 3 naming %s.lock", code, errs, led)
 	}
-	if code, _, errs := trackRun(t, root, link); code != ExitOK {
+	if code, _, errs := integrityTrack(t, root, link); code != ExitOK {
 		t.Fatalf("exit %d: %s", code, errs)
 	}
 	if fi, err := os.Lstat(link); err != nil || fi.Mode()&os.ModeSymlink == 0 {
@@ -237,7 +237,7 @@ func TestTrackLedgerSymlink(t *testing.T) {
 	before := mustRead(t, data)
 	for _, l := range []string{data, filepath.Join(dir, "data-link.jsonl")} {
 		os.Symlink(data, filepath.Join(dir, "data-link.jsonl"))
-		code, _, errs := trackRun(t, root, l)
+		code, _, errs := integrityTrack(t, root, l)
 		if code != ExitUsage || !strings.Contains(errs, "--ledger") || !strings.Contains(errs, data) {
 			t.Errorf("--ledger %s: exit %d, stderr %q; want 2 naming the data file", l, code, errs)
 		}
@@ -249,12 +249,12 @@ func TestTrackLedgerSymlink(t *testing.T) {
 
 // TestTrackInertText: partition values from the lake reach the text output escaped.
 func TestTrackInertText(t *testing.T) {
-	root, days := smallDays(t, 1)
+	root, days := integrityDays(t, 1)
 	evil := "day=\x1b[2J\x1b]0;x\x07"
 	if err := os.Rename(filepath.Join(root, days[0]), filepath.Join(root, evil)); err != nil {
 		t.Fatal(err)
 	}
-	code, out, errs := trackRun(t, root, filepath.Join(t.TempDir(), "l.jsonl"))
+	code, out, errs := integrityTrack(t, root, filepath.Join(t.TempDir(), "l.jsonl"))
 	if code != ExitOK {
 		t.Fatalf("exit %d: %s", code, errs)
 	}
