@@ -16,7 +16,7 @@ import (
 // carries its ETag, and its content identity is its key and ETag. A truncated object below a
 // prefix is an unreadable file, as on disk.
 func TestObjectIdentity(t *testing.T) {
-	q := fakeS3(t, "lake")
+	q := fakeS3(t, "idlake")
 	o := synth.DefaultLoadOptions()
 	o.Rows, o.RowGroup, o.Partitions = 200, 200, 1
 	o.Start = time.Date(2026, 11, 28, 0, 0, 0, 0, time.UTC)
@@ -28,9 +28,9 @@ func TestObjectIdentity(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	put(t, q, "lake", map[string][]byte{"loads/day=2026-11-28/part-000.parquet": data})
-	one := "s3://lake/loads/day=2026-11-28/part-000.parquet?" + q
-	files, err := stream.Discover([]string{one, "s3://lake/loads/?" + q})
+	put(t, q, "idlake", map[string][]byte{"loads/day=2026-11-28/part-000.parquet": data})
+	one := "s3://idlake/loads/day=2026-11-28/part-000.parquet?" + q
+	files, err := stream.Discover([]string{one, "s3://idlake/loads/?" + q})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -41,8 +41,8 @@ func TestObjectIdentity(t *testing.T) {
 	if err != nil || !strings.HasPrefix(id, "etag:"+files[0].ETag+":") || !strings.HasSuffix(id, "loads/day=2026-11-28/part-000.parquet") {
 		t.Errorf("content id %q (%v); want etag:ETAG:KEY", id, err)
 	}
-	put(t, q, "lake", map[string][]byte{"loads/day=2026-11-29/part-000.parquet": data[:len(data)/2]})
-	d, err := stream.DiscoverWith([]string{"s3://lake/loads/?" + q}, stream.DiscoverOptions{SkipUnreadable: true})
+	put(t, q, "idlake", map[string][]byte{"loads/day=2026-11-29/part-000.parquet": data[:len(data)/2]})
+	d, err := stream.DiscoverWith([]string{"s3://idlake/loads/?" + q}, stream.DiscoverOptions{SkipUnreadable: true})
 	if err != nil {
 		t.Fatal(err)
 	}
