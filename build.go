@@ -25,6 +25,8 @@ type Input struct {
 	Ignored []IgnoredColumn `json:"ignored_columns"`
 	Units   int             `json:"units"`
 	Bytes   int64           `json:"bytes"`
+	// Skipped are the data files left out as unreadable (Options.SkipUnreadable).
+	Skipped []SkippedFile `json:"skipped_files,omitempty"`
 }
 
 // FileInfo is one input file.
@@ -54,8 +56,16 @@ type Timings struct {
 var ErrNoRows = errors.New("no usable rows")
 
 // Build discovers and opens the data files named by paths (files, directories, globs), probes them,
-// and reads every row once into a sketch. The returned Input describes the files and columns.
+// and reads every row once into a sketch. The returned Input describes the files and columns. A
+// data file that cannot be read is an error, or with opt.SkipUnreadable is left out and listed in
+// Input.Skipped. The sketch records the content identity of every file read (Meta.ContentIDs).
 func Build(ctx context.Context, paths []string, opt Options) (*sketch.Sketch, *Input, Timings, error) {
+	return build(ctx, paths, opt, nil)
+}
+
+// build is Build that fails, before the pass, when a data file is one a sketch in avoid (content
+// identity → sketch path) was built from.
+func build(ctx context.Context, paths []string, opt Options, avoid map[string]string) (*sketch.Sketch, *Input, Timings, error) {
 	var tm Timings
 	if err := opt.Validate(); err != nil {
 		return nil, nil, tm, err
@@ -63,7 +73,11 @@ func Build(ctx context.Context, paths []string, opt Options) (*sketch.Sketch, *I
 	opt = opt.withDefaults()
 	start := time.Now()
 	opt.Progress.stage("open")
-	files, err := stream.Discover(paths)
+	files, skipped, err := discoverFiles(paths, opt)
+	if err != nil {
+		return nil, nil, tm, err
+	}
+	ids, err := contentIDs(files, avoid)
 	if err != nil {
 		return nil, nil, tm, err
 	}
@@ -73,6 +87,7 @@ func Build(ctx context.Context, paths []string, opt Options) (*sketch.Sketch, *I
 	}
 	defer ds.Close()
 	in := describe(ds)
+	in.Skipped = skipped
 	if opt, err = opt.fitMemory(ds.Dims()); err != nil {
 		return nil, nil, tm, err
 	}
@@ -109,6 +124,7 @@ func Build(ctx context.Context, paths []string, opt Options) (*sketch.Sketch, *I
 	for _, f := range ds.Files {
 		sk.Meta.Sources = append(sk.Meta.Sources, f.Path)
 	}
+	sk.Meta.ContentIDs = ids
 	sk.Meta.ProbeRows = pr.Rows
 	if sk.Rows() == 0 {
 		return nil, nil, tm, fmt.Errorf("%w in %d file(s) (%d skipped for null or NaN values%s)", ErrNoRows,

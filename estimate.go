@@ -40,15 +40,17 @@ type Result struct {
 	Ignored     []IgnoredColumn   `json:"ignored_columns"`
 	Files       []FileInfo        `json:"files"`
 	Sketches    []string          `json:"sketches,omitempty"`
-	Scaling     Scaling           `json:"scaling"`
-	Sketch      SketchInfo        `json:"sketch"`
-	MinK        int               `json:"min_k"`
-	MaxK        int               `json:"max_k"`
-	Seed        uint64            `json:"seed"`
-	Version     string            `json:"version"`
-	Timings     Timings           `json:"timings"`
-	Throughput  *Throughput       `json:"throughput,omitempty"` // the pass's measured speed (see Project)
-	Projection  []model.Row       `json:"projection,omitempty"` // the model's time for 1×, 10×, 100× the input
+	// SkippedFiles are data files left out because they cannot be read (--skip-unreadable).
+	SkippedFiles []SkippedFile `json:"skipped_files,omitempty"`
+	Scaling      Scaling       `json:"scaling"`
+	Sketch       SketchInfo    `json:"sketch"`
+	MinK         int           `json:"min_k"`
+	MaxK         int           `json:"max_k"`
+	Seed         uint64        `json:"seed"`
+	Version      string        `json:"version"`
+	Timings      Timings       `json:"timings"`
+	Throughput   *Throughput   `json:"throughput,omitempty"` // the pass's measured speed (see Project)
+	Projection   []model.Row   `json:"projection,omitempty"` // the model's time for 1×, 10×, 100× the input
 
 	criteria *criteria.Result
 }
@@ -135,28 +137,32 @@ func Estimate(ctx context.Context, inputs []string, opt Options) (*Result, *sket
 	} else {
 		defer debug.SetGCPercent(old)
 	}
+	// Saved sketches first: each is taken once, and their content identities keep the data files
+	// they were built from out of the pass (an error, not a silent double count).
+	loaded, owners, err := loadSketches(sketchPaths)
+	if err != nil {
+		return nil, nil, err
+	}
 	var (
 		total *sketch.Sketch
 		in    *Input
 		tm    Timings
 	)
 	if len(dataPaths) > 0 {
-		total, in, tm, err = Build(ctx, dataPaths, opt)
+		total, in, tm, err = build(ctx, dataPaths, opt, owners)
 		if err != nil {
 			return nil, nil, err
 		}
 	}
-	for _, p := range sketchPaths {
-		sk, err := LoadSketch(p)
-		if err != nil {
-			return nil, nil, err
-		}
+	sketchPaths = sketchPaths[:0]
+	for _, ls := range loaded {
+		sketchPaths = append(sketchPaths, ls.path)
 		if total == nil {
-			total = sk
+			total = ls.sk
 			continue
 		}
-		if err := total.Merge(sk); err != nil {
-			return nil, nil, fmt.Errorf("%s: %w", p, err)
+		if err := total.Merge(ls.sk); err != nil {
+			return nil, nil, fmt.Errorf("%s: %w", ls.path, err)
 		}
 	}
 	if len(dataPaths) > 0 {
@@ -174,6 +180,7 @@ func Estimate(ctx context.Context, inputs []string, opt Options) (*Result, *sket
 	if in != nil {
 		r.Files = in.Files
 		r.Ignored = in.Ignored
+		r.SkippedFiles = in.Skipped
 	}
 	if r.Files == nil {
 		r.Files = []FileInfo{}

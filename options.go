@@ -47,8 +47,11 @@ type Options struct {
 	Sketch     sketch.Config
 	Criteria   criteria.Options
 	Seed       uint64
-	Memory     int64     // bytes the run may hold at most (estimated); 0 means no limit
-	Progress   *Progress // optional; updated as rows are read
+	Memory     int64 // bytes the run may hold at most (estimated); 0 means no limit
+	// SkipUnreadable leaves out data files that cannot be read (permissions, a dangling link, a
+	// truncated or damaged file or footer) and lists them in the result, instead of failing.
+	SkipUnreadable bool
+	Progress       *Progress // optional; updated as rows are read
 }
 
 // DefaultOptions returns the options used for zero fields.

@@ -10,6 +10,13 @@
 //	LEDGER.lock         the lock file; held with flock(2) while a run reads and writes the ledger
 //	LEDGER.sketches/    one sketch per partition, KEY=VALUE[/KEY=VALUE...].kgs
 //
+// # Partition states
+//
+// Records carry a status (done, incomplete, failed, quarantined); the latest record of a partition
+// is its state. Only a done partition whose sketch exists is left alone; incomplete and failed
+// ones are profiled again by the next run, quarantined ones are passed over until released.
+// Partitions are profiled in key order and a failed one stops the run.
+//
 // # Crash safety
 //
 // A record is added by writing the whole new ledger (the earlier lines byte for byte, then the
@@ -28,6 +35,7 @@
 // # Locking
 //
 // [Lock] takes an exclusive flock(2) on LEDGER.lock, waiting up to a given time, so two runs on
-// one ledger never interleave. The lock file is never removed (removing it would let a third run
+// one ledger never interleave. [Track] resolves symbolic links to the ledger first, so the lock
+// file is that of the real ledger whatever name a run was given. The lock file is never removed (removing it would let a third run
 // lock a different file).
 package ledger

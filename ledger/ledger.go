@@ -23,8 +23,8 @@ type Ledger struct {
 	// write, left out of Records and dropped at the next Append.
 	Remnant *Remnant
 
-	lines [][]byte // the valid lines as read, without their newline, kept byte for byte
-	have  map[string]bool
+	lines  [][]byte       // the valid lines as read, without their newline, kept byte for byte
+	latest map[string]int // partition → index in Records of its latest record
 }
 
 // Remnant describes an incomplete last line.
@@ -58,7 +58,7 @@ var ErrCorrupt = errors.New("not a valid ledger record")
 // Open reads the ledger at path. A missing file is an empty ledger. Any line other than an
 // incomplete last one that is not a valid record is a *LineError.
 func Open(path string) (*Ledger, error) {
-	l := &Ledger{Path: path, have: map[string]bool{}}
+	l := &Ledger{Path: path, latest: map[string]int{}}
 	data, err := os.ReadFile(path)
 	if errors.Is(err, fs.ErrNotExist) {
 		return l, nil
@@ -85,7 +85,7 @@ func Open(path string) (*Ledger, error) {
 		}
 		l.lines = append(l.lines, bytes.Clone(line))
 		l.Records = append(l.Records, rec)
-		l.have[rec.Partition] = true
+		l.latest[rec.Partition] = len(l.Records) - 1
 	}
 	return l, nil
 }
@@ -107,11 +107,42 @@ func parseLine(line []byte) (Record, error) {
 	case rec.Partition == "":
 		return rec, fmt.Errorf("%w: no partition", ErrCorrupt)
 	}
+	switch rec.Status {
+	case "":
+		rec.Status = StatusDone // schema 1, or written without one: a verdict
+	case StatusDone, StatusIncomplete, StatusFailed, StatusQuarantined:
+	default:
+		return rec, fmt.Errorf("%w: unknown status %q", ErrCorrupt, rec.Status)
+	}
 	return rec, nil
 }
 
-// Has reports whether the ledger holds a record of the partition key.
-func (l *Ledger) Has(partition string) bool { return l.have[partition] }
+// Has reports whether the partition key is done: its latest record has status done.
+func (l *Ledger) Has(partition string) bool {
+	r := l.Latest(partition)
+	return r != nil && r.Status == StatusDone
+}
+
+// Latest returns the latest record of the partition key, its state, or nil.
+func (l *Ledger) Latest(partition string) *Record {
+	i, ok := l.latest[partition]
+	if !ok {
+		return nil
+	}
+	return &l.Records[i]
+}
+
+// History returns the records drift is checked against: for every partition whose latest record
+// is done, that record, in ledger order.
+func (l *Ledger) History() []Record {
+	var out []Record
+	for i, r := range l.Records {
+		if r.Status == StatusDone && l.latest[r.Partition] == i {
+			out = append(out, r)
+		}
+	}
+	return out
+}
 
 // Append adds rec to the ledger: the earlier records byte for byte and the new one are written to
 // a temporary file, synced and renamed over the ledger, so the file holds either the old records or
@@ -137,7 +168,7 @@ func (l *Ledger) Append(rec Record) error {
 	}
 	l.lines = append(l.lines, line)
 	l.Records = append(l.Records, rec)
-	l.have[rec.Partition] = true
+	l.latest[rec.Partition] = len(l.Records) - 1
 	l.Remnant = nil
 	return nil
 }

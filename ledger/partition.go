@@ -17,35 +17,61 @@ type Partition struct {
 	Values []KeyValue // the segments parsed, outermost first (values %-unescaped)
 	Dir    string
 	Files  []string // the data files directly in Dir, sorted
+	// Skipped are the data files directly in Dir that cannot be read, sorted.
+	Skipped []stream.Skipped
 }
 
-// Partitions finds the partitions below root, sorted by key. Data files that are not directly in
-// a partition directory (in root itself, or below a segment that is not KEY=VALUE) are returned
-// as outside, sorted. Discovery follows [stream.Discover]: names starting with "_" or "." are
-// skipped and data files are recognised by their magic bytes.
+// Partitions finds the partitions below root, sorted by key (byte order of the KEY=VALUE path, the
+// order Track profiles them in). Data files that are not directly in a partition directory (in
+// root itself, or below a segment that is not KEY=VALUE) are returned as outside, sorted.
+// Discovery follows [stream.DiscoverWith]: names starting with "_" or "." are skipped and data
+// files are recognised by their magic bytes; a data file that cannot be read is kept in its
+// partition's Skipped (outside, when it is in none), so that one bad file fails its partition,
+// not the whole lake. A partition directory whose files all cannot be read is a partition too.
 func Partitions(root string) (parts []Partition, outside []string, err error) {
-	files, err := stream.Discover([]string{root})
+	d, err := stream.DiscoverWith([]string{root}, stream.DiscoverOptions{SkipUnreadable: true})
 	if err != nil {
 		return nil, nil, fmt.Errorf("ledger: %w", err)
 	}
 	byDir := map[string]*Partition{}
-	for _, f := range files {
-		dir := filepath.Dir(f.Path)
-		p, ok := byDir[dir]
-		if !ok {
-			rel, err := filepath.Rel(root, dir)
-			if err != nil {
-				return nil, nil, fmt.Errorf("ledger: %w", err)
-			}
-			vals, isHive := parseHive(filepath.ToSlash(rel))
-			if !isHive {
-				outside = append(outside, f.Path)
-				continue
-			}
-			p = &Partition{Key: filepath.ToSlash(rel), Values: vals, Dir: dir}
-			byDir[dir] = p
+	place := func(path string) (*Partition, error) {
+		dir := filepath.Dir(path)
+		if p, ok := byDir[dir]; ok {
+			return p, nil
+		}
+		rel, err := filepath.Rel(root, dir)
+		if err != nil {
+			return nil, fmt.Errorf("ledger: %w", err)
+		}
+		vals, isHive := parseHive(filepath.ToSlash(rel))
+		if !isHive {
+			return nil, nil
+		}
+		p := &Partition{Key: filepath.ToSlash(rel), Values: vals, Dir: dir}
+		byDir[dir] = p
+		return p, nil
+	}
+	for _, f := range d.Files {
+		p, err := place(f.Path)
+		if err != nil {
+			return nil, nil, err
+		}
+		if p == nil {
+			outside = append(outside, f.Path)
+			continue
 		}
 		p.Files = append(p.Files, f.Path)
+	}
+	for _, s := range d.Skipped {
+		p, err := place(s.Path)
+		if err != nil {
+			return nil, nil, err
+		}
+		if p == nil {
+			outside = append(outside, s.Path)
+			continue
+		}
+		p.Skipped = append(p.Skipped, s)
 	}
 	for _, p := range byDir {
 		sort.Strings(p.Files)

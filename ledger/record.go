@@ -10,37 +10,59 @@ import (
 )
 
 // SchemaVersion is the version of the record layout written in every record's "schema" field.
-// Readers reject records of a later version.
-const SchemaVersion = 1
+// Readers reject records of a later version. Version 2 added status, skipped_files and error; a
+// version-1 record is read as status "done".
+const SchemaVersion = 2
+
+// The states of a partition, as in Record.Status. The latest record of a partition is its state.
+const (
+	// StatusDone: every data file of the partition was read; the partition is not profiled again
+	// while its saved sketch exists.
+	StatusDone = "done"
+	// StatusIncomplete: a verdict from the files that could be read (skipped_files lists the
+	// others, --skip-unreadable), or a verdict whose sketch could not be saved (error says so).
+	// The partition is profiled again by the next run.
+	StatusIncomplete = "incomplete"
+	// StatusFailed: the partition could not be profiled (error says why); no verdict. It is
+	// profiled again by the next run.
+	StatusFailed = "failed"
+	// StatusQuarantined: set aside by --quarantine; not read until --release names it.
+	StatusQuarantined = "quarantined"
+)
 
 // Record is one line of the ledger: what profiling one partition found. The JSON field names are
 // a stable contract documented in the README.
 type Record struct {
-	Schema          int             `json:"schema"`
-	Partition       string          `json:"partition"` // KEY=VALUE segments joined by "/", e.g. "day=2026-11-28"
-	PartitionValues []KeyValue      `json:"partition_values"`
-	Root            string          `json:"root"`  // the lake root, absolute
-	Files           []File          `json:"files"` // data files read, relative to Root
-	Rows            int64           `json:"rows"`
-	SkippedRows     int64           `json:"skipped_rows"`
-	ProbeRows       int64           `json:"probe_rows"`
-	Columns         []string        `json:"columns"`
-	Scale           string          `json:"scale"`
-	MinK            int             `json:"min_k"`
-	MaxK            int             `json:"max_k"`
-	Seed            uint64          `json:"seed"`
-	K               int             `json:"k"`
-	RunnerUp        *int            `json:"runner_up"`
-	Agreement       float64         `json:"agreement"`
-	Structure       bool            `json:"structure"`
-	Votes           map[string]*int `json:"votes"` // criterion → k, null when it abstained
-	PerK            []Scores        `json:"per_k"`
-	Sketch          string          `json:"sketch"` // sketch file, relative to the ledger's directory, "/"-separated
-	SketchBytes     int64           `json:"sketch_bytes"`
-	ProfiledAt      string          `json:"profiled_at"` // RFC 3339, UTC
-	Timings         Timings         `json:"timings"`
-	Version         string          `json:"version"` // kgauge version that wrote the record
-	Drift           Drift           `json:"drift"`
+	Schema          int        `json:"schema"`
+	Partition       string     `json:"partition"` // KEY=VALUE segments joined by "/", e.g. "day=2026-11-28"
+	Status          string     `json:"status"`    // StatusDone, StatusIncomplete, StatusFailed or StatusQuarantined
+	PartitionValues []KeyValue `json:"partition_values"`
+	Root            string     `json:"root"`  // the lake root, absolute
+	Files           []File     `json:"files"` // data files read, relative to Root
+	// SkippedFiles are the partition's data files that could not be read, relative to Root.
+	SkippedFiles []SkippedFile `json:"skipped_files,omitempty"`
+	// Error says why the partition failed, was quarantined, or is incomplete beyond skipped files.
+	Error       string          `json:"error,omitempty"`
+	Rows        int64           `json:"rows"`
+	SkippedRows int64           `json:"skipped_rows"`
+	ProbeRows   int64           `json:"probe_rows"`
+	Columns     []string        `json:"columns"`
+	Scale       string          `json:"scale"`
+	MinK        int             `json:"min_k"`
+	MaxK        int             `json:"max_k"`
+	Seed        uint64          `json:"seed"`
+	K           int             `json:"k"`
+	RunnerUp    *int            `json:"runner_up"`
+	Agreement   float64         `json:"agreement"`
+	Structure   bool            `json:"structure"`
+	Votes       map[string]*int `json:"votes"` // criterion → k, null when it abstained
+	PerK        []Scores        `json:"per_k"`
+	Sketch      string          `json:"sketch"` // sketch file, relative to the ledger's directory, "/"-separated
+	SketchBytes int64           `json:"sketch_bytes"`
+	ProfiledAt  string          `json:"profiled_at"` // RFC 3339, UTC
+	Timings     Timings         `json:"timings"`
+	Version     string          `json:"version"` // kgauge version that wrote the record
+	Drift       Drift           `json:"drift"`
 }
 
 // KeyValue is one KEY=VALUE segment of a hive-style partition path.
@@ -54,6 +76,12 @@ type File struct {
 	Path   string `json:"path"` // relative to the record's Root, "/"-separated
 	Format string `json:"format"`
 	Bytes  int64  `json:"bytes"`
+}
+
+// SkippedFile is a data file of a partition that could not be read, with the reason.
+type SkippedFile struct {
+	Path   string `json:"path"` // relative to the record's Root, "/"-separated
+	Reason string `json:"reason"`
 }
 
 // Timings are the seconds spent profiling a partition.
@@ -131,7 +159,7 @@ func (r *Record) WCSSPerRow(k int) (float64, bool) {
 // the sketch file's path relative to the ledger's directory; Drift and Timings.Total are left for
 // the caller.
 func NewRecord(p Partition, root string, res *kgauge.Result, sketch string, sketchBytes int64, at time.Time) Record {
-	r := Record{Schema: SchemaVersion, Partition: p.Key, PartitionValues: p.Values, Root: root,
+	r := Record{Schema: SchemaVersion, Partition: p.Key, Status: StatusDone, PartitionValues: p.Values, Root: root,
 		Files: make([]File, 0, len(res.Files)), Rows: res.Rows, SkippedRows: res.SkippedRows,
 		ProbeRows: res.ProbeRows, Columns: res.Columns, Scale: string(res.Scaling.Method),
 		MinK: res.MinK, MaxK: res.MaxK, Seed: res.Seed, K: res.K, RunnerUp: res.RunnerUp,
@@ -142,11 +170,13 @@ func NewRecord(p Partition, root string, res *kgauge.Result, sketch string, sket
 			Criteria: res.Timings.Criteria},
 		Drift: Drift{Reasons: []Reason{}, WCSSPerRow: Float(math.NaN()), WindowWCSSPerRow: Float(math.NaN())}}
 	for _, f := range res.Files {
-		rel, err := filepath.Rel(root, f.Path)
-		if err != nil {
-			rel = f.Path
-		}
-		r.Files = append(r.Files, File{Path: filepath.ToSlash(rel), Format: f.Format, Bytes: f.Bytes})
+		r.Files = append(r.Files, File{Path: relTo(root, f.Path), Format: f.Format, Bytes: f.Bytes})
+	}
+	for _, f := range res.SkippedFiles {
+		r.SkippedFiles = append(r.SkippedFiles, SkippedFile{Path: relTo(root, f.Path), Reason: f.Reason})
+	}
+	if len(r.SkippedFiles) > 0 {
+		r.Status = StatusIncomplete
 	}
 	for i, s := range res.PerK {
 		r.PerK[i] = Scores{K: s.K, Valid: s.Valid, WCSS: Float(s.WCSS), Silhouette: Float(s.Silhouette),
@@ -160,6 +190,30 @@ func NewRecord(p Partition, root string, res *kgauge.Result, sketch string, sket
 	}
 	if r.Votes == nil {
 		r.Votes = map[string]*int{}
+	}
+	return r
+}
+
+// relTo returns path relative to root, "/"-separated (path itself when it is not below root).
+func relTo(root, path string) string {
+	rel, err := filepath.Rel(root, path)
+	if err != nil {
+		rel = path
+	}
+	return filepath.ToSlash(rel)
+}
+
+// newStateRecord is the record of a partition that has no verdict: failed or quarantined.
+func newStateRecord(p Partition, root, status, msg string, at time.Time) Record {
+	r := Record{Schema: SchemaVersion, Partition: p.Key, Status: status, PartitionValues: p.Values, Root: root,
+		Files: []File{}, Columns: []string{}, Votes: map[string]*int{}, PerK: []Scores{}, Error: msg,
+		ProfiledAt: at.UTC().Format(time.RFC3339), Version: kgauge.Version,
+		Drift: Drift{Reasons: []Reason{}, WCSSPerRow: Float(math.NaN()), WindowWCSSPerRow: Float(math.NaN())}}
+	for _, f := range p.Files {
+		r.Files = append(r.Files, File{Path: relTo(root, f)})
+	}
+	for _, s := range p.Skipped {
+		r.SkippedFiles = append(r.SkippedFiles, SkippedFile{Path: relTo(root, s.Path), Reason: s.Reason})
 	}
 	return r
 }

@@ -5,23 +5,30 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"io/fs"
 	"os"
 	"path/filepath"
+	"strings"
 	"time"
 
 	"github.com/kgauge/kgauge"
 	"github.com/kgauge/kgauge/internal/atomicfile"
+	"github.com/kgauge/kgauge/stream"
 )
 
 // TrackOptions configures Track.
 type TrackOptions struct {
-	Estimate kgauge.Options
+	Estimate kgauge.Options // Estimate.SkipUnreadable: profile a partition from the files that can be read
 	Drift    Rules
 	LockWait time.Duration // how long to wait for another run's lock; 0 fails at once
+	// Quarantine names partitions to set aside: a quarantined record is added for each that is not
+	// quarantined yet, and none is read. Release names quarantined partitions to profile again.
+	// Both must name partitions found below root.
+	Quarantine, Release []string
 	// OnRecord, if set, is called after each record is in the ledger; an error stops Track.
 	OnRecord func(Record) error
 	// Warn, if set, receives notices: removed temporary files, an incomplete remnant, data files
-	// outside any partition.
+	// outside any partition, sketches rebuilt.
 	Warn func(msg string)
 	// Now returns the time stamped on records; nil means time.Now.
 	Now func() time.Time
@@ -29,9 +36,13 @@ type TrackOptions struct {
 
 // TrackResult says what a Track run did.
 type TrackResult struct {
-	Profiled []Record // the records appended, in order
-	Known    int      // partitions already in the ledger, left alone
-	Drifted  int      // profiled partitions whose drift verdict is true
+	Profiled    []Record // the records appended, in order (every status)
+	Known       int      // partitions done before, left alone
+	Drifted     int      // profiled partitions whose drift verdict is true
+	Incomplete  []string // partitions recorded incomplete by this run
+	Quarantined []string // partitions set aside (quarantined now or before)
+	Failed      string   // the partition whose failure stopped the run, or ""
+	Rebuilt     []string // done partitions profiled again because their saved sketch was missing
 }
 
 // OutputError is a failure to write the ledger or a sketch.
@@ -40,11 +51,43 @@ type OutputError struct{ Err error }
 func (e *OutputError) Error() string { return e.Err.Error() }
 func (e *OutputError) Unwrap() error { return e.Err }
 
-// Track profiles, under the ledger's lock, every partition below root that the ledger at
-// ledgerPath does not hold yet, in key order: it runs [kgauge.Estimate] on the partition's data
-// files, saves the sketch to [SketchPath], checks drift against the records before it, and
-// appends the record. An error stops the run; the records appended before it stay, and the failed
-// partition is profiled again by the next run. Failures to write are *OutputError.
+// PartitionError is the failure of one partition, recorded in the ledger as failed; it stops the
+// run (the partitions after it keep their order and are profiled once it is fixed, quarantined or
+// released).
+type PartitionError struct {
+	Partition string
+	Err       error
+}
+
+func (e *PartitionError) Error() string {
+	return fmt.Sprintf("partition %s: %v (recorded as failed and retried by the next run; --quarantine %s sets it aside)",
+		e.Partition, e.Err, e.Partition)
+}
+
+func (e *PartitionError) Unwrap() error { return e.Err }
+
+// UsageError is a bad Quarantine or Release name, or an output that is an input.
+type UsageError struct{ Err error }
+
+func (e *UsageError) Error() string { return e.Err.Error() }
+func (e *UsageError) Unwrap() error { return e.Err }
+
+// Track profiles, under the ledger's lock, every partition below root whose state in the ledger
+// at ledgerPath is not done, in key order: it runs [kgauge.Estimate] on the partition's data
+// files, saves the sketch to [SketchPath], checks drift against the done records before it, and
+// appends the record.
+//
+// The ledger is found through symbolic links ([atomicfile.Resolve]): the lock, the temporary
+// files and the sketches go beside the real file, and the link is never replaced. Before anything
+// is read, the ledger, its lock and the partitions' sketch files are checked against the data
+// files below root (a *UsageError wrapping a *kgauge.ClashError when one is a data file).
+//
+// A partition with a data file that cannot be read fails unless Estimate.SkipUnreadable, which
+// records it as incomplete (with its skipped files); a partition whose estimate fails on its
+// input is recorded as failed and stops the run with a *PartitionError; both are profiled again
+// by the next run. A done partition whose saved sketch is missing is profiled again. Quarantined
+// partitions are passed over. Failures to write are *OutputError; a sketch that cannot be saved
+// still leaves its record (incomplete, with the error) before the run stops.
 func Track(ctx context.Context, root, ledgerPath string, opt TrackOptions) (*TrackResult, error) {
 	if err := opt.Drift.Validate(); err != nil {
 		return nil, err
@@ -64,78 +107,223 @@ func Track(ctx context.Context, root, ledgerPath string, opt TrackOptions) (*Tra
 	if st, err := os.Stat(filepath.Dir(ledgerPath)); err != nil || !st.IsDir() {
 		return nil, &OutputError{fmt.Errorf("ledger: %s: directory %s does not exist", ledgerPath, filepath.Dir(ledgerPath))}
 	}
-	lock, err := Lock(ctx, ledgerPath, opt.LockWait)
+	// The lock and every write go by the real file, so two runs through different names (a
+	// symbolic link) exclude each other and a link to the ledger stays a link.
+	real, err := atomicfile.Resolve(ledgerPath)
+	if err != nil {
+		return nil, &OutputError{fmt.Errorf("ledger: %w", err)}
+	}
+	lock, err := Lock(ctx, real, opt.LockWait)
 	if err != nil {
 		return nil, err
 	}
 	defer lock.Unlock()
 
-	removed, err := RemoveTemps(ledgerPath)
+	parts, outside, err := Partitions(absRoot)
+	if err != nil {
+		return nil, err
+	}
+	if len(parts) == 0 {
+		return nil, &kgauge.InputError{Path: root, Err: errors.New("no KEY=VALUE partition with data files")}
+	}
+	if err := checkTrackOutputs(real, ledgerPath, parts); err != nil {
+		return nil, err
+	}
+	removed, err := RemoveTemps(real)
 	for _, p := range removed {
 		warn(fmt.Sprintf("removed %s, left by an interrupted run", p))
 	}
 	if err != nil {
 		return nil, &OutputError{err}
 	}
-	l, err := Open(ledgerPath)
+	l, err := Open(real)
 	if err != nil {
 		return nil, err
 	}
 	if l.Remnant != nil {
 		warn(fmt.Sprintf("%s: %s", ledgerPath, l.Remnant))
 	}
-	parts, outside, err := Partitions(absRoot)
-	if err != nil {
-		return nil, err
-	}
 	if len(outside) > 0 {
 		warn(fmt.Sprintf("%d data file(s) under %s are in no KEY=VALUE partition and are not tracked, the first %s",
 			len(outside), root, outside[0]))
 	}
-	if len(parts) == 0 {
-		return nil, &kgauge.InputError{Path: root, Err: errors.New("no KEY=VALUE partition with data files")}
+	if err := badNames(parts, opt.Quarantine, opt.Release); err != nil {
+		return nil, &UsageError{err}
 	}
+	quarantine, release := toSet(opt.Quarantine), toSet(opt.Release)
 	res := &TrackResult{Profiled: []Record{}}
+	appendRec := func(rec Record) error {
+		if err := l.Append(rec); err != nil {
+			return &OutputError{err}
+		}
+		res.Profiled = append(res.Profiled, rec)
+		if opt.OnRecord != nil {
+			return opt.OnRecord(rec)
+		}
+		return nil
+	}
 	for _, p := range parts {
-		if l.Has(p.Key) {
-			res.Known++
+		latest := l.Latest(p.Key)
+		if quarantine[p.Key] || (latest != nil && latest.Status == StatusQuarantined && !release[p.Key]) {
+			res.Quarantined = append(res.Quarantined, p.Key)
+			if latest == nil || latest.Status != StatusQuarantined {
+				msg := "quarantined by --quarantine; not read until --release " + p.Key
+				if err := appendRec(newStateRecord(p, absRoot, StatusQuarantined, msg, now())); err != nil {
+					return res, err
+				}
+			}
 			continue
+		}
+		if latest != nil && latest.Status == StatusDone {
+			if sketchExists(real, latest.Sketch) {
+				res.Known++
+				continue
+			}
+			warn(fmt.Sprintf("partition %s: its saved sketch %s is missing; profiling it again", p.Key, latest.Sketch))
+			res.Rebuilt = append(res.Rebuilt, p.Key)
 		}
 		if err := ctx.Err(); err != nil {
 			return res, err
 		}
-		rec, err := profile(ctx, p, absRoot, ledgerPath, opt, now)
-		if err != nil {
-			return res, err
-		}
-		rec.Drift = opt.Drift.Check(l.Records, &rec)
-		if err := l.Append(rec); err != nil {
-			return res, &OutputError{err}
-		}
-		res.Profiled = append(res.Profiled, rec)
-		if rec.Drift.Drifted {
-			res.Drifted++
-		}
-		if opt.OnRecord != nil {
-			if err := opt.OnRecord(rec); err != nil {
+		rec, perr := profile(ctx, p, absRoot, real, opt, now)
+		var oe *OutputError
+		switch {
+		case perr == nil:
+		case errors.As(perr, &oe) && rec.Partition != "":
+			// The verdict stands; only its sketch is missing. Keep it, marked incomplete.
+			rec.Status, rec.Error = StatusIncomplete, "sketch not saved: "+perr.Error()
+			rec.Drift = opt.Drift.Check(l.History(), &rec)
+			if err := appendRec(rec); err != nil {
 				return res, err
 			}
+			res.Incomplete = append(res.Incomplete, p.Key)
+			return res, perr
+		case isInputFailure(perr):
+			res.Failed = p.Key
+			if err := appendRec(newStateRecord(p, absRoot, StatusFailed, oneLine(perr), now())); err != nil {
+				return res, err
+			}
+			return res, &PartitionError{Partition: p.Key, Err: perr}
+		default:
+			return res, fmt.Errorf("partition %s: %w", p.Key, perr)
+		}
+		rec.Drift = opt.Drift.Check(l.History(), &rec)
+		if err := appendRec(rec); err != nil {
+			return res, err
+		}
+		if rec.Status == StatusIncomplete {
+			res.Incomplete = append(res.Incomplete, p.Key)
+		}
+		if rec.Drift.Drifted {
+			res.Drifted++
 		}
 	}
 	return res, nil
 }
 
-// profile estimates one partition and saves its sketch.
+// isInputFailure reports whether err is a problem with a partition's data (what exit code 3
+// means), not an interruption, an output failure or a bug.
+func isInputFailure(err error) bool {
+	var re *stream.ReadError
+	var ie *kgauge.InputError
+	return errors.As(err, &re) || errors.As(err, &ie) || errors.Is(err, kgauge.ErrNoRows) ||
+		errors.Is(err, kgauge.ErrTooFewRows) || errors.Is(err, fs.ErrNotExist) || errors.Is(err, fs.ErrPermission)
+}
+
+func oneLine(err error) string { return strings.Join(strings.Fields(err.Error()), " ") }
+
+func toSet(names []string) map[string]bool {
+	set := map[string]bool{}
+	for _, n := range names {
+		set[n] = true
+	}
+	return set
+}
+
+func hasPartition(parts []Partition, key string) bool {
+	for _, p := range parts {
+		if p.Key == key {
+			return true
+		}
+	}
+	return false
+}
+
+// badNames names the first --quarantine or --release value that is no partition.
+func badNames(parts []Partition, quarantine, release []string) error {
+	for _, f := range []struct {
+		flag  string
+		names []string
+	}{{"--quarantine", quarantine}, {"--release", release}} {
+		for _, n := range f.names {
+			if !hasPartition(parts, n) {
+				return fmt.Errorf("track: %s %q: no such partition below the root (give its KEY=VALUE path, e.g. %s)", f.flag, n, parts[0].Key)
+			}
+		}
+	}
+	return nil
+}
+
+// sketchExists reports whether the saved sketch rel (relative to the ledger's directory) exists.
+func sketchExists(ledgerPath, rel string) bool {
+	if rel == "" {
+		return false
+	}
+	_, err := os.Stat(filepath.Join(filepath.Dir(ledgerPath), filepath.FromSlash(rel)))
+	return err == nil
+}
+
+// checkTrackOutputs fails when the ledger, its lock or a partition's sketch file is one of the
+// data files below the root (the same file by device and inode).
+func checkTrackOutputs(real, given string, parts []Partition) error {
+	keys := map[string]string{}
+	for _, p := range parts {
+		for _, f := range p.Files {
+			if k, ok := stream.FileKey(f); ok {
+				keys[k] = f
+			}
+		}
+		for _, s := range p.Skipped {
+			if k, ok := stream.FileKey(s.Path); ok {
+				keys[k] = s.Path
+			}
+		}
+	}
+	outs := []kgauge.Output{{Flag: "--ledger", Path: given}, {Flag: "--ledger (its lock)", Path: LockPath(real)}}
+	for _, p := range parts {
+		path, _ := SketchPath(real, p.Key)
+		outs = append(outs, kgauge.Output{Flag: "--ledger (sketch of " + p.Key + ")", Path: path})
+	}
+	if err := kgauge.CheckOutputKeys(keys, outs); err != nil {
+		return &UsageError{err}
+	}
+	return nil
+}
+
+// profile estimates one partition and saves its sketch. A partition with unreadable files fails
+// unless opt.Estimate.SkipUnreadable. When only the sketch cannot be saved, it returns the record
+// (without a sketch) and the *OutputError.
 func profile(ctx context.Context, p Partition, root, ledgerPath string, opt TrackOptions, now func() time.Time) (Record, error) {
 	start := time.Now()
 	at := now()
+	if len(p.Skipped) > 0 && !opt.Estimate.SkipUnreadable {
+		return Record{}, p.Skipped[0].Err
+	}
+	if len(p.Files) == 0 {
+		return Record{}, &kgauge.InputError{Path: p.Dir, Err: fmt.Errorf("%w left: every data file of the partition was skipped as unreadable", stream.ErrNoDataFiles)}
+	}
 	r, sk, err := kgauge.Estimate(ctx, p.Files, opt.Estimate)
 	if err != nil {
-		return Record{}, fmt.Errorf("partition %s: %w", p.Key, err)
+		return Record{}, err
+	}
+	for _, s := range p.Skipped {
+		r.SkippedFiles = append(r.SkippedFiles, kgauge.SkippedFile{Path: s.Path, Reason: s.Reason})
 	}
 	path, rel := SketchPath(ledgerPath, p.Key)
 	if err := os.MkdirAll(filepath.Dir(path), 0o755); err != nil {
-		return Record{}, &OutputError{fmt.Errorf("ledger: %w", err)}
+		rec := NewRecord(p, root, r, "", 0, at)
+		rec.Timings.Total = time.Since(start).Seconds()
+		return rec, &OutputError{fmt.Errorf("ledger: %w", err)}
 	}
 	var size int64
 	err = atomicfile.Write(path, 0o644, func(w io.Writer) error {
@@ -145,7 +333,9 @@ func profile(ctx context.Context, p Partition, root, ledgerPath string, opt Trac
 		return err
 	})
 	if err != nil {
-		return Record{}, &OutputError{fmt.Errorf("ledger: sketch of %s: %w", p.Key, err)}
+		rec := NewRecord(p, root, r, "", 0, at)
+		rec.Timings.Total = time.Since(start).Seconds()
+		return rec, &OutputError{fmt.Errorf("ledger: sketch of %s: %w", p.Key, err)}
 	}
 	rec := NewRecord(p, root, r, rel, size, at)
 	rec.Timings.Total = time.Since(start).Seconds()

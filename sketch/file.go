@@ -10,20 +10,24 @@ import (
 	"math"
 )
 
-// The sketch file format, version 1, all integers little-endian:
+// The sketch file format, version 2, all integers little-endian:
 //
 //	magic    [8]byte  "KGSKETCH"
-//	version  uint32   1
+//	version  uint32   2
 //	body     ...      the fields below, in order
+//	ids      strings  (version 2 only) the content identities of the data files (Meta.ContentIDs)
 //	crc      uint32   CRC-32C (Castagnoli) of everything before it, magic included
 //
+// Version 1 is version 2 without ids; Decode reads both, Encode writes version 2.
 // Strings are a uint32 length and bytes; float slices a uint32 count and float64 bits; the coreset and
 // the sample are a uint32 row count, then keys, rows and payload weights. Mini-batch state is stored
 // settled (as CentreSets in raw units). Every count is checked against the bytes that remain before
 // anything is allocated, so a corrupt or hostile file fails cleanly.
 const (
 	fileMagic   = "KGSKETCH"
-	fileVersion = 1
+	fileVersion = 2
+	// oldestFileVersion is the oldest version Decode reads.
+	oldestFileVersion = 1
 	// MaxFileBytes bounds the size of a sketch file that Decode accepts.
 	MaxFileBytes = 1 << 30
 	// maxStateBytes is the mini-batch state Decode allows whatever the file size.
@@ -81,6 +85,7 @@ func (s *Sketch) Encode(w io.Writer) error {
 			e.floats(p.Counts)
 		}
 	}
+	e.strs(s.Meta.ContentIDs)
 	e.u32(crc32.Checksum(e.buf.Bytes(), castagnoli))
 	_, err := w.Write(e.buf.Bytes())
 	return err
@@ -100,8 +105,9 @@ func Decode(r io.Reader) (*Sketch, error) {
 	if len(data) < len(fileMagic)+8 || string(data[:len(fileMagic)]) != fileMagic {
 		return nil, ErrNotSketch
 	}
-	if v := binary.LittleEndian.Uint32(data[8:]); v != fileVersion {
-		return nil, fmt.Errorf("%w: %d (this kgauge reads version %d)", ErrVersion, v, fileVersion)
+	v := binary.LittleEndian.Uint32(data[8:])
+	if v < oldestFileVersion || v > fileVersion {
+		return nil, fmt.Errorf("%w: %d (this kgauge reads versions %d to %d)", ErrVersion, v, oldestFileVersion, fileVersion)
 	}
 	body, sum := data[:len(data)-4], binary.LittleEndian.Uint32(data[len(data)-4:])
 	if crc32.Checksum(body, castagnoli) != sum {
@@ -109,6 +115,10 @@ func Decode(r io.Reader) (*Sketch, error) {
 	}
 	d := dec{b: body[12:]}
 	s, err := d.sketch()
+	if err == nil && v >= 2 {
+		s.Meta.ContentIDs = d.strs()
+		err = d.err
+	}
 	if err != nil {
 		return nil, fmt.Errorf("%w: %v", ErrCorrupt, err)
 	}

@@ -96,6 +96,10 @@ type Meta struct {
 	Sources     []string // data files (or sketch files) summarised, in order
 	SkippedRows int64    // rows skipped for a null or NaN in a feature column
 	ProbeRows   int64    // rows read by the probes before the pass
+	// ContentIDs identify the contents of the data files summarised (stream.ContentID), so that
+	// a sketch is never merged with the data it was built from, nor twice. Empty for a sketch
+	// file of format version 1.
+	ContentIDs []string
 }
 
 // Sketch is the one-pass summary described in the package doc. It depends only on the seed, the
@@ -392,6 +396,7 @@ func (s *Sketch) Merge(o *Sketch) error {
 	s.Meta.Sources = append(s.Meta.Sources, o.Meta.Sources...)
 	s.Meta.SkippedRows += o.Meta.SkippedRows
 	s.Meta.ProbeRows += o.Meta.ProbeRows
+	s.Meta.ContentIDs = append(s.Meta.ContentIDs, o.Meta.ContentIDs...)
 	return nil
 }
 

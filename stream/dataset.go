@@ -91,6 +91,9 @@ func Open(files []File, opt Options) (ds *Dataset, err error) {
 		if err != nil {
 			return nil, err
 		}
+		if err := checkDuplicateNames(f.Path, infos[i], opt.Columns); err != nil {
+			return nil, err
+		}
 	}
 
 	// Resolve the selection against the first file, then check every file.

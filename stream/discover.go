@@ -1,8 +1,10 @@
 package stream
 
 import (
+	"bytes"
 	"errors"
 	"fmt"
+	"io"
 	"io/fs"
 	"net/url"
 	"os"
@@ -21,33 +23,87 @@ type File struct {
 	Size      int64
 	Format    Format
 	Partition []KeyValue // hive segments of the path, outermost first; never features
+	// ETag is the object's entity tag as the store reported it (quotes removed), "" for a local
+	// file or when unknown. With the key it identifies a remote object (see [ContentID]).
+	ETag string
+
+	key    string // the file's identity: device and inode, or the object's key and ETag
+	viaSym bool   // the path reached the file through a symbolic link
 }
 
 // errNotData is the cause when a file named explicitly is no supported format.
 var errNotData = errors.New("not a Parquet or Arrow IPC file (magic bytes)")
 
+// errDamaged is the cause when a file meant as data (by its extension or its first bytes) sniffs
+// as no supported format.
+var errDamaged = errors.New("not a Parquet or Arrow IPC file (magic bytes): truncated or damaged")
+
+// ErrUnreadableFile is the cause when a data file found in a directory, a glob or named explicitly
+// cannot be read: it cannot be opened or stat'ed (permissions, a dangling symbolic link), or it
+// starts like a Parquet or Arrow IPC file, or carries such an extension, but is truncated or
+// damaged (its magic bytes or footer do not hold). [DiscoverOptions].SkipUnreadable skips such
+// files instead.
+var ErrUnreadableFile = errors.New("data file cannot be read")
+
+// DiscoverOptions configures [DiscoverWith].
+type DiscoverOptions struct {
+	// SkipUnreadable lists data files that cannot be read in [Discovery].Skipped instead of
+	// failing. A missing path, a directory or glob with no data file and a bad glob stay errors.
+	SkipUnreadable bool
+}
+
+// Skipped is a data file left out because it cannot be read, with the reason (one line).
+type Skipped struct {
+	Path   string
+	Reason string
+	Err    error // the *ReadError that would have been returned
+}
+
+// Discovery is what [DiscoverWith] found.
+type Discovery struct {
+	Files   []File    // sorted by path, each file once
+	Skipped []Skipped // sorted by path; empty unless SkipUnreadable
+}
+
 // Discover expands files, directories (recursive) and glob patterns into data
-// files, sorted by path and deduplicated.
+// files, sorted by path and deduplicated. It is DiscoverWith with default options.
+func Discover(patterns []string) ([]File, error) {
+	d, err := DiscoverWith(patterns, DiscoverOptions{})
+	if err != nil {
+		return nil, err
+	}
+	return d.Files, nil
+}
+
+// DiscoverWith expands files, directories (recursive) and glob patterns into data
+// files, sorted by path and deduplicated by identity: a file reached by two names
+// (twice named, or through a symbolic link) is taken once, under the name that is not
+// a link (the first by path among equals); a remote object once per key and ETag.
 //
-// A pattern containing *, ? or [ is a glob: its segments are matched with
+// A pattern containing *, ? or [ is a glob, unless a file or directory of that
+// very name exists (a partition value may hold such characters): its segments are matched with
 // path.Match, and a segment "**" matches any number of directories (zero
 // included). A directory matched by a glob is taken whole, like a directory
 // named explicitly. While walking or globbing, names starting with "_" or "."
-// are skipped (the roots named by the caller are not). The format is sniffed
-// from magic bytes, not from the extension: inside directories and globs only
-// files that sniff as a supported format are taken, while a file named
-// explicitly that sniffs as nothing is an error naming it. A missing path is
-// an error naming it; a directory or glob with no data files is an error
-// naming it that wraps ErrNoDataFiles. All errors are *ReadError.
-func Discover(patterns []string) ([]File, error) {
-	d := discoverer{seen: make(map[string]bool)}
+// are skipped (the roots named by the caller are not), and an entry, symbolic
+// links included, that the glob cannot match is never opened. The format is
+// sniffed from magic bytes, not from the extension: a file that sniffs as no
+// format and neither starts like one nor has a data extension (.parquet, .pq,
+// .arrow, .arrows, .feather, .ipc) is not data and is passed over inside
+// directories and globs, and is an error naming it when named explicitly. A
+// data file that cannot be read is an error wrapping [ErrUnreadableFile], or
+// with SkipUnreadable is listed in Skipped. A missing path is an error naming
+// it; a directory or glob with no data files is an error naming it that wraps
+// ErrNoDataFiles. All errors are *ReadError.
+func DiscoverWith(patterns []string, opt DiscoverOptions) (*Discovery, error) {
+	d := discoverer{opt: opt}
 	for _, p := range patterns {
 		before := d.found
 		var err error
 		switch {
 		case isRemote(p):
 			err = d.remote(p)
-		case strings.ContainsAny(p, "*?["):
+		case strings.ContainsAny(p, "*?[") && !exists(p):
 			err = d.glob(p)
 		default:
 			err = d.path(p)
@@ -59,34 +115,131 @@ func Discover(patterns []string) ([]File, error) {
 			return nil, newError(p, "", ErrNoDataFiles)
 		}
 	}
-	sort.Slice(d.files, func(i, j int) bool { return d.files[i].Path < d.files[j].Path })
-	return d.files, nil
+	return &Discovery{Files: dedupe(d.files), Skipped: dedupeSkipped(d.skipped)}, nil
+}
+
+// dedupe sorts files by path and keeps one file per identity: the first whose path is not a
+// symbolic link, or else the first by path.
+func dedupe(files []File) []File {
+	sort.SliceStable(files, func(i, j int) bool { return files[i].Path < files[j].Path })
+	best := make(map[string]int, len(files))
+	for i, f := range files {
+		j, ok := best[f.key]
+		if !ok || (files[j].viaSym && !f.viaSym) {
+			best[f.key] = i
+		}
+	}
+	out := make([]File, 0, len(best))
+	for i, f := range files {
+		if best[f.key] == i {
+			out = append(out, f)
+		}
+	}
+	return out
+}
+
+func dedupeSkipped(s []Skipped) []Skipped {
+	sort.SliceStable(s, func(i, j int) bool { return s[i].Path < s[j].Path })
+	out := s[:0]
+	for i, x := range s {
+		if i == 0 || x.Path != s[i-1].Path {
+			out = append(out, x)
+		}
+	}
+	return out
 }
 
 type discoverer struct {
-	files []File
-	seen  map[string]bool // absolute paths already taken
-	found int             // files matched so far, duplicates included
+	opt     DiscoverOptions
+	files   []File
+	skipped []Skipped
+	found   int // files matched so far, duplicates and skipped files included
+}
+
+// unreadable handles a data file that cannot be read: an error, or with SkipUnreadable an entry
+// in Skipped.
+func (d *discoverer) unreadable(p string, cause error) error {
+	d.found++
+	err := newError(p, "", fmt.Errorf("%w: %v", ErrUnreadableFile, pathCause(cause)))
+	if !d.opt.SkipUnreadable {
+		return err
+	}
+	d.skipped = append(d.skipped, Skipped{Path: filepath.Clean(p), Reason: oneLine(pathCause(cause).Error()), Err: err})
+	return nil
+}
+
+// exists reports whether a file or directory (or a link) named p exists.
+func exists(p string) bool {
+	_, err := os.Lstat(p)
+	return err == nil
+}
+
+// oneLine joins the fields of s with single spaces.
+func oneLine(s string) string { return strings.Join(strings.Fields(s), " ") }
+
+// dataExtensions are the file name extensions of the supported formats.
+var dataExtensions = []string{".parquet", ".pq", ".arrow", ".arrows", ".feather", ".ipc"}
+
+// looksLikeData reports whether a file that sniffs as no format is still meant as data: it has
+// a data extension, or it starts like a supported format (Parquet's or Arrow's magic, or an
+// Arrow stream's continuation marker).
+func looksLikeData(p string) bool {
+	ext := strings.ToLower(filepath.Ext(p))
+	for _, e := range dataExtensions {
+		if ext == e {
+			return true
+		}
+	}
+	if isRemote(p) {
+		return false
+	}
+	f, err := os.Open(p)
+	if err != nil {
+		return true
+	}
+	defer f.Close()
+	var head [8]byte
+	n, _ := io.ReadFull(f, head[:])
+	h := head[:n]
+	return bytes.HasPrefix(h, []byte("PAR1")) || bytes.HasPrefix(h, []byte("ARROW1")) ||
+		bytes.HasPrefix(h, []byte{0xFF, 0xFF, 0xFF, 0xFF})
+}
+
+// take sniffs the regular file p (size bytes, identity key) and adds it when it is data.
+// explicit says the caller named it.
+func (d *discoverer) take(p string, size int64, key string, viaSym, explicit bool) error {
+	f, err := sniff(p, size)
+	if err != nil {
+		return d.unreadable(p, err)
+	}
+	if f == 0 {
+		if looksLikeData(p) {
+			return d.unreadable(p, errDamaged)
+		}
+		if explicit {
+			return newError(p, "", errNotData)
+		}
+		return nil
+	}
+	d.add(p, size, f, key, viaSym)
+	return nil
 }
 
 // path handles a pattern without glob characters.
 func (d *discoverer) path(p string) error {
 	fi, err := os.Stat(p)
 	if err != nil {
+		if lfi, lerr := os.Lstat(p); lerr == nil && lfi.Mode()&fs.ModeSymlink != 0 {
+			return d.unreadable(p, err) // a dangling link, or one we may not follow
+		}
 		return newError(p, "", pathCause(err))
 	}
 	if fi.IsDir() {
 		return d.walk(p)
 	}
-	f, err := sniff(p, fi.Size())
-	if err != nil {
-		return newError(p, "", pathCause(err))
-	}
-	if f == 0 {
-		return newError(p, "", errNotData)
-	}
-	d.add(p, fi.Size(), f)
-	return nil
+	lfi, err := os.Lstat(p)
+	viaSym := err == nil && lfi.Mode()&fs.ModeSymlink != 0
+	return d.take(p, fi.Size(), fileKey(p, fi), viaSym, true)
 }
 
 // walk takes every data file below the directory root.
@@ -100,6 +253,13 @@ func (d *discoverer) walk(root string) error {
 func (d *discoverer) walkMatch(root string, pat []string) error {
 	err := filepath.WalkDir(root, func(p string, e fs.DirEntry, err error) error {
 		if err != nil {
+			if p != root && e != nil && e.IsDir() {
+				// A directory below root that cannot be listed may hide data files.
+				if uerr := d.unreadable(p, err); uerr != nil {
+					return uerr
+				}
+				return filepath.SkipDir
+			}
 			return err
 		}
 		if p == root {
@@ -124,11 +284,23 @@ func (d *discoverer) walkMatch(root string, pat []string) error {
 			segs = strings.Split(filepath.ToSlash(rel), "/")
 		}
 		isDir := e.IsDir()
-		var size int64
+		var (
+			size int64
+			fi   fs.FileInfo
+		)
 		if !isDir {
-			fi, err := os.Stat(p) // follows symbolic links
+			viaSym := e.Type()&fs.ModeSymlink != 0
+			// A symbolic link the glob cannot match, as a file or as a directory to walk, is never
+			// opened or followed.
+			if viaSym && pat != nil && !matchSegments(pat, segs) && !matchPrefix(pat, segs) {
+				return nil
+			}
+			fi, err = os.Stat(p) // follows symbolic links
 			if err != nil {
-				return err
+				if pat != nil && !matchSegments(pat, segs) {
+					return nil
+				}
+				return d.unreadable(p, err)
 			}
 			if fi.IsDir() {
 				isDir = true // a symbolic link to a directory: take it only when matched
@@ -141,35 +313,30 @@ func (d *discoverer) walkMatch(root string, pat []string) error {
 				return nil
 			}
 			size = fi.Size()
-		}
-		if isDir {
-			if pat == nil {
+			if pat != nil && !matchSegments(pat, segs) {
 				return nil
 			}
-			if matchSegments(pat, segs) {
-				if err := d.walkMatch(p, nil); err != nil {
-					return err
-				}
-				return filepath.SkipDir
-			}
-			if !matchPrefix(pat, segs) {
-				return filepath.SkipDir
-			}
+			return d.take(p, size, fileKey(p, fi), viaSym, false)
+		}
+		if pat == nil {
 			return nil
 		}
-		if pat != nil && !matchSegments(pat, segs) {
-			return nil
+		if matchSegments(pat, segs) {
+			if err := d.walkMatch(p, nil); err != nil {
+				return err
+			}
+			return filepath.SkipDir
 		}
-		f, err := sniff(p, size)
-		if err != nil {
-			return err
-		}
-		if f != 0 {
-			d.add(p, size, f)
+		if !matchPrefix(pat, segs) {
+			return filepath.SkipDir
 		}
 		return nil
 	})
 	if err != nil {
+		var re *ReadError
+		if errors.As(err, &re) {
+			return re
+		}
 		var pe *fs.PathError
 		if errors.As(err, &pe) {
 			return newError(pe.Path, "", pe.Err)
@@ -262,18 +429,10 @@ func matchPrefix(pat, segs []string) bool {
 	return matchPrefix(pat[1:], segs[1:])
 }
 
-func (d *discoverer) add(p string, size int64, f Format) {
+func (d *discoverer) add(p string, size int64, f Format, key string, viaSym bool) {
 	d.found++
 	p = filepath.Clean(p)
-	key, err := filepath.Abs(p)
-	if err != nil {
-		key = p
-	}
-	if d.seen[key] {
-		return
-	}
-	d.seen[key] = true
-	d.files = append(d.files, File{Path: p, Size: size, Format: f, Partition: hivePartition(p)})
+	d.files = append(d.files, File{Path: p, Size: size, Format: f, Partition: hivePartition(p), key: key, viaSym: viaSym})
 }
 
 // hivePartition returns the key=value directory segments of p, outermost

@@ -4,6 +4,7 @@ import (
 	"io"
 	"io/fs"
 	"os"
+	"strings"
 )
 
 // Handle is an open input file: an *os.File for a local path, or what [Remote] returns for a URL.
@@ -21,6 +22,9 @@ type RemoteObject struct {
 	Key      string // its key within the bucket, whose key=value segments are its hive partition
 	Size     int64
 	Explicit bool // the pattern named this object itself: not being a data file is then an error
+	// ETag is the object's entity tag, or for a listed object the hex MD5 of its contents when the
+	// store gives one ("" when unknown). Objects with the same key and ETag are taken once.
+	ETag string
 }
 
 // RemoteFS lists and opens inputs that are not local files (URLs such as s3://bucket/prefix/).
@@ -64,20 +68,30 @@ func (d *discoverer) remote(pattern string) error {
 	for _, o := range objs {
 		f, err := sniff(o.Path, o.Size)
 		if err != nil {
-			return newError(o.Path, "", err)
+			if err := d.unreadable(o.Path, err); err != nil {
+				return err
+			}
+			continue
 		}
 		if f == 0 {
+			if looksLikeData(o.Path) {
+				if err := d.unreadable(o.Path, errDamaged); err != nil {
+					return err
+				}
+				continue
+			}
 			if o.Explicit {
 				return newError(o.Path, "", errNotData)
 			}
 			continue
 		}
 		d.found++
-		if d.seen[o.Path] {
-			continue
+		etag := strings.Trim(o.ETag, `"`)
+		key := "url:" + o.Path
+		if etag != "" {
+			key = "etag:" + etag + ":" + o.Key
 		}
-		d.seen[o.Path] = true
-		d.files = append(d.files, File{Path: o.Path, Size: o.Size, Format: f, Partition: hivePartition(o.Key)})
+		d.files = append(d.files, File{Path: o.Path, Size: o.Size, Format: f, Partition: hivePartition(o.Key), ETag: etag, key: key})
 	}
 	return nil
 }

@@ -117,11 +117,11 @@ func (c *DemoCommand) Run(ctx context.Context, args []string) error {
 		fmt.Fprintf(c.Stdout, "demo: estimating k = %d..%d\n\n", opt.Criteria.MinK, opt.Criteria.MaxK)
 	}
 	res, err := runEstimate(ctx, paths, opt, ef, c.Stderr)
-	if err != nil {
+	if res == nil {
 		return err
 	}
-	if err := printResult(c.Stdout, res, f.asJSON); err != nil {
-		return err
+	if perr := printResult(c.Stdout, res, f.asJSON); perr != nil {
+		return perr
 	}
 	if !f.asJSON {
 		verdict := "matches"
@@ -130,5 +130,5 @@ func (c *DemoCommand) Run(ctx context.Context, args []string) error {
 		}
 		fmt.Fprintf(c.Stdout, "\ndemo: the generator used k = %d; the verdict %s it.\n", truth, verdict)
 	}
-	return nil
+	return err // an output that could not be written
 }

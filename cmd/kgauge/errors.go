@@ -53,7 +53,7 @@ func exitCode(err error) int {
 		return ExitOK
 	case errors.Is(err, context.Canceled):
 		return ExitInterrupted
-	case errors.As(err, &ue), errors.Is(err, kgauge.ErrMemoryLimit):
+	case errors.As(err, &ue), errors.Is(err, kgauge.ErrMemoryLimit), errors.Is(err, kgauge.ErrSameData):
 		return ExitUsage
 	case errors.As(err, &oe):
 		return ExitOutput
@@ -62,7 +62,8 @@ func exitCode(err error) int {
 		errors.Is(err, os.ErrNotExist), errors.Is(err, os.ErrPermission),
 		errors.Is(err, stream.ErrNoDataFiles), errors.Is(err, stream.ErrNoNumericColumns),
 		errors.Is(err, stream.ErrUnknownColumn), errors.Is(err, stream.ErrNotNumeric),
-		errors.Is(err, stream.ErrMissingColumn), errors.Is(err, stream.ErrInfinite):
+		errors.Is(err, stream.ErrMissingColumn), errors.Is(err, stream.ErrInfinite),
+		errors.Is(err, stream.ErrUnreadableFile), errors.Is(err, stream.ErrDuplicateColumn):
 		return ExitInput
 	}
 	return ExitInternal
@@ -74,7 +75,10 @@ func report(err error, stderr io.Writer) int {
 	if err == nil || code == ExitOK {
 		return code
 	}
-	msg := strings.ReplaceAll(err.Error(), "\n", "; ")
+	msg := inert(strings.ReplaceAll(err.Error(), "\n", "; "))
+	if errors.Is(err, stream.ErrUnreadableFile) {
+		msg += " (--skip-unreadable skips such files and lists them)"
+	}
 	if code == ExitInterrupted {
 		msg = "interrupted; no output written"
 	}

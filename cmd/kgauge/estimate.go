@@ -8,6 +8,7 @@ import (
 	"io"
 	"os"
 	"path/filepath"
+	"strings"
 	"time"
 
 	"github.com/kgauge/kgauge"
@@ -15,7 +16,6 @@ import (
 	"github.com/kgauge/kgauge/internal/atomicfile"
 	"github.com/kgauge/kgauge/internal/cliflags"
 	htmlreport "github.com/kgauge/kgauge/report"
-	"github.com/kgauge/kgauge/sketch"
 	"github.com/schollz/progressbar/v3"
 	"golang.org/x/term"
 )
@@ -39,6 +39,7 @@ type estimateFlags struct {
 func (f *estimateFlags) register(fs *flag.FlagSet) {
 	f.Data.Register(fs)
 	fs.IntVar(&f.Opt.Workers, "workers", f.Opt.Workers, "goroutines reading and sketching")
+	fs.BoolVar(&f.Opt.SkipUnreadable, "skip-unreadable", false, "skip data files that cannot be read (listed in skipped_files) instead of failing")
 	fs.BoolVar(&f.asJSON, "json", false, "print one JSON document instead of the table")
 	fs.BoolVar(&f.quiet, "quiet", false, "no progress bar")
 }
@@ -96,21 +97,33 @@ func (c *EstimateCommand) Run(ctx context.Context, args []string) error {
 		return err
 	}
 	res, err := runEstimate(ctx, fs.Args(), opt, &f, c.Stderr)
-	if err != nil {
+	if res == nil {
 		return err
 	}
-	return printResult(c.Stdout, res, f.asJSON)
+	// The outputs are independent: the result is printed even when a file could not be written,
+	// and err then names every output that failed (exit code 4).
+	if perr := printResult(c.Stdout, res, f.asJSON); perr != nil && err == nil {
+		err = perr
+	}
+	return err
 }
 
 // runEstimate runs the estimate with a progress bar when stderr is a terminal, then writes the
-// requested files.
+// requested files. The outputs are checked against the inputs before anything is read: an output
+// that is an input's file, or two outputs that are one file, is a usage error. After the estimate,
+// each output is written on its own: a failure to write one leaves the others written, and the
+// result is returned together with an *outputError naming each failed output.
 func runEstimate(ctx context.Context, paths []string, opt kgauge.Options, f *estimateFlags, stderr io.Writer) (*kgauge.Result, error) {
-	for _, p := range []string{f.out, f.saveSketch, f.report} {
-		if p != "" {
-			if err := checkOutputDir(p); err != nil {
+	outs := []kgauge.Output{{Flag: "--out", Path: f.out}, {Flag: "--save-sketch", Path: f.saveSketch}, {Flag: "--report", Path: f.report}}
+	for _, o := range outs {
+		if o.Path != "" {
+			if err := checkOutputDir(o.Path); err != nil {
 				return nil, err
 			}
 		}
+	}
+	if err := kgauge.CheckOutputs(paths, outs); err != nil {
+		return nil, &usageError{msg: err.Error()}
 	}
 	// The model prices the run from the footers before it starts: the bar's first ETA, the
 	// projection to 10× and 100× the input, and the report's plan section.
@@ -132,30 +145,35 @@ func runEstimate(ctx context.Context, paths []string, opt kgauge.Options, f *est
 		return nil, err
 	}
 	kgauge.Project(res, work)
+	var failed []error
 	if f.report != "" {
 		if err := htmlreport.Write(f.report, res, plan); err != nil {
-			return nil, &outputError{err}
+			failed = append(failed, fmt.Errorf("--report: %w", err))
 		}
 	}
 	if f.saveSketch != "" {
-		if err := saveSketch(f.saveSketch, sk); err != nil {
-			return nil, err
+		if err := atomicfile.Write(f.saveSketch, 0o644, sk.Encode); err != nil {
+			failed = append(failed, fmt.Errorf("--save-sketch: %w", err))
 		}
 	}
 	if f.out != "" {
-		err := atomicfile.Write(f.out, 0o644, func(w io.Writer) error { return writeJSON(w, res) })
-		if err != nil {
-			return nil, &outputError{err}
+		if err := atomicfile.Write(f.out, 0o644, func(w io.Writer) error { return writeJSON(w, res) }); err != nil {
+			failed = append(failed, fmt.Errorf("--out: %w", err))
 		}
+	}
+	if len(failed) > 0 {
+		return res, &outputError{outputsFailed(failed)}
 	}
 	return res, nil
 }
 
-func saveSketch(path string, sk *sketch.Sketch) error {
-	if err := atomicfile.Write(path, 0o644, sk.Encode); err != nil {
-		return &outputError{err}
+// outputsFailed joins the failures to write outputs into one line.
+func outputsFailed(errs []error) error {
+	msgs := make([]string, len(errs))
+	for i, e := range errs {
+		msgs[i] = e.Error()
 	}
-	return nil
+	return fmt.Errorf("%d output(s) not written, the others were: %s", len(errs), strings.Join(msgs, "; "))
 }
 
 // checkOutputDir fails early, before any reading, when an output's directory does not exist.

@@ -76,8 +76,9 @@ the version.
 Exit codes:
   0    success
   1    internal error
-  2    usage: unknown command or flag, bad flag value
-  3    bad input: missing, unreadable or invalid file; column problems; too few usable rows
+  2    usage: unknown command or flag, bad flag value; an output that is an input
+  3    bad input: missing, unreadable or invalid file; column problems; too few usable rows;
+       track: a partition failed, is incomplete or quarantined
   4    an output file could not be written
   5    track: a newly profiled partition drifted (see the ledger's drift reasons)
   130  interrupted (SIGINT or SIGTERM); no partial output is left behind

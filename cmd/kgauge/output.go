@@ -57,9 +57,15 @@ func writeTable(w io.Writer, res *kgauge.Result) error {
 	if len(res.Ignored) > 0 {
 		names := make([]string, len(res.Ignored))
 		for i, c := range res.Ignored {
-			names[i] = c.Name
+			names[i] = inert(c.Name)
 		}
 		fmt.Fprintf(&b, "not used as features: %s\n", strings.Join(names, ", "))
+	}
+	if len(res.SkippedFiles) > 0 {
+		fmt.Fprintf(&b, "SKIPPED %d unreadable file(s), not in this result:\n", len(res.SkippedFiles))
+		for _, s := range res.SkippedFiles {
+			fmt.Fprintf(&b, "  %s: %s\n", inert(s.Path), inert(s.Reason))
+		}
 	}
 	b.WriteString("\n")
 	tw := tabwriter.NewWriter(&b, 0, 0, 2, ' ', tabwriter.AlignRight)

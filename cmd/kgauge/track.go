@@ -24,21 +24,66 @@ type driftError struct{ n int }
 
 func (e *driftError) Error() string { return fmt.Sprintf("track: drift in %d new partition(s)", e.n) }
 
+// unfinishedError reports partitions left incomplete or quarantined by a run that otherwise went
+// through; it maps to ExitInput, ahead of drift.
+type unfinishedError struct {
+	incomplete, quarantined []string
+	drifted                 int
+}
+
+func (e *unfinishedError) Error() string {
+	var parts []string
+	if len(e.incomplete) > 0 {
+		parts = append(parts, fmt.Sprintf("%d partition(s) incomplete, retried by the next run: %s",
+			len(e.incomplete), strings.Join(inertAll(e.incomplete), ", ")))
+	}
+	if len(e.quarantined) > 0 {
+		parts = append(parts, fmt.Sprintf("%d partition(s) quarantined, not read: %s",
+			len(e.quarantined), strings.Join(inertAll(e.quarantined), ", ")))
+	}
+	if e.drifted > 0 {
+		parts = append(parts, fmt.Sprintf("drift in %d new partition(s)", e.drifted))
+	}
+	return "track: " + strings.Join(parts, "; ")
+}
+
+// listFlag is a flag that may be repeated and takes comma-separated values.
+type listFlag []string
+
+func (l *listFlag) String() string { return strings.Join(*l, ",") }
+
+func (l *listFlag) Set(v string) error {
+	for _, s := range strings.Split(v, ",") {
+		if s = strings.TrimSpace(s); s != "" {
+			*l = append(*l, strings.Trim(s, "/"))
+		}
+	}
+	return nil
+}
+
 // runTrack runs the track command and returns its exit code: ExitDrift when a new partition
 // drifted, otherwise that of report.
 func runTrack(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	err := (&TrackCommand{Stdout: stdout, Stderr: stderr}).Run(ctx, args)
 	var de *driftError
+	var ue *unfinishedError
 	var le *ledger.LockError
 	var line *ledger.LineError
 	var oe *ledger.OutputError
+	var pe *ledger.PartitionError
+	var use *ledger.UsageError
 	switch {
 	case errors.As(err, &de):
 		fmt.Fprintln(stderr, "kgauge: "+de.Error())
 		return ExitDrift
-	case errors.As(err, &le), errors.As(err, &line):
-		fmt.Fprintln(stderr, "kgauge: track: "+err.Error())
+	case errors.As(err, &ue):
+		fmt.Fprintln(stderr, "kgauge: "+ue.Error())
 		return ExitInput
+	case errors.As(err, &le), errors.As(err, &line), errors.As(err, &pe):
+		fmt.Fprintln(stderr, "kgauge: track: "+inert(strings.ReplaceAll(err.Error(), "\n", "; ")))
+		return ExitInput
+	case errors.As(err, &use):
+		err = &usageError{msg: err.Error()}
 	case errors.As(err, &oe):
 		err = &outputError{err}
 	}
@@ -53,12 +98,15 @@ func (c *TrackCommand) Run(ctx context.Context, args []string) error {
 	rules := ledger.DefaultRules()
 	var ledgerPath string
 	var lockWait time.Duration
+	var quarantine, release listFlag
 	fs.StringVar(&ledgerPath, "ledger", "", "the ledger file (JSON Lines; created if missing); sketches go to FILE.sketches/")
 	fs.IntVar(&rules.Window, "window", rules.Window, "earlier partitions each new one is compared with")
 	fs.IntVar(&rules.MinHistory, "min-history", rules.MinHistory, "earlier partitions needed before the k and WCSS rules apply")
 	fs.Float64Var(&rules.MinAgreement, "min-agreement", rules.MinAgreement, "agreement below this is drift (0 = off)")
 	fs.Float64Var(&rules.WCSSRise, "wcss-rise", rules.WCSSRise, "WCSS per row at the window's k rising by more than this share of the window median is drift (0 = off)")
 	fs.DurationVar(&lockWait, "lock-wait", 0, "how long to wait for another run's lock on the ledger (0 = fail at once)")
+	fs.Var(&quarantine, "quarantine", "set the partition KEY=VALUE[/...] aside: recorded as quarantined and not read until --release (repeat or comma-separate)")
+	fs.Var(&release, "release", "profile a quarantined partition again (repeat or comma-separate)")
 	fs.Usage = func() {
 		fmt.Fprintln(fs.Output(), `Usage: kgauge track ROOT --ledger FILE [flags]
 
@@ -91,7 +139,7 @@ Flags:`)
 	}
 	enc := json.NewEncoder(c.Stdout)
 	res, err := ledger.Track(ctx, pos[0], ledgerPath, ledger.TrackOptions{
-		Estimate: opt, Drift: rules, LockWait: lockWait,
+		Estimate: opt, Drift: rules, LockWait: lockWait, Quarantine: quarantine, Release: release,
 		OnRecord: func(r ledger.Record) error {
 			if f.asJSON {
 				return enc.Encode(r)
@@ -99,14 +147,17 @@ Flags:`)
 			_, err := fmt.Fprintln(c.Stdout, recordLine(r))
 			return err
 		},
-		Warn: func(msg string) { fmt.Fprintln(c.Stderr, "kgauge: track: "+msg) },
+		Warn: func(msg string) { fmt.Fprintln(c.Stderr, "kgauge: track: "+inert(msg)) },
 	})
 	if err != nil {
 		return err
 	}
 	if !f.quiet {
-		fmt.Fprintf(c.Stderr, "kgauge: track: %d new partition(s) profiled, %d already in %s, %d drifted\n",
-			len(res.Profiled), res.Known, ledgerPath, res.Drifted)
+		fmt.Fprintf(c.Stderr, "kgauge: track: %d record(s) added, %d partition(s) already done in %s, %d drifted\n",
+			len(res.Profiled), res.Known, inert(ledgerPath), res.Drifted)
+	}
+	if len(res.Incomplete) > 0 || len(res.Quarantined) > 0 {
+		return &unfinishedError{incomplete: res.Incomplete, quarantined: res.Quarantined, drifted: res.Drifted}
 	}
 	if res.Drifted > 0 {
 		return &driftError{res.Drifted}
@@ -114,14 +165,30 @@ Flags:`)
 	return nil
 }
 
-// recordLine is the one-line text form of a record.
+// recordLine is the one-line text form of a record. Partition values and paths come from the
+// lake and are made inert.
 func recordLine(r ledger.Record) string {
 	var b strings.Builder
-	fmt.Fprintf(&b, "%s  k %d  agreement %.2f", r.Partition, r.K, r.Agreement)
+	switch r.Status {
+	case ledger.StatusFailed, ledger.StatusQuarantined:
+		fmt.Fprintf(&b, "%s  %s  %s", inert(r.Partition), strings.ToUpper(r.Status), inert(r.Error))
+		return b.String()
+	}
+	fmt.Fprintf(&b, "%s  k %d  agreement %.2f", inert(r.Partition), r.K, r.Agreement)
 	if r.RunnerUp != nil {
 		fmt.Fprintf(&b, "  runner-up %d", *r.RunnerUp)
 	}
 	fmt.Fprintf(&b, "  rows %d (skipped %d)  ", r.Rows, r.SkippedRows)
+	if r.Status == ledger.StatusIncomplete {
+		b.WriteString("INCOMPLETE ")
+		if len(r.SkippedFiles) > 0 {
+			fmt.Fprintf(&b, "(%d file(s) skipped, the first %s: %s) ", len(r.SkippedFiles),
+				inert(r.SkippedFiles[0].Path), inert(r.SkippedFiles[0].Reason))
+		}
+		if r.Error != "" {
+			fmt.Fprintf(&b, "(%s) ", inert(r.Error))
+		}
+	}
 	if !r.Drift.Drifted {
 		b.WriteString("ok")
 		return b.String()
@@ -130,6 +197,6 @@ func recordLine(r ledger.Record) string {
 	for i, x := range r.Drift.Reasons {
 		msgs[i] = x.Rule + ": " + x.Message
 	}
-	b.WriteString("DRIFT " + strings.Join(msgs, "; "))
+	b.WriteString("DRIFT " + inert(strings.Join(msgs, "; ")))
 	return b.String()
 }

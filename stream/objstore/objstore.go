@@ -2,6 +2,7 @@ package objstore
 
 import (
 	"context"
+	"encoding/hex"
 	"errors"
 	"fmt"
 	"io"
@@ -204,7 +205,7 @@ func (s *Store) List(pattern string) ([]stream.RemoteObject, error) {
 		switch {
 		case err == nil:
 			obj := l
-			return []stream.RemoteObject{s.remember(obj, a.Size, true)}, nil
+			return []stream.RemoteObject{s.remember(obj, a.Size, a.ETag, true)}, nil
 		case gcerrors.Code(err) != gcerrors.NotFound:
 			return nil, pathError("list", pattern, err)
 		}
@@ -232,7 +233,7 @@ func (s *Store) List(pattern string) ([]stream.RemoteObject, error) {
 		}
 		obj := l
 		obj.Key = o.Key
-		out = append(out, s.remember(obj, o.Size, false))
+		out = append(out, s.remember(obj, o.Size, hex.EncodeToString(o.MD5), false))
 	}
 	if len(out) == 0 && lit == len(segs) {
 		return nil, pathError("list", pattern, fs.ErrNotExist)
@@ -241,13 +242,14 @@ func (s *Store) List(pattern string) ([]stream.RemoteObject, error) {
 	return out, nil
 }
 
-// remember records a listed object's size, so that opening it needs no metadata request.
-func (s *Store) remember(l Location, size int64, explicit bool) stream.RemoteObject {
+// remember records a listed object's size, so that opening it needs no metadata request. etag is
+// the object's ETag, or the hex MD5 a listing gives ("" when unknown).
+func (s *Store) remember(l Location, size int64, etag string, explicit bool) stream.RemoteObject {
 	p := l.Path()
 	s.mu.Lock()
 	s.sizes[p] = size
 	s.mu.Unlock()
-	return stream.RemoteObject{Path: p, Key: l.Key, Size: size, Explicit: explicit}
+	return stream.RemoteObject{Path: p, Key: l.Key, Size: size, Explicit: explicit, ETag: strings.Trim(etag, `"`)}
 }
 
 func slicesAny(v []string, f func(string) bool) bool {
