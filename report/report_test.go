@@ -266,3 +266,21 @@ func TestWriteAtomic(t *testing.T) {
 		t.Errorf("directory holds %v, want only r.html", names)
 	}
 }
+
+// TestSkippedFilesShown: files left out by --skip-unreadable are listed, escaped, with the reason.
+func TestSkippedFilesShown(t *testing.T) {
+	res := *fixture(t)
+	if strings.Contains(render(t), `id="skipped-files"`) {
+		t.Fatal("a run that skipped nothing shows a skipped-files table")
+	}
+	res.SkippedFiles = []kgauge.SkippedFile{{Path: "lake/<b>bad</b>.parquet", Reason: "truncated footer"}}
+	var b bytes.Buffer
+	if err := Render(&b, &res, nil); err != nil {
+		t.Fatal(err)
+	}
+	page := b.String()
+	if !strings.Contains(page, `id="skipped-files"`) || !strings.Contains(page, "lake/&lt;b&gt;bad&lt;/b&gt;.parquet") ||
+		!strings.Contains(page, "truncated footer") {
+		t.Error("the skipped file is not listed (escaped, with its reason)")
+	}
+}
