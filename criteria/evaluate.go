@@ -22,6 +22,9 @@ const (
 	streamGapSample
 	streamBoxRefs
 	streamPCARefs
+	streamChecks // the points behind the one-mode check and the split halves
+	streamModes  // the one-mode check's halves and 2-means fits
+	streamSplit  // the split halves' k-means fits at each k
 )
 
 // rngFor returns the random stream for (seed, k, purpose): a PCG seeded with the seed and a
@@ -124,6 +127,10 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 	}
 	reg := 1e-6 * trace / float64(s.D)
 
+	checks := gapSide(s, checkPoints, rngFor(opt.Seed, 0, streamChecks))
+	splitA, splitB := splitHalves(whiten(checks, s.Cov), rngFor(opt.Seed, 0, streamSplit))
+	res.Modes, _ = modeCheck(checks, rngFor(opt.Seed, 0, streamModes))
+
 	var ward []Merge
 	evalK := func(k int) {
 		i := k - opt.MinK
@@ -186,6 +193,9 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 				}
 			}
 		}
+		if sc.Valid {
+			sc.SplitAgreement = splitAgreement(splitA, splitB, k, 2, rngFor(opt.Seed, k, streamSplit))
+		}
 		res.PerK[i] = sc
 	}
 	wardJob := func() {
@@ -227,7 +237,8 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 		res.PerK[i].WardHeight, res.PerK[i].WardJump = h[i], j[i]
 	}
 	res.Votes = votes(res.PerK, best, opt)
-	res.Verdict = verdict(res.Votes, opt)
+	res.Verdict = verdict(res, opt)
+	res.Far = farRows(core, res)
 	return res, nil
 }
 

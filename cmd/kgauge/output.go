@@ -87,11 +87,31 @@ func writeTable(w io.Writer, res *kgauge.Result) error {
 	if !res.Structure {
 		b.WriteString(" (no cluster structure found)")
 	}
-	fmt.Fprintf(&b, " · agreement %.0f%%", 100*res.Agreement)
+	fmt.Fprintf(&b, " · confidence %s · agreement %.0f%%", fixed(res.Confidence, 2), 100*res.Agreement)
 	if res.RunnerUp != nil {
 		fmt.Fprintf(&b, " · runner-up k = %d", *res.RunnerUp)
 	}
 	b.WriteString("\n")
+	if res.Unstable {
+		alt := make([]string, len(res.Alternatives))
+		for i, k := range res.Alternatives {
+			alt[i] = fmt.Sprint(k)
+		}
+		fmt.Fprintf(&b, "  unstable: the evidence is split; k = %s hold nearly as much of the vote; another seed may name one of them\n",
+			strings.Join(alt, ", "))
+	}
+	if res.Why != "" {
+		fmt.Fprintf(&b, "  why: %s\n", res.Why)
+	}
+	if res.WhyRunnerUp != "" {
+		fmt.Fprintf(&b, "  %s\n", res.WhyRunnerUp)
+	}
+	for _, c := range res.Skewed {
+		fmt.Fprintf(&b, "  column %s looks right-skewed (skewness %.1f): %s\n", c.Name, c.Skewness, c.Action)
+	}
+	if res.FarRows.Rule != "" {
+		fmt.Fprintf(&b, "  far rows: %.1f%% of rows lie far from every centre (%s)\n", 100*res.FarRows.Share, res.FarRows.Rule)
+	}
 	if res.AtMaxK {
 		fmt.Fprintf(&b, "  most criteria are still improving at --max-k %d: the best k may be larger; widen the range\n", res.MaxK)
 	}
