@@ -6,6 +6,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"math"
 	"os"
 	"runtime"
 	"runtime/debug"
@@ -106,6 +107,9 @@ func Evaluate(ctx context.Context, sk *sketch.Sketch, opt Options) (*Result, err
 		Rows: sk.Rows(), SkippedRows: sk.Meta.SkippedRows, ProbeRows: sk.Meta.ProbeRows,
 		Columns: sk.Columns(), Ignored: []IgnoredColumn{}, Scaling: sc,
 		MinK: opt.Criteria.MinK, MaxK: opt.Criteria.MaxK, Seed: opt.Seed, Version: Version, criteria: cr}
+	if math.IsNaN(r.Confidence) {
+		r.Confidence = 0 // no calibration table (never with the embedded weights)
+	}
 	if cr.Verdict.RunnerUp > 0 {
 		ru := cr.Verdict.RunnerUp
 		r.RunnerUp = &ru
