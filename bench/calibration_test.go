@@ -103,3 +103,29 @@ func TestEmbeddedWeightsMatchGrid(t *testing.T) {
 		t.Errorf("criteria/weights.json differs from the weights derived from %s; run %s -calibrate-from-grid", gridPath, "go test ./bench/ -run TestCalibrationGrid")
 	}
 }
+
+// TestSeedStabilityOnGrid checks issue 12's seed rule on the committed grid runs with the
+// embedded weights: for seeds 1..10 of S4, A1, Unbalance and one realization of each Tibshirani
+// scenario, at least 9 of 10 verdicts either equal the most common one or say they are unstable.
+func TestSeedStabilityOnGrid(t *testing.T) {
+	runs, err := LoadGrid(gridPath)
+	if err != nil {
+		t.Skipf("no committed grid: %v", err)
+	}
+	w := criteria.DefaultWeights()
+	byCase := map[string][]criteria.Verdict{}
+	for _, r := range runs {
+		if r.Stable {
+			byCase[r.Case] = append(byCase[r.Case], r.Decide(w))
+		}
+	}
+	if len(byCase) < 8 {
+		t.Fatalf("%d seed-stability sets in the grid, want 8", len(byCase))
+	}
+	for c, vs := range byCase {
+		mode, _, covered := seedAgreement(vs)
+		if len(vs) != 10 || covered < 9 {
+			t.Errorf("%s: %d of %d seeds agree with k=%d or are flagged unstable, want >= 9 of 10", c, covered, len(vs), mode)
+		}
+	}
+}

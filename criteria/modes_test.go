@@ -154,3 +154,28 @@ func TestFarShare(t *testing.T) {
 		t.Errorf("far share %.4f, want about 0.02 (the moved rows, few others)", got)
 	}
 }
+
+func TestWhitenGivesUnitCovariance(t *testing.T) {
+	rng := rand.New(rand.NewPCG(2, 7))
+	n, d := 5000, 3
+	x := make([]float64, 0, n*d)
+	for range n {
+		z0, z1, z2 := rng.NormFloat64(), rng.NormFloat64(), rng.NormFloat64()
+		x = append(x, 3*z0, 2*z0+z1, z0-z1+0.5*z2)
+	}
+	p := kmeans.Data{X: x, D: d}
+	cov := ExactSummary(p).Cov
+	wp := whiten(p, cov)
+	got := ExactSummary(wp).Cov
+	for a := range d {
+		for b := range d {
+			want := 0.0
+			if a == b {
+				want = 1
+			}
+			if math.Abs(got[a*d+b]-want) > 1e-9 {
+				t.Errorf("whitened covariance [%d,%d] = %v, want %v", a, b, got[a*d+b], want)
+			}
+		}
+	}
+}

@@ -17,6 +17,10 @@ const NameOneMode = "one_mode"
 // the same verdict in at least 9 of 10 runs on every reference set and scenario measured.
 const unstableRatio = 0.75
 
+// lowConfidence: a k >= 2 verdict whose calibrated confidence is below this is marked unstable
+// (with the runner-up as its alternative): on the grid such verdicts were right less often than not.
+const lowConfidence = 0.5
+
 // Weights are the vote weights measured on the benchmark grid (bench/report/CALIBRATION.md),
 // embedded from weights.json, which `go test ./bench/ -run TestCalibrationGrid -calibrate` writes.
 type Weights struct {
@@ -284,12 +288,17 @@ func Decide(vs []Vote, modes ModeCheck, minK, maxK int, w Weights) Verdict {
 	if minK <= 1 && share1 >= unstableRatio*(1-share1) {
 		out.Alternatives = append(out.Alternatives, 1)
 	}
-	out.Unstable = len(out.Alternatives) > 0
 	if len(ranked) > 1 {
 		out.RunnerUp = ranked[1]
 	} else if edge > 0 {
 		out.RunnerUp = maxK
 	}
+	// A verdict the grid calls a coin toss is unstable even without a close second: its weight is
+	// spread over many k, and another seed moves it.
+	if out.Confidence < lowConfidence && len(out.Alternatives) == 0 && out.RunnerUp > 0 {
+		out.Alternatives = append(out.Alternatives, out.RunnerUp)
+	}
+	out.Unstable = len(out.Alternatives) > 0
 	out.Why = whyK(K, vs, score[K], total2, "", w)
 	if out.RunnerUp > 0 {
 		out.WhyRunner = whyK(out.RunnerUp, vs, score[out.RunnerUp], total2, "Runner-up", w)
@@ -352,7 +361,11 @@ func whyK(k int, vs []Vote, score, total float64, prefix string, w Weights) stri
 		for _, c := range by[:min(2, len(by))] {
 			reasons = append(reasons, plain[c])
 		}
-		fmt.Fprintf(&b, " (%d criteria): %s", len(by), strings.Join(reasons, "; "))
+		noun := "criteria"
+		if len(by) == 1 {
+			noun = "criterion"
+		}
+		fmt.Fprintf(&b, " (%d %s): %s", len(by), noun, strings.Join(reasons, "; "))
 	}
 	b.WriteString(".")
 	return b.String()

@@ -106,8 +106,17 @@ func writeTable(w io.Writer, res *kgauge.Result) error {
 	if res.WhyRunnerUp != "" {
 		fmt.Fprintf(&b, "  %s\n", res.WhyRunnerUp)
 	}
+	// One line per action: lake tables often have many skewed columns of one kind.
+	var actions []string
+	byAction := map[string][]string{}
 	for _, c := range res.Skewed {
-		fmt.Fprintf(&b, "  column %s looks right-skewed (skewness %.1f): %s\n", c.Name, c.Skewness, c.Action)
+		if byAction[c.Action] == nil {
+			actions = append(actions, c.Action)
+		}
+		byAction[c.Action] = append(byAction[c.Action], fmt.Sprintf("%s (%.1f)", c.Name, c.Skewness))
+	}
+	for _, a := range actions {
+		fmt.Fprintf(&b, "  right-skewed columns (skewness): %s; done: %s\n", strings.Join(byAction[a], ", "), a)
 	}
 	if res.FarRows.Rule != "" {
 		fmt.Fprintf(&b, "  far rows: %.1f%% of rows lie far from every centre (%s)\n", 100*res.FarRows.Share, res.FarRows.Rule)
