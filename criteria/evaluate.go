@@ -68,7 +68,9 @@ const wardDirectMax = 400
 // over the valid k; silhouette, simplified_silhouette and calinski_harabasz = argmax over k >= 2;
 // davies_bouldin = argmin over k >= 2; gap_box and gap_pca = GapRule; bic_gmm, aic_gmm and
 // bic_kmeans = argmin over all k; ward = the largest relative jump of the merge costs (see
-// wardVote); the verdict combines them as documented on Verdict.Rule (see verdict in verdict.go).
+// wardVote); split_agreement = splitVote on whitened halves of the sample; the one-mode check
+// (modeCheck) runs once; the verdict combines them (Decide in vote.go), and FarRows is measured on the
+// verdict's fit.
 //
 // A k is Valid when its coreset fit has no empty cluster; criteria consider
 // valid k only (k larger than the number of distinct points is never valid). If every coreset

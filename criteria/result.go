@@ -50,12 +50,11 @@ type Vote struct {
 	Note      string `json:"note,omitempty"`
 }
 
-// Verdict is the combined choice of k. Stage 1: if more than half of the non-abstaining criteria
-// able to say k = 1 (gap_box, gap_pca, bic_gmm, bic_kmeans) name 1, K is 1 and Structure false.
-// Stage 2: otherwise K is the k >= 2 named by most criteria (votes for 1 count as disagreeing);
-// ties go to the k with more gap_box/gap_pca votes, then to the smaller k. Agreement is the share
-// of non-abstaining criteria that named K; RunnerUp the next k in the same order (0 if none). If no
-// criterion names any k >= 2, K is max(MinK, 1) with Structure false.
+// Verdict is the combined choice of k, made by Decide: a weighted two-stage vote (one group or
+// several; then which k) with weights measured on the benchmark grid (criteria/weights.json).
+// Agreement is the plain share of non-abstaining criteria that named K; RunnerUp is the k >= 2 with
+// the next most vote weight (0 if none). If no criterion names any k >= 2, K is max(MinK, 1) with
+// Structure false.
 type Verdict struct {
 	K         int      `json:"k"`
 	RunnerUp  int      `json:"runner_up"` // 0 = none

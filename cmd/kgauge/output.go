@@ -97,8 +97,8 @@ func writeTable(w io.Writer, res *kgauge.Result) error {
 		for i, k := range res.Alternatives {
 			alt[i] = fmt.Sprint(k)
 		}
-		fmt.Fprintf(&b, "  unstable: the evidence is split; k = %s hold nearly as much of the vote; another seed may name one of them\n",
-			strings.Join(alt, ", "))
+		fmt.Fprintf(&b, "  unstable: the evidence is split (a close second, or a confidence below 0.5); other candidates: k = %s; "+
+			"another seed may name one of them\n", strings.Join(alt, ", "))
 	}
 	if res.Why != "" {
 		fmt.Fprintf(&b, "  why: %s\n", res.Why)
