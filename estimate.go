@@ -6,6 +6,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"math"
 	"os"
 	"runtime"
 	"runtime/debug"
@@ -22,24 +23,34 @@ const Version = "0.1.0"
 // Result is the outcome of an estimate: the verdict, every criterion's score per k, and what the
 // verdict was computed from. Its JSON field names are a stable contract (see the README).
 type Result struct {
-	K           int               `json:"k"`
-	RunnerUp    *int              `json:"runner_up"`
-	Agreement   float64           `json:"agreement"`
-	Structure   bool              `json:"structure"`
-	AtMaxK      bool              `json:"at_max_k"`
-	Agree       []string          `json:"agreeing"`
-	Disagree    []string          `json:"disagreeing"`
-	Rule        string            `json:"rule"`
-	Votes       map[string]*int   `json:"votes"`
-	VoteList    []criteria.Vote   `json:"vote_details"`
-	PerK        []criteria.Scores `json:"per_k"`
-	Rows        int64             `json:"rows"`
-	SkippedRows int64             `json:"skipped_rows"`
-	ProbeRows   int64             `json:"probe_rows"`
-	Columns     []string          `json:"columns"`
-	Ignored     []IgnoredColumn   `json:"ignored_columns"`
-	Files       []FileInfo        `json:"files"`
-	Sketches    []string          `json:"sketches,omitempty"`
+	K         int      `json:"k"`
+	RunnerUp  *int     `json:"runner_up"`
+	Agreement float64  `json:"agreement"`
+	Structure bool     `json:"structure"`
+	AtMaxK    bool     `json:"at_max_k"`
+	Agree     []string `json:"agreeing"`
+	Disagree  []string `json:"disagreeing"`
+	Rule      string   `json:"rule"`
+	// Confidence is the verdict's calibrated confidence (bench/report/CALIBRATION.md): on the
+	// benchmark grid, verdicts given this confidence were right about this share of the time.
+	Confidence   float64            `json:"confidence"`
+	Unstable     bool               `json:"unstable"`     // another k holds nearly as much vote weight
+	Alternatives []int              `json:"alternatives"` // those k, strongest first
+	Why          string             `json:"why"`          // what decided the verdict, in one sentence
+	WhyRunnerUp  string             `json:"why_runner_up,omitempty"`
+	OneMode      criteria.ModeCheck `json:"one_mode_check"`
+	FarRows      criteria.FarRows   `json:"far_rows"`
+	Skewed       []SkewedColumn     `json:"skewed_columns"` // columns that look right-skewed, and what was done
+	Votes        map[string]*int    `json:"votes"`
+	VoteList     []criteria.Vote    `json:"vote_details"`
+	PerK         []criteria.Scores  `json:"per_k"`
+	Rows         int64              `json:"rows"`
+	SkippedRows  int64              `json:"skipped_rows"`
+	ProbeRows    int64              `json:"probe_rows"`
+	Columns      []string           `json:"columns"`
+	Ignored      []IgnoredColumn    `json:"ignored_columns"`
+	Files        []FileInfo         `json:"files"`
+	Sketches     []string           `json:"sketches,omitempty"`
 	// SkippedFiles are data files left out because they cannot be read (--skip-unreadable).
 	SkippedFiles []SkippedFile `json:"skipped_files,omitempty"`
 	Scaling      Scaling       `json:"scaling"`
@@ -78,6 +89,11 @@ func Evaluate(ctx context.Context, sk *sketch.Sketch, opt Options) (*Result, err
 	if n := sk.Rows(); n < int64(opt.Criteria.MaxK) {
 		return nil, fmt.Errorf("%w: %d usable rows is fewer than max-k (%d)", ErrTooFewRows, n, opt.Criteria.MaxK)
 	}
+	if opt.Scale == Log {
+		if err := checkPositive(sk); err != nil {
+			return nil, err
+		}
+	}
 	start := time.Now()
 	sum, sc := Summarize(sk, opt.Scale)
 	cr, err := criteria.Evaluate(ctx, sum, opt.Criteria)
@@ -86,10 +102,16 @@ func Evaluate(ctx context.Context, sk *sketch.Sketch, opt Options) (*Result, err
 	}
 	r := &Result{K: cr.Verdict.K, Agreement: cr.Verdict.Agreement, Structure: cr.Verdict.Structure, AtMaxK: cr.Verdict.AtMaxK,
 		Agree: cr.Verdict.Agree, Disagree: cr.Verdict.Disagree, Rule: cr.Verdict.Rule,
-		Votes: map[string]*int{}, VoteList: cr.Votes, PerK: cr.PerK,
+		Confidence: cr.Verdict.Confidence, Unstable: cr.Verdict.Unstable, Alternatives: cr.Verdict.Alternatives,
+		Why: cr.Verdict.Why, WhyRunnerUp: cr.Verdict.WhyRunner, OneMode: cr.Modes, FarRows: cr.Far,
+		Skewed: skewedColumns(sk, opt.Scale),
+		Votes:  map[string]*int{}, VoteList: cr.Votes, PerK: cr.PerK,
 		Rows: sk.Rows(), SkippedRows: sk.Meta.SkippedRows, ProbeRows: sk.Meta.ProbeRows,
 		Columns: sk.Columns(), Ignored: []IgnoredColumn{}, Scaling: sc,
 		MinK: opt.Criteria.MinK, MaxK: opt.Criteria.MaxK, Seed: opt.Seed, Version: Version, criteria: cr}
+	if math.IsNaN(r.Confidence) {
+		r.Confidence = 0 // no calibration table (never with the embedded weights)
+	}
 	if cr.Verdict.RunnerUp > 0 {
 		ru := cr.Verdict.RunnerUp
 		r.RunnerUp = &ru

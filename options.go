@@ -16,15 +16,16 @@ const (
 	ZScore Scale = "zscore" // (x − mean) / standard deviation; a constant column is only centred
 	Range  Scale = "range"  // (x − min) / (max − min); a constant column is only shifted
 	Raw    Scale = "none"   // the data's own units
+	Log    Scale = "log"    // (ln x − mean ln x) / sd ln x, every value must be > 0 (skew.go)
 )
 
 // ParseScale turns a flag value into a Scale.
 func ParseScale(s string) (Scale, error) {
 	switch Scale(s) {
-	case ZScore, Range, Raw:
+	case ZScore, Range, Raw, Log:
 		return Scale(s), nil
 	}
-	return "", fmt.Errorf("unknown scale %q (want zscore, range or none)", s)
+	return "", fmt.Errorf("unknown scale %q (want zscore, range, log or none)", s)
 }
 
 // Defaults for [Options].

@@ -14,10 +14,14 @@ type Scaling struct {
 	Method Scale     `json:"method"`
 	Center []float64 `json:"center"`
 	Spread []float64 `json:"spread"`
+	Log    bool      `json:"log,omitempty"` // z = (ln x − Center) / Spread (--scale log)
 }
 
 // scalingOf computes the scaling from the exact statistics of the whole sketch.
 func scalingOf(sk *sketch.Sketch, method Scale) Scaling {
+	if method == Log {
+		return logScaling(sk)
+	}
 	m := sk.Moments()
 	d := sk.Dims()
 	sc := Scaling{Method: method, Center: make([]float64, d), Spread: make([]float64, d)}
@@ -44,6 +48,9 @@ func (sc Scaling) apply(x []float64) []float64 {
 	out := make([]float64, len(x))
 	for i, v := range x {
 		j := i % d
+		if sc.Log {
+			v = math.Log(v)
+		}
 		out[i] = (v - sc.Center[j]) / sc.Spread[j]
 	}
 	return out
@@ -60,10 +67,15 @@ func Summarize(sk *sketch.Sketch, method Scale) (criteria.Summary, Scaling) {
 	cross := sk.Cross()
 	s := criteria.Summary{D: d, N: float64(m.N), Seeds: map[int][]float64{}}
 	s.Mean = sc.apply(m.MeanTo(nil))
+	if sc.Log {
+		s.Mean = make([]float64, d) // Center is the mean of ln x (sample estimate)
+	}
 	s.Min = sc.apply(m.Min)
 	s.Max = sc.apply(m.Max)
 	s.Cov = cross.CovTo(nil)
-	if cross.N < 2 {
+	if sc.Log {
+		s.Cov = logCov(sk.Sample(), sc)
+	} else if cross.N < 2 {
 		// Too few sampled rows for cross-products: fall back to the exact diagonal.
 		clear(s.Cov)
 		v := m.VarTo(nil)

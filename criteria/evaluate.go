@@ -22,6 +22,9 @@ const (
 	streamGapSample
 	streamBoxRefs
 	streamPCARefs
+	streamChecks // the points behind the one-mode check and the split halves
+	streamModes  // the one-mode check's halves and 2-means fits
+	streamSplit  // the split halves' k-means fits at each k
 )
 
 // rngFor returns the random stream for (seed, k, purpose): a PCG seeded with the seed and a
@@ -65,7 +68,9 @@ const wardDirectMax = 400
 // over the valid k; silhouette, simplified_silhouette and calinski_harabasz = argmax over k >= 2;
 // davies_bouldin = argmin over k >= 2; gap_box and gap_pca = GapRule; bic_gmm, aic_gmm and
 // bic_kmeans = argmin over all k; ward = the largest relative jump of the merge costs (see
-// wardVote); the verdict combines them as documented on Verdict.Rule (see verdict in verdict.go).
+// wardVote); split_agreement = splitVote on whitened halves of the sample; the one-mode check
+// (modeCheck) runs once; the verdict combines them (Decide in vote.go), and FarRows is measured on the
+// verdict's fit.
 //
 // A k is Valid when its coreset fit has no empty cluster; criteria consider
 // valid k only (k larger than the number of distinct points is never valid). If every coreset
@@ -123,6 +128,10 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 		trace = tss / W
 	}
 	reg := 1e-6 * trace / float64(s.D)
+
+	checks := gapSide(s, checkPoints, rngFor(opt.Seed, 0, streamChecks))
+	splitA, splitB := splitHalves(whiten(checks, s.Cov), rngFor(opt.Seed, 0, streamSplit))
+	res.Modes, _ = modeCheck(checks, rngFor(opt.Seed, 0, streamModes))
 
 	var ward []Merge
 	evalK := func(k int) {
@@ -186,6 +195,9 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 				}
 			}
 		}
+		if sc.Valid {
+			sc.SplitAgreement = splitAgreement(splitA, splitB, k, 2, rngFor(opt.Seed, k, streamSplit))
+		}
 		res.PerK[i] = sc
 	}
 	wardJob := func() {
@@ -227,7 +239,8 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 		res.PerK[i].WardHeight, res.PerK[i].WardJump = h[i], j[i]
 	}
 	res.Votes = votes(res.PerK, best, opt)
-	res.Verdict = verdict(res.Votes, opt)
+	res.Verdict = verdict(res, opt)
+	res.Far = farRows(core, res)
 	return res, nil
 }
 

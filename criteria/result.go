@@ -20,12 +20,13 @@ const (
 	NameWard                 = "ward"
 	NameCalinskiHarabasz     = "calinski_harabasz"
 	NameDaviesBouldin        = "davies_bouldin"
+	NameSplitAgreement       = "split_agreement"
 )
 
 // CriterionNames returns the criterion names in the order of Result.Votes.
 func CriterionNames() []string {
 	return []string{NameElbow, NameSilhouette, NameSimplifiedSilhouette, NameGapBox, NameGapPCA, NameBICGMM,
-		NameAICGMM, NameBICKMeans, NameWard, NameCalinskiHarabasz, NameDaviesBouldin}
+		NameAICGMM, NameBICKMeans, NameWard, NameCalinskiHarabasz, NameDaviesBouldin, NameSplitAgreement}
 }
 
 // Result is the outcome of Evaluate.
@@ -36,6 +37,8 @@ type Result struct {
 	Ward    Ward            `json:"ward"`
 	Fits    []kmeans.Result `json:"-"`       // the chosen coreset fit per k, parallel to PerK
 	Options Options         `json:"options"` // the options used, defaults filled in
+	Modes   ModeCheck       `json:"one_mode_check"`
+	Far     FarRows         `json:"far_rows"` // rows far from every centre of the verdict's fit
 }
 
 // Vote is one criterion's choice of k. Abstain is true (and K 0) when the criterion could not
@@ -47,12 +50,11 @@ type Vote struct {
 	Note      string `json:"note,omitempty"`
 }
 
-// Verdict is the combined choice of k. Stage 1: if more than half of the non-abstaining criteria
-// able to say k = 1 (gap_box, gap_pca, bic_gmm, bic_kmeans) name 1, K is 1 and Structure false.
-// Stage 2: otherwise K is the k >= 2 named by most criteria (votes for 1 count as disagreeing);
-// ties go to the k with more gap_box/gap_pca votes, then to the smaller k. Agreement is the share
-// of non-abstaining criteria that named K; RunnerUp the next k in the same order (0 if none). If no
-// criterion names any k >= 2, K is max(MinK, 1) with Structure false.
+// Verdict is the combined choice of k, made by Decide: a weighted two-stage vote (one group or
+// several; then which k) with weights measured on the benchmark grid (criteria/weights.json).
+// Agreement is the plain share of non-abstaining criteria that named K; RunnerUp is the k >= 2 with
+// the next most vote weight (0 if none). If no criterion names any k >= 2, K is max(MinK, 1) with
+// Structure false.
 type Verdict struct {
 	K         int      `json:"k"`
 	RunnerUp  int      `json:"runner_up"` // 0 = none
@@ -62,6 +64,19 @@ type Verdict struct {
 	Structure bool     `json:"structure"` // false when K = 1, "no cluster structure"
 	AtMaxK    bool     `json:"at_max_k"`  // most criteria still improve at MaxK: the best k may be larger
 	Rule      string   `json:"rule"`
+
+	// Support is the share of the deciding stage's vote weight (Weights) behind K; Confidence is
+	// Support mapped through the calibration table measured on the benchmark grid (the share of
+	// grid runs with that support whose verdict was right).
+	Support    float64 `json:"support"`
+	Confidence float64 `json:"confidence"`
+	// Unstable is true when another k holds nearly as much vote weight as K (at least
+	// unstableRatio of it); Alternatives then lists those k, strongest first.
+	Unstable     bool  `json:"unstable"`
+	Alternatives []int `json:"alternatives"`
+	// Why says in one sentence each what decided K and, if any, the runner-up.
+	Why       string `json:"why"`
+	WhyRunner string `json:"why_runner_up,omitempty"`
 }
 
 // Scores holds every criterion's value at one k; NaN where undefined (marshalled as JSON null).
@@ -93,13 +108,16 @@ type Scores struct {
 
 	CalinskiHarabasz float64 `json:"calinski_harabasz"`
 	DaviesBouldin    float64 `json:"davies_bouldin"`
+
+	SplitAgreement float64 `json:"split_agreement"` // prediction strength between two disjoint halves
 }
 
 func nanScores(k int) Scores {
 	n := math.NaN()
 	return Scores{K: k, WCSS: n, Kneedle: n, Silhouette: n, SilhouetteLo: n, SilhouetteHi: n,
 		SimplifiedSilhouette: n, GapBox: n, GapBoxS: n, GapPCA: n, GapPCAS: n, LogW: n, LogLikGMM: n,
-		BICGMM: n, AICGMM: n, BICKMeans: n, WardHeight: n, WardJump: n, CalinskiHarabasz: n, DaviesBouldin: n}
+		BICGMM: n, AICGMM: n, BICKMeans: n, WardHeight: n, WardJump: n, CalinskiHarabasz: n, DaviesBouldin: n,
+		SplitAgreement: n}
 }
 
 // jsonFloat marshals NaN and ±Inf as null.
@@ -137,10 +155,12 @@ func (s Scores) MarshalJSON() ([]byte, error) {
 		WardJump             jsonFloat `json:"ward_jump"`
 		CalinskiHarabasz     jsonFloat `json:"calinski_harabasz"`
 		DaviesBouldin        jsonFloat `json:"davies_bouldin"`
+		SplitAgreement       jsonFloat `json:"split_agreement"`
 	}
 	return json.Marshal(out{s.K, s.Valid, jsonFloat(s.WCSS), jsonFloat(s.Kneedle), jsonFloat(s.Silhouette),
 		jsonFloat(s.SilhouetteLo), jsonFloat(s.SilhouetteHi), jsonFloat(s.SimplifiedSilhouette),
 		jsonFloat(s.GapBox), jsonFloat(s.GapBoxS), jsonFloat(s.GapPCA), jsonFloat(s.GapPCAS), jsonFloat(s.LogW),
 		jsonFloat(s.LogLikGMM), jsonFloat(s.BICGMM), jsonFloat(s.AICGMM), jsonFloat(s.BICKMeans),
-		jsonFloat(s.WardHeight), jsonFloat(s.WardJump), jsonFloat(s.CalinskiHarabasz), jsonFloat(s.DaviesBouldin)})
+		jsonFloat(s.WardHeight), jsonFloat(s.WardJump), jsonFloat(s.CalinskiHarabasz), jsonFloat(s.DaviesBouldin),
+		jsonFloat(s.SplitAgreement)})
 }

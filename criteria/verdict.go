@@ -3,7 +3,6 @@ package criteria
 import (
 	"fmt"
 	"math"
-	"slices"
 	"strings"
 )
 
@@ -103,133 +102,11 @@ func votes(per []Scores, wardK int, opt Options) []Vote {
 	add(NameCalinskiHarabasz, k, ok, "max Calinski-Harabasz")
 	k, _, ok = pick(per, 2, false, func(s Scores) float64 { return s.DaviesBouldin })
 	add(NameDaviesBouldin, k, ok, "min Davies-Bouldin")
+	k, ok = splitVote(per)
+	note = fmt.Sprintf("largest k whose two disjoint halves agree (prediction strength >= %.1f)", splitThreshold)
+	if !ok {
+		note = "no k scored"
+	}
+	add(NameSplitAgreement, k, ok, note)
 	return out
-}
-
-// canSayOne reports whether a criterion is one of those that can express "no cluster
-// structure" (k = 1) in the verdict's first stage.
-func canSayOne(name string) bool {
-	return name == NameGapBox || name == NameGapPCA || name == NameBICGMM || name == NameBICKMeans
-}
-
-// verdictRule is Verdict.Rule for a decision over k >= 2.
-const verdictRule = "k=1 if most of gap_box, gap_pca, bic_gmm, bic_kmeans say 1; else the k>=2 inside the range with most votes " +
-	"(votes at max-k count only as 'k may be larger'; ties: more gap votes, then smaller k)"
-
-// edgeRule is Verdict.Rule when the criteria peaking at MaxK outnumber every k inside the range.
-const edgeRule = "most criteria are still improving at max-k: the best k may be larger; widen --max-k"
-
-// verdict combines the votes.
-//
-// Stage 1: among the non-abstaining criteria able to say k = 1 (gap_box, gap_pca, bic_gmm,
-// bic_kmeans), if more than half name 1 the verdict is 1 with Structure false.
-//
-// Stage 2: a criterion whose best k is MaxK (with more than two k in range) has found no optimum
-// inside the range, only that the best k is MaxK or larger (common practice: a boundary optimum is
-// inconclusive); information criteria on large samples of non-Gaussian clusters do this routinely.
-// Such votes do not elect a k inside the range. The k >= 2 below MaxK with the most votes wins;
-// ties go to the k with more gap_box/gap_pca votes, then to the smaller k. If the votes at MaxK
-// outnumber that winner (or there is none), the verdict is MaxK with AtMaxK set, telling the
-// caller to widen the range.
-//
-// Agreement is the share of non-abstaining criteria that named K; RunnerUp is the next most voted k
-// (same tie-break), 0 if none.
-func verdict(vs []Vote, opt Options) Verdict {
-	voting := 0
-	for _, v := range vs {
-		if !v.Abstain {
-			voting++
-		}
-	}
-	edgeApplies := opt.MaxK-opt.MinK >= 2
-	count := map[int]int{}
-	gapCount := map[int]int{}
-	edge := 0
-	for _, v := range vs {
-		if v.Abstain {
-			continue
-		}
-		if edgeApplies && v.K == opt.MaxK {
-			edge++
-			continue
-		}
-		count[v.K]++
-		if v.Criterion == NameGapBox || v.Criterion == NameGapPCA {
-			gapCount[v.K]++
-		}
-	}
-	var ranked []int // k >= 2 inside the range by votes, then gap votes, then smaller k
-	for k := range count {
-		if k >= 2 {
-			ranked = append(ranked, k)
-		}
-	}
-	slices.SortFunc(ranked, func(a, b int) int {
-		if count[a] != count[b] {
-			return count[b] - count[a]
-		}
-		if gapCount[a] != gapCount[b] {
-			return gapCount[b] - gapCount[a]
-		}
-		return a - b
-	})
-	build := func(K int, structure bool, rule string, runner int) Verdict {
-		out := Verdict{K: K, RunnerUp: runner, Structure: structure, Rule: rule, Agree: []string{}, Disagree: []string{}}
-		for _, v := range vs {
-			if v.Abstain {
-				continue
-			}
-			if v.K == K {
-				out.Agree = append(out.Agree, v.Criterion)
-			} else {
-				out.Disagree = append(out.Disagree, v.Criterion)
-			}
-		}
-		if voting > 0 {
-			out.Agreement = float64(len(out.Agree)) / float64(voting)
-		}
-		return out
-	}
-	if opt.MinK <= 1 {
-		n1, nv := 0, 0
-		for _, v := range vs {
-			if v.Abstain || !canSayOne(v.Criterion) {
-				continue
-			}
-			nv++
-			if v.K == 1 {
-				n1++
-			}
-		}
-		if nv > 0 && 2*n1 > nv {
-			runner := 0
-			if len(ranked) > 0 {
-				runner = ranked[0]
-			}
-			return build(1, false, fmt.Sprintf("k=1: %d of %d of gap_box, gap_pca, bic_gmm, bic_kmeans say 1 (no cluster structure)", n1, nv), runner)
-		}
-	}
-	best := 0
-	if len(ranked) > 0 {
-		best = count[ranked[0]]
-	}
-	if edge > 0 && edge > best {
-		v := build(opt.MaxK, true, edgeRule, 0)
-		if len(ranked) > 0 {
-			v.RunnerUp = ranked[0]
-		}
-		v.AtMaxK = true
-		return v
-	}
-	if len(ranked) == 0 {
-		k := max(opt.MinK, 1)
-		return build(k, false, "no criterion voted for k >= 2: no cluster structure found", 0)
-	}
-	runner := 0
-	if len(ranked) > 1 {
-		runner = ranked[1]
-	} else if edge > 0 {
-		runner = opt.MaxK
-	}
-	return build(ranked[0], true, verdictRule, runner)
 }

@@ -143,7 +143,7 @@ func report(err error, stderr io.Writer) int {
 		code = exitInterrupted
 	case errors.As(err, &ue), errors.Is(err, kgauge.ErrMemoryLimit):
 		code = exitUsage
-	case errors.As(err, &re), errors.As(err, &ie), errors.Is(err, kgauge.ErrNoRows), errors.Is(err, kgauge.ErrTooFewRows),
+	case errors.As(err, &re), errors.As(err, &ie), errors.Is(err, kgauge.ErrNoRows), errors.Is(err, kgauge.ErrTooFewRows), errors.Is(err, kgauge.ErrNonPositive),
 		errors.Is(err, os.ErrNotExist), errors.Is(err, stream.ErrNoDataFiles), errors.Is(err, stream.ErrUnknownColumn),
 		errors.Is(err, stream.ErrNotNumeric), errors.Is(err, stream.ErrMissingColumn), errors.Is(err, stream.ErrInfinite):
 		code = exitInput

@@ -260,7 +260,7 @@ func TestBadInput(t *testing.T) {
 		{"negative max-k", []string{"estimate", "--max-k", "-2", good}, ExitUsage, []string{"--max-k"}, false},
 		{"non-numeric value", []string{"estimate", "--workers", "many", good}, ExitUsage, []string{"workers"}, false},
 		{"unknown flag", []string{"estimate", "--colour", good}, ExitUsage, []string{"colour"}, false},
-		{"bad scale", []string{"estimate", "--scale", "log", good}, ExitUsage, []string{"--scale"}, false},
+		{"bad scale", []string{"estimate", "--scale", "cubic", good}, ExitUsage, []string{"--scale"}, false},
 		{"no path", []string{"estimate"}, ExitUsage, []string{"no PATH"}, false},
 		{"unknown command", []string{"guess"}, ExitUsage, []string{"guess"}, false},
 		{"--out in a missing directory", []string{"estimate", "--out", filepath.Join(missingDir, "r.json"), good}, ExitOutput, []string{"r.json", "does not exist"}, false},

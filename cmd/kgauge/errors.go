@@ -58,7 +58,7 @@ func exitCode(err error) int {
 	case errors.As(err, &oe):
 		return ExitOutput
 	case errors.As(err, &re), errors.As(err, &ie),
-		errors.Is(err, kgauge.ErrNoRows), errors.Is(err, kgauge.ErrTooFewRows),
+		errors.Is(err, kgauge.ErrNoRows), errors.Is(err, kgauge.ErrTooFewRows), errors.Is(err, kgauge.ErrNonPositive),
 		errors.Is(err, os.ErrNotExist), errors.Is(err, os.ErrPermission),
 		errors.Is(err, stream.ErrNoDataFiles), errors.Is(err, stream.ErrNoNumericColumns),
 		errors.Is(err, stream.ErrUnknownColumn), errors.Is(err, stream.ErrNotNumeric),

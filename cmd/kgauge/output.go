@@ -93,11 +93,40 @@ func writeTable(w io.Writer, res *kgauge.Result) error {
 	if !res.Structure {
 		b.WriteString(" (no cluster structure found)")
 	}
-	fmt.Fprintf(&b, " · agreement %.0f%%", 100*res.Agreement)
+	fmt.Fprintf(&b, " · confidence %s · agreement %.0f%%", fixed(res.Confidence, 2), 100*res.Agreement)
 	if res.RunnerUp != nil {
 		fmt.Fprintf(&b, " · runner-up k = %d", *res.RunnerUp)
 	}
 	b.WriteString("\n")
+	if res.Unstable {
+		alt := make([]string, len(res.Alternatives))
+		for i, k := range res.Alternatives {
+			alt[i] = fmt.Sprint(k)
+		}
+		fmt.Fprintf(&b, "  unstable: the evidence is split (a close second, or a confidence below 0.5); other candidates: k = %s; "+
+			"another seed may name one of them\n", strings.Join(alt, ", "))
+	}
+	if res.Why != "" {
+		fmt.Fprintf(&b, "  why: %s\n", res.Why)
+	}
+	if res.WhyRunnerUp != "" {
+		fmt.Fprintf(&b, "  %s\n", res.WhyRunnerUp)
+	}
+	// One line per action: lake tables often have many skewed columns of one kind.
+	var actions []string
+	byAction := map[string][]string{}
+	for _, c := range res.Skewed {
+		if byAction[c.Action] == nil {
+			actions = append(actions, c.Action)
+		}
+		byAction[c.Action] = append(byAction[c.Action], fmt.Sprintf("%s (%.1f)", c.Name, c.Skewness))
+	}
+	for _, a := range actions {
+		fmt.Fprintf(&b, "  right-skewed columns (skewness): %s; done: %s\n", strings.Join(byAction[a], ", "), a)
+	}
+	if res.FarRows.Rule != "" {
+		fmt.Fprintf(&b, "  far rows: %.1f%% of rows lie far from every centre (%s)\n", 100*res.FarRows.Share, res.FarRows.Rule)
+	}
 	if res.AtMaxK {
 		fmt.Fprintf(&b, "  most criteria are still improving at --max-k %d: the best k may be larger; widen the range\n", res.MaxK)
 	}

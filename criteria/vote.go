@@ -1,0 +1,372 @@
+package criteria
+
+import (
+	_ "embed"
+	"encoding/json"
+	"fmt"
+	"math"
+	"slices"
+	"strings"
+)
+
+// NameOneMode is the one-mode check's key in Weights.Structure (it is not a per-k criterion).
+const NameOneMode = "one_mode"
+
+// unstableRatio: a verdict is unstable when another k holds at least this share of its vote
+// weight. Chosen on the benchmark grid (bench/report/CALIBRATION.md): below it, seeds 1..10 gave
+// the same verdict in at least 9 of 10 runs on every reference set and scenario measured.
+const unstableRatio = 0.75
+
+// lowConfidence: a k >= 2 verdict whose calibrated confidence is below this is marked unstable
+// (with the runner-up as its alternative): on the grid such verdicts were right less often than not.
+const lowConfidence = 0.5
+
+// Weights are the vote weights measured on the benchmark grid (bench/report/CALIBRATION.md),
+// embedded from weights.json, which `go test ./bench/ -run TestCalibrationGrid -calibrate` writes.
+type Weights struct {
+	Source string `json:"source"` // the command and grid that produced the weights
+	// Structure weighs the voters of stage 1 (one group or several): the criteria able to say
+	// k = 1 and the one-mode check. Each weight is the log-odds of the voter being right about
+	// "one group or several" on the grid, floored at 0.
+	Structure map[string]float64 `json:"structure"`
+	// Choice weighs every criterion's k in stage 2: log(p/(1-p)) + log(m-1), floored at 0, with p
+	// the share of grid runs with several groups in which it named the true k and m the number of
+	// candidate k (the weighted-majority rule for independent voters over m classes).
+	Choice map[string]float64 `json:"choice"`
+	// Calibration maps Support to the share of held-out grid runs whose verdict was right: the
+	// confidence of a verdict is Right of the last point whose Support is at most the verdict's.
+	Calibration []CalPoint `json:"calibration"`
+}
+
+// CalPoint is one step of the calibration table.
+type CalPoint struct {
+	Support float64 `json:"support"` // lower end of the support bin
+	Right   float64 `json:"right"`   // share right (monotone by pool-adjacent-violators)
+	Runs    int     `json:"runs"`    // grid runs behind it
+}
+
+//go:embed weights.json
+var weightsJSON []byte
+
+// ParseWeights reads and checks a weights file: every name must be a criterion (or NameOneMode in
+// Structure), every weight finite and non-negative, the calibration sorted by Support with Right in
+// 0..1.
+func ParseWeights(b []byte) (Weights, error) {
+	var w Weights
+	if err := json.Unmarshal(b, &w); err != nil {
+		return Weights{}, fmt.Errorf("criteria: weights: %w", err)
+	}
+	known := CriterionNames()
+	for _, m := range []struct {
+		what string
+		m    map[string]float64
+	}{{"structure", w.Structure}, {"choice", w.Choice}} {
+		if len(m.m) == 0 {
+			return Weights{}, fmt.Errorf("criteria: weights: no %s weights", m.what)
+		}
+		for name, v := range m.m {
+			if !slices.Contains(known, name) && !(m.what == "structure" && name == NameOneMode) {
+				return Weights{}, fmt.Errorf("criteria: weights: unknown %s voter %q", m.what, name)
+			}
+			if !(v >= 0) || math.IsInf(v, 0) {
+				return Weights{}, fmt.Errorf("criteria: weights: %s weight of %s is %v", m.what, name, v)
+			}
+		}
+	}
+	for i, c := range w.Calibration {
+		if !(c.Right >= 0 && c.Right <= 1) || (i > 0 && !(c.Support > w.Calibration[i-1].Support)) {
+			return Weights{}, fmt.Errorf("criteria: weights: calibration point %d (%v, %v) out of order or range", i, c.Support, c.Right)
+		}
+	}
+	return w, nil
+}
+
+// DefaultWeights returns the embedded weights. It panics if they do not parse (a build error,
+// caught by the package tests).
+func DefaultWeights() Weights {
+	w, err := ParseWeights(weightsJSON)
+	if err != nil {
+		panic(err)
+	}
+	return w
+}
+
+var defaultWeights = DefaultWeights()
+
+// Confidence returns the calibrated confidence of a verdict with the given support (NaN without a
+// calibration table).
+func (w Weights) Confidence(support float64) float64 {
+	if len(w.Calibration) == 0 {
+		return math.NaN()
+	}
+	c := w.Calibration[0].Right
+	for _, p := range w.Calibration {
+		if p.Support <= support {
+			c = p.Right
+		}
+	}
+	return c
+}
+
+// canSayOne reports whether a criterion takes part in stage 1 (it can name k = 1).
+func canSayOne(name string) bool {
+	switch name {
+	case NameGapBox, NameGapPCA, NameBICGMM, NameBICKMeans, NameSplitAgreement:
+		return true
+	}
+	return false
+}
+
+// plain says what a criterion's choice means, without jargon, for Verdict.Why.
+var plain = map[string]string{
+	NameElbow:                "the spread within clusters stops falling fast there (elbow)",
+	NameSilhouette:           "rows sit clearly closer to their own cluster than to the next one (silhouette)",
+	NameSimplifiedSilhouette: "rows sit clearly closer to their own centre than to the next one (simplified silhouette)",
+	NameGapBox:               "clusters are much tighter than in patternless data of the same extent (gap statistic)",
+	NameGapPCA:               "clusters are much tighter than in patternless data of the same shape (gap statistic, rotated)",
+	NameBICGMM:               "a mixture of that many bell-shaped groups explains the rows best for its size (BIC)",
+	NameAICGMM:               "a mixture of that many bell-shaped groups explains the rows best (AIC)",
+	NameBICKMeans:            "that many centres explain the rows best for their number (k-means BIC)",
+	NameWard:                 "merging any two of its groups would cost the most (Ward linkage)",
+	NameCalinskiHarabasz:     "groups are farthest apart for how spread out they are (Calinski-Harabasz)",
+	NameDaviesBouldin:        "groups are most compact and least alike (Davies-Bouldin)",
+	NameSplitAgreement:       "two disjoint halves of the rows are grouped the same way (split agreement)",
+}
+
+// Decide combines the votes and the one-mode check into a verdict with the weights w.
+//
+// Stage 1 (only when minK <= 1): the voters able to say "one group" (gap_box, gap_pca, bic_gmm,
+// bic_kmeans, split_agreement and the one-mode check) each say "one" or "several"; if the weight
+// saying one is at least the weight saying several, K is 1 and Structure false (an exact tie goes to
+// "one": a false alarm costs more than a missed split, and the verdict is marked unstable).
+//
+// Stage 2: every criterion naming a k >= 2 adds its Choice weight to that k; a vote at maxK (with
+// more than two k in range) only says "k may be larger" and adds to the edge. The k with the most
+// weight wins; if the edge outweighs it, K is maxK with AtMaxK. An exact tie is resolved toward the
+// smaller k and marked unstable, never toward a particular criterion.
+//
+// Support is the winning weight share (for k >= 2, the share of stage 1 saying "several" times the
+// share of stage 2 behind K); Confidence is the calibrated Support. Unstable is set when another k
+// holds at least unstableRatio of K's weight (or stage 1 was that close); Alternatives lists them.
+func Decide(vs []Vote, modes ModeCheck, minK, maxK int, w Weights) Verdict {
+	voting := 0
+	for _, v := range vs {
+		if !v.Abstain {
+			voting++
+		}
+	}
+	build := func(K int, structure bool, rule string) Verdict {
+		out := Verdict{K: K, Structure: structure, Rule: rule, Agree: []string{}, Disagree: []string{}, Alternatives: []int{}}
+		for _, v := range vs {
+			if v.Abstain {
+				continue
+			}
+			if v.K == K {
+				out.Agree = append(out.Agree, v.Criterion)
+			} else {
+				out.Disagree = append(out.Disagree, v.Criterion)
+			}
+		}
+		if voting > 0 {
+			out.Agreement = float64(len(out.Agree)) / float64(voting)
+		}
+		return out
+	}
+
+	// Stage 2 scores, needed for the runner-up of a k = 1 verdict as well.
+	edgeApplies := maxK-minK >= 2
+	score := map[int]float64{}
+	edge, total2 := 0.0, 0.0
+	for _, v := range vs {
+		if v.Abstain || v.K < 2 {
+			continue
+		}
+		wt := w.Choice[v.Criterion]
+		total2 += wt
+		if edgeApplies && v.K == maxK {
+			edge += wt
+			continue
+		}
+		score[v.K] += wt
+	}
+	ranked := make([]int, 0, len(score))
+	for k := range score {
+		ranked = append(ranked, k)
+	}
+	slices.SortFunc(ranked, func(a, b int) int {
+		if score[a] != score[b] {
+			if score[a] > score[b] {
+				return -1
+			}
+			return 1
+		}
+		return a - b
+	})
+
+	share1, several := 0.0, 0.0
+	if minK <= 1 {
+		one := 0.0
+		var oneBy, severalBy []string
+		for _, v := range vs {
+			if v.Abstain || !canSayOne(v.Criterion) {
+				continue
+			}
+			if v.K == 1 {
+				one += w.Structure[v.Criterion]
+				oneBy = append(oneBy, v.Criterion)
+			} else {
+				several += w.Structure[v.Criterion]
+				severalBy = append(severalBy, v.Criterion)
+			}
+		}
+		if modes.N > 0 {
+			if modes.Modes {
+				several += w.Structure[NameOneMode]
+			} else {
+				one += w.Structure[NameOneMode]
+			}
+		}
+		if one+several > 0 {
+			share1 = one / (one + several)
+		}
+		if one+several > 0 && one >= several {
+			out := build(1, false, "stage 1: the voters able to say 'one group' (gap_box, gap_pca, bic_gmm, bic_kmeans, "+
+				"split_agreement, the one-mode check) say one group by weight")
+			out.Support = share1
+			out.Confidence = w.Confidence(out.Support)
+			if len(ranked) > 0 {
+				out.RunnerUp = ranked[0]
+			}
+			if several >= unstableRatio*one && len(ranked) > 0 {
+				out.Unstable = true
+				out.Alternatives = []int{ranked[0]}
+			}
+			out.Why = whyOne(modes, oneBy, len(oneBy)+len(severalBy))
+			if out.RunnerUp > 0 {
+				out.WhyRunner = whyK(out.RunnerUp, vs, score[out.RunnerUp], total2, "Runner-up", w)
+			}
+			return out
+		}
+		several = 1 - share1
+	} else {
+		several = 1
+	}
+	best := 0.0
+	if len(ranked) > 0 {
+		best = score[ranked[0]]
+	}
+	if edge > 0 && edge > best {
+		out := build(maxK, true, "stage 2: the criteria still improving at max-k outweigh every k inside the range: "+
+			"the best k may be larger; widen --max-k")
+		out.AtMaxK = true
+		out.Support = several * edge / total2
+		out.Confidence = w.Confidence(out.Support)
+		if len(ranked) > 0 {
+			out.RunnerUp = ranked[0]
+			out.WhyRunner = whyK(out.RunnerUp, vs, score[out.RunnerUp], total2, "Runner-up", w)
+		}
+		out.Why = fmt.Sprintf("k = %d (max-k): criteria holding %.0f%% of the weighted vote are still improving at the top of the range, "+
+			"so the data may hold more clusters than --max-k allows.", maxK, 100*edge/total2)
+		return out
+	}
+	if len(ranked) == 0 {
+		k := max(minK, 1)
+		out := build(k, false, "no criterion voted for k >= 2: no cluster structure found")
+		out.Why = "No criterion found more than one group."
+		return out
+	}
+	K := ranked[0]
+	out := build(K, true, "stage 1 says several groups; stage 2: the k >= 2 with the most vote weight "+
+		"(weights measured on the benchmark grid; votes at max-k only say 'k may be larger')")
+	out.Support = several * score[K] / total2
+	out.Confidence = w.Confidence(out.Support)
+	for _, k := range ranked[1:] {
+		if score[k] >= unstableRatio*score[K] {
+			out.Alternatives = append(out.Alternatives, k)
+		}
+	}
+	if minK <= 1 && share1 >= unstableRatio*(1-share1) {
+		out.Alternatives = append(out.Alternatives, 1)
+	}
+	if len(ranked) > 1 {
+		out.RunnerUp = ranked[1]
+	} else if edge > 0 {
+		out.RunnerUp = maxK
+	}
+	// A verdict the grid calls a coin toss is unstable even without a close second: its weight is
+	// spread over many k, and another seed moves it.
+	if out.Confidence < lowConfidence && len(out.Alternatives) == 0 && out.RunnerUp > 0 {
+		out.Alternatives = append(out.Alternatives, out.RunnerUp)
+	}
+	out.Unstable = len(out.Alternatives) > 0
+	out.Why = whyK(K, vs, score[K], total2, "", w)
+	if out.RunnerUp > 0 {
+		out.WhyRunner = whyK(out.RunnerUp, vs, score[out.RunnerUp], total2, "Runner-up", w)
+	}
+	return out
+}
+
+// verdict is Decide with the result's votes and one-mode check and the embedded weights.
+func verdict(res *Result, opt Options) Verdict {
+	return Decide(res.Votes, res.Modes, opt.MinK, opt.MaxK, defaultWeights)
+}
+
+// whyOne is Verdict.Why for a k = 1 verdict.
+func whyOne(m ModeCheck, oneBy []string, voters int) string {
+	var b strings.Builder
+	b.WriteString("One group, no cluster structure: ")
+	if m.N > 0 && !m.Modes {
+		fmt.Fprintf(&b, "along the line that best splits the rows in two, the rows form a single peak (one-mode check, p = %.2f)", m.PValue)
+		if len(oneBy) > 0 {
+			b.WriteString(", and ")
+		}
+	}
+	if len(oneBy) > 0 {
+		fmt.Fprintf(&b, "%d of %d criteria able to say 'one group' said so", len(oneBy), voters)
+	}
+	b.WriteString(".")
+	return b.String()
+}
+
+// whyK is Verdict.Why (or WhyRunner, with prefix) for a k >= 2: its weight share and the
+// strongest criteria behind it, each with what it measures.
+func whyK(k int, vs []Vote, score, total float64, prefix string, w Weights) string {
+	var by []string
+	for _, v := range vs {
+		if !v.Abstain && v.K == k {
+			by = append(by, v.Criterion)
+		}
+	}
+	slices.SortStableFunc(by, func(a, b string) int {
+		wa, wb := w.Choice[a], w.Choice[b]
+		switch {
+		case wa > wb:
+			return -1
+		case wa < wb:
+			return 1
+		}
+		return 0
+	})
+	var b strings.Builder
+	if prefix != "" {
+		b.WriteString(prefix + " ")
+	}
+	share := 0.0
+	if total > 0 {
+		share = score / total
+	}
+	fmt.Fprintf(&b, "k = %d holds %.0f%% of the weighted vote", k, 100*share)
+	if len(by) > 0 {
+		reasons := make([]string, 0, 2)
+		for _, c := range by[:min(2, len(by))] {
+			reasons = append(reasons, plain[c])
+		}
+		noun := "criteria"
+		if len(by) == 1 {
+			noun = "criterion"
+		}
+		fmt.Fprintf(&b, " (%d %s): %s", len(by), noun, strings.Join(reasons, "; "))
+	}
+	b.WriteString(".")
+	return b.String()
+}

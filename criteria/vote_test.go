@@ -1,0 +1,112 @@
+package criteria
+
+import (
+	"math"
+	"slices"
+	"strings"
+	"testing"
+)
+
+// equalWeights gives every voter weight 1 and a two-step calibration.
+func equalWeights() Weights {
+	w := Weights{Structure: map[string]float64{NameOneMode: 1}, Choice: map[string]float64{},
+		Calibration: []CalPoint{{0, 0.3, 10}, {0.5, 0.8, 10}}}
+	for _, c := range CriterionNames() {
+		w.Choice[c] = 1
+		if canSayOne(c) {
+			w.Structure[c] = 1
+		}
+	}
+	return w
+}
+
+func votesOf(ks map[string]int) []Vote {
+	var vs []Vote
+	for _, c := range CriterionNames() {
+		k, ok := ks[c]
+		vs = append(vs, Vote{Criterion: c, K: k, Abstain: !ok})
+	}
+	return vs
+}
+
+func TestDecide(t *testing.T) {
+	w := equalWeights()
+	one := ModeCheck{N: 500, PValue: 0.6}
+	split := ModeCheck{N: 500, PValue: 0.001, Modes: true}
+	for _, tc := range []struct {
+		name      string
+		votes     map[string]int
+		modes     ModeCheck
+		k         int
+		structure bool
+		unstable  bool
+		alts      []int
+		runner    int
+	}{
+		{"one group by weight (4 of 6 stage-1 voters)",
+			map[string]int{NameGapBox: 1, NameGapPCA: 1, NameBICGMM: 7, NameBICKMeans: 1, NameSplitAgreement: 3,
+				NameSilhouette: 2, NameCalinskiHarabasz: 2}, one, 1, false, false, []int{}, 2},
+		{"exact stage-1 tie goes to one group, flagged",
+			map[string]int{NameGapBox: 1, NameGapPCA: 1, NameBICGMM: 4, NameBICKMeans: 4, NameSplitAgreement: 4,
+				NameSilhouette: 4}, one, 1, false, true, []int{4}, 4},
+		{"several groups, clear k",
+			map[string]int{NameGapBox: 3, NameGapPCA: 3, NameBICGMM: 3, NameBICKMeans: 3, NameSplitAgreement: 3,
+				NameSilhouette: 3, NameElbow: 4, NameWard: 3}, split, 3, true, false, []int{}, 4},
+		{"a 2-2 tie is flagged and lists the other k, never decided by a criterion",
+			map[string]int{NameGapBox: 5, NameGapPCA: 5, NameBICGMM: 6, NameBICKMeans: 6, NameSplitAgreement: 1},
+			split, 5, true, true, []int{6}, 6},
+		{"weight spread over many k: low confidence, flagged with the runner-up",
+			map[string]int{NameGapBox: 3, NameGapPCA: 5, NameBICGMM: 7, NameBICKMeans: 9, NameSplitAgreement: 3,
+				NameSilhouette: 4, NameElbow: 6}, split, 3, true, true, []int{4}, 4},
+		{"votes at max-k outweigh the rest",
+			map[string]int{NameGapBox: 3, NameBICGMM: 20, NameAICGMM: 20, NameBICKMeans: 20, NameSplitAgreement: 3},
+			split, 20, true, false, []int{}, 3},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			v := Decide(votesOf(tc.votes), tc.modes, 1, 20, w)
+			if v.K != tc.k || v.Structure != tc.structure || v.Unstable != tc.unstable || !slices.Equal(v.Alternatives, tc.alts) || v.RunnerUp != tc.runner {
+				t.Errorf("got k=%d structure=%v unstable=%v alternatives=%v runner-up %d; want %d %v %v %v %d",
+					v.K, v.Structure, v.Unstable, v.Alternatives, v.RunnerUp, tc.k, tc.structure, tc.unstable, tc.alts, tc.runner)
+			}
+			if !(v.Support >= 0 && v.Support <= 1) || math.IsNaN(v.Confidence) {
+				t.Errorf("support %v, confidence %v", v.Support, v.Confidence)
+			}
+			if v.Why == "" || strings.Contains(v.Why, "%!") {
+				t.Errorf("why: %q", v.Why)
+			}
+		})
+	}
+}
+
+func TestConfidenceSteps(t *testing.T) {
+	w := equalWeights()
+	for _, tc := range []struct{ s, want float64 }{{0, 0.3}, {0.49, 0.3}, {0.5, 0.8}, {1, 0.8}} {
+		if got := w.Confidence(tc.s); got != tc.want {
+			t.Errorf("Confidence(%v) = %v, want %v", tc.s, got, tc.want)
+		}
+	}
+	if !math.IsNaN((Weights{}).Confidence(0.5)) {
+		t.Error("no table: want NaN")
+	}
+}
+
+func TestParseWeights(t *testing.T) {
+	if _, err := ParseWeights(weightsJSON); err != nil {
+		t.Fatalf("embedded weights: %v", err)
+	}
+	for _, tc := range []struct{ name, json, want string }{
+		{"unknown criterion", `{"structure":{"gap_box":1},"choice":{"no_such":1}}`, "no_such"},
+		{"negative weight", `{"structure":{"gap_box":-1},"choice":{"elbow":1}}`, "gap_box"},
+		{"one_mode outside stage 1", `{"structure":{"gap_box":1},"choice":{"one_mode":1}}`, "one_mode"},
+		{"no choice weights", `{"structure":{"gap_box":1}}`, "no choice"},
+		{"calibration out of order", `{"structure":{"gap_box":1},"choice":{"elbow":1},"calibration":[{"support":0.5,"right":0.5},{"support":0.2,"right":0.6}]}`, "calibration point 1"},
+		{"not JSON", `{`, "weights"},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			_, err := ParseWeights([]byte(tc.json))
+			if err == nil || !strings.Contains(err.Error(), tc.want) {
+				t.Errorf("error %v, want one naming %q", err, tc.want)
+			}
+		})
+	}
+}
