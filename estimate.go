@@ -76,6 +76,11 @@ func Evaluate(ctx context.Context, sk *sketch.Sketch, opt Options) (*Result, err
 	if n := sk.Rows(); n < int64(opt.Criteria.MaxK) {
 		return nil, fmt.Errorf("%w: %d usable rows is fewer than max-k (%d)", ErrTooFewRows, n, opt.Criteria.MaxK)
 	}
+	if opt.Scale == Raw {
+		if err := checkRawSketch(sk); err != nil {
+			return nil, err
+		}
+	}
 	start := time.Now()
 	sum, sc := Summarize(sk, opt.Scale)
 	cr, err := criteria.Evaluate(ctx, sum, opt.Criteria)
@@ -156,7 +161,7 @@ func Estimate(ctx context.Context, inputs []string, opt Options) (*Result, *sket
 			continue
 		}
 		if err := total.Merge(sk); err != nil {
-			return nil, nil, fmt.Errorf("%s: %w", p, err)
+			return nil, nil, &InputError{Path: p, Err: err}
 		}
 	}
 	if len(dataPaths) > 0 {
@@ -198,6 +203,9 @@ func splitInputs(inputs []string) (sketches, data []string, err error) {
 }
 
 func isSketchFile(path string) bool {
+	if fi, err := os.Stat(path); err != nil || !fi.Mode().IsRegular() {
+		return false // a FIFO would block the open; stream refuses it with an error naming it
+	}
 	f, err := os.Open(path)
 	if err != nil {
 		return false

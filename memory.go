@@ -3,6 +3,7 @@ package kgauge
 import (
 	"errors"
 	"fmt"
+	"math"
 	"strconv"
 	"strings"
 )
@@ -89,8 +90,11 @@ func ParseBytes(s string) (int64, error) {
 		}
 	}
 	v, err := strconv.ParseFloat(t, 64)
-	if err != nil || v <= 0 {
+	if err != nil || !(v > 0) || math.IsInf(v, 0) {
 		return 0, fmt.Errorf("want a positive size such as 512MiB or 2GiB, got %q", s)
+	}
+	if b := v * float64(mult); !(b < math.MaxInt64/2) {
+		return 0, fmt.Errorf("size %q is beyond any machine (at most 4 EiB)", s)
 	}
 	return int64(v * float64(mult)), nil
 }

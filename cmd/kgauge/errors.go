@@ -10,6 +10,7 @@ import (
 	"strings"
 
 	"github.com/kgauge/kgauge"
+	"github.com/kgauge/kgauge/internal/cliflags"
 	"github.com/kgauge/kgauge/stream"
 )
 
@@ -39,6 +40,11 @@ type outputError struct{ err error }
 func (e *outputError) Error() string { return e.err.Error() }
 func (e *outputError) Unwrap() error { return e.err }
 
+// internalError is a failure that no input or flag should cause: a bug.
+type internalError struct{ msg string }
+
+func (e *internalError) Error() string { return e.msg }
+
 // exitCode maps an error to the documented exit code.
 func exitCode(err error) int {
 	var ue *usageError
@@ -58,8 +64,9 @@ func exitCode(err error) int {
 		return ExitOutput
 	case errors.As(err, &re), errors.As(err, &ie),
 		errors.Is(err, kgauge.ErrNoRows), errors.Is(err, kgauge.ErrTooFewRows),
+		errors.Is(err, kgauge.ErrUnrepresentable),
 		errors.Is(err, os.ErrNotExist), errors.Is(err, os.ErrPermission),
-		errors.Is(err, stream.ErrNoDataFiles), errors.Is(err, stream.ErrNoNumericColumns),
+		errors.Is(err, stream.ErrNoDataFiles), errors.Is(err, stream.ErrNotRegular), errors.Is(err, stream.ErrNoNumericColumns),
 		errors.Is(err, stream.ErrUnknownColumn), errors.Is(err, stream.ErrNotNumeric),
 		errors.Is(err, stream.ErrMissingColumn), errors.Is(err, stream.ErrInfinite):
 		return ExitInput
@@ -74,8 +81,12 @@ func report(err error, stderr io.Writer) int {
 		return code
 	}
 	msg := strings.ReplaceAll(err.Error(), "\n", "; ")
-	if code == ExitInterrupted {
+	switch code {
+	case ExitInterrupted:
 		msg = "interrupted; no output written"
+	case ExitInternal:
+		msg = fmt.Sprintf("internal error (a bug in kgauge %s; please report it with the command line and this message): %s",
+			kgauge.Version, msg)
 	}
 	if !strings.HasPrefix(msg, "kgauge") {
 		msg = "kgauge: " + msg
@@ -96,6 +107,15 @@ func parseArgs(fs *flag.FlagSet, args []string) error {
 		if errors.Is(err, flag.ErrHelp) {
 			return err
 		}
+		return usageErrorf("%s: %v", fs.Name(), err)
+	}
+	return checkRanges(fs)
+}
+
+// checkRanges checks every numeric flag of fs against its documented range (cliflags.Ranges),
+// right after parsing and before any file is opened.
+func checkRanges(fs *flag.FlagSet) error {
+	if err := cliflags.CheckRanges(fs); err != nil {
 		return usageErrorf("%s: %v", fs.Name(), err)
 	}
 	return nil

@@ -84,6 +84,9 @@ Flags:`)
 		pos = append(pos, fs.Arg(0))
 		args = fs.Args()[1:]
 	}
+	if err := checkRanges(fs); err != nil {
+		return err
+	}
 	switch {
 	case len(pos) == 0:
 		return usageErrorf("track: no ROOT given")

@@ -1,0 +1,90 @@
+package main
+
+import (
+	"encoding/json"
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"path/filepath"
+	"strings"
+	"testing"
+)
+
+// threeBlobs returns invented rows of three well separated Gaussian clusters in the plane (a
+// property-test input, seeded), each coordinate multiplied by factor.
+func threeBlobs(n int, factor float64) (x, y []float64) {
+	rng := rand.New(rand.NewPCG(14, 1))
+	centres := [][2]float64{{0, 0}, {10, 0}, {5, 9}}
+	for i := range n {
+		c := centres[i%3]
+		x = append(x, (c[0]+rng.NormFloat64())*factor)
+		y = append(y, (c[1]+rng.NormFloat64())*factor)
+	}
+	return x, y
+}
+
+// TestExtremeMagnitudes: the same clusters in units from 1e-300 to 1e300 (squares of 1e154 and
+// more overflow float64, squares of 1e-154 and less underflow) give the same verdict under the
+// default scaling, through estimate and plan, with no panic and no internal error. Before issue 14
+// the large factors panicked in k-means++ seeding and 1e-300 was called k = 1.
+func TestExtremeMagnitudes(t *testing.T) {
+	dir := t.TempDir()
+	var ks []int
+	for _, factor := range []float64{1e-300, 1, 1e150, 1e300} {
+		path := filepath.Join(dir, fmt.Sprintf("blobs-%g.parquet", factor))
+		x, y := threeBlobs(900, factor)
+		xyParquet(t, path, x, y, math.NaN())
+		code, out, errs := run(t, "estimate", "--json", "--quiet", "--max-k", "6", "--workers", "1", path)
+		if code != ExitOK {
+			t.Fatalf("factor %g: exit %d: %s", factor, code, errs)
+		}
+		var r struct {
+			K    int `json:"k"`
+			PerK []struct {
+				WCSS *float64 `json:"wcss"`
+			} `json:"per_k"`
+		}
+		if err := json.Unmarshal([]byte(out), &r); err != nil {
+			t.Fatalf("factor %g: %v", factor, err)
+		}
+		for k, s := range r.PerK {
+			if s.WCSS == nil || math.IsNaN(*s.WCSS) || math.IsInf(*s.WCSS, 0) {
+				t.Errorf("factor %g: k=%d WCSS %v is not finite", factor, k+1, s.WCSS)
+			}
+		}
+		ks = append(ks, r.K)
+		if code, _, errs := run(t, "plan", "--quiet", "--max-k", "6", "--workers", "1", path); code != ExitOK {
+			t.Errorf("plan, factor %g: exit %d: %s", factor, code, errs)
+		}
+	}
+	if ks[1] != 3 {
+		t.Fatalf("unscaled blobs: k = %d, want 3", ks[1])
+	}
+	for i, k := range ks {
+		if k != ks[1] {
+			t.Errorf("factor %d of %v: k = %d, unscaled k = %d", i, ks, k, ks[1])
+		}
+	}
+}
+
+// TestRawUnrepresentable: with --scale none a column whose values cannot be squared (or whose
+// spread is too small to square) is a one-line bad-input error naming the column; the same file
+// under the default scaling works.
+func TestRawUnrepresentable(t *testing.T) {
+	dir := t.TempDir()
+	for _, factor := range []float64{1e150, 1e300, 1e-300} {
+		path := filepath.Join(dir, fmt.Sprintf("raw-%g.parquet", factor))
+		x, y := threeBlobs(300, 1)
+		for i := range y {
+			y[i] *= factor
+		}
+		xyParquet(t, path, x, y, math.NaN())
+		code, out, errs := run(t, "estimate", "--quiet", "--scale", "none", "--max-k", "4", "--workers", "1", path)
+		if code != ExitInput || out != "" || !strings.Contains(errs, `column "y"`) || strings.Count(strings.TrimSpace(errs), "\n") != 0 {
+			t.Errorf("factor %g: exit %d, stdout %q, stderr %q; want exit %d and one line naming column \"y\"", factor, code, out, errs, ExitInput)
+		}
+		if code, _, errs := run(t, "estimate", "--quiet", "--max-k", "4", "--workers", "1", path); code != ExitOK {
+			t.Errorf("factor %g, default scaling: exit %d: %s", factor, code, errs)
+		}
+	}
+}
