@@ -7,6 +7,7 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"regexp"
 	"strings"
 
 	"github.com/kgauge/kgauge"
@@ -107,9 +108,22 @@ func parseArgs(fs *flag.FlagSet, args []string) error {
 		if errors.Is(err, flag.ErrHelp) {
 			return err
 		}
-		return usageErrorf("%s: %v", fs.Name(), err)
+		return usageErrorf("%s: %v%s", fs.Name(), err, rangeHint(err))
 	}
 	return checkRanges(fs)
+}
+
+// badValue finds the flag a parse error of the flag package names.
+var badValue = regexp.MustCompile(`invalid value ".*" for flag -([a-z0-9-]+)`)
+
+// rangeHint gives the range of the flag whose value did not parse, if it has one.
+func rangeHint(err error) string {
+	if m := badValue.FindStringSubmatch(err.Error()); m != nil {
+		if r, ok := cliflags.Ranges[m[1]]; ok {
+			return fmt.Sprintf(" (--%s must be %s)", m[1], r)
+		}
+	}
+	return ""
 }
 
 // checkRanges checks every numeric flag of fs against its documented range (cliflags.Ranges),

@@ -76,7 +76,7 @@ Flags:`)
 			if errors.Is(err, flag.ErrHelp) {
 				return err
 			}
-			return usageErrorf("track: %v", err)
+			return usageErrorf("track: %v%s", err, rangeHint(err))
 		}
 		if fs.NArg() == 0 {
 			break

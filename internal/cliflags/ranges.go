@@ -23,7 +23,7 @@ var Ranges = map[string]Range{
 	// The estimate's data flags (estimate, plan, track, demo, kgauge-beam).
 	"min-k":          {1, 1000, ""},
 	"max-k":          {1, 1000, ""},
-	"seed":           {0, math.MaxUint64, ""},
+	"seed":           {0, math.MaxUint64, "0 to 18446744073709551615"},
 	"coreset":        {2, 1 << 22, ""},
 	"sample":         {2, 1 << 20, ""},
 	"minibatch-rows": {1, 1 << 40, ""},
@@ -36,7 +36,7 @@ var Ranges = map[string]Range{
 	"workers":        {1, 1024, ""},
 	// track.
 	"window":        {1, 100000, ""},
-	"min-history":   {0, 100000, ""},
+	"min-history":   {1, 100000, ""},
 	"min-agreement": {0, 1, ""},
 	"wcss-rise":     {0, 1e6, ""},
 	"lock-wait":     {0, float64(24 * time.Hour), "0s to 24h"},
