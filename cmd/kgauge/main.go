@@ -23,7 +23,7 @@ func main() {
 
 // stopGrace is how long Run lets a cancelled command stop by itself (every stage checks the
 // context, and an output being written is finished or removed) before it gives up on it.
-const stopGrace = 400 * time.Millisecond
+const stopGrace = 200 * time.Millisecond
 
 // Run executes one kgauge command with the given arguments and streams and returns the exit code.
 //
@@ -94,8 +94,15 @@ func (g *gate) Fd() uintptr {
 
 var errStreamClosed = errors.New("stream closed after an interrupt")
 
+// beforeCommand, when set (by tests), runs before the command; a test makes it panic to check
+// how Run reports a bug.
+var beforeCommand func(args []string)
+
 // runCommand dispatches args to their command.
 func runCommand(ctx context.Context, args []string, stdout, stderr io.Writer) int {
+	if beforeCommand != nil {
+		beforeCommand(args)
+	}
 	if len(args) == 0 {
 		fmt.Fprint(stderr, usageText)
 		return ExitUsage
