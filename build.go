@@ -75,6 +75,9 @@ func Build(ctx context.Context, paths []string, opt Options) (*sketch.Sketch, *I
 	}
 	defer ds.Close()
 	in := describe(ds)
+	if d := ds.Dims(); d > MaxColumns {
+		return nil, nil, tm, fmt.Errorf("%w: %d feature columns, more than %d", ErrTooWide, d, MaxColumns)
+	}
 	if opt, err = opt.capToInput(ds); err != nil {
 		return nil, nil, tm, err
 	}

@@ -67,6 +67,17 @@ func PlanCapacity(ctx context.Context, paths []string, opt Options, probe bool) 
 		return nil, err
 	}
 	defer ds.Close()
+	// The same refusals as the estimate's, before the timed probe: too wide, a k range beyond the
+	// rows, a memory bound that even the smallest sizes exceed (with the figure needed).
+	if d := ds.Dims(); d > MaxColumns {
+		return nil, fmt.Errorf("%w: %d feature columns, more than %d", ErrTooWide, d, MaxColumns)
+	}
+	if opt, err = opt.capToInput(ds); err != nil {
+		return nil, err
+	}
+	if opt, err = opt.fitMemory(ds.Dims()); err != nil {
+		return nil, err
+	}
 	cal := model.Default()
 	if probe {
 		if cal, err = TimedProbe(ctx, ds, opt, cal); err != nil {

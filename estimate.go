@@ -76,6 +76,9 @@ func Evaluate(ctx context.Context, sk *sketch.Sketch, opt Options) (*Result, err
 	if n := sk.Rows(); n < int64(opt.Criteria.MaxK) {
 		return nil, fmt.Errorf("%w: %d usable rows is fewer than max-k (%d)", ErrTooFewRows, n, opt.Criteria.MaxK)
 	}
+	if d := sk.Dims(); d > MaxColumns {
+		return nil, fmt.Errorf("%w: the sketch has %d feature columns, more than %d", ErrTooWide, d, MaxColumns)
+	}
 	if opt.Scale == Raw {
 		if err := checkRawSketch(sk); err != nil {
 			return nil, err

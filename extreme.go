@@ -61,3 +61,13 @@ func checkRawSketch(sk *sketch.Sketch) error {
 	m := sk.Moments()
 	return checkRaw(sk.Columns(), m.Min, m.Max)
 }
+
+// MaxColumns is the widest input an estimate accepts. The sampled covariance costs d² per fed row in
+// the pass and the principal-component reference of the gap statistic an eigen decomposition of
+// d×d (d³); at 1000 columns these take about a minute and 100 MB, at 5000 columns hours and
+// gigabytes, with no way to stop the decomposition part way. Wider data needs its columns chosen
+// (--columns) or reduced first.
+const MaxColumns = 1000
+
+// ErrTooWide is returned for an input with more than MaxColumns feature columns.
+var ErrTooWide = errors.New("too many columns (choose at most 1000 with --columns)")

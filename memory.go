@@ -39,7 +39,9 @@ func EstimateMemory(o Options, d int) MemoryEstimate {
 		int64(o.BatchRows)*row + int64(s.MiniBatchSize)*(row+4) + 2*sumK*row + int64(d*d)*16 +
 		int64(d)*pageBytesPerCol
 	c := o.Criteria
-	crit := 4*int64(s.CoresetSize)*row + 2*int64(s.SampleSize)*row + 2*int64(c.GapSample)*row*int64(max(1, o.Workers)) +
+	// The width terms: the covariance, its eigenvectors and the decomposition's workspace (d×d each).
+	crit := 4*int64(d)*int64(d)*8 +
+		4*int64(s.CoresetSize)*row + 2*int64(s.SampleSize)*row + 2*int64(c.GapSample)*row*int64(max(1, o.Workers)) +
 		int64(c.Anchors)*int64(s.CoresetSize)*8/16 + sumK*row*4
 	fixed := int64(runtimeBytes) + int64(o.ProbeRows)*row*2
 	m := MemoryEstimate{PerWorker: per, Criteria: crit, Fixed: fixed}

@@ -65,7 +65,7 @@ func exitCode(err error) int {
 		return ExitOutput
 	case errors.As(err, &re), errors.As(err, &ie),
 		errors.Is(err, kgauge.ErrNoRows), errors.Is(err, kgauge.ErrTooFewRows),
-		errors.Is(err, kgauge.ErrUnrepresentable),
+		errors.Is(err, kgauge.ErrUnrepresentable), errors.Is(err, kgauge.ErrTooWide),
 		errors.Is(err, os.ErrNotExist), errors.Is(err, os.ErrPermission),
 		errors.Is(err, stream.ErrNoDataFiles), errors.Is(err, stream.ErrNotRegular), errors.Is(err, stream.ErrNoNumericColumns),
 		errors.Is(err, stream.ErrUnknownColumn), errors.Is(err, stream.ErrNotNumeric),

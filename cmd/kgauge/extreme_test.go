@@ -8,6 +8,11 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"github.com/apache/arrow/go/v17/arrow"
+	"github.com/apache/arrow/go/v17/arrow/array"
+
+	"github.com/kgauge/kgauge"
 )
 
 // threeBlobs returns invented rows of three well separated Gaussian clusters in the plane (a
@@ -85,6 +90,46 @@ func TestRawUnrepresentable(t *testing.T) {
 		}
 		if code, _, errs := run(t, "estimate", "--quiet", "--max-k", "4", "--workers", "1", path); code != ExitOK {
 			t.Errorf("factor %g, default scaling: exit %d: %s", factor, code, errs)
+		}
+	}
+}
+
+// wideParquet writes rows of d float64 columns c0…c(d−1) (invented values).
+func wideParquet(t *testing.T, path string, d, rows int) {
+	t.Helper()
+	fields := make([]arrow.Field, d)
+	for j := range fields {
+		fields[j] = arrow.Field{Name: fmt.Sprintf("c%d", j), Type: arrow.PrimitiveTypes.Float64}
+	}
+	i := 0
+	writeParquet(t, path, arrow.NewSchema(fields, nil), func(b *array.RecordBuilder) {
+		for j := range d {
+			b.Field(j).(*array.Float64Builder).Append(float64((i*7+j*13)%17) + float64(i%3)*40)
+		}
+		i++
+	}, rows)
+}
+
+// TestWideInputBounded: an input wider than kgauge.MaxColumns is refused at once (exit 3, before
+// the probe) by estimate and plan, instead of spending minutes in a d×d eigen decomposition; and
+// at 1000 columns a --memory bound below the width-dependent working set is refused up front
+// with the figure needed.
+func TestWideInputBounded(t *testing.T) {
+	dir := t.TempDir()
+	wide := filepath.Join(dir, "wide.parquet")
+	wideParquet(t, wide, kgauge.MaxColumns+1, 40)
+	for _, command := range []string{"estimate", "plan"} {
+		code, out, errs := run(t, command, "--quiet", "--max-k", "4", wide)
+		if code != ExitInput || out != "" || !strings.Contains(errs, "too many columns") || !strings.Contains(errs, fmt.Sprint(kgauge.MaxColumns+1)) {
+			t.Errorf("%s on %d columns: exit %d, stderr %q; want exit 3 naming the column count", command, kgauge.MaxColumns+1, code, errs)
+		}
+	}
+	ok := filepath.Join(dir, "ok.parquet")
+	wideParquet(t, ok, kgauge.MaxColumns, 40)
+	for _, command := range []string{"estimate", "plan"} {
+		code, _, errs := run(t, command, "--quiet", "--max-k", "4", "--memory", "64MiB", ok)
+		if code != ExitUsage || !strings.Contains(errs, "is needed") {
+			t.Errorf("%s on %d columns with --memory 64MiB: exit %d, stderr %q; want exit 2 with the memory needed", command, kgauge.MaxColumns, code, errs)
 		}
 	}
 }
