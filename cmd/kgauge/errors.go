@@ -9,6 +9,7 @@ import (
 	"os"
 	"regexp"
 	"strings"
+	"syscall"
 
 	"github.com/kgauge/kgauge"
 	"github.com/kgauge/kgauge/internal/cliflags"
@@ -67,6 +68,7 @@ func exitCode(err error) int {
 		errors.Is(err, kgauge.ErrNoRows), errors.Is(err, kgauge.ErrTooFewRows),
 		errors.Is(err, kgauge.ErrUnrepresentable), errors.Is(err, kgauge.ErrTooWide),
 		errors.Is(err, os.ErrNotExist), errors.Is(err, os.ErrPermission),
+		errors.Is(err, syscall.EISDIR), errors.Is(err, syscall.ENOTDIR), // a file named where a directory is, or the reverse
 		errors.Is(err, stream.ErrNoDataFiles), errors.Is(err, stream.ErrNotRegular), errors.Is(err, stream.ErrNoNumericColumns),
 		errors.Is(err, stream.ErrUnknownColumn), errors.Is(err, stream.ErrNotNumeric),
 		errors.Is(err, stream.ErrMissingColumn), errors.Is(err, stream.ErrInfinite):

@@ -142,3 +142,17 @@ func TestInternalErrorOneLine(t *testing.T) {
 		t.Errorf("exit %d, stdout %q, stderr %q; want exit 1 and one line asking for a report", code, out, errs)
 	}
 }
+
+// TestLedgerIsDirectory: a --ledger that names a directory is bad input (exit 3) naming it, not an
+// internal error.
+func TestLedgerIsDirectory(t *testing.T) {
+	root := lake(t, smallLoads())
+	d := filepath.Join(t.TempDir(), "ledger")
+	if err := os.Mkdir(d, 0o755); err != nil {
+		t.Fatal(err)
+	}
+	code, _, errs := run(t, "track", "--quiet", "--max-k", "3", root, "--ledger", d)
+	if code != ExitInput || !strings.Contains(errs, d) || strings.Contains(errs, "internal") {
+		t.Errorf("exit %d, stderr %q; want exit 3 naming %s", code, errs, d)
+	}
+}
