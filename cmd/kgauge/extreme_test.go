@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"os"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -13,6 +14,7 @@ import (
 	"github.com/apache/arrow/go/v17/arrow/array"
 
 	"github.com/kgauge/kgauge"
+	"github.com/kgauge/kgauge/bench/synth"
 )
 
 // threeBlobs returns invented rows of three well separated Gaussian clusters in the plane (a
@@ -131,5 +133,29 @@ func TestWideInputBounded(t *testing.T) {
 		if code != ExitUsage || !strings.Contains(errs, "is needed") {
 			t.Errorf("%s on %d columns with --memory 64MiB: exit %d, stderr %q; want exit 2 with the memory needed", command, kgauge.MaxColumns, code, errs)
 		}
+	}
+}
+
+// TestTruncatedArrowStream: an Arrow IPC stream cut inside its first message is reported as a
+// truncated or corrupt stream naming the file (exit 3), not as "not a Parquet or Arrow IPC file".
+func TestTruncatedArrowStream(t *testing.T) {
+	dir := t.TempDir()
+	full := filepath.Join(dir, "full.arrows")
+	opt := synth.DefaultMixtureOptions()
+	opt.Rows, opt.Dims, opt.Format = 500, 3, synth.ArrowStream
+	if err := synth.WriteMixture(full, opt); err != nil {
+		t.Fatal(err)
+	}
+	data, err := os.ReadFile(full)
+	if err != nil {
+		t.Fatal(err)
+	}
+	cut := filepath.Join(dir, "cut.arrows")
+	if err := os.WriteFile(cut, data[:40], 0o644); err != nil {
+		t.Fatal(err)
+	}
+	code, _, errs := run(t, "estimate", "--quiet", "--max-k", "3", cut)
+	if code != ExitInput || !strings.Contains(errs, "cut.arrows") || strings.Contains(errs, "not a Parquet or Arrow IPC file") {
+		t.Errorf("exit %d, stderr %q; want exit 3 naming the file as a damaged Arrow stream", code, errs)
 	}
 }
