@@ -159,3 +159,23 @@ func TestTruncatedArrowStream(t *testing.T) {
 		t.Errorf("exit %d, stderr %q; want exit 3 naming the file as a damaged Arrow stream", code, errs)
 	}
 }
+
+// TestMergeDifferentColumns: merging saved sketches of different columns is bad input (exit 3)
+// naming the sketch file and both column lists; before issue 14 it was an internal error (exit 1).
+func TestMergeDifferentColumns(t *testing.T) {
+	dir := t.TempDir()
+	data := filepath.Join(dir, "blobs.parquet")
+	x, y := threeBlobs(300, 1)
+	xyParquet(t, data, x, y, math.NaN())
+	a, b := filepath.Join(dir, "a.kgs"), filepath.Join(dir, "b.kgs")
+	for _, c := range []struct{ cols, out string }{{"x", a}, {"y", b}} {
+		if code, _, errs := run(t, "estimate", "--quiet", "--max-k", "3", "--columns", c.cols, "--save-sketch", c.out, data); code != ExitOK {
+			t.Fatalf("estimate --columns %s: exit %d: %s", c.cols, code, errs)
+		}
+	}
+	code, out, errs := run(t, "estimate", "--quiet", "--max-k", "3", a, b)
+	if code != ExitInput || out != "" || !strings.Contains(errs, "b.kgs") || !strings.Contains(errs, "different columns") ||
+		!strings.Contains(errs, `"x"`) || !strings.Contains(errs, `"y"`) {
+		t.Errorf("exit %d, stderr %q; want exit 3 naming b.kgs and both columns", code, errs)
+	}
+}
