@@ -14,7 +14,6 @@ import (
 	"github.com/kgauge/kgauge/internal/kmeans"
 	"github.com/kgauge/kgauge/sketch"
 	"github.com/kgauge/kgauge/stream"
-	"gonum.org/v1/gonum/stat"
 )
 
 // Input describes what a sketch was built from.
@@ -52,6 +51,9 @@ type Timings struct {
 	Criteria float64 `json:"criteria_seconds"`
 }
 
+// ErrInternal marks a failure no input or option should cause (a recovered panic): a bug.
+var ErrInternal = errors.New("internal error")
+
 // ErrNoRows is returned when the inputs hold no usable row.
 var ErrNoRows = errors.New("no usable rows")
 
@@ -88,6 +90,12 @@ func build(ctx context.Context, paths []string, opt Options, avoid map[string]st
 	defer ds.Close()
 	in := describe(ds)
 	in.Skipped = skipped
+	if d := ds.Dims(); d > MaxColumns {
+		return nil, nil, tm, fmt.Errorf("%w: %d feature columns, more than %d", ErrTooWide, d, MaxColumns)
+	}
+	if opt, err = opt.capToInput(ds); err != nil {
+		return nil, nil, tm, err
+	}
 	if opt, err = opt.fitMemory(ds.Dims()); err != nil {
 		return nil, nil, tm, err
 	}
@@ -126,11 +134,40 @@ func build(ctx context.Context, paths []string, opt Options, avoid map[string]st
 	}
 	sk.Meta.ContentIDs = ids
 	sk.Meta.ProbeRows = pr.Rows
+	if opt.Scale == Raw {
+		if err := checkRawSketch(sk); err != nil {
+			return nil, nil, tm, err
+		}
+	}
 	if sk.Rows() == 0 {
 		return nil, nil, tm, fmt.Errorf("%w in %d file(s) (%d skipped for null or NaN values%s)", ErrNoRows,
 			len(ds.Files), sk.Meta.SkippedRows, blame(ds.Columns, nulls, sk.Meta.SkippedRows))
 	}
 	return sk, in, tm, nil
+}
+
+// capToInput caps the read batch, which is allocated whole, by the largest unit the footers
+// describe (a batch never spans units, so no batch changes), and refuses a k range larger than
+// the rows they state before anything is probed. An input without rows is left to the pass, which
+// reports "no usable rows".
+func (o Options) capToInput(ds *stream.Dataset) (Options, error) {
+	known := true
+	var largest int64
+	for _, u := range ds.Units {
+		if u.Rows < 0 {
+			known = false
+			break
+		}
+		largest = max(largest, u.Rows)
+	}
+	if !known {
+		return o, nil
+	}
+	if ds.Rows > 0 && ds.Rows < int64(o.Criteria.MaxK) {
+		return o, fmt.Errorf("%w: the input holds %d rows, fewer than max-k (%d)", ErrTooFewRows, ds.Rows, o.Criteria.MaxK)
+	}
+	o.BatchRows = int(min(int64(o.BatchRows), max(1, largest)))
+	return o, nil
 }
 
 // blame names the columns that were null or NaN in every skipped row.
@@ -230,23 +267,36 @@ func probe(ctx context.Context, ds *stream.Dataset, units []stream.Unit, opt Opt
 		return p, nil
 	}
 	col := make([]float64, n)
+	lo, hi := make([]float64, d), make([]float64, d)
 	for j := range d {
+		lo[j], hi[j] = math.Inf(1), math.Inf(-1)
 		for i := range n {
-			col[i] = rows[i*d+j]
+			v := rows[i*d+j]
+			col[i] = v
+			lo[j], hi[j] = min(lo[j], v), max(hi[j], v)
 		}
-		mean, variance := stat.PopMeanVariance(col, nil)
-		p.Center[j], p.Scale[j] = mean, math.Sqrt(variance)
+		p.Center[j], p.Scale[j] = meanStd(col)
 		if opt.Scale == Raw {
-			p.Center[j], p.Scale[j] = 0, 1
+			// The data's own geometry (scale 1), around the probe's mean so that the coreset's
+			// weights measure spread, not the distance from the origin.
+			p.Scale[j] = 1
 		}
 		if !(p.Scale[j] > 0) || math.IsInf(p.Scale[j], 0) {
 			p.Scale[j] = 1
+		}
+	}
+	if opt.Scale == Raw {
+		if err := checkRaw(ds.Columns, lo, hi); err != nil {
+			return sketch.Probe{}, err
 		}
 	}
 	for i := range n {
 		var s float64
 		for j := range d {
 			z := (rows[i*d+j] - p.Center[j]) / p.Scale[j]
+			if math.IsInf(z, 0) { // a difference beyond float64: scale both terms first
+				z = rows[i*d+j]/p.Scale[j] - p.Center[j]/p.Scale[j]
+			}
 			rows[i*d+j] = z
 			s += z * z
 		}
@@ -315,6 +365,13 @@ func pass(ctx context.Context, ds *stream.Dataset, units []stream.Unit, unitID m
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
+			defer func() {
+				// A panic here is a bug; it must end the run with an error, not a stack trace.
+				if p := recover(); p != nil {
+					errs[w] = fmt.Errorf("%w: worker %d: %v", ErrInternal, w, p)
+					cancel()
+				}
+			}()
 			if err := work(ctx, ds, units, unitID, w, workers, sk, opt, perWorker[w]); err != nil {
 				errs[w] = err
 				cancel()

@@ -67,6 +67,17 @@ func PlanCapacity(ctx context.Context, paths []string, opt Options, probe bool) 
 		return nil, err
 	}
 	defer ds.Close()
+	// The same refusals as the estimate's, before the timed probe: too wide, a k range beyond the
+	// rows, a memory bound that even the smallest sizes exceed (with the figure needed).
+	if d := ds.Dims(); d > MaxColumns {
+		return nil, fmt.Errorf("%w: %d feature columns, more than %d", ErrTooWide, d, MaxColumns)
+	}
+	if opt, err = opt.capToInput(ds); err != nil {
+		return nil, err
+	}
+	if opt, err = opt.fitMemory(ds.Dims()); err != nil {
+		return nil, err
+	}
 	cal := model.Default()
 	if probe {
 		if cal, err = TimedProbe(ctx, ds, opt, cal); err != nil {
@@ -239,17 +250,12 @@ func TimedProbe(ctx context.Context, ds *stream.Dataset, opt Options, cal model.
 func probeFor(rows []float64, d, minK, maxK int) sketch.Probe {
 	n := len(rows) / d
 	p := sketch.Probe{Center: make([]float64, d), Scale: make([]float64, d), Init: map[int][]float64{}, Rows: int64(n)}
+	col := make([]float64, n)
 	for j := range d {
-		var s, s2 float64
 		for i := range n {
-			s += rows[i*d+j]
+			col[i] = rows[i*d+j]
 		}
-		mean := s / float64(n)
-		for i := range n {
-			v := rows[i*d+j] - mean
-			s2 += v * v
-		}
-		p.Center[j], p.Scale[j] = mean, math.Sqrt(s2/float64(n))
+		p.Center[j], p.Scale[j] = meanStd(col)
 		if !(p.Scale[j] > 0) || math.IsInf(p.Scale[j], 0) {
 			p.Scale[j] = 1
 		}
@@ -263,6 +269,9 @@ func probeFor(rows []float64, d, minK, maxK int) sketch.Probe {
 	for i := range x {
 		j := i % d
 		x[i] = (rows[i] - p.Center[j]) / p.Scale[j]
+		if math.IsInf(x[i], 0) {
+			x[i] = rows[i]/p.Scale[j] - p.Center[j]/p.Scale[j]
+		}
 	}
 	rng := rand.New(rand.NewPCG(1, 2))
 	for k := minK; k <= maxK; k++ {

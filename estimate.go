@@ -89,6 +89,14 @@ func Evaluate(ctx context.Context, sk *sketch.Sketch, opt Options) (*Result, err
 	if n := sk.Rows(); n < int64(opt.Criteria.MaxK) {
 		return nil, fmt.Errorf("%w: %d usable rows is fewer than max-k (%d)", ErrTooFewRows, n, opt.Criteria.MaxK)
 	}
+	if d := sk.Dims(); d > MaxColumns {
+		return nil, fmt.Errorf("%w: the sketch has %d feature columns, more than %d", ErrTooWide, d, MaxColumns)
+	}
+	if opt.Scale == Raw {
+		if err := checkRawSketch(sk); err != nil {
+			return nil, err
+		}
+	}
 	if opt.Scale == Log {
 		if err := checkPositive(sk); err != nil {
 			return nil, err
@@ -184,7 +192,7 @@ func Estimate(ctx context.Context, inputs []string, opt Options) (*Result, *sket
 			continue
 		}
 		if err := total.Merge(ls.sk); err != nil {
-			return nil, nil, fmt.Errorf("%s: %w", ls.path, err)
+			return nil, nil, &InputError{Path: ls.path, Err: err}
 		}
 	}
 	if len(dataPaths) > 0 {
@@ -227,6 +235,9 @@ func splitInputs(inputs []string) (sketches, data []string, err error) {
 }
 
 func isSketchFile(path string) bool {
+	if fi, err := os.Stat(path); err != nil || !fi.Mode().IsRegular() {
+		return false // a FIFO would block the open; stream refuses it with an error naming it
+	}
 	f, err := os.Open(path)
 	if err != nil {
 		return false

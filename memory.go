@@ -3,6 +3,7 @@ package kgauge
 import (
 	"errors"
 	"fmt"
+	"math"
 	"strconv"
 	"strings"
 )
@@ -38,7 +39,9 @@ func EstimateMemory(o Options, d int) MemoryEstimate {
 		int64(o.BatchRows)*row + int64(s.MiniBatchSize)*(row+4) + 2*sumK*row + int64(d*d)*16 +
 		int64(d)*pageBytesPerCol
 	c := o.Criteria
-	crit := 4*int64(s.CoresetSize)*row + 2*int64(s.SampleSize)*row + 2*int64(c.GapSample)*row*int64(max(1, o.Workers)) +
+	// The width terms: the covariance, its eigenvectors and the decomposition's workspace (d×d each).
+	crit := 4*int64(d)*int64(d)*8 +
+		4*int64(s.CoresetSize)*row + 2*int64(s.SampleSize)*row + 2*int64(c.GapSample)*row*int64(max(1, o.Workers)) +
 		int64(c.Anchors)*int64(s.CoresetSize)*8/16 + sumK*row*4
 	fixed := int64(runtimeBytes) + int64(o.ProbeRows)*row*2
 	m := MemoryEstimate{PerWorker: per, Criteria: crit, Fixed: fixed}
@@ -89,8 +92,11 @@ func ParseBytes(s string) (int64, error) {
 		}
 	}
 	v, err := strconv.ParseFloat(t, 64)
-	if err != nil || v <= 0 {
+	if err != nil || !(v > 0) || math.IsInf(v, 0) {
 		return 0, fmt.Errorf("want a positive size such as 512MiB or 2GiB, got %q", s)
+	}
+	if b := v * float64(mult); !(b < math.MaxInt64/2) {
+		return 0, fmt.Errorf("size %q is beyond any machine (at most 4 EiB)", s)
 	}
 	return int64(v * float64(mult)), nil
 }

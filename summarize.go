@@ -26,13 +26,18 @@ func scalingOf(sk *sketch.Sketch, method Scale) Scaling {
 	d := sk.Dims()
 	sc := Scaling{Method: method, Center: make([]float64, d), Spread: make([]float64, d)}
 	mean := m.MeanTo(nil)
-	variance := m.VarTo(nil)
+	std := m.StdTo(nil)
 	for j := range d {
 		switch method {
 		case ZScore:
-			sc.Center[j], sc.Spread[j] = mean[j], math.Sqrt(variance[j])
+			sc.Center[j], sc.Spread[j] = mean[j], std[j]
 		case Range:
 			sc.Center[j], sc.Spread[j] = m.Min[j], m.Max[j]-m.Min[j]
+			if math.IsInf(sc.Spread[j], 0) {
+				// A range beyond float64 (values near ±1.8e308): half of it, so the column spans
+				// [0, 2] instead of [0, 1]; every criterion is unchanged by a common factor.
+				sc.Spread[j] = m.Max[j]/2 - m.Min[j]/2
+			}
 		default:
 			sc.Center[j], sc.Spread[j] = 0, 1
 		}
@@ -43,6 +48,9 @@ func scalingOf(sk *sketch.Sketch, method Scale) Scaling {
 	return sc
 }
 
+// apply maps raw rows to the scaled space. The difference is taken in raw units (as exact as it
+// can be) unless it overflows (values near ±1.8e308 on both sides), when both terms are scaled
+// first.
 func (sc Scaling) apply(x []float64) []float64 {
 	d := len(sc.Center)
 	out := make([]float64, len(x))
@@ -51,7 +59,11 @@ func (sc Scaling) apply(x []float64) []float64 {
 		if sc.Log {
 			v = math.Log(v)
 		}
-		out[i] = (v - sc.Center[j]) / sc.Spread[j]
+		z := (v - sc.Center[j]) / sc.Spread[j]
+		if math.IsInf(z, 0) {
+			z = v/sc.Spread[j] - sc.Center[j]/sc.Spread[j]
+		}
+		out[i] = z
 	}
 	return out
 }
@@ -72,20 +84,30 @@ func Summarize(sk *sketch.Sketch, method Scale) (criteria.Summary, Scaling) {
 	}
 	s.Min = sc.apply(m.Min)
 	s.Max = sc.apply(m.Max)
-	s.Cov = cross.CovTo(nil)
+	// The covariance in the moments' power-of-two units, divided by the spreads in the same units:
+	// the same numbers as raw covariance ÷ spreads, bit for bit, without overflowing for columns
+	// of magnitude 1e160 and more. Under --scale log it is the sample's covariance of ln x, whose
+	// unit is 1.
+	s.Cov = cross.UnitCovTo(nil)
+	unit := cross.Unit
 	if sc.Log {
 		s.Cov = logCov(sk.Sample(), sc)
+		unit = make([]float64, d)
+		for j := range unit {
+			unit[j] = 1
+		}
 	} else if cross.N < 2 {
 		// Too few sampled rows for cross-products: fall back to the exact diagonal.
 		clear(s.Cov)
-		v := m.VarTo(nil)
+		v := m.UnitVarTo(nil)
 		for j := range d {
 			s.Cov[j*d+j] = v[j]
 		}
+		unit = m.Unit
 	}
 	for j := range d {
 		for l := range d {
-			s.Cov[j*d+l] /= sc.Spread[j] * sc.Spread[l]
+			s.Cov[j*d+l] /= (sc.Spread[j] / unit[j]) * (sc.Spread[l] / unit[l])
 		}
 	}
 	cx, cw := sk.Coreset()

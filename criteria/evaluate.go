@@ -141,7 +141,7 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 			init = [][]float64{c}
 		}
 		fit := kmeans.Fit(core, k, kmeans.FitOptions{Restarts: opt.Restarts, Init: init,
-			Rand: rngFor(opt.Seed, k, streamFit)})
+			Rand: rngFor(opt.Seed, k, streamFit), Context: ctx})
 		res.Fits[i] = fit
 		sc := nanScores(k)
 		sc.WCSS = fit.Cost * scale
@@ -184,13 +184,13 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 		}
 		if nref >= k {
 			w := kmeans.Fit(gapData, k, kmeans.FitOptions{Restarts: opt.GapRestarts, Lloyd: kmeans.LloydOptions{Tol: gapTol},
-				Rand: rngFor(opt.Seed, k, streamGapData)}).Cost
+				Rand: rngFor(opt.Seed, k, streamGapData), Context: ctx}).Cost
 			if w > 0 {
 				sc.LogW = math.Log(w)
-				if m, sk, ok := refLogW(boxRefs, k, opt.GapRestarts, rngFor(opt.Seed, k, streamGapBox)); ok {
+				if m, sk, ok := refLogWCtx(ctx, boxRefs, k, opt.GapRestarts, rngFor(opt.Seed, k, streamGapBox)); ok {
 					sc.GapBox, sc.GapBoxS = m-sc.LogW, sk
 				}
-				if m, sk, ok := refLogW(pcaRefs, k, opt.GapRestarts, rngFor(opt.Seed, k, streamGapPCA)); ok {
+				if m, sk, ok := refLogWCtx(ctx, pcaRefs, k, opt.GapRestarts, rngFor(opt.Seed, k, streamGapPCA)); ok {
 					sc.GapPCA, sc.GapPCAS = m-sc.LogW, sk
 				}
 			}
@@ -246,12 +246,20 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 
 // refLogW returns mean_b ln W*_kb and s_k over the reference sets (see GapStat).
 func refLogW(refs []kmeans.Data, k, restarts int, rng *rand.Rand) (mean, sk float64, ok bool) {
+	return refLogWCtx(context.Background(), refs, k, restarts, rng)
+}
+
+// refLogWCtx is refLogW stopping (not ok) once ctx is done.
+func refLogWCtx(ctx context.Context, refs []kmeans.Data, k, restarts int, rng *rand.Rand) (mean, sk float64, ok bool) {
 	if len(refs) == 0 || refs[0].Len() < k {
 		return 0, 0, false
 	}
 	lw := make([]float64, len(refs))
 	for b, r := range refs {
-		c := kmeans.Fit(r, k, kmeans.FitOptions{Restarts: restarts, Lloyd: kmeans.LloydOptions{Tol: gapTol}, Rand: rng}).Cost
+		if ctx.Err() != nil {
+			return 0, 0, false
+		}
+		c := kmeans.Fit(r, k, kmeans.FitOptions{Restarts: restarts, Lloyd: kmeans.LloydOptions{Tol: gapTol}, Rand: rng, Context: ctx}).Cost
 		if !(c > 0) {
 			return 0, 0, false
 		}

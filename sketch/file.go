@@ -13,21 +13,22 @@ import (
 // The sketch file format, version 2, all integers little-endian:
 //
 //	magic    [8]byte  "KGSKETCH"
-//	version  uint32   2
+//	version  uint32   2 (1 is still read: it has no units, which are then all 1, and no ids)
 //	body     ...      the fields below, in order
 //	ids      strings  (version 2 only) the content identities of the data files (Meta.ContentIDs)
 //	crc      uint32   CRC-32C (Castagnoli) of everything before it, magic included
 //
-// Version 1 is version 2 without ids; Decode reads both, Encode writes version 2.
+// Version 1 is version 2 without units and ids; Decode reads both, Encode writes version 2.
 // Strings are a uint32 length and bytes; float slices a uint32 count and float64 bits; the coreset and
 // the sample are a uint32 row count, then keys, rows and payload weights. Mini-batch state is stored
-// settled (as CentreSets in raw units). Every count is checked against the bytes that remain before
+// settled (as CentreSets in raw units). Version 2 adds the moments' and the cross-products' units (a
+// float slice each, after the moments' box and after the cross-products). Every count is checked against the bytes that remain before
 // anything is allocated, so a corrupt or hostile file fails cleanly.
 const (
 	fileMagic   = "KGSKETCH"
 	fileVersion = 2
-	// oldestFileVersion is the oldest version Decode reads.
-	oldestFileVersion = 1
+	// fileVersionNoUnits is the oldest version Decode reads: no units and no content identities.
+	fileVersionNoUnits = 1
 	// MaxFileBytes bounds the size of a sketch file that Decode accepts.
 	MaxFileBytes = 1 << 30
 	// maxStateBytes is the mini-batch state Decode allows whatever the file size.
@@ -67,11 +68,11 @@ func (s *Sketch) Encode(w io.Writer) error {
 	e.floats(s.inv)
 	e.f64(s.meanSq)
 	e.i64(s.mom.N)
-	for _, v := range [][]float64{s.mom.Shift, s.mom.S1, s.mom.S2, s.mom.Min, s.mom.Max} {
+	for _, v := range [][]float64{s.mom.Shift, s.mom.S1, s.mom.S2, s.mom.Min, s.mom.Max, s.mom.Unit} {
 		e.floats(v)
 	}
 	e.i64(s.cross.N)
-	for _, v := range [][]float64{s.cross.Shift, s.cross.S1, s.cross.C} {
+	for _, v := range [][]float64{s.cross.Shift, s.cross.S1, s.cross.C, s.cross.Unit} {
 		e.floats(v)
 	}
 	e.topK(s.coreset)
@@ -105,17 +106,17 @@ func Decode(r io.Reader) (*Sketch, error) {
 	if len(data) < len(fileMagic)+8 || string(data[:len(fileMagic)]) != fileMagic {
 		return nil, ErrNotSketch
 	}
-	v := binary.LittleEndian.Uint32(data[8:])
-	if v < oldestFileVersion || v > fileVersion {
-		return nil, fmt.Errorf("%w: %d (this kgauge reads versions %d to %d)", ErrVersion, v, oldestFileVersion, fileVersion)
+	version := binary.LittleEndian.Uint32(data[8:])
+	if version != fileVersion && version != fileVersionNoUnits {
+		return nil, fmt.Errorf("%w: %d (this kgauge reads versions %d and %d)", ErrVersion, version, fileVersionNoUnits, fileVersion)
 	}
 	body, sum := data[:len(data)-4], binary.LittleEndian.Uint32(data[len(data)-4:])
 	if crc32.Checksum(body, castagnoli) != sum {
 		return nil, fmt.Errorf("%w: checksum mismatch", ErrCorrupt)
 	}
-	d := dec{b: body[12:]}
+	d := dec{b: body[12:], version: version}
 	s, err := d.sketch()
-	if err == nil && v >= 2 {
+	if err == nil && version >= 2 {
 		s.Meta.ContentIDs = d.strs()
 		err = d.err
 	}
@@ -124,6 +125,9 @@ func Decode(r io.Reader) (*Sketch, error) {
 	}
 	if len(d.b) != 0 {
 		return nil, fmt.Errorf("%w: %d trailing bytes", ErrCorrupt, len(d.b))
+	}
+	if err := s.check(); err != nil {
+		return nil, fmt.Errorf("%w: %w", ErrCorrupt, err)
 	}
 	return s, nil
 }
@@ -161,8 +165,9 @@ func (e *enc) topK(t *topK) {
 
 // dec reads the body; every length is checked against what remains.
 type dec struct {
-	b   []byte
-	err error
+	b       []byte
+	version uint32
+	err     error
 }
 
 func (d *dec) fail(format string, args ...any) {
@@ -235,6 +240,18 @@ func (d *dec) floats(want int) []float64 {
 	return v
 }
 
+// units reads a unit slice, or makes one of ones for a file of the version without units.
+func (d *dec) units(dim int) []float64 {
+	if d.version == fileVersionNoUnits {
+		u := make([]float64, dim)
+		for j := range u {
+			u[j] = 1
+		}
+		return u
+	}
+	return d.floats(dim)
+}
+
 func (d *dec) smallInt(name string, lo, hi int64) int {
 	v := d.i64()
 	if d.err == nil && (v < lo || v > hi) {
@@ -298,8 +315,10 @@ func (d *dec) sketch() (*Sketch, error) {
 	s.mom.N = d.i64()
 	s.mom.Shift, s.mom.S1, s.mom.S2 = d.floats(dim), d.floats(dim), d.floats(dim)
 	s.mom.Min, s.mom.Max = d.floats(dim), d.floats(dim)
+	s.mom.Unit = d.units(dim)
 	s.cross.N = d.i64()
 	s.cross.Shift, s.cross.S1, s.cross.C = d.floats(dim), d.floats(dim), d.floats(dim*dim)
+	s.cross.Unit = d.units(dim)
 	d.topK(s.coreset)
 	d.topK(s.sample)
 	if np := int(d.u32()); d.err == nil && np != len(s.parts) {
@@ -315,9 +334,6 @@ func (d *dec) sketch() (*Sketch, error) {
 			}
 			s.parts[i] = append(s.parts[i], p)
 		}
-	}
-	if d.err == nil && (s.mom.N < 0 || s.cross.N < 0 || s.cross.N > s.mom.N) {
-		d.fail("row counts %d/%d do not add up", s.mom.N, s.cross.N)
 	}
 	return s, d.err
 }

@@ -1,23 +1,30 @@
 package sketch
 
-import "math"
+import (
+	"math"
+	"slices"
+)
 
 // Moments holds exact per-column summaries of the rows added: their count, sums and sums of squares
-// around a fixed shift (the probe's centre, which keeps the sums well conditioned), and the bounding
-// box. The zero value is not usable; Moments are made by [New].
+// around a fixed shift (the probe's centre, which keeps the sums well conditioned) in a per-column
+// unit, and the bounding box. The unit is a power of two near the column's spread, so dividing by it
+// is exact: the sums equal the raw ones scaled by a power of two, bit for bit, and they neither
+// overflow for values of 1e300 nor underflow for values of 1e-300. The zero value is not usable;
+// Moments are made by [New].
 type Moments struct {
 	N     int64
 	Shift []float64 // per column
-	S1    []float64 // Σ (x − shift)
-	S2    []float64 // Σ (x − shift)²
+	Unit  []float64 // per column, a power of two
+	S1    []float64 // Σ (x − shift)/unit
+	S2    []float64 // Σ ((x − shift)/unit)²
 	Min   []float64
 	Max   []float64
 }
 
-func newMoments(shift []float64) Moments {
+func newMoments(shift, unit []float64) Moments {
 	d := len(shift)
-	m := Moments{Shift: append([]float64(nil), shift...), S1: make([]float64, d), S2: make([]float64, d),
-		Min: make([]float64, d), Max: make([]float64, d)}
+	m := Moments{Shift: append([]float64(nil), shift...), Unit: append([]float64(nil), unit...),
+		S1: make([]float64, d), S2: make([]float64, d), Min: make([]float64, d), Max: make([]float64, d)}
 	for j := range d {
 		m.Min[j] = math.Inf(1)
 		m.Max[j] = math.Inf(-1)
@@ -26,19 +33,21 @@ func newMoments(shift []float64) Moments {
 }
 
 // addColumn accumulates the values col of column j (finite, raw units) into m's sums and box, and
-// adds each value's squared shifted distance times inv2 to norm2 (setting it for column 0). The
+// adds each value's squared shifted distance in units times inv2 to norm2 (setting it for column
+// 0); inv2 is (unit/scale)², so norm2 gets ((x − shift)/scale)². The
 // sums use two interleaved accumulators, so they do not wait on each other; the box is updated
 // behind a comparison that is rarely true, because the builtin min and max of floats (which order
 // NaNs and signed zeros) chain several dependent instructions per value.
 func (m *Moments) addColumn(j int, col []float64, inv2 float64, norm2 []float64) {
-	sh, lo, hi := m.Shift[j], m.Min[j], m.Max[j]
+	u := 1 / m.Unit[j] // exact: the unit is a power of two
+	sh, lo, hi := m.Shift[j]*u, m.Min[j], m.Max[j]
 	norm2 = norm2[:len(col)]
 	var a0, a1, b0, b1 float64
 	i := 0
 	if j == 0 {
 		for ; i+2 <= len(col); i += 2 {
 			v0, v1 := col[i], col[i+1]
-			d0, d1 := v0-sh, v1-sh
+			d0, d1 := v0*u-sh, v1*u-sh
 			q0, q1 := d0*d0, d1*d1
 			a0 += d0
 			a1 += d1
@@ -56,7 +65,7 @@ func (m *Moments) addColumn(j int, col []float64, inv2 float64, norm2 []float64)
 	} else {
 		for ; i+2 <= len(col); i += 2 {
 			v0, v1 := col[i], col[i+1]
-			d0, d1 := v0-sh, v1-sh
+			d0, d1 := v0*u-sh, v1*u-sh
 			q0, q1 := d0*d0, d1*d1
 			a0 += d0
 			a1 += d1
@@ -74,7 +83,7 @@ func (m *Moments) addColumn(j int, col []float64, inv2 float64, norm2 []float64)
 	}
 	for ; i < len(col); i++ {
 		v := col[i]
-		dv := v - sh
+		dv := v*u - sh
 		q := dv * dv
 		a0 += dv
 		b0 += q
@@ -99,19 +108,39 @@ func (m *Moments) addColumn(j int, col []float64, inv2 float64, norm2 []float64)
 func (m *Moments) MeanTo(dst []float64) []float64 {
 	dst = sized(dst, len(m.Shift))
 	for j := range dst {
-		dst[j] = m.Shift[j] + m.S1[j]/float64(m.N)
+		dst[j] = m.Shift[j] + m.Unit[j]*(m.S1[j]/float64(m.N))
 	}
 	return dst
 }
 
-// VarTo writes the population variances (divisor N) into dst and returns it.
+// VarTo writes the population variances (divisor N) into dst and returns it. A variance beyond
+// the float64 range (a column of magnitude 1e160 and more) is +Inf; [Moments.StdTo] is finite for
+// every finite column.
 func (m *Moments) VarTo(dst []float64) []float64 {
+	dst = m.UnitVarTo(dst)
+	for j, v := range dst {
+		dst[j] = v * m.Unit[j] * m.Unit[j]
+	}
+	return dst
+}
+
+// StdTo writes the population standard deviations (divisor N) into dst and returns it.
+func (m *Moments) StdTo(dst []float64) []float64 {
+	dst = m.UnitVarTo(dst)
+	for j, v := range dst {
+		dst[j] = math.Sqrt(v) * m.Unit[j]
+	}
+	return dst
+}
+
+// UnitVarTo writes the population variances in units² (divided by Unit[j]²) into dst and returns it.
+func (m *Moments) UnitVarTo(dst []float64) []float64 {
 	dst = sized(dst, len(m.Shift))
 	n := float64(m.N)
 	for j := range dst {
 		mu := m.S1[j] / n
 		v := m.S2[j]/n - mu*mu
-		if v < 0 {
+		if !(v > 0) {
 			v = 0
 		}
 		dst[j] = v
@@ -119,36 +148,64 @@ func (m *Moments) VarTo(dst []float64) []float64 {
 	return dst
 }
 
-// merge adds o into m, moving o's sums to m's shift:
+// rebase re-expresses the sums of n rows around shift sh in unit u as sums around shift a in unit
+// b ≥ u (r = u/b ≤ 1, δ = (sh − a)/b):
 //
-//	Σ(x−a) = S1 + n·(b−a),  Σ(x−a)² = S2 + 2(b−a)·S1 + n·(b−a)²   (b = o's shift)
+//	Σ(x−a)/b = r·S1 + n·δ,  Σ((x−a)/b)² = r²·S2 + 2δ·r·S1 + n·δ²
+func rebase(s1, s2 float64, n, sh, u, a, b float64) (float64, float64) {
+	if sh == a && u == b {
+		return s1, s2
+	}
+	r := u / b
+	delta := sh/b - a/b
+	return r*s1 + n*delta, r*r*s2 + 2*delta*r*s1 + n*delta*delta
+}
+
+// merge adds o into m, moving o's sums to m's shift and to the larger of the two units (m's own
+// sums move first when o's unit is larger), so that neither side overflows.
 func (m *Moments) merge(o *Moments) {
 	n := float64(o.N)
 	for j := range m.S1 {
-		delta := o.Shift[j] - m.Shift[j]
-		m.S2[j] += o.S2[j] + 2*delta*o.S1[j] + n*delta*delta
-		m.S1[j] += o.S1[j] + n*delta
+		if o.Unit[j] > m.Unit[j] {
+			m.S1[j], m.S2[j] = rebase(m.S1[j], m.S2[j], float64(m.N), m.Shift[j], m.Unit[j], m.Shift[j], o.Unit[j])
+			m.Unit[j] = o.Unit[j]
+		}
+		s1, s2 := rebase(o.S1[j], o.S2[j], n, o.Shift[j], o.Unit[j], m.Shift[j], m.Unit[j])
+		m.S2[j] += s2
+		m.S1[j] += s1
 		m.Min[j] = math.Min(m.Min[j], o.Min[j])
 		m.Max[j] = math.Max(m.Max[j], o.Max[j])
 	}
 	m.N += o.N
 }
 
+// UnitOf returns the power of two nearest above scale's magnitude (1 for zero, infinite or NaN
+// scales), the unit [Moments] keep a column's sums in.
+func UnitOf(scale float64) float64 {
+	if scale == 0 || math.IsInf(scale, 0) || math.IsNaN(scale) {
+		return 1
+	}
+	_, e := math.Frexp(math.Abs(scale))
+	return math.Ldexp(1, e)
+}
+
 // Cross holds the shifted sums and cross-products of a uniform Bernoulli sample of the rows, from which
-// the covariance matrix is estimated.
+// the covariance matrix is estimated. Like [Moments] it works in per-column power-of-two units.
 type Cross struct {
 	N     int64
 	Shift []float64
-	S1    []float64 // Σ (x − shift)
-	C     []float64 // d×d, Σ (x − shift)(x − shift)ᵀ, upper triangle kept (lower mirrored on read)
+	Unit  []float64 // per column, a power of two
+	S1    []float64 // Σ (x − shift)/unit
+	C     []float64 // d×d, Σ ((x − shift)/unit)((x − shift)/unit)ᵀ, upper triangle kept (lower mirrored on read)
 }
 
-func newCross(shift []float64) Cross {
+func newCross(shift, unit []float64) Cross {
 	d := len(shift)
-	return Cross{Shift: append([]float64(nil), shift...), S1: make([]float64, d), C: make([]float64, d*d)}
+	return Cross{Shift: append([]float64(nil), shift...), Unit: append([]float64(nil), unit...),
+		S1: make([]float64, d), C: make([]float64, d*d)}
 }
 
-// add accumulates one shifted row dx = x − shift.
+// add accumulates one shifted row in units, dx = (x − shift)/unit.
 func (c *Cross) add(dx []float64) {
 	d := len(dx)
 	c.N++
@@ -162,28 +219,75 @@ func (c *Cross) add(dx []float64) {
 	}
 }
 
-// merge adds o into c at c's shift:
+// rebase moves c to shift a and units b, b ≥ c.Unit column by column:
 //
-//	Σ(x−a)(x−a)ᵀ = C + δ S1ᵀ + S1 δᵀ + n δδᵀ,  δ = b − a
-func (c *Cross) merge(o *Cross) {
+//	Σ(x−a)(x−a)ᵀ/(b bᵀ) = R C R + δ (R S1)ᵀ + (R S1) δᵀ + n δδᵀ,  R = diag(u/b),  δ = (shift − a)/b
+func (c *Cross) rebase(a, b []float64) {
 	d := len(c.S1)
-	n := float64(o.N)
+	same := true
 	for j := range d {
-		dj := o.Shift[j] - c.Shift[j]
+		same = same && c.Shift[j] == a[j] && c.Unit[j] == b[j]
+	}
+	if same {
+		return
+	}
+	n := float64(c.N)
+	r := make([]float64, d)
+	delta := make([]float64, d)
+	for j := range d {
+		r[j] = c.Unit[j] / b[j]
+		delta[j] = c.Shift[j]/b[j] - a[j]/b[j]
+		c.S1[j] *= r[j]
+	}
+	for j := range d {
 		for l := j; l < d; l++ {
-			dl := o.Shift[l] - c.Shift[l]
-			c.C[j*d+l] += o.C[j*d+l] + dj*o.S1[l] + dl*o.S1[j] + n*dj*dl
+			c.C[j*d+l] = r[j]*r[l]*c.C[j*d+l] + delta[j]*c.S1[l] + delta[l]*c.S1[j] + n*delta[j]*delta[l]
 		}
 	}
 	for j := range d {
-		c.S1[j] += o.S1[j] + n*(o.Shift[j]-c.Shift[j])
+		c.S1[j] += n * delta[j]
+	}
+	copy(c.Shift, a)
+	copy(c.Unit, b)
+}
+
+// merge adds o into c at c's shift and at the larger unit of each column.
+func (c *Cross) merge(o *Cross) {
+	d := len(c.S1)
+	unit := slices.Clone(c.Unit)
+	for j := range d {
+		unit[j] = max(unit[j], o.Unit[j])
+	}
+	c.rebase(c.Shift, unit)
+	oc := *o
+	oc.Shift, oc.Unit, oc.S1, oc.C = slices.Clone(o.Shift), slices.Clone(o.Unit), slices.Clone(o.S1), slices.Clone(o.C)
+	oc.rebase(c.Shift, c.Unit)
+	for j := range d {
+		for l := j; l < d; l++ {
+			c.C[j*d+l] += oc.C[j*d+l]
+		}
+		c.S1[j] += oc.S1[j]
 	}
 	c.N += o.N
 }
 
-// CovTo writes the d×d covariance estimate (divisor N, row-major, symmetric) into dst and returns it.
-// It is all zeros when no row was sampled.
+// CovTo writes the d×d covariance estimate (divisor N, row-major, symmetric) into dst and returns
+// it. It is all zeros when no row was sampled. Entries beyond the float64 range (columns of
+// magnitude 1e160 and more) are infinite; [Cross.UnitCovTo] is finite for every finite input.
 func (c *Cross) CovTo(dst []float64) []float64 {
+	dst = c.UnitCovTo(dst)
+	d := len(c.S1)
+	for j := range d {
+		for l := range d {
+			dst[j*d+l] *= c.Unit[j] * c.Unit[l]
+		}
+	}
+	return dst
+}
+
+// UnitCovTo writes the d×d covariance estimate in units (divisor N, row-major, symmetric) into dst
+// and returns it: entry (j, l) is the covariance of columns j and l divided by Unit[j]·Unit[l].
+func (c *Cross) UnitCovTo(dst []float64) []float64 {
 	d := len(c.S1)
 	dst = sized(dst, d*d)
 	if c.N == 0 {

@@ -114,7 +114,7 @@ type Sketch struct {
 
 	probeCentre []float64
 	inv         []float64 // 1/Scale
-	inv2        []float64 // 1/Scale²
+	scale       []float64 // the probe's Scale
 	meanSq      float64
 
 	coreset *topK // priority sample: key w/u, payload w
@@ -149,8 +149,12 @@ func New(cfg Config, probe Probe) (*Sketch, error) {
 	if len(probe.Center) != d || len(probe.Scale) != d {
 		return nil, fmt.Errorf("sketch: probe has %d centre and %d scale values for %d columns", len(probe.Center), len(probe.Scale), d)
 	}
-	s := &Sketch{cfg: cfg, d: d, mom: newMoments(probe.Center), cross: newCross(probe.Center),
-		probeCentre: slices.Clone(probe.Center), inv: make([]float64, d), inv2: make([]float64, d),
+	unit := make([]float64, d)
+	for j, sc := range probe.Scale {
+		unit[j] = UnitOf(sc)
+	}
+	s := &Sketch{cfg: cfg, d: d, mom: newMoments(probe.Center, unit), cross: newCross(probe.Center, unit),
+		probeCentre: slices.Clone(probe.Center), inv: make([]float64, d), scale: slices.Clone(probe.Scale),
 		meanSq:  probe.MeanSq,
 		coreset: newTopK(cfg.CoresetSize+1, d), sample: newTopK(cfg.SampleSize, d),
 		mbBuf: make([]float64, cfg.MiniBatchSize*d), labels: make([]int32, cfg.MiniBatchSize),
@@ -159,8 +163,10 @@ func New(cfg Config, probe Probe) (*Sketch, error) {
 		if !(sc > 0) || math.IsInf(sc, 0) {
 			return nil, fmt.Errorf("sketch: probe scale of column %q is %v, want a positive finite number", cfg.Columns[j], sc)
 		}
+		if math.IsNaN(probe.Center[j]) || math.IsInf(probe.Center[j], 0) {
+			return nil, fmt.Errorf("sketch: probe centre of column %q is %v, want a finite number", cfg.Columns[j], probe.Center[j])
+		}
 		s.inv[j] = 1 / sc
-		s.inv2[j] = 1 / (sc * sc)
 	}
 	if !(s.meanSq > 0) {
 		s.meanSq = float64(d)
@@ -195,7 +201,7 @@ func (s *Sketch) Rows() int64 { return s.mom.N }
 // Moments returns a copy of the exact column summaries.
 func (s *Sketch) Moments() Moments {
 	m := s.mom
-	m.Shift, m.S1, m.S2 = slices.Clone(m.Shift), slices.Clone(m.S1), slices.Clone(m.S2)
+	m.Shift, m.Unit, m.S1, m.S2 = slices.Clone(m.Shift), slices.Clone(m.Unit), slices.Clone(m.S1), slices.Clone(m.S2)
 	m.Min, m.Max = slices.Clone(m.Min), slices.Clone(m.Max)
 	return m
 }
@@ -203,7 +209,7 @@ func (s *Sketch) Moments() Moments {
 // Cross returns a copy of the sampled cross-product summary.
 func (s *Sketch) Cross() Cross {
 	c := s.cross
-	c.Shift, c.S1, c.C = slices.Clone(c.Shift), slices.Clone(c.S1), slices.Clone(c.C)
+	c.Shift, c.Unit, c.S1, c.C = slices.Clone(c.Shift), slices.Clone(c.Unit), slices.Clone(c.S1), slices.Clone(c.C)
 	return c
 }
 
@@ -292,7 +298,8 @@ func (s *Sketch) AddColumns(cols [][]float64) {
 	}
 	norm2 := s.norm2[:n]
 	for j, col := range cols {
-		s.mom.addColumn(j, col, s.inv2[j], norm2)
+		r := s.scale[j] / s.mom.Unit[j] // exact, so 1/r² is 1/scale² times unit², bit for bit
+		s.mom.addColumn(j, col, 1/(r*r), norm2)
 	}
 	sample, coreset, meanSq := s.sample, s.coreset, s.meanSq
 	for i, q := range norm2 {
@@ -330,7 +337,8 @@ func (s *Sketch) feed(x []float64) {
 	dx := s.scratch
 	z := s.mbBuf[s.mbRows*d : (s.mbRows+1)*d]
 	for j, v := range x {
-		dx[j] = v - s.mom.Shift[j]
+		u := s.cross.Unit[j] // a power of two: the divisions are exact
+		dx[j] = v/u - s.cross.Shift[j]/u
 		z[j] = (v - s.probeCentre[j]) * s.inv[j]
 	}
 	s.cross.add(dx)

@@ -56,7 +56,8 @@ func sniff(path string, size int64) (Format, error) {
 // Parquet: "PAR1" at both ends. Arrow IPC file: "ARROW1" at the start. Arrow
 // IPC stream: a message starts with the continuation marker 0xFFFFFFFF and a
 // positive little-endian int32 metadata length, or (before format 0.15)
-// directly with that length; the length must fit in the file.
+// directly with that length (which must then fit in the file); after the marker
+// a length beyond the file is a truncated stream.
 func sniffBytes(head, tail []byte, size int64) Format {
 	switch {
 	case len(head) >= 4 && string(head[:4]) == "PAR1":
@@ -72,7 +73,10 @@ func sniffBytes(head, tail []byte, size int64) Format {
 	first := binary.LittleEndian.Uint32(head[:4])
 	if first == 0xFFFFFFFF {
 		l := int64(int32(binary.LittleEndian.Uint32(head[4:8])))
-		if l > 0 && 8+l <= size {
+		// A positive length after the marker is a stream even when the file ends before the
+		// message does: the reader then reports the truncation, which says more than "not a
+		// Parquet or Arrow IPC file".
+		if l > 0 {
 			return ArrowStream
 		}
 		return 0

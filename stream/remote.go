@@ -1,6 +1,8 @@
 package stream
 
 import (
+	"errors"
+	"fmt"
 	"io"
 	"io/fs"
 	"os"
@@ -51,12 +53,31 @@ func openPath(path string) (Handle, error) {
 	if isRemote(path) {
 		return Remote.Open(path)
 	}
+	// A FIFO, socket or device would block in open or read forever (or never end): only regular
+	// files are data. Stat does not block; the opened file is checked again in case the name was
+	// replaced in between.
+	if fi, err := os.Stat(path); err != nil {
+		return nil, err
+	} else if !fi.Mode().IsRegular() && !fi.IsDir() {
+		return nil, fmt.Errorf("%w (%s)", ErrNotRegular, fi.Mode().Type())
+	}
 	f, err := os.Open(path)
 	if err != nil {
 		return nil, err // not a typed nil in the interface
 	}
+	if fi, err := f.Stat(); err != nil || (!fi.Mode().IsRegular() && !fi.IsDir()) {
+		f.Close()
+		if err == nil {
+			err = fmt.Errorf("%w (%s)", ErrNotRegular, fi.Mode().Type())
+		}
+		return nil, err
+	}
 	return f, nil
 }
+
+// ErrNotRegular is returned for an input that is neither a regular file nor a directory (a FIFO,
+// a socket, a device), which could block the run or never end.
+var ErrNotRegular = errors.New("not a regular file")
 
 // remote takes the data objects a URL names. Their partitions come from the key=value segments of
 // their keys; an object named exactly that is no data file is an error, as for a local file.

@@ -9,8 +9,10 @@ import (
 	"os"
 	"regexp"
 	"strings"
+	"syscall"
 
 	"github.com/kgauge/kgauge"
+	"github.com/kgauge/kgauge/internal/cliflags"
 	"github.com/kgauge/kgauge/stream"
 )
 
@@ -40,6 +42,11 @@ type outputError struct{ err error }
 func (e *outputError) Error() string { return e.err.Error() }
 func (e *outputError) Unwrap() error { return e.err }
 
+// internalError is a failure that no input or flag should cause: a bug.
+type internalError struct{ msg string }
+
+func (e *internalError) Error() string { return e.msg }
+
 // exitCode maps an error to the documented exit code.
 func exitCode(err error) int {
 	var ue *usageError
@@ -59,8 +66,10 @@ func exitCode(err error) int {
 		return ExitOutput
 	case errors.As(err, &re), errors.As(err, &ie),
 		errors.Is(err, kgauge.ErrNoRows), errors.Is(err, kgauge.ErrTooFewRows), errors.Is(err, kgauge.ErrNonPositive),
+		errors.Is(err, kgauge.ErrUnrepresentable), errors.Is(err, kgauge.ErrTooWide),
 		errors.Is(err, os.ErrNotExist), errors.Is(err, os.ErrPermission),
-		errors.Is(err, stream.ErrNoDataFiles), errors.Is(err, stream.ErrNoNumericColumns),
+		errors.Is(err, syscall.EISDIR), errors.Is(err, syscall.ENOTDIR), // a file named where a directory is, or the reverse
+		errors.Is(err, stream.ErrNoDataFiles), errors.Is(err, stream.ErrNotRegular), errors.Is(err, stream.ErrNoNumericColumns),
 		errors.Is(err, stream.ErrUnknownColumn), errors.Is(err, stream.ErrNotNumeric),
 		errors.Is(err, stream.ErrMissingColumn), errors.Is(err, stream.ErrInfinite),
 		errors.Is(err, stream.ErrUnreadableFile), errors.Is(err, stream.ErrDuplicateColumn):
@@ -79,8 +88,12 @@ func report(err error, stderr io.Writer) int {
 	if errors.Is(err, stream.ErrUnreadableFile) {
 		msg += " (--skip-unreadable skips such files and lists them)"
 	}
-	if code == ExitInterrupted {
+	switch code {
+	case ExitInterrupted:
 		msg = "interrupted; no output written"
+	case ExitInternal:
+		msg = fmt.Sprintf("internal error (a bug in kgauge %s; please report it with the command line and this message): %s",
+			kgauge.Version, msg)
 	}
 	if !strings.HasPrefix(msg, "kgauge") {
 		msg = "kgauge: " + msg
@@ -132,7 +145,29 @@ func parseArgs(fs *flag.FlagSet, args []string, stdout io.Writer) error {
 		fs.Usage()
 		return err
 	case err != nil:
-		return usageErrorf("%s: %s", fs.Name(), flagMessage(err))
+		return usageErrorf("%s: %s%s", fs.Name(), flagMessage(err), rangeHint(err))
+	}
+	return checkRanges(fs)
+}
+
+// badValue finds the flag a parse error of the flag package names.
+var badValue = regexp.MustCompile(`invalid value ".*" for flag -([a-z0-9-]+)`)
+
+// rangeHint gives the range of the flag whose value did not parse, if it has one.
+func rangeHint(err error) string {
+	if m := badValue.FindStringSubmatch(err.Error()); m != nil {
+		if r, ok := cliflags.Ranges[m[1]]; ok {
+			return fmt.Sprintf(" (--%s must be %s)", m[1], r)
+		}
+	}
+	return ""
+}
+
+// checkRanges checks every numeric flag of fs against its documented range (cliflags.Ranges),
+// right after parsing and before any file is opened.
+func checkRanges(fs *flag.FlagSet) error {
+	if err := cliflags.CheckRanges(fs); err != nil {
+		return usageErrorf("%s: %v", fs.Name(), err)
 	}
 	return nil
 }

@@ -190,8 +190,8 @@ func checkOutputDir(path string) error {
 }
 
 func isTerminal(w io.Writer) bool {
-	f, ok := w.(*os.File)
-	return ok && term.IsTerminal(int(f.Fd()))
+	f, ok := w.(interface{ Fd() uintptr })
+	return ok && f.Fd() != ^uintptr(0) && term.IsTerminal(int(f.Fd()))
 }
 
 // showProgress draws a bar of rows read on w until the returned function is called. Its ETA starts

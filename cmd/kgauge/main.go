@@ -4,11 +4,14 @@ package main
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"io"
 	"os"
 	"os/signal"
+	"sync"
 	"syscall"
+	"time"
 )
 
 func main() {
@@ -18,8 +21,88 @@ func main() {
 	os.Exit(code)
 }
 
+// stopGrace is how long Run lets a cancelled command stop by itself (every stage checks the
+// context, and an output being written is finished or removed) before it gives up on it.
+const stopGrace = 200 * time.Millisecond
+
 // Run executes one kgauge command with the given arguments and streams and returns the exit code.
+//
+// The command runs in its own goroutine. When ctx is cancelled (SIGINT, SIGTERM) Run waits at most
+// stopGrace for it to return and then returns ExitInterrupted without it, so that no stage, however
+// long its inner loop (an eigen decomposition, a blocked open), can delay the exit by more than that:
+// main exits right after, and the streams are closed to the abandoned command, so it can print
+// nothing more. A panic in the command's goroutine is a bug: it is reported as one line asking for
+// a report, with exit code 1 and no stack trace.
 func Run(ctx context.Context, args []string, stdout, stderr io.Writer) int {
+	out, errw := newGate(stdout), newGate(stderr)
+	done := make(chan int, 1)
+	go func() {
+		defer func() {
+			if p := recover(); p != nil {
+				done <- report(&internalError{fmt.Sprintf("panic: %v", p)}, errw)
+			}
+		}()
+		done <- runCommand(ctx, args, out, errw)
+	}()
+	select {
+	case code := <-done:
+		return code
+	case <-ctx.Done():
+	}
+	select {
+	case code := <-done:
+		return code
+	case <-time.After(stopGrace):
+	}
+	out.close()
+	errw.close()
+	return report(context.Canceled, stderr)
+}
+
+// gate is a writer that can be closed to a command Run has given up on.
+type gate struct {
+	mu     sync.Mutex
+	w      io.Writer
+	closed bool
+}
+
+func newGate(w io.Writer) *gate { return &gate{w: w} }
+
+func (g *gate) Write(p []byte) (int, error) {
+	g.mu.Lock()
+	defer g.mu.Unlock()
+	if g.closed {
+		return 0, errStreamClosed
+	}
+	return g.w.Write(p)
+}
+
+func (g *gate) close() {
+	g.mu.Lock()
+	g.closed = true
+	g.mu.Unlock()
+}
+
+// Fd returns the file descriptor of the underlying stream, so that a terminal is still recognised,
+// or ^uintptr(0) when it is not a file.
+func (g *gate) Fd() uintptr {
+	if f, ok := g.w.(interface{ Fd() uintptr }); ok {
+		return f.Fd()
+	}
+	return ^uintptr(0)
+}
+
+var errStreamClosed = errors.New("stream closed after an interrupt")
+
+// beforeCommand, when set (by tests), runs before the command; a test makes it panic to check
+// how Run reports a bug.
+var beforeCommand func(args []string)
+
+// runCommand dispatches args to their command.
+func runCommand(ctx context.Context, args []string, stdout, stderr io.Writer) int {
+	if beforeCommand != nil {
+		beforeCommand(args)
+	}
 	if len(args) == 0 {
 		fmt.Fprint(stderr, usageText)
 		return ExitUsage
@@ -75,7 +158,7 @@ the version.
 
 Exit codes:
   0    success
-  1    internal error
+  1    internal error: a bug in kgauge (please report it)
   2    usage: unknown command or flag, bad flag value; an output that is an input
   3    bad input: missing, unreadable or invalid file; column problems; too few usable rows;
        track: a partition failed, is incomplete or quarantined

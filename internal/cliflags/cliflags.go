@@ -11,6 +11,12 @@ import (
 	"github.com/kgauge/kgauge"
 )
 
+// The range of --memory.
+const (
+	MinMemory = 1 << 20
+	MaxMemory = 1 << 50
+)
+
 // UsageError is a bad flag value; its message names the flag.
 type UsageError struct{ Msg string }
 
@@ -23,6 +29,7 @@ func usagef(format string, args ...any) error { return &UsageError{Msg: fmt.Spri
 // are parsed.
 type Data struct {
 	Opt     kgauge.Options
+	fs      *flag.FlagSet
 	columns string
 	scale   string
 	memory  string
@@ -31,6 +38,7 @@ type Data struct {
 // Register binds the flags into d, with the library's defaults.
 func (d *Data) Register(fs *flag.FlagSet) {
 	d.Opt = kgauge.DefaultOptions()
+	d.fs = fs
 	o := &d.Opt
 	fs.StringVar(&d.columns, "columns", "", "comma-separated feature columns (default: every numeric column)")
 	fs.StringVar(&d.scale, "scale", string(o.Scale), "feature scaling: zscore, range, log (logarithm, then z-score; every value > 0) or none")
@@ -53,6 +61,11 @@ func (d *Data) Register(fs *flag.FlagSet) {
 // naming its flag.
 func (d *Data) Options() (kgauge.Options, error) {
 	o := d.Opt
+	if d.fs != nil {
+		if err := CheckRanges(d.fs); err != nil {
+			return o, err
+		}
+	}
 	// Zero would mean "default" to the library; on the command line it is a mistake.
 	for _, c := range []struct {
 		name string
@@ -74,6 +87,9 @@ func (d *Data) Options() (kgauge.Options, error) {
 	if d.memory != "" {
 		if o.Memory, err = kgauge.ParseBytes(d.memory); err != nil {
 			return o, usagef("--memory: %v", err)
+		}
+		if o.Memory < MinMemory || o.Memory > MaxMemory {
+			return o, usagef("--memory must be 1MiB to 1PiB, got %s", d.memory)
 		}
 	}
 	if d.columns != "" {

@@ -15,7 +15,10 @@ func TestOptions(t *testing.T) {
 	}{
 		{nil, ""},
 		{[]string{"--columns", "h00, h01", "--scale", "range", "--memory", "512MiB"}, ""},
-		{[]string{"--coreset", "0"}, "--coreset must be at least 1"},
+		{[]string{"--coreset", "0"}, "--coreset must be 2 to 4194304"},
+		{[]string{"--memory", "99999999999TiB"}, "--memory"},
+		{[]string{"--memory", "NaN"}, "--memory"},
+		{[]string{"--restarts", "1000000"}, "--restarts must be 1 to 100"},
 		{[]string{"--gap-refs", "-2"}, "--gap-refs"},
 		{[]string{"--scale", "log"}, "--scale"},
 		{[]string{"--memory", "lots"}, "--memory"},

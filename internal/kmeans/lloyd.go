@@ -1,6 +1,7 @@
 package kmeans
 
 import (
+	"context"
 	"math"
 	"math/rand/v2"
 )
@@ -19,6 +20,9 @@ type Result struct {
 type LloydOptions struct {
 	MaxIter int     // default 100
 	Tol     float64 // stop when the relative cost decrease is <= Tol; default 1e-7
+	// Context, when not nil, is checked once per iteration: once it is done Lloyd stops early and
+	// returns the centres it has (the caller checks the context and discards them).
+	Context context.Context
 }
 
 func (o LloydOptions) withDefaults() LloydOptions {
@@ -65,6 +69,9 @@ func Lloyd(p Data, init []float64, opt LloydOptions) Result {
 	cs := newCentred(p)
 	prev := math.Inf(1)
 	for it := 1; it <= opt.MaxIter; it++ {
+		if opt.Context != nil && opt.Context.Err() != nil {
+			break
+		}
 		res.Iters = it
 		changed := h.assign(c, res.Labels, it == 1)
 		if it > 1 && changed == 0 {
@@ -394,6 +401,10 @@ type FitOptions struct {
 	Lloyd    LloydOptions
 	Init     [][]float64 // extra initial centre sets (k*D each; others are ignored)
 	Rand     *rand.Rand  // nil means rand.New(rand.NewPCG(1, 2))
+	// Context, when not nil, is checked before each restart, every few k-means++ steps and once per
+	// Lloyd iteration: once it is done Fit returns early with whatever it has (the caller checks
+	// the context and discards it).
+	Context context.Context
 }
 
 // Fit returns the lowest-cost Lloyd result over each Init set (tried first, in order) and then
@@ -413,6 +424,10 @@ func Fit(p Data, k int, opt FitOptions) Result {
 	if rng == nil {
 		rng = rand.New(rand.NewPCG(1, 2))
 	}
+	if opt.Lloyd.Context == nil {
+		opt.Lloyd.Context = opt.Context
+	}
+	cancelled := func() bool { return opt.Context != nil && opt.Context.Err() != nil }
 	var best Result
 	have := false
 	try := func(init []float64) {
@@ -422,7 +437,7 @@ func Fit(p Data, k int, opt FitOptions) Result {
 		}
 	}
 	for _, init := range opt.Init {
-		if len(init) == k*p.D {
+		if len(init) == k*p.D && (!have || !cancelled()) {
 			try(init)
 		}
 	}
@@ -432,7 +447,10 @@ func Fit(p Data, k int, opt FitOptions) Result {
 	}
 	var seed []float64
 	for r := 0; r < restarts; r++ {
-		seed = PlusPlus(p, k, rng, seed)
+		if have && cancelled() {
+			break
+		}
+		seed = plusPlus(opt.Context, p, k, rng, seed)
 		try(seed)
 	}
 	return best

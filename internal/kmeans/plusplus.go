@@ -1,6 +1,7 @@
 package kmeans
 
 import (
+	"context"
 	"math"
 	"math/rand/v2"
 )
@@ -14,6 +15,12 @@ import (
 // The result is written to dst (grown if needed; may be nil) and returned, k*D values.
 // It is deterministic for a given rng state and panics if k < 1 or p is empty.
 func PlusPlus(p Data, k int, rng *rand.Rand, dst []float64) []float64 {
+	return plusPlus(nil, p, k, rng, dst)
+}
+
+// plusPlus is PlusPlus checking ctx (when not nil) every few centres; once it is done the remaining
+// centres are copies of the first, so that the result keeps its shape (the caller discards it).
+func plusPlus(ctx context.Context, p Data, k int, rng *rand.Rand, dst []float64) []float64 {
 	p.check()
 	n, d := p.Len(), p.D
 	if k < 1 {
@@ -45,6 +52,12 @@ func PlusPlus(p Data, k int, rng *rand.Rand, dst []float64) []float64 {
 		d2[i] = Dist2(p.Point(i), dst[:d])
 	}
 	for c := 1; c < k; c++ {
+		if ctx != nil && c%8 == 0 && ctx.Err() != nil {
+			for ; c < k; c++ {
+				copy(dst[c*d:(c+1)*d], dst[:d])
+			}
+			break
+		}
 		pot := 0.0
 		for i := 0; i < n; i++ {
 			pot += p.Weight(i) * d2[i]
@@ -71,7 +84,9 @@ func PlusPlus(p Data, k int, rng *rand.Rand, dst []float64) []float64 {
 				cand[i] = v
 				s += p.Weight(i) * v
 			}
-			if s < bestPot {
+			// The first candidate is kept whatever its potential, so that a potential that is not
+			// a number (squared distances beyond float64) cannot leave no centre chosen.
+			if s < bestPot || bestIdx < 0 {
 				bestPot, bestIdx = s, idx
 				best, cand = cand, best
 			}
