@@ -10,6 +10,8 @@ import (
 	"path/filepath"
 	"sort"
 	"strings"
+
+	"github.com/RoaringBitmap/roaring/v2/roaring64"
 )
 
 // KeyValue is one hive-style path segment key=value, such as year=2024.
@@ -21,6 +23,9 @@ type File struct {
 	Size      int64
 	Format    Format
 	Partition []KeyValue // hive segments of the path, outermost first; never features
+	// Deleted holds the rows (0-based, in file order) a lake table's deletion vector or position
+	// delete files drop; nil when none. Only Parquet files may have them.
+	Deleted *roaring64.Bitmap
 }
 
 // errNotData is the cause when a file named explicitly is no supported format.
@@ -40,11 +45,24 @@ var errNotData = errors.New("not a Parquet or Arrow IPC file (magic bytes)")
 // an error naming it; a directory or glob with no data files is an error
 // naming it that wraps ErrNoDataFiles. All errors are *ReadError.
 func Discover(patterns []string) ([]File, error) {
-	d := discoverer{seen: make(map[string]bool)}
+	files, _, err := DiscoverWith(patterns, DiscoverOptions{Table: TableOptions{Version: -1}})
+	return files, err
+}
+
+// DiscoverWith is Discover that also reads lake tables: a path (not a glob) that is a Delta Lake
+// or Apache Iceberg table, or a folder inside one, yields the table's live data files (see Tables)
+// unless opt.AsFiles is set. opt.Table.Where prunes files by partition, tables and hive folders
+// alike. It returns the tables read, in the order named.
+func DiscoverWith(patterns []string, opt DiscoverOptions) ([]File, []*Table, error) {
+	d := discoverer{seen: make(map[string]bool), opt: opt}
 	for _, p := range patterns {
 		before := d.found
-		var err error
+		isTable, err := d.table(p)
 		switch {
+		case err != nil:
+			return nil, nil, err
+		case isTable:
+			continue
 		case isRemote(p):
 			err = d.remote(p)
 		case strings.ContainsAny(p, "*?["):
@@ -53,20 +71,34 @@ func Discover(patterns []string) ([]File, error) {
 			err = d.path(p)
 		}
 		if err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 		if d.found == before {
-			return nil, newError(p, "", ErrNoDataFiles)
+			return nil, nil, newError(p, "", ErrNoDataFiles)
 		}
 	}
+	if w := opt.Table.Where; len(w) > 0 {
+		kept := d.files[:0]
+		for _, f := range d.files {
+			if MatchWhere(f.Partition, w) {
+				kept = append(kept, f)
+			}
+		}
+		d.files = kept
+	}
+	if len(d.files) == 0 {
+		return nil, nil, newError(strings.Join(patterns, " "), "", noLive(opt.Table.Where))
+	}
 	sort.Slice(d.files, func(i, j int) bool { return d.files[i].Path < d.files[j].Path })
-	return d.files, nil
+	return d.files, d.tables, nil
 }
 
 type discoverer struct {
-	files []File
-	seen  map[string]bool // absolute paths already taken
-	found int             // files matched so far, duplicates included
+	opt    DiscoverOptions
+	tables []*Table
+	files  []File
+	seen   map[string]bool // absolute paths already taken
+	found  int             // files matched so far, duplicates included
 }
 
 // path handles a pattern without glob characters.
