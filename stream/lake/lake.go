@@ -33,6 +33,7 @@ func (Reader) Resolve(p string, opt stream.TableOptions) (*stream.Table, error) 
 		return nil, nil
 	}
 	t := &stream.Table{Format: format, Root: root.p, Path: named.p}
+	deleteFiles := 0
 	switch format {
 	case "delta":
 		if opt.Snapshot != 0 {
@@ -53,6 +54,7 @@ func (Reader) Resolve(p string, opt stream.TableOptions) (*stream.Table, error) 
 		it, err := readIceberg(root, opt.Snapshot)
 		if err == nil {
 			t.Version = it.snapshot
+			deleteFiles = it.deleteFilesWithin(sub)
 			t.Files, t.DeletedRows, err = it.files(sub, opt.Where)
 		}
 		if err != nil {
@@ -64,7 +66,8 @@ func (Reader) Resolve(p string, opt stream.TableOptions) (*stream.Table, error) 
 	if err != nil {
 		return nil, &stream.ReadError{File: p, Unit: -1, Row: -1, Err: err}
 	}
-	t.Present = present
+	t.Present = present - deleteFiles
+
 	return t, nil
 }
 
