@@ -25,6 +25,40 @@ type Input struct {
 	Ignored []IgnoredColumn `json:"ignored_columns"`
 	Units   int             `json:"units"`
 	Bytes   int64           `json:"bytes"`
+	Tables  []TableInfo     `json:"tables,omitempty"` // the lake tables read through their metadata
+}
+
+// TableInfo is one Delta Lake or Apache Iceberg table (or a partition folder of one) among the
+// inputs.
+type TableInfo struct {
+	Format string `json:"format"` // "delta" or "iceberg"
+	Root   string `json:"root"`
+	Path   string `json:"path"` // the folder named: the root or a partition folder inside it
+	// Version is the Delta table version read; Snapshot the Iceberg snapshot id.
+	Version  *int64 `json:"version,omitempty"`
+	Snapshot *int64 `json:"snapshot,omitempty"`
+	// LiveFiles are the data files of that state (after --where) read; PresentFiles the Parquet
+	// data files stored below Path, removed ones included.
+	LiveFiles    int    `json:"live_files"`
+	PresentFiles int    `json:"present_files"`
+	DeletedRows  int64  `json:"deleted_rows"` // rows of the live files its deletion vectors or delete files drop
+	Where        string `json:"where,omitempty"`
+}
+
+func describeTables(tables []*stream.Table, where []stream.KeyValue) []TableInfo {
+	var out []TableInfo
+	for _, t := range tables {
+		ti := TableInfo{Format: t.Format, Root: t.Root, Path: t.Path, LiveFiles: t.Live,
+			PresentFiles: t.Present, DeletedRows: t.DeletedRows, Where: stream.WhereString(where)}
+		v := t.Version
+		if t.Format == "iceberg" {
+			ti.Snapshot = &v
+		} else {
+			ti.Version = &v
+		}
+		out = append(out, ti)
+	}
+	return out
 }
 
 // FileInfo is one input file.
@@ -63,7 +97,7 @@ func Build(ctx context.Context, paths []string, opt Options) (*sketch.Sketch, *I
 	opt = opt.withDefaults()
 	start := time.Now()
 	opt.Progress.stage("open")
-	files, err := stream.Discover(paths)
+	files, tables, err := stream.DiscoverWith(paths, opt.Tables)
 	if err != nil {
 		return nil, nil, tm, err
 	}
@@ -73,6 +107,7 @@ func Build(ctx context.Context, paths []string, opt Options) (*sketch.Sketch, *I
 	}
 	defer ds.Close()
 	in := describe(ds)
+	in.Tables = describeTables(tables, opt.Tables.Table.Where)
 	if opt, err = opt.fitMemory(ds.Dims()); err != nil {
 		return nil, nil, tm, err
 	}

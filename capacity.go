@@ -58,7 +58,7 @@ func PlanCapacity(ctx context.Context, paths []string, opt Options, probe bool) 
 		return nil, err
 	}
 	opt = opt.withDefaults()
-	files, err := stream.Discover(paths)
+	files, _, err := stream.DiscoverWith(paths, opt.Tables)
 	if err != nil {
 		return nil, err
 	}
@@ -98,7 +98,7 @@ func PlanWorkload(paths []string, opt Options) (model.Workload, error) {
 	if len(data) == 0 {
 		return model.Workload{}, errors.New("plan: only saved sketches given; nothing to read")
 	}
-	files, err := stream.Discover(data)
+	files, _, err := stream.DiscoverWith(data, opt.Tables)
 	if err != nil {
 		return model.Workload{}, err
 	}

@@ -39,6 +39,7 @@ type Result struct {
 	Columns     []string          `json:"columns"`
 	Ignored     []IgnoredColumn   `json:"ignored_columns"`
 	Files       []FileInfo        `json:"files"`
+	Tables      []TableInfo       `json:"tables,omitempty"` // Delta Lake and Iceberg tables read as tables
 	Sketches    []string          `json:"sketches,omitempty"`
 	Scaling     Scaling           `json:"scaling"`
 	Sketch      SketchInfo        `json:"sketch"`
@@ -174,6 +175,7 @@ func Estimate(ctx context.Context, inputs []string, opt Options) (*Result, *sket
 	if in != nil {
 		r.Files = in.Files
 		r.Ignored = in.Ignored
+		r.Tables = in.Tables
 	}
 	if r.Files == nil {
 		r.Files = []FileInfo{}

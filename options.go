@@ -6,6 +6,7 @@ import (
 
 	"github.com/kgauge/kgauge/criteria"
 	"github.com/kgauge/kgauge/sketch"
+	"github.com/kgauge/kgauge/stream"
 )
 
 // Scale says how features are put on a common footing before distances are taken.
@@ -49,6 +50,9 @@ type Options struct {
 	Seed       uint64
 	Memory     int64     // bytes the run may hold at most (estimated); 0 means no limit
 	Progress   *Progress // optional; updated as rows are read
+	// Tables says how Delta Lake and Apache Iceberg tables among the inputs are read: their
+	// latest state by default, a version or snapshot, files only, a partition filter.
+	Tables stream.DiscoverOptions
 }
 
 // DefaultOptions returns the options used for zero fields.

@@ -45,7 +45,7 @@ var errNotData = errors.New("not a Parquet or Arrow IPC file (magic bytes)")
 // an error naming it; a directory or glob with no data files is an error
 // naming it that wraps ErrNoDataFiles. All errors are *ReadError.
 func Discover(patterns []string) ([]File, error) {
-	files, _, err := DiscoverWith(patterns, DiscoverOptions{Table: TableOptions{Version: -1}})
+	files, _, err := DiscoverWith(patterns, DiscoverOptions{})
 	return files, err
 }
 

@@ -10,8 +10,8 @@ import (
 
 // TableOptions says which state of a lake table Discover reads.
 type TableOptions struct {
-	// Version is the Delta Lake table version to read; -1 (or any negative value) reads the latest.
-	Version int64
+	// Version is the Delta Lake table version to read; nil reads the latest.
+	Version *int64
 	// Snapshot is the Apache Iceberg snapshot id to read; 0 reads the current snapshot.
 	Snapshot int64
 	// Where keeps only files whose partition has every one of these key=value pairs. For tables the

@@ -111,8 +111,15 @@ type deltaTable struct {
 	protocol *deltaProtocol
 }
 
-// readDelta replays the log of the table at root up to version (negative: the latest).
-func readDelta(root loc, version int64) (*deltaTable, error) {
+// readDelta replays the log of the table at root up to the version at (nil: the latest).
+func readDelta(root loc, at *int64) (*deltaTable, error) {
+	version := int64(-1)
+	if at != nil {
+		version = *at
+		if version < 0 {
+			return nil, fmt.Errorf("delta table: version %d is negative", version)
+		}
+	}
 	logDir := root.join("_delta_log")
 	names, err := logDir.listDir()
 	if err != nil {

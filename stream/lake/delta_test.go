@@ -346,6 +346,8 @@ func readIDs(t testing.TB, files []stream.File) map[int64][2]float64 {
 	return got
 }
 
+func ver(v int64) *int64 { return &v }
+
 func idSet(ranges ...[2]int64) []int64 {
 	var out []int64
 	for _, r := range ranges {
@@ -373,13 +375,13 @@ func TestDeltaVersions(t *testing.T) {
 		ids     []int64
 		present int
 	}{
-		{"latest", root, stream.TableOptions{Version: -1}, []string{"day=2026-11-27/e.parquet", "day=2026-11-28/d.parquet"}, live4, 6},
-		{"v0", root, stream.TableOptions{Version: 0}, []string{"day=2026-11-27/a.parquet", "day=2026-11-28/b.parquet"}, idSet([2]int64{0, 180}), 6},
-		{"v1", root, stream.TableOptions{Version: 1}, []string{"day=2026-11-27/a.parquet", "day=2026-11-28/b.parquet", "day=2026-11-28/c.parquet"}, idSet([2]int64{0, 260}), 6},
-		{"v2 compaction (checkpoint)", root, stream.TableOptions{Version: 2}, []string{"day=2026-11-27/a.parquet", "day=2026-11-28/d.parquet"}, idSet([2]int64{0, 260}), 6},
-		{"v3 overwrite", root, stream.TableOptions{Version: 3}, []string{"day=2026-11-27/e.parquet", "day=2026-11-28/d.parquet"}, idSet([2]int64{100, 260}, [2]int64{1000, 1060}), 6},
-		{"partition folder", filepath.Join(root, "day=2026-11-28"), stream.TableOptions{Version: -1}, []string{"day=2026-11-28/d.parquet"}, without(idSet([2]int64{100, 260}), 100, 101, 102, 103, 104, 105, 106, 107, 108, 109, 250), 4},
-		{"where", root, stream.TableOptions{Version: -1, Where: []stream.KeyValue{{Key: "day", Value: "2026-11-27"}}}, []string{"day=2026-11-27/e.parquet"}, without(idSet([2]int64{1000, 1060}), 1003, 1004, 1059), 6},
+		{"latest", root, stream.TableOptions{}, []string{"day=2026-11-27/e.parquet", "day=2026-11-28/d.parquet"}, live4, 6},
+		{"v0", root, stream.TableOptions{Version: ver(0)}, []string{"day=2026-11-27/a.parquet", "day=2026-11-28/b.parquet"}, idSet([2]int64{0, 180}), 6},
+		{"v1", root, stream.TableOptions{Version: ver(1)}, []string{"day=2026-11-27/a.parquet", "day=2026-11-28/b.parquet", "day=2026-11-28/c.parquet"}, idSet([2]int64{0, 260}), 6},
+		{"v2 compaction (checkpoint)", root, stream.TableOptions{Version: ver(2)}, []string{"day=2026-11-27/a.parquet", "day=2026-11-28/d.parquet"}, idSet([2]int64{0, 260}), 6},
+		{"v3 overwrite", root, stream.TableOptions{Version: ver(3)}, []string{"day=2026-11-27/e.parquet", "day=2026-11-28/d.parquet"}, idSet([2]int64{100, 260}, [2]int64{1000, 1060}), 6},
+		{"partition folder", filepath.Join(root, "day=2026-11-28"), stream.TableOptions{}, []string{"day=2026-11-28/d.parquet"}, without(idSet([2]int64{100, 260}), 100, 101, 102, 103, 104, 105, 106, 107, 108, 109, 250), 4},
+		{"where", root, stream.TableOptions{Where: []stream.KeyValue{{Key: "day", Value: "2026-11-27"}}}, []string{"day=2026-11-27/e.parquet"}, without(idSet([2]int64{1000, 1060}), 1003, 1004, 1059), 6},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
@@ -391,8 +393,12 @@ func TestDeltaVersions(t *testing.T) {
 				t.Fatalf("tables = %+v, want the Delta table at %s", tables, root)
 			}
 			tb := tables[0]
-			if want := c.opt.Version; want >= 0 && tb.Version != want || want < 0 && tb.Version != 4 {
-				t.Errorf("version %d, asked %d (latest 4)", tb.Version, want)
+			want := int64(4) // the latest
+			if c.opt.Version != nil {
+				want = *c.opt.Version
+			}
+			if tb.Version != want {
+				t.Errorf("version %d, want %d", tb.Version, want)
 			}
 			var rels []string
 			for _, f := range files {
@@ -442,7 +448,7 @@ func TestDeltaCheckpointOnly(t *testing.T) {
 			t.Fatal(err)
 		}
 	}
-	files, tables, err := stream.DiscoverWith([]string{root}, stream.DiscoverOptions{Table: stream.TableOptions{Version: -1}})
+	files, tables, err := stream.DiscoverWith([]string{root}, stream.DiscoverOptions{Table: stream.TableOptions{}})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -452,11 +458,11 @@ func TestDeltaCheckpointOnly(t *testing.T) {
 	if got := readIDs(t, files); len(got) != 20 {
 		t.Errorf("read %d rows, want 20", len(got))
 	}
-	_, _, err = stream.DiscoverWith([]string{root}, stream.DiscoverOptions{Table: stream.TableOptions{Version: 0}})
+	_, _, err = stream.DiscoverWith([]string{root}, stream.DiscoverOptions{Table: stream.TableOptions{Version: ver(0)}})
 	if err == nil || !strings.Contains(err.Error(), "commit 0 is missing") {
 		t.Errorf("version 0 after clean-up: %v, want an error saying commit 0 is missing", err)
 	}
-	_, _, err = stream.DiscoverWith([]string{root}, stream.DiscoverOptions{Table: stream.TableOptions{Version: 9}})
+	_, _, err = stream.DiscoverWith([]string{root}, stream.DiscoverOptions{Table: stream.TableOptions{Version: ver(9)}})
 	if err == nil || !strings.Contains(err.Error(), "version 9 does not exist (latest is 2)") {
 		t.Errorf("version 9: %v", err)
 	}
@@ -465,7 +471,7 @@ func TestDeltaCheckpointOnly(t *testing.T) {
 	if err := os.Remove(filepath.Join(root, "_delta_log", fmt.Sprintf("%020d.checkpoint.%010d.%010d.parquet", 1, 2, 3))); err != nil {
 		t.Fatal(err)
 	}
-	if _, _, err = stream.DiscoverWith([]string{root}, stream.DiscoverOptions{Table: stream.TableOptions{Version: -1}}); err == nil {
+	if _, _, err = stream.DiscoverWith([]string{root}, stream.DiscoverOptions{Table: stream.TableOptions{}}); err == nil {
 		t.Error("a checkpoint with a missing part was used")
 	}
 }
@@ -490,7 +496,7 @@ func TestDeltaRefusesFeatures(t *testing.T) {
 			b := newDelta(t, root)
 			b.file("p.parquet", rowsFor(0, 10))
 			b.commit(c.protocol, metaAction(c.conf), addAction("p.parquet", "x", b.size["p.parquet"], nil))
-			_, _, err := stream.DiscoverWith([]string{root}, stream.DiscoverOptions{Table: stream.TableOptions{Version: -1}})
+			_, _, err := stream.DiscoverWith([]string{root}, stream.DiscoverOptions{Table: stream.TableOptions{}})
 			if err == nil || !strings.Contains(err.Error(), c.want) || strings.Contains(err.Error(), "\n") {
 				t.Fatalf("got %v, want one line containing %s", err, c.want)
 			}
@@ -500,7 +506,7 @@ func TestDeltaRefusesFeatures(t *testing.T) {
 				b2 := newDelta(t, root2)
 				b2.file("p.parquet", rowsFor(0, 10))
 				b2.commit(c.protocol, metaAction(map[string]string{"delta.columnMapping.mode": "none"}), addAction("p.parquet", "x", b2.size["p.parquet"], nil))
-				if _, _, err := stream.DiscoverWith([]string{root2}, stream.DiscoverOptions{Table: stream.TableOptions{Version: -1}}); err != nil {
+				if _, _, err := stream.DiscoverWith([]string{root2}, stream.DiscoverOptions{Table: stream.TableOptions{}}); err != nil {
 					t.Errorf("column mapping mode none: %v", err)
 				}
 			}
@@ -512,7 +518,7 @@ func TestDeltaRefusesFeatures(t *testing.T) {
 func TestDeltaAsFiles(t *testing.T) {
 	root := filepath.Join(t.TempDir(), "sales")
 	salesTable(t, root)
-	files, tables, err := stream.DiscoverWith([]string{root}, stream.DiscoverOptions{AsFiles: true, Table: stream.TableOptions{Version: -1}})
+	files, tables, err := stream.DiscoverWith([]string{root}, stream.DiscoverOptions{AsFiles: true, Table: stream.TableOptions{}})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -535,7 +541,7 @@ func TestDeletionVectorInlineExample(t *testing.T) {
 	dv := map[string]any{"storageType": "i", "pathOrInlineDv": "wi5b=000010000siXQKl0rr91000f55c8Xg0@@D72lkbi5=-{L",
 		"sizeInBytes": 40, "cardinality": 6}
 	b.commit(protocolAction(3, "deletionVectors"), metaAction(nil), addAction("p.parquet", "x", b.size["p.parquet"], dv))
-	files, _, err := stream.DiscoverWith([]string{root}, stream.DiscoverOptions{Table: stream.TableOptions{Version: -1}})
+	files, _, err := stream.DiscoverWith([]string{root}, stream.DiscoverOptions{Table: stream.TableOptions{}})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -557,7 +563,7 @@ func TestDeletionVectorInlineExample(t *testing.T) {
 	b2 := newDelta(t, root2)
 	b2.file("p.parquet", rowsFor(0, 40))
 	b2.commit(protocolAction(3, "deletionVectors"), metaAction(nil), addAction("p.parquet", "x", b2.size["p.parquet"], dv))
-	if _, _, err := stream.DiscoverWith([]string{root2}, stream.DiscoverOptions{Table: stream.TableOptions{Version: -1}}); err == nil || !strings.Contains(err.Error(), "descriptor says 5") {
+	if _, _, err := stream.DiscoverWith([]string{root2}, stream.DiscoverOptions{Table: stream.TableOptions{}}); err == nil || !strings.Contains(err.Error(), "descriptor says 5") {
 		t.Errorf("bad cardinality: %v", err)
 	}
 }

@@ -100,7 +100,7 @@ func TestIcebergSnapshots(t *testing.T) {
 	root := filepath.Join(t.TempDir(), "meters")
 	copyTree(t, filepath.Join("testdata", "iceberg", filepath.FromSlash(exp.Table)), root)
 	for i, s := range exp.Snapshots {
-		files, tables, err := stream.DiscoverWith([]string{root}, stream.DiscoverOptions{Table: stream.TableOptions{Version: -1, Snapshot: s.ID}})
+		files, tables, err := stream.DiscoverWith([]string{root}, stream.DiscoverOptions{Table: stream.TableOptions{Snapshot: s.ID}})
 		if s.EqDelete > 0 {
 			if err == nil || !strings.Contains(err.Error(), `"equality deletes"`) {
 				t.Errorf("snapshot %d with equality deletes: %v, want an error naming the feature", s.ID, err)
@@ -131,7 +131,7 @@ func TestIcebergSnapshots(t *testing.T) {
 		}
 	}
 	// The current snapshot is the last one, which has equality deletes: refused.
-	if _, _, err := stream.DiscoverWith([]string{root}, stream.DiscoverOptions{Table: stream.TableOptions{Version: -1}}); err == nil || !strings.Contains(err.Error(), "equality deletes") {
+	if _, _, err := stream.DiscoverWith([]string{root}, stream.DiscoverOptions{Table: stream.TableOptions{}}); err == nil || !strings.Contains(err.Error(), "equality deletes") {
 		t.Errorf("current snapshot: %v, want the equality deletes refused", err)
 	}
 	// A partition folder and a filter of the snapshot with position deletes.
@@ -143,7 +143,7 @@ func TestIcebergSnapshots(t *testing.T) {
 		{filepath.Join(root, "data", "day=2026-11-28"), nil},
 		{root, []stream.KeyValue{{Key: "day", Value: "2026-11-28"}}},
 	} {
-		files, tables, err := stream.DiscoverWith([]string{c.path}, stream.DiscoverOptions{Table: stream.TableOptions{Version: -1, Snapshot: pos.ID, Where: c.where}})
+		files, tables, err := stream.DiscoverWith([]string{c.path}, stream.DiscoverOptions{Table: stream.TableOptions{Snapshot: pos.ID, Where: c.where}})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -151,10 +151,10 @@ func TestIcebergSnapshots(t *testing.T) {
 			t.Errorf("%s %v: %d rows (%d deleted), want %d (15)", c.path, c.where, rows, tables[0].DeletedRows, pos.Rows)
 		}
 	}
-	if _, _, err := stream.DiscoverWith([]string{root}, stream.DiscoverOptions{Table: stream.TableOptions{Version: -1, Snapshot: 42}}); err == nil || !strings.Contains(err.Error(), "no snapshot 42") {
+	if _, _, err := stream.DiscoverWith([]string{root}, stream.DiscoverOptions{Table: stream.TableOptions{Snapshot: 42}}); err == nil || !strings.Contains(err.Error(), "no snapshot 42") {
 		t.Errorf("snapshot 42: %v", err)
 	}
-	if _, _, err := stream.DiscoverWith([]string{root}, stream.DiscoverOptions{Table: stream.TableOptions{Version: 3}}); err == nil || !strings.Contains(err.Error(), "--table-version is for Delta") {
+	if _, _, err := stream.DiscoverWith([]string{root}, stream.DiscoverOptions{Table: stream.TableOptions{Version: ver(3)}}); err == nil || !strings.Contains(err.Error(), "--table-version is for Delta") {
 		t.Errorf("--table-version on Iceberg: %v", err)
 	}
 }

@@ -48,7 +48,7 @@ func (Reader) Resolve(p string, opt stream.TableOptions) (*stream.Table, error) 
 			return nil, &stream.ReadError{File: root.p, Unit: -1, Row: -1, Err: err}
 		}
 	case "iceberg":
-		if opt.Version >= 0 {
+		if opt.Version != nil {
 			return nil, &stream.ReadError{File: p, Unit: -1, Row: -1, Err: errors.New("--table-version is for Delta tables; this is an Iceberg table (use --snapshot)")}
 		}
 		it, err := readIceberg(root, opt.Snapshot)
