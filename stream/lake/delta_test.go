@@ -272,3 +272,31 @@ func TestDeletionVectorInlineExample(t *testing.T) {
 		t.Errorf("bad cardinality: %v", err)
 	}
 }
+
+// TestDeltaV2Checkpoint reads a table whose early commits were cleaned up behind a UUID-named v2
+// checkpoint whose files are in a sidecar.
+func TestDeltaV2Checkpoint(t *testing.T) {
+	root := filepath.Join(t.TempDir(), "t")
+	b := laketest.NewDelta(t, root)
+	b.File("day=1/p1.parquet", laketest.Rows(0, 10))
+	b.File("day=2/p2.parquet", laketest.Rows(10, 30))
+	b.Commit(laketest.Protocol(3, "v2Checkpoint"), laketest.Meta(nil),
+		laketest.Add("day=1/p1.parquet", "1", b.Size["day=1/p1.parquet"], nil),
+		laketest.Add("day=2/p2.parquet", "2", b.Size["day=2/p2.parquet"], nil))
+	b.V2Checkpoint(map[string]string{"day=1/p1.parquet": "1", "day=2/p2.parquet": "2"})
+	b.File("day=2/p3.parquet", laketest.Rows(30, 35))
+	b.Commit(laketest.Remove("day=1/p1.parquet", true, nil), laketest.Add("day=2/p3.parquet", "2", b.Size["day=2/p3.parquet"], nil))
+	if err := os.Remove(filepath.Join(root, "_delta_log", fmt.Sprintf("%020d.json", 0))); err != nil {
+		t.Fatal(err)
+	}
+	files, tables, err := stream.DiscoverWith([]string{root}, stream.DiscoverOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if tables[0].Version != 1 || len(files) != 2 || files[0].Partition[0].Value != "2" {
+		t.Fatalf("version %d, files %+v; want version 1 with p2 and p3 in day 2", tables[0].Version, files)
+	}
+	if got := readIDs(t, files); len(got) != 25 {
+		t.Errorf("read %d rows, want 25", len(got))
+	}
+}

@@ -313,3 +313,39 @@ func SalesTable(t testing.TB, root string) *Delta {
 	WriteRows(t, filepath.Join(root, "day=2026-11-28", "zz-uncommitted.parquet"), Rows(5000, 5010))
 	return b
 }
+
+// V2Checkpoint writes a UUID-named v2 checkpoint of the current version in JSON whose file actions
+// (adds of the live files) are in one Parquet sidecar in _delta_log/_sidecars, as PROTOCOL.md's
+// "V2 Spec" example shows, with the v2Checkpoint reader feature in its protocol action.
+func (b *Delta) V2Checkpoint(live map[string]string) {
+	const id = "80a083e8-7026-4e79-81be-64bd76c43a11"
+	var rows []ckRow
+	for _, rel := range slices.Sorted(mapsKeys(live)) {
+		rows = append(rows, ckRow{Add: &ckAdd{Path: rel, PartitionValues: map[string]string{"day": live[rel]},
+			Size: b.Size[rel], ModificationTime: 1764288000000}})
+	}
+	var buf bytes.Buffer
+	w := parquet.NewGenericWriter[ckRow](&buf)
+	if _, err := w.Write(rows); err != nil {
+		b.t.Fatal(err)
+	}
+	if err := w.Close(); err != nil {
+		b.t.Fatal(err)
+	}
+	b.write("_sidecars/3a0d65cd-4056-49b8-937b-95f9e3ee90e5.parquet", buf.Bytes())
+	var js bytes.Buffer
+	for _, a := range []map[string]any{
+		{"checkpointMetadata": map[string]any{"version": b.version, "tags": map[string]any{}}},
+		Protocol(3, "v2Checkpoint"), Meta(nil),
+		{"sidecar": map[string]any{"path": "3a0d65cd-4056-49b8-937b-95f9e3ee90e5.parquet", "sizeInBytes": buf.Len(),
+			"modificationTime": 1764288000000, "tags": map[string]any{}}},
+	} {
+		line, err := json.Marshal(a)
+		if err != nil {
+			b.t.Fatal(err)
+		}
+		js.Write(line)
+		js.WriteByte('\n')
+	}
+	b.write(fmt.Sprintf("%020d.checkpoint.%s.json", b.version, id), js.Bytes())
+}
