@@ -300,3 +300,86 @@ func TestDeltaV2Checkpoint(t *testing.T) {
 		t.Errorf("read %d rows, want 25", len(got))
 	}
 }
+
+// TestDeltaBadLogs checks that broken logs and deletion vectors are one-line errors naming the
+// file, never a panic or a silent misread.
+func TestDeltaBadLogs(t *testing.T) {
+	good := func(t *testing.T) (string, *laketest.Delta) {
+		root := filepath.Join(t.TempDir(), "t")
+		b := laketest.NewDelta(t, root)
+		b.File("p.parquet", laketest.Rows(0, 40))
+		return root, b
+	}
+	for _, tc := range []struct {
+		name  string
+		build func(t *testing.T) string
+		want  string
+	}{
+		{"bad JSON line", func(t *testing.T) string {
+			root, b := good(t)
+			b.Commit(laketest.Protocol(1), laketest.Meta(nil), laketest.Add("p.parquet", "x", b.Size["p.parquet"], nil))
+			f := filepath.Join(root, "_delta_log", fmt.Sprintf("%020d.json", 0))
+			data, _ := os.ReadFile(f)
+			os.WriteFile(f, append(data, []byte("{\"add\": {\"path\": \n")...), 0o644)
+			return root
+		}, "00000000000000000000.json: line 5"},
+		{"garbage checkpoint", func(t *testing.T) string {
+			root, b := good(t)
+			b.Commit(laketest.Protocol(1), laketest.Meta(nil), laketest.Add("p.parquet", "x", b.Size["p.parquet"], nil))
+			os.WriteFile(filepath.Join(root, "_delta_log", fmt.Sprintf("%020d.checkpoint.parquet", 0)), []byte("PAR1 not really PAR1"), 0o644)
+			os.Remove(filepath.Join(root, "_delta_log", fmt.Sprintf("%020d.json", 0)))
+			return root
+		}, "checkpoint.parquet"},
+		{"missing commit", func(t *testing.T) string {
+			root, b := good(t)
+			b.Commit(laketest.Protocol(1), laketest.Meta(nil), laketest.Add("p.parquet", "x", b.Size["p.parquet"], nil))
+			b.Commit()
+			b.Commit()
+			os.Remove(filepath.Join(root, "_delta_log", fmt.Sprintf("%020d.json", 1)))
+			return root
+		}, "commit 1 is missing"},
+		{"no protocol", func(t *testing.T) string {
+			root, b := good(t)
+			b.Commit(laketest.Add("p.parquet", "x", b.Size["p.parquet"], nil))
+			return root
+		}, "no protocol or metaData action"},
+		{"random inline vector", func(t *testing.T) string {
+			root, b := good(t)
+			dv := map[string]any{"storageType": "i", "pathOrInlineDv": laketest.Z85Encode([]byte("\xd1\xd3\x39\x64\xff\xff\xff\xff\xff\xff\xff\x7f")), "sizeInBytes": 12, "cardinality": 1}
+			b.Commit(laketest.Protocol(3, "deletionVectors"), laketest.Meta(nil), laketest.Add("p.parquet", "x", b.Size["p.parquet"], dv))
+			return root
+		}, "deletion vector"},
+		{"vector file with a bad CRC", func(t *testing.T) string {
+			root, b := good(t)
+			dv := laketest.DVFile(t, root, "", [16]byte{1, 2, 3}, 1, 2)
+			name := fmt.Sprintf("deletion_vector_%x-%x-%x-%x-%x.bin", []byte{1, 2, 3, 0}, []byte{0, 0}, []byte{0, 0}, []byte{0, 0}, make([]byte, 6))
+			f := filepath.Join(root, name)
+			data, err := os.ReadFile(f)
+			if err != nil {
+				t.Fatal(err)
+			}
+			data[len(data)-1] ^= 1
+			os.WriteFile(f, data, 0o644)
+			b.Commit(laketest.Protocol(3, "deletionVectors"), laketest.Meta(nil), laketest.Add("p.parquet", "x", b.Size["p.parquet"], dv))
+			return root
+		}, "CRC-32"},
+		{"vector beyond the file", func(t *testing.T) string {
+			root, b := good(t)
+			data := laketest.DVBytes(t, 3, 40)
+			dv := map[string]any{"storageType": "i", "pathOrInlineDv": laketest.Z85Encode(data), "sizeInBytes": len(data), "cardinality": 2}
+			b.Commit(laketest.Protocol(3, "deletionVectors"), laketest.Meta(nil), laketest.Add("p.parquet", "x", b.Size["p.parquet"], dv))
+			return root
+		}, "deletes row 40 of a file with 40 rows"},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			root := tc.build(t)
+			files, _, err := stream.DiscoverWith([]string{root}, stream.DiscoverOptions{})
+			if err == nil {
+				_, err = stream.Open(files, stream.Options{})
+			}
+			if err == nil || !strings.Contains(err.Error(), tc.want) || strings.Contains(err.Error(), "\n") {
+				t.Errorf("got %v, want one line containing %q", err, tc.want)
+			}
+		})
+	}
+}
