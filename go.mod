@@ -3,9 +3,11 @@ module github.com/kgauge/kgauge
 go 1.26.8
 
 require (
+	github.com/RoaringBitmap/roaring/v2 v2.26.0
 	github.com/apache/arrow/go/v17 v17.0.0
 	github.com/apache/beam/sdks/v2 v2.77.0
 	github.com/google/flatbuffers v25.12.19+incompatible
+	github.com/hamba/avro/v2 v2.22.1
 	github.com/johannesboyne/gofakes3 v1.2.0
 	github.com/klauspost/compress v1.19.2
 	github.com/parquet-go/parquet-go v0.32.0
@@ -41,7 +43,6 @@ require (
 	github.com/GoogleCloudPlatform/opentelemetry-operations-go/internal/resourcemapping v0.61.0 // indirect
 	github.com/JohnCGriffin/overflow v0.0.0-20211019200055-46fa312c352c // indirect
 	github.com/Microsoft/go-winio v0.6.2 // indirect
-	github.com/RoaringBitmap/roaring/v2 v2.26.0 // indirect
 	github.com/ajstarks/svgo v0.0.0-20211024235047-1546f124cd8b // indirect
 	github.com/andybalholm/brotli v1.1.1 // indirect
 	github.com/apache/thrift v0.24.0 // indirect
@@ -91,7 +92,6 @@ require (
 	github.com/google/wire v0.7.0 // indirect
 	github.com/googleapis/enterprise-certificate-proxy v0.3.21 // indirect
 	github.com/googleapis/gax-go/v2 v2.24.1 // indirect
-	github.com/hamba/avro/v2 v2.22.1 // indirect
 	github.com/json-iterator/go v1.1.12 // indirect
 	github.com/klauspost/asmfmt v1.3.2 // indirect
 	github.com/klauspost/cpuid/v2 v2.4.0 // indirect
