@@ -7,6 +7,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"strings"
 	"testing"
 
 	"github.com/kgauge/kgauge"
@@ -164,5 +165,25 @@ func checkMeans(t *testing.T, name string, r *kgauge.Result, n, sx, sy float64) 
 		if got := r.Scaling.Center[j]; math.Abs(got-want) > 1e-9*max(1, math.Abs(want)) {
 			t.Errorf("%s: mean of column %d is %v, the live rows' is %v", name, j, got, want)
 		}
+	}
+}
+
+// TestPlanUnitsTables checks that a distributed plan reads a table's live files, and refuses a
+// table whose deletes drop rows, since its work items travel without File.Deleted.
+func TestPlanUnitsTables(t *testing.T) {
+	ctx := context.Background()
+	root := filepath.Join(t.TempDir(), "sales")
+	laketest.SalesTable(t, root)
+	if _, err := kgauge.PlanUnits(ctx, []string{root}, lakeOptions()); err == nil || !strings.Contains(err.Error(), "do not carry row deletes") {
+		t.Errorf("plan over a table with deletion vectors: %v, want a refusal", err)
+	}
+	o := lakeOptions()
+	o.Tables.Table.Version = ver(3)
+	p, err := kgauge.PlanUnits(ctx, []string{root}, o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(p.Files) != 2 || len(p.Input.Tables) != 1 || *p.Input.Tables[0].Version != 3 {
+		t.Errorf("plan of version 3: %d files, tables %+v; want 2 live files of version 3", len(p.Files), p.Input.Tables)
 	}
 }
