@@ -26,6 +26,40 @@ type Input struct {
 	Bytes   int64           `json:"bytes"`
 	// Skipped are the data files left out as unreadable (Options.SkipUnreadable).
 	Skipped []SkippedFile `json:"skipped_files,omitempty"`
+	Tables  []TableInfo   `json:"tables,omitempty"` // the lake tables read through their metadata
+}
+
+// TableInfo is one Delta Lake or Apache Iceberg table (or a partition folder of one) among the
+// inputs.
+type TableInfo struct {
+	Format string `json:"format"` // "delta" or "iceberg"
+	Root   string `json:"root"`
+	Path   string `json:"path"` // the folder named: the root or a partition folder inside it
+	// Version is the Delta table version read; Snapshot the Iceberg snapshot id.
+	Version  *int64 `json:"version,omitempty"`
+	Snapshot *int64 `json:"snapshot,omitempty"`
+	// LiveFiles are the data files of that state (after --where) read; PresentFiles the Parquet
+	// data files stored below Path, removed ones included.
+	LiveFiles    int    `json:"live_files"`
+	PresentFiles int    `json:"present_files"`
+	DeletedRows  int64  `json:"deleted_rows"` // rows of the live files its deletion vectors or delete files drop
+	Where        string `json:"where,omitempty"`
+}
+
+func describeTables(tables []*stream.Table, where []stream.KeyValue) []TableInfo {
+	var out []TableInfo
+	for _, t := range tables {
+		ti := TableInfo{Format: t.Format, Root: t.Root, Path: t.Path, LiveFiles: t.Live,
+			PresentFiles: t.Present, DeletedRows: t.DeletedRows, Where: stream.WhereString(where)}
+		v := t.Version
+		if t.Format == "iceberg" {
+			ti.Snapshot = &v
+		} else {
+			ti.Version = &v
+		}
+		out = append(out, ti)
+	}
+	return out
 }
 
 // FileInfo is one input file.
@@ -75,7 +109,7 @@ func build(ctx context.Context, paths []string, opt Options, avoid map[string]st
 	opt = opt.withDefaults()
 	start := time.Now()
 	opt.Progress.stage("open")
-	files, skipped, err := discoverFiles(paths, opt)
+	files, skipped, tables, err := discoverFiles(paths, opt)
 	if err != nil {
 		return nil, nil, tm, err
 	}
@@ -96,6 +130,7 @@ func build(ctx context.Context, paths []string, opt Options, avoid map[string]st
 	if opt, err = opt.capToInput(ds); err != nil {
 		return nil, nil, tm, err
 	}
+	in.Tables = describeTables(tables, opt.Tables.Table.Where)
 	if opt, err = opt.fitMemory(ds.Dims()); err != nil {
 		return nil, nil, tm, err
 	}

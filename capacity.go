@@ -58,7 +58,7 @@ func PlanCapacity(ctx context.Context, paths []string, opt Options, probe bool) 
 		return nil, err
 	}
 	opt = opt.withDefaults()
-	files, _, err := discoverFiles(paths, opt)
+	files, _, _, err := discoverFiles(paths, opt)
 	if err != nil {
 		return nil, err
 	}
@@ -109,7 +109,7 @@ func PlanWorkload(paths []string, opt Options) (model.Workload, error) {
 	if len(data) == 0 {
 		return model.Workload{}, errors.New("plan: only saved sketches given; nothing to read")
 	}
-	files, _, err := discoverFiles(data, opt)
+	files, _, _, err := discoverFiles(data, opt)
 	if err != nil {
 		return model.Workload{}, err
 	}

@@ -50,6 +50,7 @@ type Result struct {
 	Columns      []string           `json:"columns"`
 	Ignored      []IgnoredColumn    `json:"ignored_columns"`
 	Files        []FileInfo         `json:"files"`
+	Tables       []TableInfo        `json:"tables,omitempty"` // Delta Lake and Iceberg tables read as tables
 	Sketches     []string           `json:"sketches,omitempty"`
 	// SkippedFiles are data files left out because they cannot be read (--skip-unreadable).
 	SkippedFiles []SkippedFile `json:"skipped_files,omitempty"`
@@ -211,6 +212,7 @@ func Estimate(ctx context.Context, inputs []string, opt Options) (*Result, *sket
 		r.Files = in.Files
 		r.Ignored = in.Ignored
 		r.SkippedFiles = in.Skipped
+		r.Tables = in.Tables
 	}
 	if r.Files == nil {
 		r.Files = []FileInfo{}

@@ -38,10 +38,12 @@ func (e *SameDataError) Unwrap() error { return ErrSameData }
 // discoverFiles finds the data files named by paths. With opt.SkipUnreadable the files that cannot
 // be read, found while discovering or while reading their footers, are left out and returned as
 // skipped; without it the first is an error naming it.
-func discoverFiles(paths []string, opt Options) ([]stream.File, []SkippedFile, error) {
-	d, err := stream.DiscoverWith(paths, stream.DiscoverOptions{SkipUnreadable: opt.SkipUnreadable})
+func discoverFiles(paths []string, opt Options) ([]stream.File, []SkippedFile, []*stream.Table, error) {
+	dopt := opt.Tables
+	dopt.SkipUnreadable = opt.SkipUnreadable
+	d, err := stream.DiscoverWith(paths, dopt)
 	if err != nil {
-		return nil, nil, err
+		return nil, nil, nil, err
 	}
 	files := d.Files
 	var skipped []SkippedFile
@@ -57,10 +59,10 @@ func discoverFiles(paths []string, opt Options) ([]stream.File, []SkippedFile, e
 		slices.SortFunc(skipped, func(a, b SkippedFile) int { return strings.Compare(a.Path, b.Path) })
 	}
 	if len(files) == 0 && len(skipped) > 0 {
-		return nil, skipped, &InputError{Path: skipped[0].Path, Err: fmt.Errorf("%w left: all %d data file(s) were skipped as unreadable, this one for: %s",
+		return nil, skipped, nil, &InputError{Path: skipped[0].Path, Err: fmt.Errorf("%w left: all %d data file(s) were skipped as unreadable, this one for: %s",
 			stream.ErrNoDataFiles, len(skipped), skipped[0].Reason)}
 	}
-	return files, skipped, nil
+	return files, skipped, d.Tables, nil
 }
 
 // contentIDs returns the content identity of every file (stream.ContentID), in order, and fails

@@ -6,6 +6,7 @@ import (
 
 	"github.com/kgauge/kgauge/criteria"
 	"github.com/kgauge/kgauge/sketch"
+	"github.com/kgauge/kgauge/stream"
 )
 
 // Scale says how features are put on a common footing before distances are taken.
@@ -53,6 +54,9 @@ type Options struct {
 	// truncated or damaged file or footer) and lists them in the result, instead of failing.
 	SkipUnreadable bool
 	Progress       *Progress // optional; updated as rows are read
+	// Tables says how Delta Lake and Apache Iceberg tables among the inputs are read: their
+	// latest state by default, a version or snapshot, files only, a partition filter.
+	Tables stream.DiscoverOptions
 }
 
 // DefaultOptions returns the options used for zero fields.

@@ -33,6 +33,12 @@ func Partitions(root string) (parts []Partition, outside []string, err error) {
 	if err != nil {
 		return nil, nil, fmt.Errorf("ledger: %w", err)
 	}
+	for _, f := range d.Files {
+		// A partition is profiled by its file paths, which would lose a lake table's row deletes.
+		if f.Deleted != nil {
+			return nil, nil, fmt.Errorf("ledger: %s: a lake table whose deletion vectors or delete files drop rows (%s); track does not apply row deletes yet", root, f.Path)
+		}
+	}
 	byDir := map[string]*Partition{}
 	place := func(path string) (*Partition, error) {
 		dir := filepath.Dir(path)

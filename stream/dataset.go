@@ -44,7 +44,7 @@ type Dataset struct {
 	Types   []string        // their type names (as in the first file), parallel to Columns
 	Ignored []IgnoredColumn // every column not used, with why
 	Units   []Unit          // in file order
-	Rows    int64           // total rows from metadata over units with known Rows
+	Rows    int64           // total rows from metadata over units with known Rows, less deleted rows
 	Bytes   int64           // total of Units[i].Bytes
 
 	files []openFile
@@ -195,8 +195,17 @@ func (d *Dataset) openFile(i int, f File) (cols []colInfo, err error) {
 	d.Files[i].Size = size
 	switch f.Format {
 	case Parquet:
-		return d.openParquet(i, fh, size)
+		cols, err := d.openParquet(i, fh, size)
+		if err == nil && f.Deleted != nil && !f.Deleted.IsEmpty() {
+			if n := d.files[i].pq.NumRows(); int64(f.Deleted.Maximum()) >= n {
+				return nil, newError(f.Path, "", corruptf("the table deletes row %d of a file with %d rows", f.Deleted.Maximum(), n))
+			}
+		}
+		return cols, err
 	case ArrowFile, ArrowStream:
+		if f.Deleted != nil {
+			return nil, newError(f.Path, "", errors.New("row deletes apply to Parquet files only"))
+		}
 		return d.openArrow(i, fh, f.Format)
 	}
 	return nil, newError(f.Path, "", fmt.Errorf("unknown format %d", f.Format))
@@ -208,7 +217,8 @@ func (d *Dataset) listUnits() {
 		switch f.Format {
 		case Parquet:
 			for g, rg := range of.pq.RowGroups() {
-				u := Unit{File: i, Index: g, Rows: rg.NumRows()}
+				base := of.rowBase[g]
+				u := Unit{File: i, Index: g, Rows: rg.NumRows() - deletedIn(f.Deleted, base, base+rg.NumRows())}
 				for _, c := range of.pqCols {
 					u.Bytes += columnChunkBytes(of.pq, g, c.leaf)
 				}

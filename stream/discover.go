@@ -12,6 +12,8 @@ import (
 	"path/filepath"
 	"sort"
 	"strings"
+
+	"github.com/RoaringBitmap/roaring/v2/roaring64"
 )
 
 // KeyValue is one hive-style path segment key=value, such as year=2024.
@@ -29,6 +31,9 @@ type File struct {
 
 	key    string // the file's identity: device and inode, or the object's key and ETag
 	viaSym bool   // the path reached the file through a symbolic link
+	// Deleted holds the rows (0-based, in file order) a lake table's deletion vector or position
+	// delete files drop; nil when none. Only Parquet files may have them.
+	Deleted *roaring64.Bitmap
 }
 
 // errNotData is the cause when a file named explicitly is no supported format.
@@ -50,6 +55,10 @@ type DiscoverOptions struct {
 	// SkipUnreadable lists data files that cannot be read in [Discovery].Skipped instead of
 	// failing. A missing path, a directory or glob with no data file and a bad glob stay errors.
 	SkipUnreadable bool
+	// AsFiles reads a table's folder as plain files (every data file found, removed ones included),
+	// as Discover did before it knew tables.
+	AsFiles bool
+	Table   TableOptions
 }
 
 // Skipped is a data file left out because it cannot be read, with the reason (one line).
@@ -63,6 +72,7 @@ type Skipped struct {
 type Discovery struct {
 	Files   []File    // sorted by path, each file once
 	Skipped []Skipped // sorted by path; empty unless SkipUnreadable
+	Tables  []*Table  // the lake tables read through their metadata, in the order named
 }
 
 // Discover expands files, directories (recursive) and glob patterns into data
@@ -95,12 +105,21 @@ func Discover(patterns []string) ([]File, error) {
 // with SkipUnreadable is listed in Skipped. A missing path is an error naming
 // it; a directory or glob with no data files is an error naming it that wraps
 // ErrNoDataFiles. All errors are *ReadError.
+//
+// A path (not a glob) that is a Delta Lake or Apache Iceberg table, or a folder inside one, yields
+// the table's live data files (see [Tables]) unless opt.AsFiles is set; the tables read are in
+// Discovery.Tables, in the order named. opt.Table.Where prunes files by partition, tables and hive
+// folders alike.
 func DiscoverWith(patterns []string, opt DiscoverOptions) (*Discovery, error) {
 	d := discoverer{opt: opt}
 	for _, p := range patterns {
 		before := d.found
-		var err error
+		isTable, err := d.table(p)
 		switch {
+		case err != nil:
+			return nil, err
+		case isTable:
+			continue
 		case isRemote(p):
 			err = d.remote(p)
 		case strings.ContainsAny(p, "*?[") && !exists(p):
@@ -115,7 +134,19 @@ func DiscoverWith(patterns []string, opt DiscoverOptions) (*Discovery, error) {
 			return nil, newError(p, "", ErrNoDataFiles)
 		}
 	}
-	return &Discovery{Files: dedupe(d.files), Skipped: dedupeSkipped(d.skipped)}, nil
+	if w := opt.Table.Where; len(w) > 0 {
+		kept := d.files[:0]
+		for _, f := range d.files {
+			if MatchWhere(f.Partition, w) {
+				kept = append(kept, f)
+			}
+		}
+		d.files = kept
+	}
+	if len(d.files) == 0 && len(d.skipped) == 0 {
+		return nil, newError(strings.Join(patterns, " "), "", noLive(opt.Table.Where))
+	}
+	return &Discovery{Files: dedupe(d.files), Skipped: dedupeSkipped(d.skipped), Tables: d.tables}, nil
 }
 
 // dedupe sorts files by path and keeps one file per identity: the first whose path is not a
@@ -151,6 +182,7 @@ func dedupeSkipped(s []Skipped) []Skipped {
 
 type discoverer struct {
 	opt     DiscoverOptions
+	tables  []*Table
 	files   []File
 	skipped []Skipped
 	found   int // files matched so far, duplicates and skipped files included

@@ -37,9 +37,10 @@ type UnitReader struct {
 	d        int
 	src      source
 	fh       Handle
-	rowBase  int64 // first row of the unit in the file (Parquet), or 0
-	batchRow bool  // rows count from the start of the record batch
-	row      int64 // rows consumed so far, skipped ones included
+	rowBase  int64       // first row of the unit in the file (Parquet), or 0
+	del      *rowDeletes // rows a lake table deleted, nil when none
+	batchRow bool        // rows count from the start of the record batch
+	row      int64       // rows consumed so far, skipped ones included
 	skipped  int64
 	nulls    []int64 // per column, nulls and NaNs among the skipped rows
 	bad      []uint8
@@ -74,6 +75,7 @@ func (d *Dataset) OpenUnit(u Unit) (r *UnitReader, err error) {
 		r.src, err = d.openParquetUnit(of, u, fh)
 		if err == nil {
 			r.rowBase = of.rowBase[u.Index]
+			r.del = newRowDeletes(f.Deleted, r.rowBase)
 		}
 	case ArrowFile:
 		r.batchRow = true
@@ -135,8 +137,15 @@ func (r *UnitReader) Read(dst []float64) (n int, err error) {
 		if r.nulls == nil {
 			r.nulls = make([]int64, r.d)
 		}
+		del := r.del.mark(r.rowBase+r.row, bad[:m], func(i int) {
+			for j, v := range dst[i*r.d : (i+1)*r.d] {
+				if v != v { // compact counts it as a null again
+					r.nulls[j]--
+				}
+			}
+		})
 		n = compact(dst[:m*r.d], bad[:m], r.d, r.nulls)
-		r.skipped += int64(m - n)
+		r.skipped += int64(m - n - del)
 		r.row += int64(m)
 		if n > 0 {
 			return n, nil
@@ -188,8 +197,15 @@ func (r *UnitReader) ReadColumns(max int) (cols [][]float64, err error) {
 			r.err = io.EOF
 			return nil, io.EOF
 		}
+		del := r.del.mark(r.rowBase+r.row, bad[:m], func(i int) {
+			for c, col := range r.cols {
+				if col[i] != col[i] { // compactColumns counts it as a null again
+					r.nulls[c]--
+				}
+			}
+		})
 		n := compactColumns(r.cols, r.scratch, bad[:m], r.nulls)
-		r.skipped += int64(m - n)
+		r.skipped += int64(m - n - del)
 		r.row += int64(m)
 		if n > 0 {
 			return r.cols, nil
@@ -213,7 +229,8 @@ func (r *UnitReader) wrap(err error) error {
 	return re
 }
 
-// Skipped returns how many rows were left out so far because of a null or NaN.
+// Skipped returns how many rows were left out so far because of a null or NaN. Rows a lake table
+// deleted (File.Deleted) are left out without being counted.
 func (r *UnitReader) Skipped() int64 { return r.skipped }
 
 // SkippedByColumn returns, per selected column, how many of the skipped rows had a null or NaN

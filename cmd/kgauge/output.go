@@ -46,6 +46,26 @@ var tableColumns = []tableColumn{
 	{"davies-b.", "davies_bouldin", func(s criteria.Scores) string { return fixed(s.DaviesBouldin, 3) }},
 }
 
+// tableLine says which state of a lake table was read, such as
+// "delta table lake/sales version 4: 2 of 6 stored data files live, 14 rows deleted".
+func tableLine(t kgauge.TableInfo) string {
+	state := ""
+	switch {
+	case t.Version != nil:
+		state = fmt.Sprintf("version %d", *t.Version)
+	case t.Snapshot != nil:
+		state = fmt.Sprintf("snapshot %d", *t.Snapshot)
+	}
+	s := fmt.Sprintf("%s table %s %s: %d of %d stored data files live", t.Format, t.Path, state, t.LiveFiles, t.PresentFiles)
+	if t.DeletedRows > 0 {
+		s += fmt.Sprintf(", %d rows deleted", t.DeletedRows)
+	}
+	if t.Where != "" {
+		s += ", where " + t.Where
+	}
+	return s + "\n"
+}
+
 func writeTable(w io.Writer, res *kgauge.Result) error {
 	var b strings.Builder
 	fmt.Fprintf(&b, "rows %d (skipped %d, probe %d) · %d columns · %d file(s)", res.Rows, res.SkippedRows,
@@ -54,6 +74,9 @@ func writeTable(w io.Writer, res *kgauge.Result) error {
 		fmt.Fprintf(&b, " · %d sketch(es)", len(res.Sketches))
 	}
 	fmt.Fprintf(&b, " · scale %s · seed %d\n", res.Scaling.Method, res.Seed)
+	for _, t := range res.Tables {
+		b.WriteString(tableLine(t))
+	}
 	if len(res.Ignored) > 0 {
 		names := make([]string, len(res.Ignored))
 		for i, c := range res.Ignored {

@@ -6,9 +6,11 @@ package cliflags
 import (
 	"flag"
 	"fmt"
+	"strconv"
 	"strings"
 
 	"github.com/kgauge/kgauge"
+	"github.com/kgauge/kgauge/stream"
 )
 
 // The range of --memory.
@@ -33,6 +35,22 @@ type Data struct {
 	columns string
 	scale   string
 	memory  string
+
+	// Lake tables (README "Lake tables"): how a Delta Lake or Apache Iceberg table is read.
+	asFiles      bool
+	tableVersion string
+	snapshot     string
+	where        whereFlag
+}
+
+// whereFlag collects repeated --where KEY=VALUE filters.
+type whereFlag []string
+
+func (w *whereFlag) String() string { return strings.Join(*w, ",") }
+
+func (w *whereFlag) Set(s string) error {
+	*w = append(*w, s)
+	return nil
 }
 
 // Register binds the flags into d, with the library's defaults.
@@ -55,6 +73,41 @@ func (d *Data) Register(fs *flag.FlagSet) {
 	fs.IntVar(&o.ProbeRows, "probe-rows", o.ProbeRows, "rows read before the pass to fix the scale")
 	fs.IntVar(&o.BatchRows, "batch-rows", o.BatchRows, "rows per read batch")
 	fs.StringVar(&d.memory, "memory", "", "memory limit such as 512MiB or 2GiB: sizes shrink to fit the estimate (default: no limit)")
+	fs.BoolVar(&d.asFiles, "as-files", false, "read a Delta Lake or Iceberg table's folder as plain files, removed ones included")
+	fs.StringVar(&d.tableVersion, "table-version", "", "Delta Lake table version to read (default: the latest)")
+	fs.StringVar(&d.snapshot, "snapshot", "", "Apache Iceberg snapshot id to read (default: the current snapshot)")
+	fs.Var(&d.where, "where", "KEY=VALUE: read only files whose partition has that value (tables: from their log or manifests; folders: KEY=VALUE segments); repeat for more keys")
+}
+
+// tables checks and returns the lake table flags.
+func (d *Data) tables() (stream.DiscoverOptions, error) {
+	t := stream.DiscoverOptions{AsFiles: d.asFiles}
+	if d.tableVersion != "" {
+		v, err := strconv.ParseInt(d.tableVersion, 10, 64)
+		if err != nil || v < 0 {
+			return t, usagef("--table-version must be a Delta table version (0, 1, ...), got %q", d.tableVersion)
+		}
+		t.Table.Version = &v
+	}
+	if d.snapshot != "" {
+		v, err := strconv.ParseInt(d.snapshot, 10, 64)
+		if err != nil || v == 0 {
+			return t, usagef("--snapshot must be an Iceberg snapshot id (a non-zero integer), got %q", d.snapshot)
+		}
+		t.Table.Snapshot = v
+	}
+	if d.tableVersion != "" && d.snapshot != "" {
+		return t, usagef("--table-version (Delta) and --snapshot (Iceberg) cannot be given together")
+	}
+	if d.asFiles && (d.tableVersion != "" || d.snapshot != "") {
+		return t, usagef("--as-files reads plain files; it cannot be given with --table-version or --snapshot")
+	}
+	w, err := stream.ParseWhere(d.where)
+	if err != nil {
+		return t, usagef("--where: %v", err)
+	}
+	t.Table.Where = w
+	return t, nil
 }
 
 // Options returns the bound options after checking the values; a bad one is a *UsageError
@@ -101,6 +154,9 @@ func (d *Data) Options() (kgauge.Options, error) {
 		if len(o.Columns) == 0 {
 			return o, usagef("--columns: no column named")
 		}
+	}
+	if o.Tables, err = d.tables(); err != nil {
+		return o, err
 	}
 	if err := o.Validate(); err != nil {
 		return o, usagef("%s", flagNames(err))
