@@ -99,6 +99,7 @@ func loadSketches(paths []string) ([]loadedSketch, map[string]string, error) {
 	byFile := map[string]bool{}
 	bySet := map[string]bool{}
 	owner := map[string]string{}
+	ownerByCols := map[string]string{}
 	for _, p := range paths {
 		if k, ok := stream.FileKey(p); ok {
 			if byFile[k] {
@@ -114,19 +115,25 @@ func loadSketches(paths []string) ([]loadedSketch, map[string]string, error) {
 		slices.Sort(ids)
 		ids = slices.Compact(ids)
 		if len(ids) > 0 {
-			set := strings.Join(ids, "\n")
+			// Sketches of other columns of the same files are not copies and do not overlap:
+			// merging them fails with what differs.
+			cols := strings.Join(sk.Columns(), "\x1f") + "\x1e"
+			set := cols + strings.Join(ids, "\n")
 			if bySet[set] {
 				continue // a copy of a sketch already taken
 			}
 			for _, id := range ids {
-				if q, ok := owner[id]; ok {
+				if q, ok := ownerByCols[cols+id]; ok {
 					return nil, nil, &SameDataError{Input: q, Other: p,
 						Detail: "the two sketches were built from overlapping data files; merge sketches of disjoint data"}
 				}
 			}
 			bySet[set] = true
 			for _, id := range ids {
-				owner[id] = p
+				ownerByCols[cols+id] = p
+				if _, ok := owner[id]; !ok {
+					owner[id] = p
+				}
 			}
 		}
 		out = append(out, loadedSketch{path: p, sk: sk})

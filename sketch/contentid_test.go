@@ -5,6 +5,8 @@ import (
 	"encoding/binary"
 	"hash/crc32"
 	"math/rand/v2"
+	"os"
+	"path/filepath"
 	"slices"
 	"testing"
 )
@@ -38,30 +40,17 @@ func TestContentIDs(t *testing.T) {
 		t.Errorf("merged ids %v, want %v", got.Meta.ContentIDs, want)
 	}
 
-	// Version 1: the same body without the ids (an empty list is its 4-byte count), version 1,
-	// the checksum recomputed.
-	a.Meta.ContentIDs = nil
 	buf.Reset()
 	if err := a.Encode(&buf); err != nil {
 		t.Fatal(err)
 	}
 	v2 := buf.Bytes()
-	v1 := slices.Clone(v2[:len(v2)-8])
-	binary.LittleEndian.PutUint32(v1[8:], 1)
-	v1 = binary.LittleEndian.AppendUint32(v1, crc32.Checksum(v1, castagnoli))
-	old, err := Decode(bytes.NewReader(v1))
-	if err != nil {
-		t.Fatalf("version 1 file: %v", err)
-	}
-	if len(old.Meta.ContentIDs) != 0 || old.Rows() != a.Rows() {
-		t.Errorf("version 1: ids %v, rows %d (want none, %d)", old.Meta.ContentIDs, old.Rows(), a.Rows())
-	}
-	// A version-1 file with the ids appended has trailing bytes.
+	// A version-2 body relabelled version 1 does not decode: version 1 has no units and no ids.
 	bad := slices.Clone(v2[:len(v2)-4])
 	binary.LittleEndian.PutUint32(bad[8:], 1)
 	bad = binary.LittleEndian.AppendUint32(bad, crc32.Checksum(bad, castagnoli))
 	if _, err := Decode(bytes.NewReader(bad)); err == nil {
-		t.Error("a version-1 file with trailing ids decoded")
+		t.Error("a version-2 body relabelled version 1 decoded")
 	}
 	// Versions beyond this reader are refused.
 	future := slices.Clone(v2[:len(v2)-4])
@@ -69,5 +58,27 @@ func TestContentIDs(t *testing.T) {
 	future = binary.LittleEndian.AppendUint32(future, crc32.Checksum(future, castagnoli))
 	if _, err := Decode(bytes.NewReader(future)); err == nil {
 		t.Error("version 3 decoded")
+	}
+}
+
+// TestDecodeVersion1File: a sketch file written by kgauge before format version 2 (no moment
+// units, no content identities; testdata/compat/README.md says how it was made) still decodes,
+// with the counts its estimate reported.
+func TestDecodeVersion1File(t *testing.T) {
+	f, err := os.Open(filepath.Join("testdata", "compat", "v1-loads.kgs"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	s, err := Decode(f)
+	if err != nil {
+		t.Fatalf("version 1 file: %v", err)
+	}
+	if s.Rows() != 2976 || s.Meta.SkippedRows != 24 || s.Dims() != 24 || len(s.Meta.ContentIDs) != 0 {
+		t.Errorf("version 1 file: rows %d, skipped %d, dims %d, ids %v; want 2976, 24, 24, none",
+			s.Rows(), s.Meta.SkippedRows, s.Dims(), s.Meta.ContentIDs)
+	}
+	if err := s.Check(); err != nil {
+		t.Errorf("version 1 file fails validation: %v", err)
 	}
 }

@@ -21,7 +21,7 @@ func TestBadInvocations(t *testing.T) {
 	}{
 		{"no path", nil, exitUsage, "no PATH"},
 		{"max-k zero", []string{"--max-k", "0", "x"}, exitUsage, "--max-k"},
-		{"bad scale", []string{"--scale", "log", "x"}, exitUsage, "--scale"},
+		{"bad scale", []string{"--scale", "cubic", "x"}, exitUsage, "--scale"},
 		{"bad memory", []string{"--memory", "lots", "x"}, exitUsage, "--memory"},
 		{"empty columns", []string{"--columns", " , ", "x"}, exitUsage, "--columns"},
 		{"missing input", []string{missing}, exitInput, missing},

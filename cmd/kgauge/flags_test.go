@@ -15,13 +15,13 @@ import (
 // type names (int, uint, float, duration).
 func numericFlags(t *testing.T, command string) map[string]string {
 	t.Helper()
-	code, _, help := run(t, command, "-h")
+	code, help, _ := run(t, command, "-h")
 	if code != ExitOK {
 		t.Fatalf("%s -h: exit %d", command, code)
 	}
 	flags := map[string]string{}
-	for _, m := range regexp.MustCompile(`(?m)^  -([a-z0-9-]+) (int|uint|float|duration)$`).FindAllStringSubmatch(help, -1) {
-		flags[m[1]] = m[2]
+	for _, m := range regexp.MustCompile(`(?m)^  --([a-z0-9-]+) (INT|UINT|FLOAT|DURATION)$`).FindAllStringSubmatch(help, -1) {
+		flags[m[1]] = strings.ToLower(m[2])
 	}
 	if len(flags) == 0 {
 		t.Fatalf("%s -h lists no numeric flag:\n%s", command, help)

@@ -20,7 +20,7 @@ func TestOptions(t *testing.T) {
 		{[]string{"--memory", "NaN"}, "--memory"},
 		{[]string{"--restarts", "1000000"}, "--restarts must be 1 to 100"},
 		{[]string{"--gap-refs", "-2"}, "--gap-refs"},
-		{[]string{"--scale", "log"}, "--scale"},
+		{[]string{"--scale", "cubic"}, "--scale"},
 		{[]string{"--memory", "lots"}, "--memory"},
 		{[]string{"--columns", " , "}, "--columns"},
 		{[]string{"--min-k", "5", "--max-k", "3"}, "--max-k"},
