@@ -132,18 +132,7 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 
 	// Stage 1: the k-means fit of every k on the coreset (fitPath: restarts per k in parallel,
 	// then the sweeps from the neighbouring k).
-	fits := fitPath(core, opt.MinK, opt.MaxK, pathOptions{
-		Restarts: opt.Restarts,
-		Init: func(k int) [][]float64 {
-			if c, ok := s.Seeds[k]; ok && len(c) == k*s.D {
-				return [][]float64{c}
-			}
-			return nil
-		},
-		Rand:    func(k int) *rand.Rand { return rngFor(opt.Seed, k, streamFit) },
-		Workers: workers,
-		Stop:    stop,
-	})
+	fits := mainFits(s, opt, workers, stop)
 	if err := ctx.Err(); err != nil {
 		return nil, fmt.Errorf("criteria: evaluate: %w", err)
 	}
@@ -214,6 +203,24 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 	res.Votes = votes(res.PerK, best, opt)
 	res.Verdict = verdict(res.Votes, opt)
 	return res, nil
+}
+
+// mainFits returns Evaluate's k-means fit of every k on the coreset (opt with defaults applied):
+// fitPath with opt.Restarts k-means++ seedings plus the Summary's seed centres for k.
+func mainFits(s Summary, opt Options, workers int, stop func() bool) []kmeans.Result {
+	return fitPath(s.Coreset, opt.MinK, opt.MaxK, pathOptions{
+		Restarts: opt.Restarts,
+		Cheap:    cheapWork,
+		Init: func(k int) [][]float64 {
+			if c, ok := s.Seeds[k]; ok && len(c) == k*s.D {
+				return [][]float64{c}
+			}
+			return nil
+		},
+		Rand:    func(k int) *rand.Rand { return rngFor(opt.Seed, k, streamFit) },
+		Workers: workers,
+		Stop:    stop,
+	})
 }
 
 // refLogW returns mean_b ln W*_kb and s_k (see GapStat) from the reference costs w[b][i] at

@@ -1,8 +1,10 @@
 package criteria
 
 import (
+	"cmp"
 	"math"
 	"math/rand/v2"
+	"slices"
 	"sync"
 
 	"github.com/kgauge/kgauge/internal/kmeans"
@@ -11,6 +13,7 @@ import (
 // pathOptions controls fitPath.
 type pathOptions struct {
 	Restarts int                     // k-means++ seedings per k (at least one when init gives none)
+	Cheap    float64                 // more seedings where cheap (restartsFor); 0: opt.Restarts only
 	Lloyd    kmeans.LloydOptions     // Lloyd settings of every fit
 	Init     func(k int) [][]float64 // extra initial centres per k (may be nil)
 	Rand     func(k int) *rand.Rand  // random stream per k
@@ -18,15 +21,42 @@ type pathOptions struct {
 	Stop     func() bool             // reports cancellation (may be nil)
 }
 
+// Sweep settings of fitPath: starts tried per k and direction, and the most rounds of both
+// sweeps (a round that improves no k ends them).
+const (
+	sweepTries  = 3
+	sweepRounds = 2
+)
+
+// cheapWork is the point x centre x dimension count of one Lloyd iteration below which fitPath
+// adds k-means++ restarts (Evaluate's main and gap paths): restarts = cheapWork / (n k D), at
+// least the requested number and at most maxRestarts.
+const (
+	cheapWork   = 2e6
+	maxRestarts = 10
+)
+
+// restartsFor returns the k-means++ seedings of fitPath at k (see cheapWork).
+func restartsFor(p kmeans.Data, k, base int, cheap float64) int {
+	if cheap <= 0 {
+		return base
+	}
+	r := int(cheap / (float64(p.Len()) * float64(k) * float64(p.D)))
+	return max(base, min(r, maxRestarts))
+}
+
 // fitPath returns a k-means fit for every k in lo..hi (index k - lo). For each k it keeps the
 // cheapest of:
 //   - Lloyd from each of opt.Init(k) and from opt.Restarts greedy k-means++ seedings (kmeans.Fit);
 //   - upward sweep (k ascending): Lloyd from the kept k-1 centres plus one point drawn with
 //     probability proportional to w D^2 (the greedy k-means++ step: 2 + ln k draws, the one that
-//     lowers the potential most);
-//   - downward sweep (k descending): Lloyd from the kept k+1 centres with the pair whose merge
-//     raises the cost least (Ward's cost w_a w_b / (w_a + w_b) ||c_a - c_b||^2) merged into their
-//     weighted mean.
+//     lowers the potential most), sweepTries times;
+//   - downward sweep (k descending): Lloyd from the kept k+1 centres with one of the sweepTries
+//     pairs whose merge raises the cost least (Ward's cost w_a w_b / (w_a + w_b) ||c_a - c_b||^2)
+//     merged into their weighted mean.
+//
+// Both sweeps run again (at most sweepRounds times) while they improve some k. With opt.Cheap
+// set, k gets more restarts where its Lloyd iterations are cheap (restartsFor).
 //
 // The sweeps carry a good solution at one k to its neighbours, where independent restarts often
 // land in a local optimum (two centres in one cluster, one centre across two). The result does not
@@ -40,7 +70,7 @@ func fitPath(p kmeans.Data, lo, hi int, opt pathOptions) []kmeans.Result {
 		if opt.Init != nil {
 			init = opt.Init(k)
 		}
-		fits[k-lo] = kmeans.Fit(p, k, kmeans.FitOptions{Restarts: opt.Restarts, Init: init,
+		fits[k-lo] = kmeans.Fit(p, k, kmeans.FitOptions{Restarts: restartsFor(p, k, opt.Restarts, opt.Cheap), Init: init,
 			Lloyd: opt.Lloyd, Rand: opt.Rand(k)})
 	}
 	if opt.Workers <= 1 {
@@ -70,22 +100,33 @@ func fitPath(p kmeans.Data, lo, hi int, opt pathOptions) []kmeans.Result {
 	if stop() {
 		return fits
 	}
-	keep := func(k int, r kmeans.Result) {
+	keep := func(k int, r kmeans.Result) bool {
 		if r.Cost < fits[k-lo].Cost*(1-1e-9) {
 			fits[k-lo] = r
+			return true
 		}
+		return false
 	}
-	for k := max(lo, 2); k <= hi && !stop(); k++ {
-		if k-1 < lo {
-			continue
+	for round := 0; round < sweepRounds; round++ {
+		improved := false
+		for k := max(lo, 2); k <= hi && !stop(); k++ {
+			if k-1 < lo {
+				continue
+			}
+			rng := opt.Rand(k)
+			for t := 0; t < sweepTries; t++ {
+				if init, ok := addCentre(p, fits[k-1-lo], rng); ok {
+					improved = keep(k, kmeans.Lloyd(p, init, opt.Lloyd)) || improved
+				}
+			}
 		}
-		if init, ok := addCentre(p, fits[k-1-lo], opt.Rand(k)); ok {
-			keep(k, kmeans.Lloyd(p, init, opt.Lloyd))
+		for k := hi - 1; k >= lo && !stop(); k-- {
+			for _, init := range mergeCheapest(fits[k+1-lo], p.D, sweepTries) {
+				improved = keep(k, kmeans.Lloyd(p, init, opt.Lloyd)) || improved
+			}
 		}
-	}
-	for k := hi - 1; k >= lo && !stop(); k-- {
-		if init, ok := mergeCheapest(fits[k+1-lo], p.D); ok {
-			keep(k, kmeans.Lloyd(p, init, opt.Lloyd))
+		if !improved {
+			break
 		}
 	}
 	return fits
@@ -145,14 +186,19 @@ func addCentre(p kmeans.Data, f kmeans.Result, rng *rand.Rand) ([]float64, bool)
 	return append(c, p.Point(best)...), true
 }
 
-// mergeCheapest returns the k-1 centres of f after merging the pair with the smallest Ward cost,
-// or false when f has fewer than two centres.
-func mergeCheapest(f kmeans.Result, d int) ([]float64, bool) {
+// mergeCheapest returns, for each of the (at most) m pairs of f's centres with the smallest
+// Ward merge cost, the k-1 centres after merging that pair into its weighted mean; nil when f has
+// fewer than two centres.
+func mergeCheapest(f kmeans.Result, d, m int) [][]float64 {
 	k := f.K
 	if k < 2 || len(f.Sizes) != k {
-		return nil, false
+		return nil
 	}
-	ba, bb, bc := -1, -1, math.Inf(1)
+	type pair struct {
+		a, b int
+		c    float64
+	}
+	var ps []pair
 	for a := 0; a < k; a++ {
 		for b := a + 1; b < k; b++ {
 			wa, wb := f.Sizes[a], f.Sizes[b]
@@ -160,31 +206,31 @@ func mergeCheapest(f kmeans.Result, d int) ([]float64, bool) {
 			if wa+wb > 0 {
 				c = wa * wb / (wa + wb) * kmeans.Dist2(f.Centres[a*d:a*d+d], f.Centres[b*d:b*d+d])
 			}
-			if c < bc {
-				ba, bb, bc = a, b, c
-			}
+			ps = append(ps, pair{a, b, c})
 		}
 	}
-	if ba < 0 {
-		return nil, false
-	}
-	out := make([]float64, 0, (k-1)*d)
-	for j := 0; j < k; j++ {
-		switch j {
-		case ba:
-			wa, wb := f.Sizes[ba], f.Sizes[bb]
-			for t := 0; t < d; t++ {
-				ca, cb := f.Centres[ba*d+t], f.Centres[bb*d+t]
-				if wa+wb > 0 {
-					out = append(out, (wa*ca+wb*cb)/(wa+wb))
-				} else {
-					out = append(out, ca)
+	slices.SortStableFunc(ps, func(x, y pair) int { return cmp.Compare(x.c, y.c) })
+	var out [][]float64
+	for _, q := range ps[:min(m, len(ps))] {
+		c := make([]float64, 0, (k-1)*d)
+		wa, wb := f.Sizes[q.a], f.Sizes[q.b]
+		for j := 0; j < k; j++ {
+			switch j {
+			case q.a:
+				for t := 0; t < d; t++ {
+					ca, cb := f.Centres[q.a*d+t], f.Centres[q.b*d+t]
+					if wa+wb > 0 {
+						c = append(c, (wa*ca+wb*cb)/(wa+wb))
+					} else {
+						c = append(c, ca)
+					}
 				}
+			case q.b:
+			default:
+				c = append(c, f.Centres[j*d:j*d+d]...)
 			}
-		case bb:
-		default:
-			out = append(out, f.Centres[j*d:j*d+d]...)
 		}
+		out = append(out, c)
 	}
-	return out, true
+	return out
 }
