@@ -39,9 +39,13 @@ func rngFor(seed uint64, k, purpose int) *rand.Rand {
 // relative tolerance of 1e-5 changes ln W by about 1e-5, far below the simulation error s_k.
 const gapTol = 1e-5
 
-// gmmMaxIter bounds the EM iterations of the full-covariance mixture at each k (EM starts from
-// the k-means fit; see DEVELOPERS.md for the iterations it takes).
-const gmmMaxIter = 100
+// gmmMaxIter and gmmTol bound the EM of the full-covariance mixture at each k (EM starts from the
+// k-means fit): at most 100 iterations, stopping when the log-likelihood per unit weight moves by
+// <= 1e-3 (scikit-learn GaussianMixture's defaults, max_iter=100, tol=1e-3).
+const (
+	gmmMaxIter = 100
+	gmmTol     = 1e-3
+)
 
 // wardDirectMax is the largest coreset agglomerated directly by Ward linkage (O(m^3)); larger
 // coresets are first reduced to the centroids of a finer k-means fit.
@@ -50,22 +54,26 @@ const wardDirectMax = 400
 // Evaluate scores every k in opt.MinK..opt.MaxK from the summary and returns the per-k scores,
 // the criteria's votes and the verdict. Zero option fields take DefaultOptions' values.
 //
-// For each k it fits weighted k-means on the coreset (kmeans.Fit: the Summary's seed centres for k,
-// if any, plus opt.Restarts k-means++ seedings, the lowest cost kept) and computes from that fit
-// the WCSS (scaled to N rows), the silhouette (SilhouetteAnchors, opt.Anchors anchors), the
-// simplified silhouette, Calinski–Harabasz and Davies–Bouldin (on the weighted coreset), a
-// diagonal GMM fitted by EM from the k-means fit (GMMFit; variance floor 1e-6 times the mean
-// per-dimension variance; log-likelihood scaled by N / coreset weight, BIC/AIC with the real N and
-// p = GMMParams), and BICKMeans. The gap statistic (GapAt) uses n = min(opt.GapSample, sample size)
-// points of the uniform sample (a seeded subsample without replacement; if the Summary has no
-// sample, n points drawn from the coreset in proportion to weight) against opt.GapRefs reference
-// sets of n points in the bounding box Min/Max (gap_box) and in the principal-component box
-// (gap_pca, PCABox over the sample and the coreset); the same B reference sets are clustered for
-// every k. Ward linkage runs on the weighted coreset itself when it has at most 400 points, and
-// otherwise on the weighted centroids of a finer fit with max(3 MaxK, 50) centres.
+// For each k it fits weighted k-means on the coreset (fitPath: the Summary's seed centres for k,
+// if any, plus opt.Restarts k-means++ seedings, more where a Lloyd iteration is cheap, then
+// sweeps that start k from the k-1 solution plus a k-means++ point and from the k+1 solution with
+// its cheapest pair merged; the lowest cost kept) and computes from that fit the WCSS (scaled to
+// N rows), the silhouette (SilhouetteAnchors, opt.Anchors anchors), the simplified silhouette,
+// Calinski–Harabasz and Davies–Bouldin (on the weighted coreset), a full-covariance GMM fitted by
+// EM from the k-means fit (GMMFullFit; 1e-6 times the mean per-dimension variance added to every
+// covariance's diagonal; at most 100 iterations, tolerance 1e-3 per unit weight; log-likelihood
+// scaled by N / coreset weight, BIC/AIC with the real N and p = GMMFullParams), and BICKMeans.
+// The gap statistic uses n = min(opt.GapSample, sample size) points of the uniform sample (a
+// seeded subsample without replacement; if the Summary has no sample, n points drawn from the
+// coreset in proportion to weight) against opt.GapRefs reference sets of n points in the
+// bounding box Min/Max (gap_box) and in the principal-component box (gap_pca, PCABox over the
+// sample and the coreset); the same B reference sets are clustered for every k. Ward linkage runs
+// on the weighted coreset itself when it has at most 400 points, and otherwise on the weighted
+// centroids of a finer fit with max(3 MaxK, 50) centres.
 //
-// The gap fits use opt.GapRestarts k-means++ seedings and a Lloyd tolerance of 1e-5 on both
-// sides. Each criterion then votes (Result.Votes, CriterionNames order): elbow = Kneedle on WCSS(k)
+// The gap fits are fitPaths too (opt.GapRestarts k-means++ seedings and the sweeps, Lloyd
+// tolerance 1e-5), the data side also started from the main fit's centres at each k and every
+// reference set on a path of its own. Each criterion then votes (Result.Votes, CriterionNames order): elbow = Kneedle on WCSS(k)
 // over the valid k; silhouette, simplified_silhouette and calinski_harabasz = argmax over k >= 2;
 // davies_bouldin = argmin over k >= 2; gap_box and gap_pca = GapRule; bic_gmm, aic_gmm and
 // bic_kmeans = argmin over all k; ward = the largest relative jump of the merge costs (see
@@ -298,7 +306,7 @@ func scoreK(core kmeans.Data, fit kmeans.Result, k int, s Summary, opt Options, 
 	if stop() {
 		return sc
 	}
-	if _, ll, _, err := GMMFullFit(core, fit, GMMOptions{Reg: reg, MaxIter: gmmMaxIter}); err == nil {
+	if _, ll, _, err := GMMFullFit(core, fit, GMMOptions{Reg: reg, MaxIter: gmmMaxIter, Tol: gmmTol}); err == nil {
 		ll *= scale
 		p := GMMFullParams(k, s.D)
 		sc.LogLikGMM, sc.BICGMM, sc.AICGMM = ll, BIC(ll, p, s.N), AIC(ll, p)

@@ -32,8 +32,8 @@ const (
 // adds k-means++ restarts (Evaluate's main and gap paths): restarts = cheapWork / (n k D), at
 // least the requested number and at most maxRestarts.
 const (
-	cheapWork   = 2e6
-	maxRestarts = 10
+	cheapWork   = 4e6
+	maxRestarts = 20
 )
 
 // restartsFor returns the k-means++ seedings of fitPath at k (see cheapWork).
