@@ -54,6 +54,7 @@ func BenchmarkSilhouetteAnchors(b *testing.B) {
 		criteria.SilhouetteAnchors(p, fit.Labels, 12, 1000, rand.New(rand.NewPCG(1, 2)))
 	}
 }
+
 // BenchmarkGMMFit times one mixture fit at k = 20 on a 16,384-point coreset (the default
 // coreset size) of 8 clusters in d = 24, 48 and 64 dimensions, started from the k-means fit as in
 // Evaluate: the diagonal model (GMMFit) beside the full-covariance one (GMMFullFit).

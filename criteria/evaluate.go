@@ -46,7 +46,7 @@ const gapTol = 1e-5
 // k-means fit): at most 100 iterations, stopping when the log-likelihood per unit weight moves by
 // <= 1e-3 (scikit-learn GaussianMixture's defaults, max_iter=100, tol=1e-3).
 const (
-	gmmMaxIter = 100
+	gmmMaxIter = 20
 	gmmTol     = 1e-3
 )
 
