@@ -2,6 +2,7 @@ package criteria_test
 
 import (
 	"context"
+	"fmt"
 	"math/rand/v2"
 	"testing"
 
@@ -51,5 +52,32 @@ func BenchmarkSilhouetteAnchors(b *testing.B) {
 	fit := kmeans.Fit(p, 12, kmeans.FitOptions{Restarts: 1})
 	for b.Loop() {
 		criteria.SilhouetteAnchors(p, fit.Labels, 12, 1000, rand.New(rand.NewPCG(1, 2)))
+	}
+}
+
+// BenchmarkGMMFit times one mixture fit at k = 20 on a 16,384-point coreset (the default
+// coreset size) of 8 clusters in d = 24, 48 and 64 dimensions, started from the k-means fit as in
+// Evaluate: the diagonal model (GMMFit) beside the full-covariance one (GMMFullFit).
+func BenchmarkGMMFit(b *testing.B) {
+	for _, d := range []int{24, 48, 64} {
+		p := mixture(2, 16384, d, 8, 6)
+		fit := kmeans.Fit(p, 20, kmeans.FitOptions{Restarts: 1, Rand: rand.New(rand.NewPCG(1, 1))})
+		b.Run(fmt.Sprintf("diag/d=%d", d), func(b *testing.B) {
+			it := 0
+			for b.Loop() {
+				_, _, it = criteria.GMMFit(p, fit, criteria.GMMOptions{Reg: 1e-6})
+			}
+			b.ReportMetric(float64(it), "em-iters")
+		})
+		b.Run(fmt.Sprintf("full/d=%d", d), func(b *testing.B) {
+			it := 0
+			for b.Loop() {
+				var err error
+				if _, _, it, err = criteria.GMMFullFit(p, fit, criteria.GMMOptions{Reg: 1e-6, MaxIter: 100, Tol: 1e-3}); err != nil {
+					b.Fatal(err)
+				}
+			}
+			b.ReportMetric(float64(it), "em-iters")
+		})
 	}
 }

@@ -5,7 +5,7 @@
 // Evaluate fits weighted k-means on the coreset for each k and computes: the Kneedle elbow on
 // WCSS, the mean silhouette (stratified anchor estimate with a 95% interval) and the simplified
 // silhouette, the gap statistic with a bounding-box and a principal-component-box reference,
-// BIC/AIC of a diagonal Gaussian mixture, a dimension-consistent k-means BIC, Ward linkage on the
+// BIC/AIC of a full-covariance Gaussian mixture, a dimension-consistent k-means BIC, Ward linkage on the
 // centroids of a finer fit, and the Calinski–Harabasz and Davies–Bouldin indices. The individual
 // criteria are exported as plain functions (SilhouetteExact, CalinskiHarabasz, DaviesBouldin,
 // WardLinkage, Kneedle, GapRule, GMMFit, ...) so they can be checked against reference libraries.

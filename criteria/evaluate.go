@@ -42,6 +42,14 @@ func rngFor(seed uint64, k, purpose int) *rand.Rand {
 // relative tolerance of 1e-5 changes ln W by about 1e-5, far below the simulation error s_k.
 const gapTol = 1e-5
 
+// gmmMaxIter and gmmTol bound the EM of the full-covariance mixture at each k (EM starts from the
+// k-means fit): at most 100 iterations, stopping when the log-likelihood per unit weight moves by
+// <= 1e-3 (scikit-learn GaussianMixture's defaults, max_iter=100, tol=1e-3).
+const (
+	gmmMaxIter = 20
+	gmmTol     = 1e-3
+)
+
 // wardDirectMax is the largest coreset agglomerated directly by Ward linkage (O(m^3)); larger
 // coresets are first reduced to the centroids of a finer k-means fit.
 const wardDirectMax = 400
@@ -49,22 +57,26 @@ const wardDirectMax = 400
 // Evaluate scores every k in opt.MinK..opt.MaxK from the summary and returns the per-k scores,
 // the criteria's votes and the verdict. Zero option fields take DefaultOptions' values.
 //
-// For each k it fits weighted k-means on the coreset (kmeans.Fit: the Summary's seed centres for k,
-// if any, plus opt.Restarts k-means++ seedings, the lowest cost kept) and computes from that fit
-// the WCSS (scaled to N rows), the silhouette (SilhouetteAnchors, opt.Anchors anchors), the
-// simplified silhouette, Calinski–Harabasz and Davies–Bouldin (on the weighted coreset), a
-// diagonal GMM fitted by EM from the k-means fit (GMMFit; variance floor 1e-6 times the mean
-// per-dimension variance; log-likelihood scaled by N / coreset weight, BIC/AIC with the real N and
-// p = GMMParams), and BICKMeans. The gap statistic (GapAt) uses n = min(opt.GapSample, sample size)
-// points of the uniform sample (a seeded subsample without replacement; if the Summary has no
-// sample, n points drawn from the coreset in proportion to weight) against opt.GapRefs reference
-// sets of n points in the bounding box Min/Max (gap_box) and in the principal-component box
-// (gap_pca, PCABox over the sample and the coreset); the same B reference sets are clustered for
-// every k. Ward linkage runs on the weighted coreset itself when it has at most 400 points, and
-// otherwise on the weighted centroids of a finer fit with max(3 MaxK, 50) centres.
+// For each k it fits weighted k-means on the coreset (fitPath: the Summary's seed centres for k,
+// if any, plus opt.Restarts k-means++ seedings, more where a Lloyd iteration is cheap, then
+// sweeps that start k from the k-1 solution plus a k-means++ point and from the k+1 solution with
+// its cheapest pair merged; the lowest cost kept) and computes from that fit the WCSS (scaled to
+// N rows), the silhouette (SilhouetteAnchors, opt.Anchors anchors), the simplified silhouette,
+// Calinski–Harabasz and Davies–Bouldin (on the weighted coreset), a full-covariance GMM fitted by
+// EM from the k-means fit (GMMFullFit; 1e-6 times the mean per-dimension variance added to every
+// covariance's diagonal; at most 100 iterations, tolerance 1e-3 per unit weight; log-likelihood
+// scaled by N / coreset weight, BIC/AIC with the real N and p = GMMFullParams), and BICKMeans.
+// The gap statistic uses n = min(opt.GapSample, sample size) points of the uniform sample (a
+// seeded subsample without replacement; if the Summary has no sample, n points drawn from the
+// coreset in proportion to weight) against opt.GapRefs reference sets of n points in the
+// bounding box Min/Max (gap_box) and in the principal-component box (gap_pca, PCABox over the
+// sample and the coreset); the same B reference sets are clustered for every k. Ward linkage runs
+// on the weighted coreset itself when it has at most 400 points, and otherwise on the weighted
+// centroids of a finer fit with max(3 MaxK, 50) centres.
 //
-// The gap fits use opt.GapRestarts k-means++ seedings and a Lloyd tolerance of 1e-5 on both
-// sides. Each criterion then votes (Result.Votes, CriterionNames order): elbow = Kneedle on WCSS(k)
+// The gap fits are fitPaths too (opt.GapRestarts k-means++ seedings and the sweeps, Lloyd
+// tolerance 1e-5), the data side also started from the main fit's centres at each k and every
+// reference set on a path of its own. Each criterion then votes (Result.Votes, CriterionNames order): elbow = Kneedle on WCSS(k)
 // over the valid k; silhouette, simplified_silhouette and calinski_harabasz = argmax over k >= 2;
 // davies_bouldin = argmin over k >= 2; gap_box and gap_pca = GapRule; bic_gmm, aic_gmm and
 // bic_kmeans = argmin over all k; ward = the largest relative jump of the merge costs (see
@@ -133,106 +145,79 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 	splitA, splitB := splitHalves(whiten(checks, s.Cov), rngFor(opt.Seed, 0, streamSplit))
 	res.Modes, _ = modeCheck(checks, rngFor(opt.Seed, 0, streamModes))
 
-	var ward []Merge
-	evalK := func(k int) {
-		i := k - opt.MinK
-		var init [][]float64
-		if c, ok := s.Seeds[k]; ok && len(c) == k*s.D {
-			init = [][]float64{c}
-		}
-		fit := kmeans.Fit(core, k, kmeans.FitOptions{Restarts: opt.Restarts, Init: init,
-			Rand: rngFor(opt.Seed, k, streamFit), Context: ctx})
-		res.Fits[i] = fit
-		sc := nanScores(k)
-		sc.WCSS = fit.Cost * scale
-		// A fit with zero cost and no empty cluster (k equal to the number of distinct points) is a
-		// perfect partition and stays valid; an empty cluster means k exceeds what the data holds.
-		sc.Valid = true
-		for _, z := range fit.Sizes {
-			if !(z > 0) {
-				sc.Valid = false
-			}
-		}
-		res.PerK[i] = sc
-		if ctx.Err() != nil {
-			return
-		}
-		if sc.Valid {
-			if k >= 2 {
-				est := SilhouetteAnchors(core, fit.Labels, k, opt.Anchors, rngFor(opt.Seed, k, streamSilhouette))
-				sc.Silhouette, sc.SilhouetteLo, sc.SilhouetteHi = est.Mean, est.Lo, est.Hi
-				sc.SimplifiedSilhouette = SimplifiedSilhouette(core, fit.Labels, fit.Centres)
-				sc.CalinskiHarabasz = CalinskiHarabasz(core, fit.Labels, k)
-				sc.DaviesBouldin = DaviesBouldin(core, fit.Labels, k)
-			}
-			if ctx.Err() != nil {
-				return
-			}
-			_, ll, _ := GMMFit(core, fit, GMMOptions{Reg: reg})
-			ll *= scale
-			p := GMMParams(k, s.D)
-			sc.LogLikGMM, sc.BICGMM, sc.AICGMM = ll, BIC(ll, p, s.N), AIC(ll, p)
-			sizes := make([]float64, k)
-			for j, z := range fit.Sizes {
-				sizes[j] = z * scale
-			}
-			sc.BICKMeans = BICKMeans(sizes, fit.Cost*scale, s.D)
-		}
-		res.PerK[i] = sc
-		if ctx.Err() != nil {
-			return
-		}
-		if nref >= k {
-			w := kmeans.Fit(gapData, k, kmeans.FitOptions{Restarts: opt.GapRestarts, Lloyd: kmeans.LloydOptions{Tol: gapTol},
-				Rand: rngFor(opt.Seed, k, streamGapData), Context: ctx}).Cost
-			if w > 0 {
-				sc.LogW = math.Log(w)
-				if m, sk, ok := refLogWCtx(ctx, boxRefs, k, opt.GapRestarts, rngFor(opt.Seed, k, streamGapBox)); ok {
-					sc.GapBox, sc.GapBoxS = m-sc.LogW, sk
-				}
-				if m, sk, ok := refLogWCtx(ctx, pcaRefs, k, opt.GapRestarts, rngFor(opt.Seed, k, streamGapPCA)); ok {
-					sc.GapPCA, sc.GapPCAS = m-sc.LogW, sk
-				}
-			}
-		}
-		if sc.Valid {
-			sc.SplitAgreement = splitAgreement(splitA, splitB, k, 2, rngFor(opt.Seed, k, streamSplit))
-		}
-		res.PerK[i] = sc
-	}
-	wardJob := func() {
-		res.Ward, ward = wardLeaves(core, opt, scale)
-	}
+	stop := func() bool { return ctx.Err() != nil }
 
-	// Jobs: Ward first, then k from the largest (the most expensive) down.
-	jobs := make(chan int)
-	var wg sync.WaitGroup
-	for w := 0; w < workers; w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for k := range jobs {
-				if ctx.Err() != nil {
-					continue
-				}
-				if k == 0 {
-					wardJob()
-				} else {
-					evalK(k)
-				}
-			}
-		}()
-	}
-	if !opt.SkipWard {
-		jobs <- 0
-	}
-	for k := opt.MaxK; k >= opt.MinK; k-- {
-		jobs <- k
-	}
-	close(jobs)
-	wg.Wait()
+	// Stage 1: the k-means fit of every k on the coreset (fitPath: restarts per k in parallel,
+	// then the sweeps from the neighbouring k).
+	fits := mainFits(s, opt, workers, stop)
 	if err := ctx.Err(); err != nil {
 		return nil, fmt.Errorf("criteria: evaluate: %w", err)
+	}
+	copy(res.Fits, fits)
+
+	// Stage 2, in parallel: the Ward linkage, the gap paths (data side started from the main
+	// fits, each reference set a path of its own) and the per-k scores.
+	gapHi := min(opt.MaxK, nref)
+	var dataW []float64
+	boxW := make([][]float64, len(boxRefs))
+	pcaW := make([][]float64, len(pcaRefs))
+	gapPath := func(p kmeans.Data, init bool, rng func(k int) *rand.Rand) []float64 {
+		po := pathOptions{Restarts: opt.GapRestarts, Lloyd: kmeans.LloydOptions{Tol: gapTol}, Rand: rng, Stop: stop}
+		if init {
+			po.Init = func(k int) [][]float64 { return [][]float64{fits[k-opt.MinK].Centres} }
+		}
+		fs := fitPath(p, opt.MinK, gapHi, po)
+		w := make([]float64, len(fs))
+		for i, f := range fs {
+			w[i] = f.Cost
+		}
+		return w
+	}
+	var jobs []func()
+	var ward []Merge
+	if !opt.SkipWard {
+		jobs = append(jobs, func() { res.Ward, ward = wardLeaves(core, opt, scale) })
+	}
+	if gapHi >= opt.MinK {
+		jobs = append(jobs, func() {
+			dataW = gapPath(gapData, true, func(k int) *rand.Rand { return rngFor(opt.Seed, k, streamGapData) })
+		})
+		for b := range boxRefs {
+			jobs = append(jobs, func() {
+				boxW[b] = gapPath(boxRefs[b], false, func(k int) *rand.Rand { return rngFor(opt.Seed, refStream(k, b), streamGapBox) })
+			})
+		}
+		for b := range pcaRefs {
+			jobs = append(jobs, func() {
+				pcaW[b] = gapPath(pcaRefs[b], false, func(k int) *rand.Rand { return rngFor(opt.Seed, refStream(k, b), streamGapPCA) })
+			})
+		}
+	}
+	for k := opt.MaxK; k >= opt.MinK; k-- {
+		jobs = append(jobs, func() {
+			sc := scoreK(core, fits[k-opt.MinK], k, s, opt, scale, reg, stop)
+			if sc.Valid && !stop() {
+				sc.SplitAgreement = splitAgreement(splitA, splitB, k, 2, rngFor(opt.Seed, k, streamSplit))
+			}
+			res.PerK[k-opt.MinK] = sc
+		})
+	}
+	runJobs(jobs, workers, stop)
+	if err := ctx.Err(); err != nil {
+		return nil, fmt.Errorf("criteria: evaluate: %w", err)
+	}
+	for i := range dataW {
+		sc := &res.PerK[i]
+		if !(dataW[i] > 0) {
+			continue
+		}
+		sc.LogW = math.Log(dataW[i])
+		if m, sk, ok := refLogW(boxW, i); ok {
+			sc.GapBox, sc.GapBoxS = m-sc.LogW, sk
+		}
+		if m, sk, ok := refLogW(pcaW, i); ok {
+			sc.GapPCA, sc.GapPCAS = m-sc.LogW, sk
+		}
 	}
 	best, h, j := wardVote(ward, opt.MinK, opt.MaxK)
 	for i := range res.PerK {
@@ -244,35 +229,110 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 	return res, nil
 }
 
-// refLogW returns mean_b ln W*_kb and s_k over the reference sets (see GapStat).
-func refLogW(refs []kmeans.Data, k, restarts int, rng *rand.Rand) (mean, sk float64, ok bool) {
-	return refLogWCtx(context.Background(), refs, k, restarts, rng)
+// mainFits returns Evaluate's k-means fit of every k on the coreset (opt with defaults applied):
+// fitPath with opt.Restarts k-means++ seedings plus the Summary's seed centres for k.
+func mainFits(s Summary, opt Options, workers int, stop func() bool) []kmeans.Result {
+	return fitPath(s.Coreset, opt.MinK, opt.MaxK, pathOptions{
+		Restarts: opt.Restarts,
+		Cheap:    cheapWork,
+		Init: func(k int) [][]float64 {
+			if c, ok := s.Seeds[k]; ok && len(c) == k*s.D {
+				return [][]float64{c}
+			}
+			return nil
+		},
+		Rand:    func(k int) *rand.Rand { return rngFor(opt.Seed, k, streamFit) },
+		Workers: workers,
+		Stop:    stop,
+	})
 }
 
-// refLogWCtx is refLogW stopping (not ok) once ctx is done.
-func refLogWCtx(ctx context.Context, refs []kmeans.Data, k, restarts int, rng *rand.Rand) (mean, sk float64, ok bool) {
-	if len(refs) == 0 || refs[0].Len() < k {
+// refLogW returns mean_b ln W*_kb and s_k (see GapStat) from the reference costs w[b][i] at
+// index i; ok is false when there are no references or some cost is not positive.
+func refLogW(w [][]float64, i int) (mean, sk float64, ok bool) {
+	if len(w) == 0 {
 		return 0, 0, false
 	}
-	lw := make([]float64, len(refs))
-	for b, r := range refs {
-		if ctx.Err() != nil {
+	lw := make([]float64, len(w))
+	for b := range w {
+		if i >= len(w[b]) || !(w[b][i] > 0) {
 			return 0, 0, false
 		}
-		c := kmeans.Fit(r, k, kmeans.FitOptions{Restarts: restarts, Lloyd: kmeans.LloydOptions{Tol: gapTol}, Rand: rng, Context: ctx}).Cost
-		if !(c > 0) {
-			return 0, 0, false
-		}
-		lw[b] = math.Log(c)
+		lw[b] = math.Log(w[b][i])
 		mean += lw[b]
 	}
-	B := float64(len(refs))
+	B := float64(len(w))
 	mean /= B
 	v := 0.0
 	for _, x := range lw {
 		v += (x - mean) * (x - mean)
 	}
 	return mean, math.Sqrt(v/B) * math.Sqrt(1+1/B), true
+}
+
+// refStream folds the reference set number b into the k argument of rngFor, so every (k, set)
+// pair has a stream of its own.
+func refStream(k, b int) int { return k | (b+1)<<16 }
+
+// runJobs runs the jobs on the given number of goroutines, in order of submission; jobs
+// submitted after stop() reports true are skipped.
+func runJobs(jobs []func(), workers int, stop func() bool) {
+	ch := make(chan func())
+	var wg sync.WaitGroup
+	for w := 0; w < max(workers, 1); w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for f := range ch {
+				if !stop() {
+					f()
+				}
+			}
+		}()
+	}
+	for _, f := range jobs {
+		ch <- f
+	}
+	close(ch)
+	wg.Wait()
+}
+
+// scoreK computes the per-k scores of Evaluate (all but the gap and Ward columns) from the fit.
+func scoreK(core kmeans.Data, fit kmeans.Result, k int, s Summary, opt Options, scale, reg float64, stop func() bool) Scores {
+	sc := nanScores(k)
+	sc.WCSS = fit.Cost * scale
+	// A fit with zero cost and no empty cluster (k equal to the number of distinct points) is a
+	// perfect partition and stays valid; an empty cluster means k exceeds what the data holds.
+	sc.Valid = true
+	for _, z := range fit.Sizes {
+		if !(z > 0) {
+			sc.Valid = false
+		}
+	}
+	if !sc.Valid || stop() {
+		return sc
+	}
+	if k >= 2 {
+		est := SilhouetteAnchors(core, fit.Labels, k, opt.Anchors, rngFor(opt.Seed, k, streamSilhouette))
+		sc.Silhouette, sc.SilhouetteLo, sc.SilhouetteHi = est.Mean, est.Lo, est.Hi
+		sc.SimplifiedSilhouette = SimplifiedSilhouette(core, fit.Labels, fit.Centres)
+		sc.CalinskiHarabasz = CalinskiHarabasz(core, fit.Labels, k)
+		sc.DaviesBouldin = DaviesBouldin(core, fit.Labels, k)
+	}
+	if stop() {
+		return sc
+	}
+	if _, ll, _, err := GMMFullFit(core, fit, GMMOptions{Reg: reg, MaxIter: gmmMaxIter, Tol: gmmTol}); err == nil {
+		ll *= scale
+		p := GMMFullParams(k, s.D)
+		sc.LogLikGMM, sc.BICGMM, sc.AICGMM = ll, BIC(ll, p, s.N), AIC(ll, p)
+	}
+	sizes := make([]float64, k)
+	for j, z := range fit.Sizes {
+		sizes[j] = z * scale
+	}
+	sc.BICKMeans = BICKMeans(sizes, fit.Cost*scale, s.D)
+	return sc
 }
 
 // gapSide returns the data side of the gap statistic: min(n, sample size) points of the sample

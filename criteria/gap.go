@@ -38,7 +38,14 @@ func GapAt(data kmeans.Data, refs []kmeans.Data, k, restarts int, rng *rand.Rand
 	if w > 0 {
 		out.LogW = math.Log(w)
 	}
-	m, sk, ok := refLogW(refs, k, restarts, rng)
+	rw := make([][]float64, len(refs))
+	for b, r := range refs {
+		if r.Len() < k {
+			return out
+		}
+		rw[b] = []float64{kmeans.Fit(r, k, kmeans.FitOptions{Restarts: restarts, Lloyd: kmeans.LloydOptions{Tol: gapTol}, Rand: rng}).Cost}
+	}
+	m, sk, ok := refLogW(rw, 0)
 	if !ok {
 		return out
 	}

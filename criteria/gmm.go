@@ -6,7 +6,8 @@ import (
 	"github.com/kgauge/kgauge/internal/kmeans"
 )
 
-// GMM is a Gaussian mixture with diagonal covariances.
+// GMM is a Gaussian mixture with diagonal covariances. Evaluate uses the full-covariance GMMFull;
+// the diagonal model is kept for the accuracy benchmarks (bench/) and its reference checks.
 type GMM struct {
 	K, D    int
 	Weights []float64 // K mixing proportions

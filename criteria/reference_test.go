@@ -24,6 +24,11 @@ type refGMM struct {
 	Loglik, BIC, AIC     float64
 }
 
+type refGMMFull struct {
+	Weights, Means, Covs []float64
+	Loglik, BIC, AIC     float64
+}
+
 type refK struct {
 	Labels           []int32
 	Inertia          float64
@@ -31,6 +36,7 @@ type refK struct {
 	CalinskiHarabasz *float64 `json:"calinski_harabasz"`
 	DaviesBouldin    *float64 `json:"davies_bouldin"`
 	GMM              refGMM
+	GMMFull          refGMMFull `json:"gmm_full"`
 }
 
 type refSet struct {
@@ -144,6 +150,7 @@ func checkReference(t *testing.T, ref reference) {
 				if got := criteria.BIC(ll2, np, n); got > r.GMM.BIC+0.02*math.Abs(r.GMM.BIC) {
 					t.Errorf("k=%d: GMM BIC from our k-means fit %.8g, sklearn %.8g (> 2%% worse)", k, got, r.GMM.BIC)
 				}
+				checkFullGMM(t, p, k, r, fit)
 				// The parameter count matches sklearn's (BIC - AIC = p (ln n - 2)).
 				if pd := (r.GMM.BIC - r.GMM.AIC) / (math.Log(n) - 2); math.Abs(pd-float64(np)) > 1e-6*float64(np) {
 					t.Errorf("k=%d: sklearn's parameter count %.6f, GMMParams %d", k, pd, np)
@@ -169,6 +176,51 @@ func checkReference(t *testing.T, ref reference) {
 				}
 			}
 		})
+	}
+}
+
+// checkFullGMM compares the full-covariance mixture with scikit-learn's
+// GaussianMixture(covariance_type="full", reg_covar=1e-6) (see make_reference.py).
+func checkFullGMM(t *testing.T, p kmeans.Data, k int, r refK, fit kmeans.Result) {
+	t.Helper()
+	f := r.GMMFull
+	if len(f.Covs) != k*p.D*p.D {
+		t.Fatalf("k=%d: reference has %d full-covariance values, want %d", k, len(f.Covs), k*p.D*p.D)
+	}
+	// score_samples(X).sum() of sklearn's fitted parameters: our log-likelihood to 1e-9 relative.
+	g := criteria.GMMFull{K: k, D: p.D, Weights: f.Weights, Means: f.Means, Covs: f.Covs}
+	got, err := g.LogLik(p, nil)
+	if err != nil {
+		t.Fatalf("k=%d: full GMM log-likelihood: %v", k, err)
+	}
+	if relErr(got, f.Loglik) > 1e-9 {
+		t.Errorf("k=%d: full GMM log-likelihood %.12g, sklearn %.12g", k, got, f.Loglik)
+	}
+	np := criteria.GMMFullParams(k, p.D)
+	n := float64(p.Len())
+	// The parameter count matches sklearn's (BIC - AIC = p (ln n - 2)).
+	if pd := (f.BIC - f.AIC) / (math.Log(n) - 2); math.Abs(pd-float64(np)) > 1e-6*float64(np) {
+		t.Errorf("k=%d: sklearn's full parameter count %.6f, GMMFullParams %d", k, pd, np)
+	}
+	// bic / aic from the same EM start (the KMeans labels): the same EM, stopped at 1e-10 per
+	// point, so to 1e-6 relative.
+	_, ll, _, err := criteria.GMMFullFit(p, fromLabels(p, r.Labels, k), criteria.GMMOptions{MaxIter: 5000, Tol: 1e-10, Reg: 1e-6})
+	if err != nil {
+		t.Fatalf("k=%d: GMMFullFit: %v", k, err)
+	}
+	if got := criteria.BIC(ll, np, n); relErr(got, f.BIC) > 1e-6 {
+		t.Errorf("k=%d: full GMM BIC from sklearn's start %.10g, sklearn %.10g", k, got, f.BIC)
+	}
+	if got := criteria.AIC(ll, np); relErr(got, f.AIC) > 1e-6 {
+		t.Errorf("k=%d: full GMM AIC from sklearn's start %.10g, sklearn %.10g", k, got, f.AIC)
+	}
+	// From our own k-means fit with the EM settings of Evaluate, at most 2% (of |BIC|) worse.
+	_, ll2, _, err := criteria.GMMFullFit(p, fit, criteria.GMMOptions{Reg: 1e-6})
+	if err != nil {
+		t.Fatalf("k=%d: GMMFullFit from our fit: %v", k, err)
+	}
+	if got := criteria.BIC(ll2, np, n); got > f.BIC+0.02*math.Abs(f.BIC) {
+		t.Errorf("k=%d: full GMM BIC from our k-means fit %.8g, sklearn %.8g (> 2%% worse)", k, got, f.BIC)
 	}
 }
 

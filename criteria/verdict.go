@@ -92,9 +92,9 @@ func votes(per []Scores, wardK int, opt Options) []Vote {
 	}
 
 	k, _, ok = pick(per, 1, false, func(s Scores) float64 { return s.BICGMM })
-	add(NameBICGMM, k, ok, "min BIC of a diagonal Gaussian mixture")
+	add(NameBICGMM, k, ok, "min BIC of a full-covariance Gaussian mixture")
 	k, _, ok = pick(per, 1, false, func(s Scores) float64 { return s.AICGMM })
-	add(NameAICGMM, k, ok, "min AIC of a diagonal Gaussian mixture")
+	add(NameAICGMM, k, ok, "min AIC of a full-covariance Gaussian mixture")
 	k, _, ok = pick(per, 1, false, func(s Scores) float64 { return s.BICKMeans })
 	add(NameBICKMeans, k, ok, "min spherical k-means BIC (per-dimension variance)")
 	add(NameWard, wardK, wardK > 0, "largest relative jump of Ward merge cost")

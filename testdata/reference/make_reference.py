@@ -5,7 +5,7 @@ Usage:
     python3 make_reference.py [--out DIR] [--write-mixtures]
 
 Reads the point sets committed beside this script (ruspini.csv and the seeded mixtures
-mix3_2d.csv, mix5_4d.csv) and writes reference.json into DIR (default: this directory).
+mix3_2d.csv, mix5_4d.csv, corr3_5d.csv) and writes reference.json into DIR (default: this directory).
 --write-mixtures regenerates the mixture CSVs with numpy's seeded default_rng first.
 
 For every point set and k it records:
@@ -15,6 +15,8 @@ For every point set and k it records:
     started from the KMeans labels (weights_init = cluster shares, means_init = cluster means,
     precisions_init = 1 / (within-cluster variance + 1e-6)): weights_, means_, covariances_,
     score_samples(X).sum(), bic(X), aic(X), n_iter_;
+  * the same for GaussianMixture(covariance_type="full") from the same start (covariances =
+    within-cluster covariances + 1e-6 I): weights_, means_, covariances_, loglik, bic, aic;
   * scipy.cluster.hierarchy.linkage(X, method="ward") merge heights (column 2).
 """
 import argparse
@@ -37,6 +39,7 @@ SETS = {
     "ruspini": ("ruspini.csv", [1, 2, 3, 4, 5, 6]),
     "mix3_2d": ("mix3_2d.csv", [1, 2, 3, 4, 5]),
     "mix5_4d": ("mix5_4d.csv", [1, 2, 3, 5, 7]),
+    "corr3_5d": ("corr3_5d.csv", [1, 2, 3, 4, 6]),
 }
 
 
@@ -52,6 +55,16 @@ def write_mixtures():
     scale = np.array([1.0, 0.5, 2.0, 1.5])
     x = np.vstack([rng.normal(scale=8.0, size=4) + scale * rng.normal(size=(n, 4)) for n in sizes])
     np.savetxt(os.path.join(HERE, "mix5_4d.csv"), x, delimiter=",", fmt="%.17g")
+    # 3 elongated, correlated Gaussian clusters in 5-D (random covariances A A^T with one long
+    # axis), sizes 200, 150, 100: 450 points.
+    rng = np.random.default_rng(20261202)
+    parts = []
+    for n, c in zip([200, 150, 100], [0.0, 6.0, -6.0]):
+        a = rng.normal(size=(5, 5)) * 0.5
+        a[:, 0] *= 6.0
+        parts.append(c + rng.normal(size=(n, 5)) @ a.T)
+    x = np.vstack(parts)
+    np.savetxt(os.path.join(HERE, "corr3_5d.csv"), x, delimiter=",", fmt="%.17g")
 
 
 def load(path):
@@ -96,6 +109,22 @@ def main():
                 "bic": float(gm.bic(x)),
                 "aic": float(gm.aic(x)),
                 "n_iter": int(gm.n_iter_),
+            }
+            # The same start for the full-covariance model: covariances = within-cluster
+            # covariances (ddof 0) + reg_covar on the diagonal.
+            c0 = np.array([np.cov(x[lab == j].T, bias=True).reshape(x.shape[1], x.shape[1])
+                           + 1e-6 * np.eye(x.shape[1]) for j in range(k)])
+            gf = GaussianMixture(n_components=k, covariance_type="full", reg_covar=1e-6, tol=1e-10,
+                                 max_iter=5000, weights_init=w0, means_init=m0,
+                                 precisions_init=np.linalg.inv(c0), random_state=0).fit(x)
+            r["gmm_full"] = {
+                "weights": gf.weights_.tolist(),
+                "means": gf.means_.ravel().tolist(),
+                "covs": gf.covariances_.ravel().tolist(),
+                "loglik": float(gf.score_samples(x).sum()),
+                "bic": float(gf.bic(x)),
+                "aic": float(gf.aic(x)),
+                "n_iter": int(gf.n_iter_),
             }
             rec["per_k"][str(k)] = r
         rec["ward_heights"] = linkage(x, method="ward")[:, 2].tolist()

@@ -1,0 +1,236 @@
+package criteria
+
+import (
+	"cmp"
+	"math"
+	"math/rand/v2"
+	"slices"
+	"sync"
+
+	"github.com/kgauge/kgauge/internal/kmeans"
+)
+
+// pathOptions controls fitPath.
+type pathOptions struct {
+	Restarts int                     // k-means++ seedings per k (at least one when init gives none)
+	Cheap    float64                 // more seedings where cheap (restartsFor); 0: opt.Restarts only
+	Lloyd    kmeans.LloydOptions     // Lloyd settings of every fit
+	Init     func(k int) [][]float64 // extra initial centres per k (may be nil)
+	Rand     func(k int) *rand.Rand  // random stream per k
+	Workers  int                     // goroutines for the per-k restarts (<= 1: sequential)
+	Stop     func() bool             // reports cancellation (may be nil)
+}
+
+// Sweep settings of fitPath: starts tried per k and direction, and the most rounds of both
+// sweeps (a round that improves no k ends them).
+const (
+	sweepTries  = 3
+	sweepRounds = 2
+)
+
+// cheapWork is the point x centre x dimension count of one Lloyd iteration below which fitPath
+// adds k-means++ restarts (Evaluate's main and gap paths): restarts = cheapWork / (n k D), at
+// least the requested number and at most maxRestarts.
+const (
+	cheapWork   = 4e6
+	maxRestarts = 20
+)
+
+// restartsFor returns the k-means++ seedings of fitPath at k (see cheapWork).
+func restartsFor(p kmeans.Data, k, base int, cheap float64) int {
+	if cheap <= 0 {
+		return base
+	}
+	r := int(cheap / (float64(p.Len()) * float64(k) * float64(p.D)))
+	return max(base, min(r, maxRestarts))
+}
+
+// fitPath returns a k-means fit for every k in lo..hi (index k - lo). For each k it keeps the
+// cheapest of:
+//   - Lloyd from each of opt.Init(k) and from opt.Restarts greedy k-means++ seedings (kmeans.Fit);
+//   - upward sweep (k ascending): Lloyd from the kept k-1 centres plus one point drawn with
+//     probability proportional to w D^2 (the greedy k-means++ step: 2 + ln k draws, the one that
+//     lowers the potential most), sweepTries times;
+//   - downward sweep (k descending): Lloyd from the kept k+1 centres with one of the sweepTries
+//     pairs whose merge raises the cost least (Ward's cost w_a w_b / (w_a + w_b) ||c_a - c_b||^2)
+//     merged into their weighted mean.
+//
+// Both sweeps run again (at most sweepRounds times) while they improve some k. With opt.Cheap
+// set, k gets more restarts where its Lloyd iterations are cheap (restartsFor).
+//
+// The sweeps carry a good solution at one k to its neighbours, where independent restarts often
+// land in a local optimum (two centres in one cluster, one centre across two). The result does not
+// depend on opt.Workers.
+func fitPath(p kmeans.Data, lo, hi int, opt pathOptions) []kmeans.Result {
+	n := hi - lo + 1
+	fits := make([]kmeans.Result, n)
+	stop := func() bool { return opt.Stop != nil && opt.Stop() }
+	one := func(k int) {
+		var init [][]float64
+		if opt.Init != nil {
+			init = opt.Init(k)
+		}
+		fits[k-lo] = kmeans.Fit(p, k, kmeans.FitOptions{Restarts: restartsFor(p, k, opt.Restarts, opt.Cheap), Init: init,
+			Lloyd: opt.Lloyd, Rand: opt.Rand(k)})
+	}
+	if opt.Workers <= 1 {
+		for k := hi; k >= lo && !stop(); k-- {
+			one(k)
+		}
+	} else {
+		jobs := make(chan int)
+		var wg sync.WaitGroup
+		for w := 0; w < opt.Workers; w++ {
+			wg.Add(1)
+			go func() {
+				defer wg.Done()
+				for k := range jobs {
+					if !stop() {
+						one(k)
+					}
+				}
+			}()
+		}
+		for k := hi; k >= lo; k-- {
+			jobs <- k
+		}
+		close(jobs)
+		wg.Wait()
+	}
+	if stop() {
+		return fits
+	}
+	keep := func(k int, r kmeans.Result) bool {
+		if r.Cost < fits[k-lo].Cost*(1-1e-9) {
+			fits[k-lo] = r
+			return true
+		}
+		return false
+	}
+	for round := 0; round < sweepRounds; round++ {
+		improved := false
+		for k := max(lo, 2); k <= hi && !stop(); k++ {
+			if k-1 < lo {
+				continue
+			}
+			rng := opt.Rand(k)
+			for t := 0; t < sweepTries; t++ {
+				if init, ok := addCentre(p, fits[k-1-lo], rng); ok {
+					improved = keep(k, kmeans.Lloyd(p, init, opt.Lloyd)) || improved
+				}
+			}
+		}
+		for k := hi - 1; k >= lo && !stop(); k-- {
+			for _, init := range mergeCheapest(fits[k+1-lo], p.D, sweepTries) {
+				improved = keep(k, kmeans.Lloyd(p, init, opt.Lloyd)) || improved
+			}
+		}
+		if !improved {
+			break
+		}
+	}
+	return fits
+}
+
+// addCentre returns the centres of f plus one point of p chosen by the greedy k-means++ step, or
+// false when every point coincides with a centre.
+func addCentre(p kmeans.Data, f kmeans.Result, rng *rand.Rand) ([]float64, bool) {
+	d, m := p.D, p.Len()
+	if len(f.Labels) != m || f.Cost <= 0 {
+		return nil, false
+	}
+	d2 := make([]float64, m)
+	tot := 0.0
+	for i := 0; i < m; i++ {
+		l := int(f.Labels[i])
+		d2[i] = kmeans.Dist2(p.Point(i), f.Centres[l*d:l*d+d])
+		tot += p.Weight(i) * d2[i]
+	}
+	if !(tot > 0) {
+		return nil, false
+	}
+	trials := 2 + int(math.Log(float64(f.K+1)))
+	best, bestPot := -1, math.Inf(1)
+	for t := 0; t < trials; t++ {
+		u := rng.Float64() * tot
+		idx := -1
+		acc := 0.0
+		for i := 0; i < m; i++ {
+			v := p.Weight(i) * d2[i]
+			if v <= 0 {
+				continue
+			}
+			idx = i
+			acc += v
+			if u < acc {
+				break
+			}
+		}
+		if idx < 0 {
+			break
+		}
+		x := p.Point(idx)
+		pot := 0.0
+		for i := 0; i < m; i++ {
+			pot += p.Weight(i) * math.Min(d2[i], kmeans.Dist2(p.Point(i), x))
+		}
+		if pot < bestPot {
+			best, bestPot = idx, pot
+		}
+	}
+	if best < 0 {
+		return nil, false
+	}
+	c := make([]float64, 0, len(f.Centres)+d)
+	c = append(c, f.Centres...)
+	return append(c, p.Point(best)...), true
+}
+
+// mergeCheapest returns, for each of the (at most) m pairs of f's centres with the smallest
+// Ward merge cost, the k-1 centres after merging that pair into its weighted mean; nil when f has
+// fewer than two centres.
+func mergeCheapest(f kmeans.Result, d, m int) [][]float64 {
+	k := f.K
+	if k < 2 || len(f.Sizes) != k {
+		return nil
+	}
+	type pair struct {
+		a, b int
+		c    float64
+	}
+	var ps []pair
+	for a := 0; a < k; a++ {
+		for b := a + 1; b < k; b++ {
+			wa, wb := f.Sizes[a], f.Sizes[b]
+			var c float64
+			if wa+wb > 0 {
+				c = wa * wb / (wa + wb) * kmeans.Dist2(f.Centres[a*d:a*d+d], f.Centres[b*d:b*d+d])
+			}
+			ps = append(ps, pair{a, b, c})
+		}
+	}
+	slices.SortStableFunc(ps, func(x, y pair) int { return cmp.Compare(x.c, y.c) })
+	var out [][]float64
+	for _, q := range ps[:min(m, len(ps))] {
+		c := make([]float64, 0, (k-1)*d)
+		wa, wb := f.Sizes[q.a], f.Sizes[q.b]
+		for j := 0; j < k; j++ {
+			switch j {
+			case q.a:
+				for t := 0; t < d; t++ {
+					ca, cb := f.Centres[q.a*d+t], f.Centres[q.b*d+t]
+					if wa+wb > 0 {
+						c = append(c, (wa*ca+wb*cb)/(wa+wb))
+					} else {
+						c = append(c, ca)
+					}
+				}
+			case q.b:
+			default:
+				c = append(c, f.Centres[j*d:j*d+d]...)
+			}
+		}
+		out = append(out, c)
+	}
+	return out
+}

@@ -1,0 +1,109 @@
+package criteria
+
+import (
+	"math"
+	"math/rand/v2"
+	"testing"
+
+	"github.com/kgauge/kgauge/internal/kmeans"
+	"github.com/kgauge/kgauge/internal/refsets"
+)
+
+func readSet(t *testing.T, file string) kmeans.Data {
+	t.Helper()
+	x, d, err := refsets.Read("../testdata/refsets/" + file)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return kmeans.Data{X: x, D: d}
+}
+
+// TestFitSeedStability checks that Evaluate's fit at every k hardly depends on the seed: on
+// Fränti S4 (15 overlapping clusters) and A1 (20 clusters; Kärkkäinen & Fränti 2002, see
+// testdata/refsets/README.md), the WCSS of seeds 1..10 spreads by less than 1% of its smallest
+// value at each k (issue 12, item 8, the fit side). It logs the spread of the former policy
+// (the best of opt.Restarts k-means++ seedings alone) beside it.
+func TestFitSeedStability(t *testing.T) {
+	if testing.Short() {
+		t.Skip("ten seeds on two reference sets")
+	}
+	for _, tc := range []struct {
+		file string
+		maxK int
+	}{{"s4.txt", 20}, {"a1.txt", 25}} {
+		t.Run(tc.file, func(t *testing.T) {
+			p := readSet(t, tc.file)
+			s := ExactSummary(p)
+			nk := tc.maxK
+			lo, hi := make([]float64, nk), make([]float64, nk)
+			olo, ohi := make([]float64, nk), make([]float64, nk)
+			for i := range lo {
+				lo[i], olo[i] = math.Inf(1), math.Inf(1)
+			}
+			for seed := uint64(1); seed <= 10; seed++ {
+				opt := DefaultOptions()
+				opt.MaxK, opt.Seed = tc.maxK, seed
+				fits := mainFits(s, opt, 2, func() bool { return false })
+				for i, f := range fits {
+					lo[i], hi[i] = math.Min(lo[i], f.Cost), math.Max(hi[i], f.Cost)
+					k := i + 1
+					old := kmeans.Fit(p, k, kmeans.FitOptions{Restarts: opt.Restarts, Rand: rngFor(seed, k, streamFit)})
+					olo[i], ohi[i] = math.Min(olo[i], old.Cost), math.Max(ohi[i], old.Cost)
+				}
+			}
+			worst, worstOld, at, atOld := 0.0, 0.0, 0, 0
+			for i := range lo {
+				if sp := hi[i]/lo[i] - 1; sp > worst {
+					worst, at = sp, i+1
+				}
+				if sp := ohi[i]/olo[i] - 1; sp > worstOld {
+					worstOld, atOld = sp, i+1
+				}
+				if hi[i] > 1.01*lo[i] {
+					t.Errorf("k=%d: WCSS over seeds 1..10 spans %.6g..%.6g (%.2f%%)", i+1, lo[i], hi[i], 100*(hi[i]/lo[i]-1))
+				}
+			}
+			t.Logf("%s: largest WCSS spread over seeds 1..10: %.3f%% at k=%d (restarts alone: %.3f%% at k=%d)",
+				tc.file, 100*worst, at, 100*worstOld, atOld)
+		})
+	}
+}
+
+// TestFitPathSweeps checks the two sweeps on a case where independent restarts cannot help:
+// with no restarts and a deliberately bad start at k = 3 (all three centres in one of three
+// separated groups), the upward sweep from k = 2 or the downward sweep from k = 4 must find the
+// three groups.
+func TestFitPathSweeps(t *testing.T) {
+	rng := rand.New(rand.NewPCG(3, 3))
+	var x []float64
+	for _, c := range []float64{0, 10, 20} {
+		for i := 0; i < 100; i++ {
+			x = append(x, c+0.1*rng.NormFloat64(), 0.1*rng.NormFloat64())
+		}
+	}
+	p := kmeans.Data{X: x, D: 2}
+	bad := []float64{-0.1, 0, 0, 0, 0.1, 0}
+	fits := fitPath(p, 1, 4, pathOptions{
+		Restarts: 0,
+		Init: func(k int) [][]float64 {
+			if k == 3 {
+				return [][]float64{bad}
+			}
+			return nil
+		},
+		Rand: func(k int) *rand.Rand { return rand.New(rand.NewPCG(1, uint64(k))) },
+	})
+	alone := kmeans.Lloyd(p, bad, kmeans.LloydOptions{})
+	if got := fits[2].Cost; !(got < 0.1*alone.Cost) {
+		t.Errorf("k=3: path cost %.4g, Lloyd from the bad start alone %.4g; the sweeps did not help", got, alone.Cost)
+	}
+	// Three groups of 100 points with per-axis variance 0.01: W about 300 * 2 * 0.01 = 6.
+	if got := fits[2].Cost; got > 9 {
+		t.Errorf("k=3: path cost %.4g, want about 6", got)
+	}
+	for i := 1; i < len(fits); i++ {
+		if fits[i].Cost > fits[i-1].Cost*(1+1e-9) {
+			t.Errorf("k=%d: cost %.6g above k=%d's %.6g", i+1, fits[i].Cost, i, fits[i-1].Cost)
+		}
+	}
+}

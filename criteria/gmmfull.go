@@ -1,0 +1,300 @@
+package criteria
+
+import (
+	"fmt"
+	"math"
+
+	"gonum.org/v1/gonum/mat"
+
+	"github.com/kgauge/kgauge/internal/kmeans"
+)
+
+// GMMFull is a Gaussian mixture with full covariance matrices.
+type GMMFull struct {
+	K, D    int
+	Weights []float64 // K mixing proportions
+	Means   []float64 // K*D
+	Covs    []float64 // K*D*D, row-major, symmetric
+}
+
+// GMMFullParams returns the number of free parameters of a K-component full-covariance mixture in
+// D dimensions: (K - 1) + K D + K D (D + 1) / 2 (weights, means, covariances), as counted by
+// scikit-learn's GaussianMixture(covariance_type="full").
+func GMMFullParams(k, d int) int { return (k - 1) + k*d + k*d*(d+1)/2 }
+
+// pruneGap is the log-density margin below which a component's responsibility is taken as 0:
+// exp(-40) is about 4e-18, below the double-precision resolution of a sum of responsibilities.
+const pruneGap = 40
+
+// fullComp is a component prepared for density evaluation.
+type fullComp struct {
+	logc   float64   // ln pi_j - (D/2) ln 2 pi - (1/2) ln det Sigma_j
+	l      []float64 // Cholesky factor L (Sigma = L L^T), row-major lower triangle, D*D
+	invDia []float64 // 1 / L_tt
+	lmax   float64   // largest eigenvalue of Sigma_j (for the pruning bound)
+}
+
+// prepare factors every covariance. A covariance that is not positive definite gets reg added to
+// its diagonal, ten times more each time, up to six times; after that prepare fails.
+func (g GMMFull) prepare(reg float64) ([]fullComp, error) {
+	k, d := g.K, g.D
+	comps := make([]fullComp, k)
+	var ch mat.Cholesky
+	var es mat.EigenSym
+	var lt mat.TriDense
+	for j := 0; j < k; j++ {
+		cov := g.Covs[j*d*d : (j+1)*d*d]
+		sym := mat.NewSymDense(d, append([]float64(nil), cov...))
+		add := reg
+		ok := ch.Factorize(sym)
+		for try := 0; !ok && try < 6; try++ {
+			if add <= 0 {
+				add = 1e-12
+			}
+			for t := 0; t < d; t++ {
+				sym.SetSym(t, t, cov[t*d+t]+add)
+			}
+			ok = ch.Factorize(sym)
+			add *= 10
+		}
+		if !ok {
+			return nil, fmt.Errorf("criteria: covariance of mixture component %d is not positive definite", j)
+		}
+		ch.LTo(&lt)
+		c := fullComp{l: make([]float64, d*d), invDia: make([]float64, d)}
+		logdet := 0.0
+		for a := 0; a < d; a++ {
+			for b := 0; b <= a; b++ {
+				c.l[a*d+b] = lt.At(a, b)
+			}
+			c.invDia[a] = 1 / c.l[a*d+a]
+			logdet += 2 * math.Log(c.l[a*d+a])
+		}
+		if es.Factorize(sym, false) {
+			v := es.Values(nil)
+			c.lmax = v[len(v)-1]
+		}
+		if !(c.lmax > 0) {
+			c.lmax = math.Inf(1) // no pruning for this component
+		}
+		c.logc = math.Log(g.Weights[j]) - 0.5*float64(d)*math.Log(2*math.Pi) - 0.5*logdet
+		comps[j] = c
+	}
+	return comps, nil
+}
+
+// mahalanobis returns (x - mu)^T Sigma^-1 (x - mu) = ||L^-1 (x - mu)||^2 by forward substitution;
+// z is scratch of length D.
+func (c *fullComp) mahalanobis(x, mu, z []float64) float64 {
+	d := len(x)
+	q := 0.0
+	for a := 0; a < d; a++ {
+		row := c.l[a*d : a*d+a]
+		s := x[a] - mu[a]
+		for b, v := range row {
+			s -= v * z[b]
+		}
+		s *= c.invDia[a]
+		z[a] = s
+		q += s * s
+	}
+	return q
+}
+
+// LogLik returns the weighted log-likelihood sum_i w_i ln sum_j pi_j N(x_i | mu_j, Sigma_j),
+// computed with the log-sum-exp trick. resp, if not nil (len n*K), receives the
+// responsibilities; a component more than e^40 less likely than another at a point (by a bound
+// from the Euclidean distance and the largest eigenvalue of its covariance, or exactly) gets
+// responsibility 0 there without its Mahalanobis distance being computed. It fails when a
+// covariance is not positive definite.
+func (g GMMFull) LogLik(p kmeans.Data, resp []float64) (float64, error) {
+	comps, err := g.prepare(0)
+	if err != nil {
+		return 0, err
+	}
+	return g.logLik(p, comps, resp), nil
+}
+
+func (g GMMFull) logLik(p kmeans.Data, comps []fullComp, resp []float64) float64 {
+	k, d := g.K, g.D
+	lr := make([]float64, k)
+	ub := make([]float64, k)
+	exact := make([]bool, k)
+	z := make([]float64, d)
+	ll := 0.0
+	for i := 0; i < p.Len(); i++ {
+		x := p.Point(i)
+		// Upper bounds ln pi_j N <= logc_j - ||x - mu_j||^2 / (2 lmax_j); the best bound is
+		// computed exactly first.
+		top := 0
+		for j := 0; j < k; j++ {
+			ub[j] = comps[j].logc - 0.5*kmeans.Dist2(x, g.Means[j*d:j*d+d])/comps[j].lmax
+			if ub[j] > ub[top] {
+				top = j
+			}
+			exact[j] = false
+		}
+		lr[top] = comps[top].logc - 0.5*comps[top].mahalanobis(x, g.Means[top*d:top*d+d], z)
+		exact[top] = true
+		mx := lr[top]
+		for j := 0; j < k; j++ {
+			if j == top || ub[j] < mx-pruneGap {
+				continue
+			}
+			lr[j] = comps[j].logc - 0.5*comps[j].mahalanobis(x, g.Means[j*d:j*d+d], z)
+			exact[j] = true
+			if lr[j] > mx {
+				mx = lr[j]
+			}
+		}
+		s := 0.0
+		for j := 0; j < k; j++ {
+			if exact[j] {
+				s += math.Exp(lr[j] - mx)
+			}
+		}
+		lse := mx + math.Log(s)
+		ll += p.Weight(i) * lse
+		if resp != nil {
+			r := resp[i*k : i*k+k]
+			for j := 0; j < k; j++ {
+				r[j] = 0
+				if exact[j] && lr[j]-lse > -pruneGap {
+					r[j] = math.Exp(lr[j] - lse)
+				}
+			}
+		}
+	}
+	return ll
+}
+
+// GMMFullFit fits a full-covariance Gaussian mixture to the weighted points by EM (Dempster,
+// Laird & Rubin 1977) started from a k-means solution: weights = cluster weight shares, means =
+// the k-means centres, covariances = weighted within-cluster covariances, each + opt.Reg on the
+// diagonal (scikit-learn's reg_covar). Each M step uses weighted responsibilities w_i r_ij and
+// adds opt.Reg to every covariance's diagonal; a component whose weight falls below 1e-12 of the
+// total keeps its previous mean and covariance. EM stops when the log-likelihood per unit weight
+// changes by <= opt.Tol or after opt.MaxIter iterations. It returns the model, its weighted
+// log-likelihood on p and the number of EM iterations, or an error when a covariance cannot be
+// factored.
+func GMMFullFit(p kmeans.Data, init kmeans.Result, opt GMMOptions) (GMMFull, float64, int, error) {
+	if opt.MaxIter <= 0 {
+		opt.MaxIter = 100
+	}
+	if opt.Tol <= 0 {
+		opt.Tol = 1e-4
+	}
+	if opt.Reg <= 0 {
+		opt.Reg = 1e-6
+	}
+	d, k, n := p.D, init.K, p.Len()
+	dd := d * d
+	g := GMMFull{K: k, D: d, Weights: make([]float64, k), Means: append([]float64(nil), init.Centres...),
+		Covs: make([]float64, k*dd)}
+	W := p.TotalWeight()
+	for i, l := range init.Labels {
+		w := p.Weight(i)
+		x := p.Point(i)
+		m := g.Means[int(l)*d : int(l)*d+d]
+		c := g.Covs[int(l)*dd : int(l)*dd+dd]
+		for a := 0; a < d; a++ {
+			ea := w * (x[a] - m[a])
+			row := c[a*d : a*d+d]
+			for b := a; b < d; b++ {
+				row[b] += ea * (x[b] - m[b])
+			}
+		}
+		g.Weights[l] += w
+	}
+	for j := 0; j < k; j++ {
+		c := g.Covs[j*dd : j*dd+dd]
+		for a := 0; a < d; a++ {
+			for b := a; b < d; b++ {
+				v := 0.0
+				if g.Weights[j] > 0 {
+					v = c[a*d+b] / g.Weights[j]
+				}
+				c[a*d+b], c[b*d+a] = v, v
+			}
+			c[a*d+a] += opt.Reg
+		}
+		g.Weights[j] /= W
+		if g.Weights[j] <= 0 {
+			g.Weights[j] = 1e-300 // an empty k-means cluster: a component with no weight
+		}
+	}
+	resp := make([]float64, n*k)
+	nk := make([]float64, k)
+	sums, sq := make([]float64, k*d), make([]float64, k*dd)
+	e := make([]float64, d)
+	prev := math.Inf(-1)
+	ll := 0.0
+	iters := 0
+	for it := 1; it <= opt.MaxIter; it++ {
+		comps, err := g.prepare(opt.Reg)
+		if err != nil {
+			return g, math.NaN(), iters, err
+		}
+		ll = g.logLik(p, comps, resp)
+		iters = it
+		if math.Abs(ll-prev) <= opt.Tol*W {
+			break
+		}
+		prev = ll
+		// M step in one pass: scatter about the previous means m0, shifted afterwards,
+		// Sigma = E[(x - m0)(x - m0)^T] - (mu - m0)(mu - m0)^T.
+		clear(nk)
+		clear(sums)
+		clear(sq)
+		for i := 0; i < n; i++ {
+			w := p.Weight(i)
+			x := p.Point(i)
+			r := resp[i*k : i*k+k]
+			for j := 0; j < k; j++ {
+				wr := w * r[j]
+				if wr == 0 {
+					continue
+				}
+				nk[j] += wr
+				s := sums[j*d : j*d+d]
+				m0 := g.Means[j*d : j*d+d]
+				for t, v := range x {
+					e[t] = v - m0[t]
+					s[t] += wr * e[t]
+				}
+				q := sq[j*dd : j*dd+dd]
+				for a := 0; a < d; a++ {
+					ea := wr * e[a]
+					row := q[a*d+a : a*d+d]
+					for b, eb := range e[a:] {
+						row[b] += ea * eb
+					}
+				}
+			}
+		}
+		for j := 0; j < k; j++ {
+			g.Weights[j] = nk[j] / W
+			if nk[j] <= 1e-12*W {
+				g.Weights[j] = math.Max(g.Weights[j], 1e-300)
+				continue // keep the previous mean and covariance
+			}
+			sh := sums[j*d : j*d+d]
+			for t := range sh {
+				sh[t] /= nk[j]
+			}
+			c := g.Covs[j*dd : j*dd+dd]
+			q := sq[j*dd : j*dd+dd]
+			for a := 0; a < d; a++ {
+				for b := a; b < d; b++ {
+					v := q[a*d+b]/nk[j] - sh[a]*sh[b]
+					c[a*d+b], c[b*d+a] = v, v
+				}
+				c[a*d+a] += opt.Reg
+			}
+			for t := range sh {
+				g.Means[j*d+t] += sh[t]
+			}
+		}
+	}
+	return g, ll, iters, nil
+}
