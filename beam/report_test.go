@@ -121,7 +121,7 @@ func TestBeamReport(t *testing.T) {
 	fmt.Fprintf(&b, "One demo partition (invented data: `synth` loads, %d rows, 24 feature columns, row groups of %d rows, %d work items),\n", o.Rows, o.RowGroup, rows[1].units)
 	fmt.Fprintf(&b, "options `--max-k 6 --coreset 2000 --gap-refs 5 --gap-sample 500 --anchors 200`. Cores are GOMAXPROCS of the one\n")
 	fmt.Fprintf(&b, "test process (prism runs its loopback worker in-process); the library uses as many `--workers`. Seconds, median of %d runs,\n", runs)
-	fmt.Fprintf(&b, "measured side by side in one run on a shared 2-core machine (see /work/shared/PERF-NOTES.md).\n\n")
+	fmt.Fprintf(&b, "measured side by side in one run on a shared 2-core machine (see the developers' performance notes, PERF-NOTES.md, kept beside the repository).\n\n")
 	fmt.Fprintf(&b, "| path | cores | wall s | pass s (incl. open, probe) | criteria s | k |\n| --- | --- | --- | --- | --- | --- |\n")
 	for _, r := range rows {
 		fmt.Fprintf(&b, "| %s | %d | %.2f | %.2f | %.2f | %d |\n", r.name, r.cores, median(r.wall), median(r.pass), median(r.crit), r.k)

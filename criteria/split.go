@@ -13,7 +13,7 @@ import (
 // splitThreshold is the prediction strength a k must keep to be called stable: Tibshirani &
 // Walther (2005), "Cluster validation by prediction strength", JCGS 14(3):511-528, suggest choosing
 // the largest k whose prediction strength is at least 0.8 to 0.9 (as summarised in
-// /work/shared/METHODS.md section 8); we take 0.8, the low end, because our halves are small
+// the developers' methods notes (METHODS.md, kept beside the repository) section 8); we take 0.8, the low end, because our halves are small
 // samples and the minimum over clusters is noisy for small clusters.
 const splitThreshold = 0.8
 

@@ -12,7 +12,7 @@ import (
 
 // The five simulation scenarios of Tibshirani, Walther & Hastie (2001), "Estimating the number of
 // clusters in a data set via the gap statistic", JRSS-B 63(2):411-423, section 6 (parameters as
-// summarised in /work/shared/METHODS.md §1.3, from memory of the paper plus a public replication):
+// summarised in the developers' methods notes (METHODS.md, kept beside the repository) §1.3, from memory of the paper plus a public replication):
 //
 //	(a) null: 200 points uniform on the unit cube in 10 dimensions (true k = 1);
 //	(b) 3 clusters in 2 dims: 25, 25, 50 standard-normal points at (0,0), (0,5), (5,-3);

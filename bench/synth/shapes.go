@@ -8,7 +8,7 @@ import (
 
 // Scenario returns one realization of a simulation scenario of Tibshirani, Walther & Hastie
 // (2001), "Estimating the number of clusters in a data set via the gap statistic", JRSS-B
-// 63(2):411-423, section 6 (parameters as summarised in /work/shared/METHODS.md §1.3, from memory
+// 63(2):411-423, section 6 (parameters as summarised in the developers' methods notes (METHODS.md, kept beside the repository) §1.3, from memory
 // of the paper), as row-major points, their dimension and the true k:
 //
 //	'a' null: 200 points uniform on the unit cube in 10 dimensions (k = 1);
