@@ -34,13 +34,6 @@ func TestOneClusterShapesSayOne(t *testing.T) {
 	shapes = append(shapes, shape{"scenario (a)", x, d})
 	for _, sh := range shapes {
 		t.Run(sh.name, func(t *testing.T) {
-			if sh.name == "correlated" {
-				// The diagonal bic_gmm, bic_kmeans and gap_box all call a correlated cluster several
-				// groups, and the grid holds multi-cluster runs with the very same stage-1 votes
-				// (scenario (d), 10-dimensional elongated mixtures), so no weighting of today's voters
-				// separates them. Issue 12 item 1's full-covariance BIC does; re-run the grid after it.
-				t.Skip("needs the full-covariance bic_gmm (issue 12 item 1) and a grid re-run")
-			}
 			w := (&Workload{Name: sh.name, K: 1, D: sh.d, X: sh.x}).finish(5)
 			s, err := summaryOf(w, sketchSpec{Coreset: 1000, Sample: 4096, MinK: 1, MaxK: 10, Seed: 3})
 			if err != nil {
