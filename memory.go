@@ -78,14 +78,17 @@ func (o Options) fitMemory(d int) (Options, error) {
 	return o, nil
 }
 
-// ParseBytes reads a size such as 512MiB, 2GiB, 800MB or 1048576.
+// ParseBytes reads a size such as 512MiB, 2GiB, 800MB or 1048576. A bare K, M, G or T is binary
+// (512M = 512MiB, 2G = 2GiB), as in most command-line tools (common practice); KB, MB, GB and TB
+// are decimal.
 func ParseBytes(s string) (int64, error) {
 	t := strings.TrimSpace(s)
 	mult := int64(1)
 	for _, u := range []struct {
 		suffix string
 		mult   int64
-	}{{"KiB", 1 << 10}, {"MiB", 1 << 20}, {"GiB", 1 << 30}, {"TiB", 1 << 40}, {"KB", 1e3}, {"MB", 1e6}, {"GB", 1e9}, {"TB", 1e12}, {"B", 1}} {
+	}{{"KiB", 1 << 10}, {"MiB", 1 << 20}, {"GiB", 1 << 30}, {"TiB", 1 << 40}, {"KB", 1e3}, {"MB", 1e6}, {"GB", 1e9}, {"TB", 1e12},
+		{"K", 1 << 10}, {"M", 1 << 20}, {"G", 1 << 30}, {"T", 1 << 40}, {"B", 1}} {
 		if strings.HasSuffix(t, u.suffix) {
 			t, mult = strings.TrimSpace(strings.TrimSuffix(t, u.suffix)), u.mult
 			break
