@@ -25,10 +25,7 @@ func TestInterruptEveryStage(t *testing.T) {
 		t.Skip("builds the binary and writes test files")
 	}
 	dir := t.TempDir()
-	bin := filepath.Join(dir, "kgauge")
-	if out, err := exec.Command("go", "build", "-o", bin, ".").CombinedOutput(); err != nil {
-		t.Fatalf("go build: %v\n%s", err, out)
-	}
+	bin := buildKgauge(t, dir)
 	mix := func(name string, rows, dims int) string {
 		p := filepath.Join(dir, name)
 		opt := synth.DefaultMixtureOptions()

@@ -25,10 +25,7 @@ func TestInterrupt(t *testing.T) {
 		t.Skip("builds the binary and writes a 250 MB file")
 	}
 	dir := t.TempDir()
-	bin := filepath.Join(dir, "kgauge")
-	if out, err := exec.Command("go", "build", "-o", bin, ".").CombinedOutput(); err != nil {
-		t.Fatalf("go build: %v\n%s", err, out)
-	}
+	bin := buildKgauge(t, dir)
 	data := filepath.Join(dir, "big.parquet")
 	opt := synth.DefaultMixtureOptions()
 	opt.Rows = 2_000_000
@@ -87,4 +84,14 @@ func TestInterrupt(t *testing.T) {
 			}
 		})
 	}
+}
+
+// buildKgauge builds the kgauge binary into dir and returns its path.
+func buildKgauge(t *testing.T, dir string) string {
+	t.Helper()
+	bin := filepath.Join(dir, "kgauge")
+	if out, err := exec.Command("go", "build", "-o", bin, ".").CombinedOutput(); err != nil {
+		t.Fatalf("go build: %v\n%s", err, out)
+	}
+	return bin
 }
