@@ -14,6 +14,8 @@ type arrowColumn struct {
 	name  string
 	id    arrow.Type
 	scale int32 // decimals
+	out   int   // first dimension of the row it fills
+	width int   // vector columns: the length of every list; 0 for a scalar column
 }
 
 func (d *Dataset) openArrow(i int, fh Handle, f Format) ([]colInfo, error) {
@@ -64,7 +66,15 @@ func classifyArrow(fd arrow.Field) colInfo {
 	case arrow.DATE32, arrow.DATE64, arrow.TIMESTAMP, arrow.TIME32, arrow.TIME64,
 		arrow.DURATION, arrow.INTERVAL_MONTHS, arrow.INTERVAL_DAY_TIME, arrow.INTERVAL_MONTH_DAY_NANO:
 		ci.reason = "temporal"
-	case arrow.LIST, arrow.LARGE_LIST, arrow.FIXED_SIZE_LIST, arrow.LIST_VIEW, arrow.LARGE_LIST_VIEW,
+	case arrow.LIST, arrow.LARGE_LIST, arrow.FIXED_SIZE_LIST:
+		if lt, ok := fd.Type.(arrow.ListLikeType); ok {
+			if e := lt.Elem().ID(); e == arrow.FLOAT32 || e == arrow.FLOAT64 {
+				ci.vector = true
+				return ci
+			}
+		}
+		ci.reason, ci.nonRoot = "nested", true
+	case arrow.LIST_VIEW, arrow.LARGE_LIST_VIEW,
 		arrow.STRUCT, arrow.MAP, arrow.SPARSE_UNION, arrow.DENSE_UNION, arrow.RUN_END_ENCODED:
 		ci.reason, ci.nonRoot = "nested", true
 	case arrow.DICTIONARY:
@@ -82,6 +92,7 @@ func classifyArrow(fd arrow.Field) colInfo {
 // arrowSource reads one Arrow IPC-file record batch or a whole IPC stream.
 type arrowSource struct {
 	cols    []arrowColumn
+	names   []string // name of each dimension of a row
 	field   []int // field index of each selected column in the unit's schema
 	scratch [][]float64
 
@@ -139,7 +150,7 @@ func (d *Dataset) openArrowFileUnit(of *openFile, u Unit, fh Handle) (*arrowSour
 	if u.Index < 0 || u.Index >= fr.NumRecords() {
 		return nil, fmt.Errorf("no record batch %d", u.Index)
 	}
-	s := &arrowSource{cols: of.arCols}
+	s := &arrowSource{cols: of.arCols, names: d.Columns}
 	if err := s.resolve(fr.Schema()); err != nil {
 		return nil, s.named(err)
 	}
@@ -163,7 +174,7 @@ func (d *Dataset) openArrowStreamUnit(of *openFile, fh Handle) (*arrowSource, er
 	if err != nil {
 		return nil, err
 	}
-	s := &arrowSource{cols: of.arCols, rd: rd}
+	s := &arrowSource{cols: of.arCols, names: d.Columns, rd: rd}
 	if err := s.resolve(rd.Schema()); err != nil {
 		rd.Release()
 		return nil, s.named(err)
@@ -181,7 +192,7 @@ func (s *arrowSource) named(err error) error {
 	return err
 }
 
-func (s *arrowSource) column(c int) string { return s.cols[c].name }
+func (s *arrowSource) column(c int) string { return s.names[c] }
 
 // advance makes s.rec a record with rows left, or sets done.
 func (s *arrowSource) advance() error {
@@ -212,11 +223,18 @@ func (s *arrowSource) fill(dst []float64, bad []uint8, rows int) (int, error) {
 		return 0, nil
 	}
 	m := min(rows, int(s.rec.NumRows())-s.pos)
-	d := len(s.cols)
-	for c := range s.cols {
+	d := len(s.names)
+	for c, col := range s.cols {
 		arr := s.rec.Column(s.field[c])
-		if inf := s.put(c, arr, dst, c, d, s.pos, m, bad[:m]); inf >= 0 {
-			return 0, &colError{col: c, row: int64(inf), err: ErrInfinite}
+		if col.width > 0 {
+			err := putVector(col, arr, s.pos, m, bad, func(r, j int, v float64) { dst[r*d+col.out+j] = v })
+			if err != nil {
+				return 0, err
+			}
+			continue
+		}
+		if inf := s.put(c, arr, dst, col.out, d, s.pos, m, bad[:m]); inf >= 0 {
+			return 0, &colError{col: col.out, row: int64(inf), err: ErrInfinite}
 		}
 	}
 	s.pos += m
@@ -231,17 +249,28 @@ func (s *arrowSource) fillColumns(cols, scratch [][]float64, bad []uint8, rows i
 		return 0, nil
 	}
 	m := min(rows, int(s.rec.NumRows())-s.pos)
-	for c := range s.cols {
+	for c, col := range s.cols {
 		arr := s.rec.Column(s.field[c])
+		o := col.out
+		if col.width > 0 {
+			for j := range col.width {
+				cols[o+j] = scratch[o+j][:m]
+			}
+			err := putVector(col, arr, s.pos, m, bad, func(r, j int, v float64) { cols[o+j][r] = v })
+			if err != nil {
+				return 0, err
+			}
+			continue
+		}
 		var inf int
 		if a, ok := arr.(*array.Float64); ok && arr.NullN() == 0 {
-			inf = viewDense(&cols[c], a.Float64Values()[s.pos:s.pos+m], bad)
+			inf = viewDense(&cols[o], a.Float64Values()[s.pos:s.pos+m], bad)
 		} else {
-			cols[c] = scratch[c][:m]
-			inf = s.put(c, arr, cols[c], 0, 1, s.pos, m, bad[:m])
+			cols[o] = scratch[o][:m]
+			inf = s.put(c, arr, cols[o], 0, 1, s.pos, m, bad[:m])
 		}
 		if inf >= 0 {
-			return 0, &colError{col: c, row: int64(inf), err: ErrInfinite}
+			return 0, &colError{col: o, row: int64(inf), err: ErrInfinite}
 		}
 	}
 	s.pos += m

@@ -66,6 +66,7 @@ type colInfo struct {
 	typ     string
 	reason  string // why it cannot be a feature; "" when numeric
 	nonRoot bool   // nested: an error when named, whatever the type
+	vector  bool   // a list of floats: a feature of its lists' length when named (see vector.go)
 	pq      pqColumn
 	ar      arrowColumn
 }
@@ -101,7 +102,7 @@ func Open(files []File, opt Options) (ds *Dataset, err error) {
 	var sel []string
 	if len(opt.Columns) == 0 {
 		for _, c := range first {
-			if c.reason == "" {
+			if c.reason == "" && !c.vector {
 				sel = append(sel, c.name)
 			}
 		}
@@ -129,8 +130,10 @@ func Open(files []File, opt Options) (ds *Dataset, err error) {
 	for _, name := range sel {
 		selected[name] = true
 	}
+	widths := make(map[string]int) // vector columns: the length of their lists in the first file
 	for i, f := range files {
 		of := &d.files[i]
+		out := 0 // the first dimension of the next column
 		for _, name := range sel {
 			c, ok := find(infos[i], name)
 			if !ok {
@@ -139,16 +142,39 @@ func Open(files []File, opt Options) (ds *Dataset, err error) {
 			if c.reason != "" {
 				return nil, newError(f.Path, name, fmt.Errorf("%w: %s (%s)", ErrNotNumeric, c.typ, c.reason))
 			}
+			width := 0
+			if c.vector {
+				if width, err = d.vectorWidth(i, c); err != nil {
+					return nil, newError(f.Path, name, err)
+				}
+				if w, ok := widths[name]; ok && w != width {
+					return nil, newError(f.Path, name, fmt.Errorf("%w: lists of %d values here, of %d in %s", ErrVectorLength, width, w, files[0].Path))
+				}
+				widths[name] = width
+			}
 			if f.Format == Parquet {
 				if err := checkCodecs(of.pq, c.pq.leaf); err != nil {
 					return nil, newError(f.Path, name, err)
 				}
-				of.pqCols = append(of.pqCols, c.pq)
+				plan := c.pq
+				plan.name, plan.out, plan.width = name, out, width
+				of.pqCols = append(of.pqCols, plan)
 			} else {
-				of.arCols = append(of.arCols, c.ar)
+				plan := c.ar
+				plan.out, plan.width = out, width
+				of.arCols = append(of.arCols, plan)
 			}
-			if i == 0 {
+			out += max(width, 1)
+			if i > 0 {
+				continue
+			}
+			if width == 0 {
 				d.Columns = append(d.Columns, name)
+				d.Types = append(d.Types, c.typ)
+				continue
+			}
+			for j := range width {
+				d.Columns = append(d.Columns, vectorName(name, j))
 				d.Types = append(d.Types, c.typ)
 			}
 		}
@@ -163,6 +189,8 @@ func Open(files []File, opt Options) (ds *Dataset, err error) {
 			reason := c.reason
 			switch {
 			case reason != "":
+			case c.vector && i == 0:
+				reason = "a vector column: name it with --columns to read it"
 			case i > 0:
 				reason = "not in the first file"
 			default:

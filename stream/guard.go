@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"math/bits"
 
 	"github.com/apache/arrow/go/v17/arrow/ipc"
 	"github.com/apache/arrow/go/v17/arrow/memory"
@@ -237,7 +238,7 @@ func checkColumnChunk(fh io.ReaderAt, start, total, footerAt, rows int64, shape 
 		case h.DictionaryPageHeader.Valid:
 			values = int64(h.DictionaryPageHeader.V.NumValues)
 		}
-		if values < 0 || values > maxPageValues || !h.DictionaryPageHeader.Valid && values > max(rows, 0) {
+		if values < 0 || values > maxPageValues || !h.DictionaryPageHeader.Valid && values > shape.valueBound(rows) {
 			return corruptf("page at %d claims %d values (row group of %d rows, bound %d)", pos, values, rows, maxPageValues)
 		}
 		if err := shape.checkPage(fh, &h, pos+int64(n), comp, values, &body); err != nil {
@@ -269,7 +270,22 @@ func checkCodecs(pf *parquet.File, leaf int) error {
 // chunkShape is what checkColumnChunk needs to know of a column chunk to walk its pages' runs.
 type chunkShape struct {
 	codec  format.CompressionCodec
-	maxDef byte // 0 for a required column, 1 for an optional one (nested columns are not read)
+	maxDef byte // 0 for a required column, 1 for an optional one, up to 3 for a vector column
+	maxRep byte // 1 for a vector (list) column, else 0
+	// listLen is a vector column's list length: a page holds at most rows × listLen levels. 0 for a
+	// scalar column (at most rows values); -1 while the length is not known yet.
+	listLen int64
+}
+
+// valueBound is the most values (levels) a data page of a chunk of rows rows may claim.
+func (c chunkShape) valueBound(rows int64) int64 {
+	switch {
+	case c.listLen < 0:
+		return maxPageValues
+	case c.listLen > 0:
+		return max(rows, 0) * c.listLen
+	}
+	return max(rows, 0)
 }
 
 // pageBody holds the buffers checkRuns reuses from page to page.
@@ -280,18 +296,20 @@ type pageBody struct{ raw, plain []byte }
 // indexes of a dictionary-encoded page; values is the page's value count, nulls included.
 func (c chunkShape) checkPage(fh io.ReaderAt, h *format.PageHeader, off, comp, values int64, b *pageBody) error {
 	var dict, levels, v2 bool
-	var defLen int64
+	var defLen, repLen int64
+	defBits, repBits := bits.Len8(c.maxDef), bits.Len8(c.maxRep)
 	switch {
 	case h.DataPageHeader.Valid:
 		v := &h.DataPageHeader.V
 		dict = v.Encoding == format.RLEDictionary || v.Encoding == format.PlainDictionary
-		levels = c.maxDef > 0 && v.DefinitionLevelEncoding == format.RLE
+		levels = c.maxDef > 0 && v.DefinitionLevelEncoding == format.RLE &&
+			(c.maxRep == 0 || v.RepetitionLevelEncoding == format.RLE)
 	case h.DataPageHeaderV2.Valid:
 		v := &h.DataPageHeaderV2.V
 		dict, levels, v2 = v.Encoding == format.RLEDictionary || v.Encoding == format.PlainDictionary, c.maxDef > 0, true
-		defLen = int64(v.DefinitionLevelsByteLength)
-		if v.RepetitionLevelsByteLength != 0 || defLen < 0 || defLen > comp {
-			return corruptf("level lengths %d and %d do not fit in %d bytes", v.RepetitionLevelsByteLength, defLen, comp)
+		defLen, repLen = int64(v.DefinitionLevelsByteLength), int64(v.RepetitionLevelsByteLength)
+		if c.maxRep == 0 && repLen != 0 || repLen < 0 || defLen < 0 || repLen+defLen > comp {
+			return corruptf("level lengths %d and %d do not fit in %d bytes", repLen, defLen, comp)
 		}
 	}
 	if !dict && !levels {
@@ -309,12 +327,17 @@ func (c chunkShape) checkPage(fh io.ReaderAt, h *format.PageHeader, off, comp, v
 	data, size := raw, int64(h.UncompressedPageSize)
 	compressed := c.codec != format.Uncompressed
 	if v2 {
-		if levels {
-			if err := checkHybrid(raw[:defLen], 1, values, "definition levels"); err != nil {
+		if c.maxRep > 0 {
+			if err := checkHybrid(raw[:repLen], repBits, values, "repetition levels"); err != nil {
 				return err
 			}
 		}
-		data, size = raw[defLen:], size-defLen
+		if levels {
+			if err := checkHybrid(raw[repLen:repLen+defLen], defBits, values, "definition levels"); err != nil {
+				return err
+			}
+		}
+		data, size = raw[repLen+defLen:], size-repLen-defLen
 		if h.DataPageHeaderV2.V.IsCompressed.Valid && !h.DataPageHeaderV2.V.IsCompressed.V {
 			compressed = false
 		}
@@ -329,17 +352,26 @@ func (c chunkShape) checkPage(fh io.ReaderAt, h *format.PageHeader, off, comp, v
 		}
 	}
 	if !v2 && levels {
-		if len(data) < 4 {
-			return nil // parquet-go reports the truncation itself
+		for _, lv := range []struct {
+			bits int
+			what string
+			skip bool
+		}{{repBits, "repetition levels", c.maxRep == 0}, {defBits, "definition levels", false}} {
+			if lv.skip {
+				continue
+			}
+			if len(data) < 4 {
+				return nil // parquet-go reports the truncation itself
+			}
+			l := int64(binary.LittleEndian.Uint32(data))
+			if l > int64(len(data)-4) {
+				return nil
+			}
+			if err := checkHybrid(data[4:4+l], lv.bits, values, lv.what); err != nil {
+				return err
+			}
+			data = data[4+l:]
 		}
-		l := int64(binary.LittleEndian.Uint32(data))
-		if l > int64(len(data)-4) {
-			return nil
-		}
-		if err := checkHybrid(data[4:4+l], 1, values, "definition levels"); err != nil {
-			return err
-		}
-		data = data[4+l:]
 	} else if !v2 && c.maxDef > 0 {
 		return nil // bit-packed levels of unknown length: the indexes cannot be found
 	}

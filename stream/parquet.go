@@ -41,6 +41,13 @@ type pqColumn struct {
 	maxDef byte
 	scale  int32
 	div    float64 // 10^scale for kDec32 and kDec64
+	name   string  // the column's name
+	out    int     // first dimension of the row it fills
+	// Vector (list) columns only: the list length, the definition level at which a row's list has
+	// an entry, and the maximum repetition level (1).
+	width  int
+	defRep byte
+	maxRep byte
 }
 
 func (d *Dataset) openParquet(i int, fh Handle, size int64) ([]colInfo, error) {
@@ -72,6 +79,17 @@ func (d *Dataset) openParquet(i int, fh Handle, size int64) ([]colInfo, error) {
 			return nil, newError(path, "", errors.New("malformed Parquet schema"))
 		}
 		e := &schema[idx]
+		if ci, ok := classifyParquetList(schema, idx); ok {
+			n, leaves, err := subtree(schema, idx)
+			if err != nil {
+				return nil, newError(path, "", err)
+			}
+			ci.pq.leaf = leaf
+			cols = append(cols, ci)
+			idx += n
+			leaf += leaves
+			continue
+		}
 		if e.NumChildren.Valid && e.NumChildren.V > 0 {
 			n, leaves, err := subtree(schema, idx)
 			if err != nil {
@@ -288,8 +306,10 @@ func columnChunkBytes(pf *parquet.File, rowGroup, leaf int) int64 {
 
 // pqSource reads one Parquet row group.
 type pqSource struct {
-	cols      []pqCursor
-	remaining int64 // rows of the row group not yet read
+	cols      []pqCursor // scalar columns
+	vecs      []pqVector // vector (list) columns
+	names     []string   // name of each dimension of a row
+	remaining int64      // rows of the row group not yet read
 }
 
 // Source modes of a pqCursor's current page.
@@ -305,7 +325,6 @@ const (
 
 // pqCursor walks the pages of one column chunk.
 type pqCursor struct {
-	name  string
 	plan  pqColumn
 	pages *parquet.FilePages
 
@@ -344,9 +363,9 @@ func (d *Dataset) openParquetUnit(of *openFile, u Unit, fh Handle) (*pqSource, e
 	if u.Index >= len(meta) {
 		return nil, fmt.Errorf("no row group %d in the footer", u.Index)
 	}
-	for c, plan := range of.pqCols {
+	for _, plan := range of.pqCols {
 		if plan.leaf >= len(meta[u.Index].Columns) || plan.leaf >= len(chunks) {
-			return nil, &ReadError{File: d.Files[u.File].Path, Unit: u.Index, Row: -1, Column: d.Columns[c],
+			return nil, &ReadError{File: d.Files[u.File].Path, Unit: u.Index, Row: -1, Column: plan.name,
 				Err: corruptf("row group %d has no column chunk %d", u.Index, plan.leaf)}
 		}
 		cm := &meta[u.Index].Columns[plan.leaf].MetaData
@@ -354,19 +373,24 @@ func (d *Dataset) openParquetUnit(of *openFile, u Unit, fh Handle) (*pqSource, e
 		if cm.DictionaryPageOffset != 0 { // as parquet-go's FilePages does
 			start = cm.DictionaryPageOffset
 		}
-		if err := checkColumnChunk(fh, start, cm.TotalCompressedSize, min(of.footerAt, size), rg.NumRows(),
-			chunkShape{codec: cm.Codec, maxDef: plan.maxDef}); err != nil {
-			return nil, &ReadError{File: d.Files[u.File].Path, Unit: u.Index, Row: -1, Column: d.Columns[c],
+		shape := chunkShape{codec: cm.Codec, maxDef: plan.maxDef, maxRep: plan.maxRep, listLen: int64(plan.width)}
+		if err := checkColumnChunk(fh, start, cm.TotalCompressedSize, min(of.footerAt, size), rg.NumRows(), shape); err != nil {
+			return nil, &ReadError{File: d.Files[u.File].Path, Unit: u.Index, Row: -1, Column: plan.name,
 				Err: fmt.Errorf("row group %d: %w", u.Index, err)}
 		}
 	}
-	s := &pqSource{cols: make([]pqCursor, len(of.pqCols)), remaining: rg.NumRows()}
-	for c, plan := range of.pqCols {
+	s := &pqSource{names: d.Columns, remaining: rg.NumRows()}
+	for _, plan := range of.pqCols {
 		fc, ok := chunks[plan.leaf].(*parquet.FileColumnChunk)
 		if !ok {
+			s.close()
 			return nil, fmt.Errorf("column chunk %d is not a file column chunk", plan.leaf)
 		}
-		s.cols[c] = pqCursor{name: d.Columns[c], plan: plan, pages: fc.PagesFrom(fh)}
+		if plan.width > 0 {
+			s.vecs = append(s.vecs, pqVector{plan: plan, pages: fc.PagesFrom(fh), buf: make([]float64, plan.width)})
+		} else {
+			s.cols = append(s.cols, pqCursor{plan: plan, pages: fc.PagesFrom(fh)})
+		}
 	}
 	return s, nil
 }
@@ -376,20 +400,29 @@ func (s *pqSource) fill(dst []float64, bad []uint8, rows int) (int, error) {
 	if m == 0 {
 		return 0, nil
 	}
-	d := len(s.cols)
+	d := len(s.names)
 	for c := range s.cols {
 		cur := &s.cols[c]
 		for filled := 0; filled < m; {
 			if cur.pos == cur.nrows {
 				if err := cur.next(); err != nil {
-					return 0, &colError{col: c, row: -1, err: err}
+					return 0, &colError{col: cur.plan.out, row: -1, err: err}
 				}
 			}
 			k := min(m-filled, cur.nrows-cur.pos)
-			if inf := cur.put(dst, filled*d+c, d, k, bad[filled:filled+k]); inf >= 0 {
-				return 0, &colError{col: c, row: int64(filled + inf), err: ErrInfinite}
+			if inf := cur.put(dst, filled*d+cur.plan.out, d, k, bad[filled:filled+k]); inf >= 0 {
+				return 0, &colError{col: cur.plan.out, row: int64(filled + inf), err: ErrInfinite}
 			}
 			filled += k
+		}
+	}
+	for i := range s.vecs {
+		v := &s.vecs[i]
+		for r := 0; r < m; r++ {
+			if err := v.fillRow(bad, r); err != nil {
+				return 0, err
+			}
+			copy(dst[r*d+v.plan.out:], v.buf)
 		}
 	}
 	s.remaining -= int64(m)
@@ -406,13 +439,28 @@ func (s *pqSource) fillColumns(cols, scratch [][]float64, bad []uint8, rows int)
 		cur := &s.cols[c]
 		if cur.pos == cur.nrows {
 			if err := cur.next(); err != nil {
-				return 0, &colError{col: c, row: -1, err: err}
+				return 0, &colError{col: cur.plan.out, row: -1, err: err}
 			}
 		}
 		m = min(m, cur.nrows-cur.pos)
 	}
-	for c := range s.cols {
-		cur := &s.cols[c]
+	for i := range s.vecs {
+		v := &s.vecs[i]
+		for j := range v.plan.width {
+			cols[v.plan.out+j] = scratch[v.plan.out+j][:m]
+		}
+		for r := 0; r < m; r++ {
+			if err := v.fillRow(bad, r); err != nil {
+				return 0, err
+			}
+			for j, x := range v.buf {
+				cols[v.plan.out+j][r] = x
+			}
+		}
+	}
+	for i := range s.cols {
+		cur := &s.cols[i]
+		c := cur.plan.out
 		var inf int
 		if cur.defs == nil && cur.mode == mF64 {
 			inf = viewDense(&cols[c], cur.f64[cur.pos:cur.pos+m], bad)
@@ -429,10 +477,15 @@ func (s *pqSource) fillColumns(cols, scratch [][]float64, bad []uint8, rows int)
 	return m, nil
 }
 
-func (s *pqSource) column(c int) string { return s.cols[c].name }
+func (s *pqSource) column(c int) string { return s.names[c] }
 
 func (s *pqSource) close() error {
 	var first error
+	for i := range s.vecs {
+		if err := s.vecs[i].close(); err != nil && first == nil {
+			first = err
+		}
+	}
 	for c := range s.cols {
 		cur := &s.cols[c]
 		if cur.page != nil {

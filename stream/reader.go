@@ -23,9 +23,10 @@ type source interface {
 // colError is a source failure in column col at row row of the fill call (-1
 // when unknown).
 type colError struct {
-	col int
-	row int64
-	err error
+	col  int
+	row  int64
+	err  error
+	name string // the column's name when it is not that of dimension col (a vector column)
 }
 
 func (e *colError) Error() string { return e.err.Error() }
@@ -221,6 +222,9 @@ func (r *UnitReader) wrap(err error) error {
 		re.Err = ce.err
 		if ce.col >= 0 {
 			re.Column = r.src.column(ce.col)
+		}
+		if ce.name != "" {
+			re.Column = ce.name
 		}
 		if ce.row >= 0 {
 			re.Row = r.rowBase + r.row + ce.row
