@@ -93,7 +93,7 @@ func classifyArrow(fd arrow.Field) colInfo {
 type arrowSource struct {
 	cols    []arrowColumn
 	names   []string // name of each dimension of a row
-	field   []int // field index of each selected column in the unit's schema
+	field   []int    // field index of each selected column in the unit's schema
 	scratch [][]float64
 
 	rec  arrow.Record // current record (owned when from a file)
