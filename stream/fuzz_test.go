@@ -4,6 +4,7 @@ import (
 	"os"
 	"path/filepath"
 	"runtime"
+	"strings"
 	"testing"
 	"time"
 
@@ -41,6 +42,15 @@ func fuzzRead(t *testing.T, data []byte, f stream.Format) {
 			return
 		}
 		readAll(t, ds, 64)
+		// Vector columns are read only when named: name each one too.
+		for _, ig := range ds.Ignored {
+			if !strings.Contains(ig.Reason, "vector column") {
+				continue
+			}
+			if vs, err := stream.Open([]stream.File{{Path: path, Format: f}}, stream.Options{Columns: []string{ig.Name}}); err == nil && vs.Rows <= 1<<16 {
+				readAll(t, vs, 64)
+			}
+		}
 	}()
 	select {
 	case p := <-done:
@@ -71,6 +81,7 @@ func FuzzParquet(f *testing.F) {
 	f.Add(seedFile(f, func(p string) { writePGo(f, p, newGen(40, 1)) }))
 	f.Add(seedFile(f, func(p string) { writePGo(f, p, newGen(40, 2), parquet.Compression(&parquet.Snappy)) }))
 	f.Add(seedFile(f, func(p string) { writeArrowParquet(f, p, newGen(30, 3)) }))
+	f.Add(seedFile(f, func(p string) { newVecData(30, 3, 1, -1).writeArrowParquet(f, p) }))
 	f.Add([]byte("PAR1\x49\xfc\xff\xff\xff\xff\x07\x00\x08\x00\x00\x00PAR1"))
 	// Keep each execution fast: at the production bounds a hostile page may decode to a few hundred
 	// MiB before it fails (TestHostileParquet covers those bounds).
@@ -81,6 +92,7 @@ func FuzzParquet(f *testing.F) {
 // FuzzArrowFile: the same for the Arrow IPC file format.
 func FuzzArrowFile(f *testing.F) {
 	f.Add(seedFile(f, func(p string) { writeArrowIPC(f, p, newGen(30, 4), 10, true) }))
+	f.Add(seedFile(f, func(p string) { newVecData(30, 3, 2, -1).writeArrowIPC(f, p, false, true) }))
 	f.Add([]byte("ARROW1\x00\x00\xff\xff\xff\xff\x00\x00\x00\x00ARROW1"))
 	f.Fuzz(func(t *testing.T, data []byte) { fuzzRead(t, data, stream.ArrowFile) })
 }

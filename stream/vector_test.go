@@ -120,7 +120,7 @@ func (v *vecData) records(batch int, fixed bool) (*arrow.Schema, []arrow.Record)
 	return schema, recs
 }
 
-func (v *vecData) writeArrowParquet(t *testing.T, path string, props ...apq.WriterProperty) {
+func (v *vecData) writeArrowParquet(t testing.TB, path string, props ...apq.WriterProperty) {
 	t.Helper()
 	schema, recs := v.records(300, false)
 	fh, err := os.Create(path)
@@ -143,7 +143,7 @@ func (v *vecData) writeArrowParquet(t *testing.T, path string, props ...apq.Writ
 	}
 }
 
-func (v *vecData) writeArrowIPC(t *testing.T, path string, fixed, file bool) {
+func (v *vecData) writeArrowIPC(t testing.TB, path string, fixed, file bool) {
 	t.Helper()
 	schema, recs := v.records(250, fixed)
 	fh, err := os.Create(path)
