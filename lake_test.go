@@ -7,7 +7,6 @@ import (
 	"math"
 	"os"
 	"path/filepath"
-	"strings"
 	"testing"
 
 	"github.com/kgauge/kgauge"
@@ -168,22 +167,76 @@ func checkMeans(t *testing.T, name string, r *kgauge.Result, n, sx, sy float64) 
 	}
 }
 
-// TestPlanUnitsTables checks that a distributed plan reads a table's live files, and refuses a
-// table whose deletes drop rows, since its work items travel without File.Deleted.
+// TestPlanUnitsTables checks that a distributed plan reads a table's live files and carries its row
+// deletes to the workers: the plan, sent through JSON as kgauge-beam sends it, builds partial
+// sketches whose merge holds exactly the live rows estimate reads (rows, skipped rows and the
+// exact means), for the Delta table's deletion vectors and the Iceberg fixture's position deletes.
+// Without the deletes in the plan a worker finds other row counts than the plan's and stops.
 func TestPlanUnitsTables(t *testing.T) {
 	ctx := context.Background()
 	root := filepath.Join(t.TempDir(), "sales")
 	laketest.SalesTable(t, root)
-	if _, err := kgauge.PlanUnits(ctx, []string{root}, lakeOptions()); err == nil || !strings.Contains(err.Error(), "do not carry row deletes") {
-		t.Errorf("plan over a table with deletion vectors: %v, want a refusal", err)
-	}
 	o := lakeOptions()
 	o.Tables.Table.Version = ver(3)
 	p, err := kgauge.PlanUnits(ctx, []string{root}, o)
 	if err != nil {
 		t.Fatal(err)
 	}
-	if len(p.Files) != 2 || len(p.Input.Tables) != 1 || *p.Input.Tables[0].Version != 3 {
-		t.Errorf("plan of version 3: %d files, tables %+v; want 2 live files of version 3", len(p.Files), p.Input.Tables)
+	if len(p.Files) != 2 || len(p.Input.Tables) != 1 || *p.Input.Tables[0].Version != 3 || p.Deletes != nil {
+		t.Errorf("plan of version 3: %d files, tables %+v, deletes %v; want 2 live files of version 3 and no deletes", len(p.Files), p.Input.Tables, p.Deletes)
+	}
+
+	ice := filepath.Join("stream", "lake", "testdata", "iceberg", "warehouse", "db", "meters")
+	iceOpt := lakeOptions()
+	iceOpt.Tables.Table.Snapshot = 4985199244698268960 // the fixture's snapshot with a position delete file
+	for _, c := range []struct {
+		name    string
+		path    string
+		opt     kgauge.Options
+		deleted int64
+	}{{"delta version 4", root, lakeOptions(), 14}, {"iceberg position deletes", ice, iceOpt, 15}} {
+		want, _, err := kgauge.Estimate(ctx, []string{c.path}, c.opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		plan, err := kgauge.PlanUnits(ctx, []string{c.path}, c.opt)
+		if err != nil {
+			t.Fatalf("%s: %v", c.name, err)
+		}
+		enc, err := json.Marshal(plan)
+		if err != nil {
+			t.Fatal(err)
+		}
+		var back kgauge.UnitPlan
+		if err := json.Unmarshal(enc, &back); err != nil {
+			t.Fatal(err)
+		}
+		total, err := back.NewPartial()
+		if err != nil {
+			t.Fatal(err)
+		}
+		b := kgauge.NewBuilder(&back)
+		for id := len(back.Units) - 1; id >= 0; id-- {
+			sk, err := b.Build(ctx, id)
+			if err != nil {
+				t.Fatalf("%s: unit %d: %v", c.name, id, err)
+			}
+			if err := total.Merge(sk); err != nil {
+				t.Fatal(err)
+			}
+		}
+		got, err := kgauge.EvaluateMerged(ctx, &back, total, 0)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if got.Rows != want.Rows || got.SkippedRows != 0 || plan.Input.Tables[0].DeletedRows != c.deleted {
+			t.Errorf("%s: the plan's sketches hold %d rows (%d skipped), table %+v; estimate reads %d live rows, %d deleted",
+				c.name, got.Rows, got.SkippedRows, plan.Input.Tables[0], want.Rows, c.deleted)
+		}
+		for j, w := range want.Scaling.Center {
+			if g := got.Scaling.Center[j]; math.Abs(g-w) > 1e-9*max(1, math.Abs(w)) {
+				t.Errorf("%s: mean of column %d is %v, estimate's %v", c.name, j, g, w)
+			}
+		}
 	}
 }

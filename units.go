@@ -8,6 +8,7 @@ import (
 	"sync"
 	"time"
 
+	"github.com/RoaringBitmap/roaring/v2/roaring64"
 	"github.com/kgauge/kgauge/sketch"
 	"github.com/kgauge/kgauge/stream"
 	_ "github.com/kgauge/kgauge/stream/lake"     // Delta Lake and Iceberg tables as inputs
@@ -29,6 +30,11 @@ type UnitPlan struct {
 	Sketch  sketch.Config `json:"sketch"`
 	Options Options       `json:"options"` // after defaults and the memory fit; Progress is nil
 	Timings Timings       `json:"timings"` // open and probe of the planning step
+	// Deletes holds, per file of Files, the rows a lake table's deletion vector or delete files
+	// drop, as a portable roaring bitmap (nil when none): stream.File.Deleted does not travel
+	// through encoding/json, so a worker's [Builder] restores it from here and leaves those rows
+	// out, as Build does.
+	Deletes [][]byte `json:"deletes,omitempty"`
 }
 
 // PlanUnit is one unit of a [UnitPlan].
@@ -53,11 +59,6 @@ func PlanUnits(ctx context.Context, paths []string, opt Options) (*UnitPlan, err
 	if err != nil {
 		return nil, err
 	}
-	for _, t := range tables {
-		if t.DeletedRows > 0 { // the plan travels as JSON, and File.Deleted does not
-			return nil, fmt.Errorf("%s table %s: its deletion vectors or delete files drop %d rows, and work items do not carry row deletes yet; run kgauge estimate on it", t.Format, t.Root, t.DeletedRows)
-		}
-	}
 	ds, err := stream.Open(files, stream.Options{Columns: opt.Columns})
 	if err != nil {
 		return nil, err
@@ -68,6 +69,17 @@ func PlanUnits(ctx context.Context, paths []string, opt Options) (*UnitPlan, err
 	}
 	opt.Progress = nil
 	p := &UnitPlan{Input: describe(ds), Files: slices.Clone(ds.Files), Columns: slices.Clone(ds.Columns)}
+	for i, f := range p.Files {
+		if f.Deleted == nil {
+			continue
+		}
+		if p.Deletes == nil {
+			p.Deletes = make([][]byte, len(p.Files))
+		}
+		if p.Deletes[i], err = f.Deleted.ToBytes(); err != nil {
+			return nil, fmt.Errorf("kgauge: %s: row deletes: %w", f.Path, err)
+		}
+	}
 	p.Input.Tables = describeTables(tables, opt.Tables.Table.Where)
 	for i, u := range ds.Units {
 		p.Units = append(p.Units, PlanUnit{ID: i, File: u.File, Index: u.Index, Rows: u.Rows, Bytes: u.Bytes})
@@ -177,7 +189,16 @@ func (b *Builder) dataset(i int) (*stream.Dataset, error) {
 	if i < 0 || i >= len(b.plan.Files) {
 		return nil, fmt.Errorf("kgauge: file %d is not in the plan (%d files)", i, len(b.plan.Files))
 	}
-	ds, err := stream.Open([]stream.File{b.plan.Files[i]}, stream.Options{Columns: b.plan.Columns})
+	f := b.plan.Files[i]
+	if i < len(b.plan.Deletes) && b.plan.Deletes[i] != nil {
+		f.Deleted = roaring64.New()
+		if err := f.Deleted.UnmarshalBinary(b.plan.Deletes[i]); err != nil {
+			return nil, &InputError{Path: f.Path, Err: fmt.Errorf("row deletes in the plan: %w", err)}
+		}
+	} else {
+		f.Deleted = nil // a plan decoded from JSON holds an empty bitmap here
+	}
+	ds, err := stream.Open([]stream.File{f}, stream.Options{Columns: b.plan.Columns})
 	if err != nil {
 		return nil, err
 	}

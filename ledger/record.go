@@ -11,8 +11,11 @@ import (
 
 // SchemaVersion is the version of the record layout written in every record's "schema" field.
 // Readers reject records of a later version. Version 2 added status, skipped_files and error; a
-// version-1 record is read as status "done".
-const SchemaVersion = 2
+// version-1 record is read as status "done". Version 3 added table (the table version or snapshot
+// a partition of a Delta Lake or Iceberg table was profiled at) and the files' deleted_rows; a
+// record of an earlier version has no table, and a table partition it recorded is compared by
+// its files (see [Track]).
+const SchemaVersion = 3
 
 // The states of a partition, as in Record.Status. The latest record of a partition is its state.
 const (
@@ -39,6 +42,9 @@ type Record struct {
 	PartitionValues []KeyValue `json:"partition_values"`
 	Root            string     `json:"root"`  // the lake root, absolute
 	Files           []File     `json:"files"` // data files read, relative to Root
+	// Table is the table state profiled, for a partition of a Delta Lake or Iceberg table; nil for
+	// a hive folder (and in records before schema 3).
+	Table *TableState `json:"table,omitempty"`
 	// SkippedFiles are the partition's data files that could not be read, relative to Root.
 	SkippedFiles []SkippedFile `json:"skipped_files,omitempty"`
 	// Error says why the partition failed, was quarantined, or is incomplete beyond skipped files.
@@ -76,6 +82,9 @@ type File struct {
 	Path   string `json:"path"` // relative to the record's Root, "/"-separated
 	Format string `json:"format"`
 	Bytes  int64  `json:"bytes"`
+	// DeletedRows are the rows of the file a lake table's deletion vector or delete files drop
+	// (left out of the profile).
+	DeletedRows int64 `json:"deleted_rows,omitempty"`
 }
 
 // SkippedFile is a data file of a partition that could not be read, with the reason.
@@ -170,8 +179,9 @@ func NewRecord(p Partition, root string, res *kgauge.Result, sketch string, sket
 			Criteria: res.Timings.Criteria},
 		Drift: Drift{Reasons: []Reason{}, WCSSPerRow: Float(math.NaN()), WindowWCSSPerRow: Float(math.NaN())}}
 	for _, f := range res.Files {
-		r.Files = append(r.Files, File{Path: relTo(root, f.Path), Format: f.Format, Bytes: f.Bytes})
+		r.Files = append(r.Files, File{Path: relTo(root, f.Path), Format: f.Format, Bytes: f.Bytes, DeletedRows: p.DeletedRows[f.Path]})
 	}
+	r.Table = p.Table
 	for _, f := range res.SkippedFiles {
 		r.SkippedFiles = append(r.SkippedFiles, SkippedFile{Path: relTo(root, f.Path), Reason: f.Reason})
 	}
@@ -206,7 +216,7 @@ func relTo(root, path string) string {
 // newStateRecord is the record of a partition that has no verdict: failed or quarantined.
 func newStateRecord(p Partition, root, status, msg string, at time.Time) Record {
 	r := Record{Schema: SchemaVersion, Partition: p.Key, Status: status, PartitionValues: p.Values, Root: root,
-		Files: []File{}, Columns: []string{}, Votes: map[string]*int{}, PerK: []Scores{}, Error: msg,
+		Files: []File{}, Table: p.Table, Columns: []string{}, Votes: map[string]*int{}, PerK: []Scores{}, Error: msg,
 		ProfiledAt: at.UTC().Format(time.RFC3339), Version: kgauge.Version,
 		Drift: Drift{Reasons: []Reason{}, WCSSPerRow: Float(math.NaN()), WindowWCSSPerRow: Float(math.NaN())}}
 	for _, f := range p.Files {

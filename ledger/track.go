@@ -8,6 +8,7 @@ import (
 	"io/fs"
 	"os"
 	"path/filepath"
+	"sort"
 	"strings"
 	"time"
 
@@ -43,6 +44,13 @@ type TrackResult struct {
 	Quarantined []string // partitions set aside (quarantined now or before)
 	Failed      string   // the partition whose failure stopped the run, or ""
 	Rebuilt     []string // done partitions profiled again because their saved sketch was missing
+	// Changed are done partitions of a lake table profiled again because the table's state of
+	// them (live files, row deletes) differs from their record's: a later version or snapshot
+	// added, removed or rewrote their files, or deleted rows.
+	Changed []string
+	// Gone are partitions done in the ledger for this root that the table state read no longer
+	// holds (dropped or deleted whole); they are left as they are.
+	Gone []string
 }
 
 // OutputError is a failure to write the ledger or a sketch.
@@ -76,6 +84,13 @@ func (e *UsageError) Unwrap() error { return e.Err }
 // at ledgerPath is not done, in key order: it runs [kgauge.Estimate] on the partition's data
 // files, saves the sketch to [SketchPath], checks drift against the done records before it, and
 // appends the record.
+//
+// When root is a Delta Lake or Apache Iceberg table (or a folder inside one), the partitions are
+// the table's own partition values in the version or snapshot read ([PartitionsWith]; the latest
+// unless Estimate.Tables says otherwise), each profiled through the table (its row deletes
+// applied) pinned to that state, and recorded with it ([Record].Table). A done partition whose
+// live files or row deletes have changed since its record (a later commit or snapshot) is
+// profiled again ([TrackResult].Changed).
 //
 // The ledger is found through symbolic links ([atomicfile.Resolve]): the lock, the temporary
 // files and the sketches go beside the real file, and the link is never replaced. Before anything
@@ -119,7 +134,7 @@ func Track(ctx context.Context, root, ledgerPath string, opt TrackOptions) (*Tra
 	}
 	defer lock.Unlock()
 
-	parts, outside, err := Partitions(absRoot)
+	parts, outside, err := PartitionsWith(absRoot, opt.Estimate.Tables)
 	if err != nil {
 		return nil, err
 	}
@@ -162,6 +177,12 @@ func Track(ctx context.Context, root, ledgerPath string, opt TrackOptions) (*Tra
 		}
 		return nil
 	}
+	if parts[0].Table != nil {
+		res.Gone = gonePartitions(l, absRoot, parts)
+		for _, g := range res.Gone {
+			warn(fmt.Sprintf("partition %s is in the ledger but no longer in the %s table (%s); its records are kept", g, parts[0].Table.Format, parts[0].Table))
+		}
+	}
 	for _, p := range parts {
 		latest := l.Latest(p.Key)
 		if quarantine[p.Key] || (latest != nil && latest.Status == StatusQuarantined && !release[p.Key]) {
@@ -175,12 +196,16 @@ func Track(ctx context.Context, root, ledgerPath string, opt TrackOptions) (*Tra
 			continue
 		}
 		if latest != nil && latest.Status == StatusDone {
-			if sketchExists(real, latest.Sketch) {
+			switch {
+			case !sameState(latest, p):
+				res.Changed = append(res.Changed, p.Key)
+			case sketchExists(real, latest.Sketch):
 				res.Known++
 				continue
+			default:
+				warn(fmt.Sprintf("partition %s: its saved sketch %s is missing; profiling it again", p.Key, latest.Sketch))
+				res.Rebuilt = append(res.Rebuilt, p.Key)
 			}
-			warn(fmt.Sprintf("partition %s: its saved sketch %s is missing; profiling it again", p.Key, latest.Sketch))
-			res.Rebuilt = append(res.Rebuilt, p.Key)
 		}
 		if err := ctx.Err(); err != nil {
 			return res, err
@@ -312,9 +337,28 @@ func profile(ctx context.Context, p Partition, root, ledgerPath string, opt Trac
 	if len(p.Files) == 0 {
 		return Record{}, &kgauge.InputError{Path: p.Dir, Err: fmt.Errorf("%w left: every data file of the partition was skipped as unreadable", stream.ErrNoDataFiles)}
 	}
-	r, sk, err := kgauge.Estimate(ctx, p.Files, opt.Estimate)
+	paths, eopt := p.Files, opt.Estimate
+	if p.Table != nil {
+		// The table itself, filtered to the partition's values and pinned to the state its files
+		// came from, so that the estimate applies the table's row deletes exactly as estimate does
+		// and a commit made meanwhile cannot change what is read.
+		paths = []string{root}
+		eopt.Tables.AsFiles = false
+		eopt.Tables.Table.Where = nil
+		for _, kv := range p.Values {
+			eopt.Tables.Table.Where = append(eopt.Tables.Table.Where, stream.KeyValue{Key: kv.Key, Value: kv.Value})
+		}
+		eopt.Tables.Table.Version, eopt.Tables.Table.Snapshot = p.Table.Version, 0
+		if p.Table.Snapshot != nil {
+			eopt.Tables.Table.Snapshot = *p.Table.Snapshot
+		}
+	}
+	r, sk, err := kgauge.Estimate(ctx, paths, eopt)
 	if err != nil {
 		return Record{}, err
+	}
+	if p.Table != nil && len(r.Files) != len(p.Files) {
+		return Record{}, fmt.Errorf("ledger: partition %s of %s: read %d live files, the table state names %d", p.Key, root, len(r.Files), len(p.Files))
 	}
 	for _, s := range p.Skipped {
 		r.SkippedFiles = append(r.SkippedFiles, kgauge.SkippedFile{Path: s.Path, Reason: s.Reason})
@@ -351,4 +395,57 @@ func (c *countWriter) Write(b []byte) (int, error) {
 	n, err := c.w.Write(b)
 	c.n += int64(n)
 	return n, err
+}
+
+// sameState reports whether the done record rec profiled partition p as it is now. A hive folder
+// is left alone once done. A table partition is the same when its state digest is; a record
+// before schema 3 (no table) is the same when it read the same files and no row deletes apply now.
+func sameState(rec *Record, p Partition) bool {
+	if p.Table == nil {
+		return true
+	}
+	if rec.Table != nil {
+		return rec.Table.Format == p.Table.Format && rec.Table.State == p.Table.State
+	}
+	if p.Table.DeletedRows > 0 || len(rec.Files) != len(p.Files) {
+		return false
+	}
+	have := map[string]bool{}
+	for _, f := range rec.Files {
+		have[filepath.Join(rec.Root, filepath.FromSlash(f.Path))] = true
+	}
+	for _, f := range p.Files {
+		if !have[f] {
+			return false
+		}
+	}
+	return true
+}
+
+// gonePartitions lists the partitions whose latest record below root is done but which parts (a
+// table's state) no longer holds, sorted.
+func gonePartitions(l *Ledger, root string, parts []Partition) []string {
+	now := map[string]bool{}
+	for _, p := range parts {
+		now[p.Key] = true
+	}
+	var gone []string
+	for _, r := range l.History() {
+		if r.Root == root && !now[r.Partition] {
+			gone = append(gone, r.Partition)
+		}
+	}
+	sort.Strings(gone)
+	return gone
+}
+
+// String names the table state: "version 4" or "snapshot 4985199244698268960".
+func (t *TableState) String() string {
+	switch {
+	case t.Version != nil:
+		return fmt.Sprintf("version %d", *t.Version)
+	case t.Snapshot != nil:
+		return fmt.Sprintf("snapshot %d", *t.Snapshot)
+	}
+	return "unknown state"
 }

@@ -112,6 +112,8 @@ func (c *TrackCommand) Run(ctx context.Context, args []string) error {
 
 Profile every KEY=VALUE partition under ROOT not yet in the ledger, save its sketch beside the
 ledger, and flag drift against the partitions before it. Exit code 5 when a new partition drifted.
+A Delta Lake or Iceberg table at ROOT is tracked by its own partition values; a partition a later
+version or snapshot changed is profiled again.
 
 Flags:`)
 		printFlags(fs)
@@ -153,8 +155,12 @@ Flags:`)
 		return err
 	}
 	if !f.quiet {
-		fmt.Fprintf(c.Stderr, "kgauge: track: %d record(s) added, %d partition(s) already done in %s, %d drifted\n",
-			len(res.Profiled), res.Known, inert(ledgerPath), res.Drifted)
+		changed := ""
+		if len(res.Changed) > 0 {
+			changed = fmt.Sprintf(" (%d of them changed by the table since their record)", len(res.Changed))
+		}
+		fmt.Fprintf(c.Stderr, "kgauge: track: %d record(s) added%s, %d partition(s) already done in %s, %d drifted\n",
+			len(res.Profiled), changed, res.Known, inert(ledgerPath), res.Drifted)
 	}
 	if len(res.Incomplete) > 0 || len(res.Quarantined) > 0 {
 		return &unfinishedError{incomplete: res.Incomplete, quarantined: res.Quarantined, drifted: res.Drifted}
@@ -175,6 +181,12 @@ func recordLine(r ledger.Record) string {
 		return b.String()
 	}
 	fmt.Fprintf(&b, "%s  k %d  agreement %.2f", inert(r.Partition), r.K, r.Agreement)
+	if r.Table != nil {
+		fmt.Fprintf(&b, "  %s %s", r.Table.Format, r.Table)
+		if r.Table.DeletedRows > 0 {
+			fmt.Fprintf(&b, " (%d rows deleted)", r.Table.DeletedRows)
+		}
+	}
 	if r.RunnerUp != nil {
 		fmt.Fprintf(&b, "  runner-up %d", *r.RunnerUp)
 	}
