@@ -96,12 +96,12 @@ var ErrNoRows = errors.New("no usable rows")
 // data file that cannot be read is an error, or with opt.SkipUnreadable is left out and listed in
 // Input.Skipped. The sketch records the content identity of every file read (Meta.ContentIDs).
 func Build(ctx context.Context, paths []string, opt Options) (*sketch.Sketch, *Input, Timings, error) {
-	return build(ctx, paths, opt, nil)
+	return build(ctx, paths, opt, nil, nil)
 }
 
 // build is Build that fails, before the pass, when a data file is one a sketch in avoid (content
-// identity → sketch path) was built from.
-func build(ctx context.Context, paths []string, opt Options, avoid map[string]string) (*sketch.Sketch, *Input, Timings, error) {
+// identity → sketch path) was built from. A non-nil found is the discovery of paths already made.
+func build(ctx context.Context, paths []string, opt Options, avoid map[string]string, found *discovered) (*sketch.Sketch, *Input, Timings, error) {
 	var tm Timings
 	if err := opt.Validate(); err != nil {
 		return nil, nil, tm, err
@@ -109,10 +109,13 @@ func build(ctx context.Context, paths []string, opt Options, avoid map[string]st
 	opt = opt.withDefaults()
 	start := time.Now()
 	opt.Progress.stage("open")
-	files, skipped, tables, err := discoverFiles(paths, opt)
-	if err != nil {
-		return nil, nil, tm, err
+	if found == nil {
+		var err error
+		if found, err = discoverInputs(paths, opt, false); err != nil {
+			return nil, nil, tm, err
+		}
 	}
+	files, skipped, tables := found.files, found.skipped, found.tables
 	ids, err := contentIDs(files, avoid)
 	if err != nil {
 		return nil, nil, tm, err

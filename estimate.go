@@ -10,6 +10,8 @@ import (
 	"os"
 	"runtime"
 	"runtime/debug"
+	"slices"
+	"strings"
 	"time"
 
 	"github.com/kgauge/kgauge/bench/model"
@@ -168,6 +170,18 @@ func Estimate(ctx context.Context, inputs []string, opt Options) (*Result, *sket
 	} else {
 		defer debug.SetGCPercent(old)
 	}
+	// Directories and globs may hold saved sketches as well as data files (a ledger's sketch
+	// folder, a quoted glob over it): they are found in one discovery and merged like named ones.
+	var found *discovered
+	if len(dataPaths) > 0 {
+		if found, err = discoverInputs(dataPaths, opt, true); err != nil {
+			return nil, nil, err
+		}
+		sketchPaths = append(sketchPaths, found.sketches...)
+		if len(found.files) == 0 && len(found.skipped) == 0 {
+			dataPaths = nil // sketches only
+		}
+	}
 	// Saved sketches first: each is taken once, and their content identities keep the data files
 	// they were built from out of the pass (an error, not a silent double count).
 	loaded, owners, err := loadSketches(sketchPaths)
@@ -180,7 +194,7 @@ func Estimate(ctx context.Context, inputs []string, opt Options) (*Result, *sket
 		tm    Timings
 	)
 	if len(dataPaths) > 0 {
-		total, in, tm, err = build(ctx, dataPaths, opt, owners)
+		total, in, tm, err = build(ctx, dataPaths, opt, owners, found)
 		if err != nil {
 			return nil, nil, err
 		}
@@ -191,6 +205,9 @@ func Estimate(ctx context.Context, inputs []string, opt Options) (*Result, *sket
 		if total == nil {
 			total = ls.sk
 			continue
+		}
+		if err := sameColumns(total, ls.sk, in != nil); err != nil {
+			return nil, nil, &InputError{Path: ls.path, Err: err}
 		}
 		if err := total.Merge(ls.sk); err != nil {
 			return nil, nil, &InputError{Path: ls.path, Err: err}
@@ -219,6 +236,33 @@ func Estimate(ctx context.Context, inputs []string, opt Options) (*Result, *sket
 	}
 	opt.Progress.stage("done")
 	return r, total, nil
+}
+
+// ErrColumnsDiffer means a saved sketch and the other inputs hold different feature columns, so
+// they cannot be merged.
+var ErrColumnsDiffer = errors.New("the inputs' feature columns differ")
+
+// sameColumns checks that the sketch o holds the feature columns of total, in the same order.
+// fromData says total holds data files read in this run.
+func sameColumns(total, o *sketch.Sketch, fromData bool) error {
+	a, b := total.Columns(), o.Columns()
+	if slices.Equal(a, b) {
+		return nil
+	}
+	other := "the sketches before it"
+	if fromData {
+		other = "the data files"
+	}
+	return fmt.Errorf("%w: this sketch holds %s, %s hold %s (a sketch is merged only with data of the same columns; "+
+		"choose them with --columns, in the same order)", ErrColumnsDiffer, quoteList(b), other, quoteList(a))
+}
+
+// quoteList prints names as a short list: "a, b, c", at most eight names.
+func quoteList(names []string) string {
+	if len(names) > 8 {
+		return fmt.Sprintf("%s … (%d columns)", strings.Join(names[:8], ", "), len(names))
+	}
+	return strings.Join(names, ", ")
 }
 
 // splitInputs separates saved sketch files (recognised by their magic bytes) from data inputs.

@@ -39,11 +39,35 @@ func (e *SameDataError) Unwrap() error { return ErrSameData }
 // be read, found while discovering or while reading their footers, are left out and returned as
 // skipped; without it the first is an error naming it.
 func discoverFiles(paths []string, opt Options) ([]stream.File, []SkippedFile, []*stream.Table, error) {
-	dopt := opt.Tables
-	dopt.SkipUnreadable = opt.SkipUnreadable
-	d, err := stream.DiscoverWith(paths, dopt)
+	d, err := discoverInputs(paths, opt, false)
 	if err != nil {
 		return nil, nil, nil, err
+	}
+	return d.files, d.skipped, d.tables, nil
+}
+
+// discovered is what discoverInputs found.
+type discovered struct {
+	files    []stream.File
+	skipped  []SkippedFile
+	tables   []*stream.Table
+	sketches []string // saved sketch files found in directories and globs (withSketches)
+}
+
+// sketchMagic starts every saved sketch file (sketch.Encode).
+const sketchMagic = "KGSKETCH"
+
+// discoverInputs is discoverFiles that, with withSketches, also takes the saved sketch files found
+// in directories and globs (and named directly), so that sketches and data files mix freely.
+func discoverInputs(paths []string, opt Options, withSketches bool) (*discovered, error) {
+	dopt := opt.Tables
+	dopt.SkipUnreadable = opt.SkipUnreadable
+	if withSketches {
+		dopt.SketchMagic = sketchMagic
+	}
+	d, err := stream.DiscoverWith(paths, dopt)
+	if err != nil {
+		return nil, err
 	}
 	files := d.Files
 	var skipped []SkippedFile
@@ -59,10 +83,10 @@ func discoverFiles(paths []string, opt Options) ([]stream.File, []SkippedFile, [
 		slices.SortFunc(skipped, func(a, b SkippedFile) int { return strings.Compare(a.Path, b.Path) })
 	}
 	if len(files) == 0 && len(skipped) > 0 {
-		return nil, skipped, nil, &InputError{Path: skipped[0].Path, Err: fmt.Errorf("%w left: all %d data file(s) were skipped as unreadable, this one for: %s",
+		return nil, &InputError{Path: skipped[0].Path, Err: fmt.Errorf("%w left: all %d data file(s) were skipped as unreadable, this one for: %s",
 			stream.ErrNoDataFiles, len(skipped), skipped[0].Reason)}
 	}
-	return files, skipped, d.Tables, nil
+	return &discovered{files: files, skipped: skipped, tables: d.Tables, sketches: d.Sketches}, nil
 }
 
 // contentIDs returns the content identity of every file (stream.ContentID), in order, and fails

@@ -10,6 +10,7 @@ import (
 	"os"
 	"path"
 	"path/filepath"
+	"slices"
 	"sort"
 	"strings"
 
@@ -59,6 +60,10 @@ type DiscoverOptions struct {
 	// as Discover did before it knew tables.
 	AsFiles bool
 	Table   TableOptions
+	// SketchMagic, when set, marks files that start with these bytes as saved sketches: inside
+	// directories and globs, and when named, such a file is listed in [Discovery].Sketches
+	// (sorted by path) instead of being passed over or refused as not data. Local files only.
+	SketchMagic string
 }
 
 // Skipped is a data file left out because it cannot be read, with the reason (one line).
@@ -73,6 +78,9 @@ type Discovery struct {
 	Files   []File    // sorted by path, each file once
 	Skipped []Skipped // sorted by path; empty unless SkipUnreadable
 	Tables  []*Table  // the lake tables read through their metadata, in the order named
+	// Sketches are the saved sketch files found (see [DiscoverOptions].SketchMagic), sorted by
+	// path, each path once.
+	Sketches []string
 }
 
 // Discover expands files, directories (recursive) and glob patterns into data
@@ -143,10 +151,12 @@ func DiscoverWith(patterns []string, opt DiscoverOptions) (*Discovery, error) {
 		}
 		d.files = kept
 	}
-	if len(d.files) == 0 && len(d.skipped) == 0 {
+	if len(d.files) == 0 && len(d.skipped) == 0 && len(d.sketches) == 0 {
 		return nil, newError(strings.Join(patterns, " "), "", noLive(opt.Table.Where))
 	}
-	return &Discovery{Files: dedupe(d.files), Skipped: dedupeSkipped(d.skipped), Tables: d.tables}, nil
+	sort.Strings(d.sketches)
+	return &Discovery{Files: dedupe(d.files), Skipped: dedupeSkipped(d.skipped), Tables: d.tables,
+		Sketches: slices.Compact(d.sketches)}, nil
 }
 
 // dedupe sorts files by path and keeps one file per identity: the first whose path is not a
@@ -181,11 +191,12 @@ func dedupeSkipped(s []Skipped) []Skipped {
 }
 
 type discoverer struct {
-	opt     DiscoverOptions
-	tables  []*Table
-	files   []File
-	skipped []Skipped
-	found   int // files matched so far, duplicates and skipped files included
+	opt      DiscoverOptions
+	tables   []*Table
+	files    []File
+	skipped  []Skipped
+	sketches []string
+	found    int // files matched so far, duplicates, skipped files and sketches included
 }
 
 // unreadable handles a data file that cannot be read: an error, or with SkipUnreadable an entry
@@ -237,6 +248,18 @@ func looksLikeData(p string) bool {
 		bytes.HasPrefix(h, []byte{0xFF, 0xFF, 0xFF, 0xFF})
 }
 
+// hasMagic reports whether the local file p starts with magic.
+func hasMagic(p, magic string) bool {
+	f, err := os.Open(p)
+	if err != nil {
+		return false
+	}
+	defer f.Close()
+	head := make([]byte, len(magic))
+	_, err = io.ReadFull(f, head)
+	return err == nil && string(head) == magic
+}
+
 // take sniffs the regular file p (size bytes, identity key) and adds it when it is data.
 // explicit says the caller named it.
 func (d *discoverer) take(p string, size int64, key string, viaSym, explicit bool) error {
@@ -245,6 +268,11 @@ func (d *discoverer) take(p string, size int64, key string, viaSym, explicit boo
 		return d.unreadable(p, err)
 	}
 	if f == 0 {
+		if d.opt.SketchMagic != "" && hasMagic(p, d.opt.SketchMagic) {
+			d.found++
+			d.sketches = append(d.sketches, filepath.Clean(p))
+			return nil
+		}
 		if looksLikeData(p) {
 			return d.unreadable(p, errDamaged)
 		}

@@ -1,6 +1,7 @@
 package stream_test
 
 import (
+	"errors"
 	"io/fs"
 	"os"
 	"path/filepath"
@@ -149,5 +150,57 @@ func TestShuffle(t *testing.T) {
 	slices.SortFunc(sorted, func(x, y stream.Unit) int { return int(x.Rows - y.Rows) })
 	if !slices.Equal(sorted, units) {
 		t.Fatal("Shuffle is not a permutation")
+	}
+}
+
+// TestDiscoverSketches: with SketchMagic set, files that start with it are listed as sketches, in
+// directories, globs and when named, beside the data files; without it they are passed over (or
+// refused when named).
+func TestDiscoverSketches(t *testing.T) {
+	root := t.TempDir()
+	g := newGen(10, 1)
+	data := filepath.Join(root, "day=1", "a.parquet")
+	os.MkdirAll(filepath.Dir(data), 0o755)
+	writePGo(t, data, g)
+	sk1 := filepath.Join(root, "sk", "day=1.kgs")
+	sk2 := filepath.Join(root, "sk", "day=2.kgs")
+	os.MkdirAll(filepath.Dir(sk1), 0o755)
+	for _, p := range []string{sk1, sk2} {
+		if err := os.WriteFile(p, []byte("KGSKETCH and the rest"), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	os.WriteFile(filepath.Join(root, "sk", "notes.txt"), []byte("KGSKETC"), 0o644) // too short
+	opt := stream.DiscoverOptions{SketchMagic: "KGSKETCH"}
+	cases := []struct {
+		name     string
+		patterns []string
+		files    []string
+		sketches []string
+	}{
+		{"Glob", []string{filepath.Join(root, "sk", "day=*.kgs")}, nil, []string{sk1, sk2}},
+		{"Dir", []string{filepath.Join(root, "sk")}, nil, []string{sk1, sk2}},
+		{"Named", []string{sk2}, nil, []string{sk2}},
+		{"Mixed", []string{root}, []string{data}, []string{sk1, sk2}},
+		{"Twice", []string{sk1, filepath.Join(root, "sk")}, nil, []string{sk1, sk2}},
+	}
+	for _, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			d, err := stream.DiscoverWith(tc.patterns, opt)
+			if err != nil {
+				t.Fatal(err)
+			}
+			var files []string
+			for _, f := range d.Files {
+				files = append(files, f.Path)
+			}
+			if !slices.Equal(files, tc.files) || !slices.Equal(d.Sketches, tc.sketches) {
+				t.Errorf("files %v sketches %v; want %v %v", files, d.Sketches, tc.files, tc.sketches)
+			}
+		})
+	}
+	// Without the option a directory of sketches holds no data files.
+	if _, err := stream.DiscoverWith([]string{filepath.Join(root, "sk")}, stream.DiscoverOptions{}); !errors.Is(err, stream.ErrNoDataFiles) {
+		t.Errorf("sketch folder without SketchMagic: %v, want ErrNoDataFiles", err)
 	}
 }

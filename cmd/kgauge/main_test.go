@@ -171,8 +171,9 @@ func TestSavedSketchesMerge(t *testing.T) {
 		t.Fatalf("%d partitions, want 2", len(days))
 	}
 	var sketches []string
+	skDir := t.TempDir()
 	for i, day := range days {
-		sk := filepath.Join(t.TempDir(), "day"+string(rune('a'+i))+".kgs")
+		sk := filepath.Join(skDir, "day"+string(rune('a'+i))+".kgs")
 		args := append(append([]string{"estimate", "--save-sketch", sk}, quickFlags...), day)
 		if code, _, errs := run(t, args...); code != 0 {
 			t.Fatalf("exit %d: %s", code, errs)
@@ -188,6 +189,41 @@ func TestSavedSketchesMerge(t *testing.T) {
 	if d["k"] != m["k"] || d["rows"] != m["rows"] || d["skipped_rows"] != m["skipped_rows"] {
 		t.Errorf("merged sketches: k=%v rows=%v skipped=%v; direct: k=%v rows=%v skipped=%v",
 			m["k"], m["rows"], m["skipped_rows"], d["k"], d["rows"], d["skipped_rows"])
+	}
+
+	// Saved sketches are inputs like data files: a quoted glob (expanded by kgauge, not the
+	// shell), their directory, and a sketch beside a data file all give the same result.
+	os.WriteFile(filepath.Join(skDir, "_SUCCESS"), nil, 0o644)
+	os.WriteFile(filepath.Join(skDir, "notes.txt"), []byte("not data\n"), 0o644)
+	forms := []struct {
+		name string
+		args []string
+	}{
+		{"QuotedGlob", []string{filepath.Join(skDir, "day*.kgs")}},
+		{"Directory", []string{skDir}},
+		{"DoubleStar", []string{filepath.Join(filepath.Dir(skDir), "**", "*.kgs")}},
+		{"SketchAndData", []string{sketches[0], days[1]}},
+		{"GlobAndData", []string{filepath.Join(skDir, "daya.kgs*"), days[1]}},
+	}
+	for _, f := range forms {
+		t.Run(f.name, func(t *testing.T) {
+			code, out, errs := run(t, append(append([]string{"estimate", "--json"}, quickFlags...), f.args...)...)
+			if code != 0 {
+				t.Fatalf("exit %d: %s", code, errs)
+			}
+			g := stripTimings(t, out)
+			if g["k"] != d["k"] || g["rows"] != d["rows"] || g["skipped_rows"] != d["skipped_rows"] {
+				t.Errorf("k=%v rows=%v skipped=%v; direct: k=%v rows=%v skipped=%v",
+					g["k"], g["rows"], g["skipped_rows"], d["k"], d["rows"], d["skipped_rows"])
+			}
+		})
+	}
+
+	// A sketch and a data file of other columns: one line naming the sketch and both column sets.
+	code, _, errs = run(t, append(append([]string{"estimate", "--columns", "h00,h01"}, quickFlags...), sketches[0], days[1])...)
+	if code != 3 || !strings.Contains(errs, "daya.kgs") || !strings.Contains(errs, "h00, h01") ||
+		strings.Count(strings.TrimSpace(errs), "\n") != 0 {
+		t.Errorf("sketch and data of other columns: exit %d, %q; want 3 naming the sketch and the columns", code, errs)
 	}
 }
 
