@@ -240,6 +240,7 @@ func EvaluateMerged(ctx context.Context, plan *UnitPlan, sk *sketch.Sketch, pass
 	r.Timings.Criteria = crit
 	r.Files = plan.Input.Files
 	r.Ignored = plan.Input.Ignored
+	r.Tables = plan.Input.Tables
 	if r.Files == nil {
 		r.Files = []FileInfo{}
 	}

@@ -18,6 +18,7 @@ import (
 	"github.com/kgauge/kgauge"
 	"github.com/kgauge/kgauge/bench/synth"
 	"github.com/kgauge/kgauge/sketch"
+	"github.com/kgauge/kgauge/stream/lake/laketest"
 )
 
 // writeLake writes a small demo lake (invented data, for a property test): three day partitions of
@@ -285,5 +286,55 @@ func compareResults(t *testing.T, got, want *kgauge.Result) {
 		if g.K != w.K || math.Abs(g.WCSS-w.WCSS) > 0.01*w.WCSS {
 			t.Errorf("k=%d: WCSS %v, want %v within 1%%", w.K, g.WCSS, w.WCSS)
 		}
+	}
+}
+
+// TestPipelineOverTable runs the pipeline on prism over a Delta table whose deletion vectors drop
+// 14 rows (stream/lake/laketest's sales table at its latest version): the work items carry the
+// row deletes, so the result equals Estimate's over the table's live rows.
+func TestPipelineOverTable(t *testing.T) {
+	needPrism(t)
+	ctx := context.Background()
+	root := filepath.Join(t.TempDir(), "sales")
+	laketest.SalesTable(t, root)
+	opt := testOptions()
+	opt.Columns = []string{"x", "y"}
+	opt.Criteria.MaxK = 4
+	opt.Sketch.CoresetSize = 200
+	opt.Criteria.GapSample = 100
+	opt.Criteria.Anchors = 50
+	est, _, err := kgauge.Estimate(ctx, []string{root}, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var buf bytes.Buffer
+	if err := WriteJSON(&buf, est); err != nil {
+		t.Fatal(err)
+	}
+	want := decodeResult(t, buf.Bytes())
+	if want.Rows != 206 || len(want.Tables) != 1 || want.Tables[0].DeletedRows != 14 {
+		t.Fatalf("estimate over the table: %d rows, tables %+v; want the 206 live rows (220 less 14 deleted)", want.Rows, want.Tables)
+	}
+	out := filepath.Join(t.TempDir(), "result.json")
+	start := time.Now()
+	plan, err := kgauge.PlanUnits(ctx, []string{root}, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	p, s := abeam.NewPipelineWithRoot()
+	if _, err := Pipeline(s, plan, out, start); err != nil {
+		t.Fatal(err)
+	}
+	if err := ptest.Run(p); err != nil {
+		t.Fatal(err)
+	}
+	data, err := os.ReadFile(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	got := decodeResult(t, data)
+	compareResults(t, got, want)
+	if len(got.Tables) != 1 || got.Tables[0].DeletedRows != 14 {
+		t.Errorf("pipeline result tables %+v, want the table with 14 deleted rows", got.Tables)
 	}
 }
