@@ -66,6 +66,7 @@ type colInfo struct {
 	typ     string
 	reason  string // why it cannot be a feature; "" when numeric
 	nonRoot bool   // nested: an error when named, whatever the type
+	allNull bool   // Parquet: every value of the column is null, by the footer's statistics
 	pq      pqColumn
 	ar      arrowColumn
 }
@@ -98,10 +99,11 @@ func Open(files []File, opt Options) (ds *Dataset, err error) {
 
 	// Resolve the selection against the first file, then check every file.
 	first := infos[0]
+	nullOnly := onlyNulls(infos)
 	var sel []string
 	if len(opt.Columns) == 0 {
 		for _, c := range first {
-			if c.reason == "" {
+			if c.reason == "" && !nullOnly[c.name] {
 				sel = append(sel, c.name)
 			}
 		}
@@ -115,6 +117,13 @@ func Open(files []File, opt Options) (ds *Dataset, err error) {
 				return nil, newError("", name, errors.New("column named twice"))
 			}
 			seen[name] = true
+			if nullOnly[name] {
+				file := ""
+				if len(files) == 1 {
+					file = files[0].Path
+				}
+				return nil, newError(file, name, fmt.Errorf("%w (every value is null in every file's statistics); leave it out of --columns", ErrOnlyNulls))
+			}
 			if !anyHas(infos, name) {
 				file := ""
 				if len(files) == 1 {
@@ -140,9 +149,6 @@ func Open(files []File, opt Options) (ds *Dataset, err error) {
 				return nil, newError(f.Path, name, fmt.Errorf("%w: %s (%s)", ErrNotNumeric, c.typ, c.reason))
 			}
 			if f.Format == Parquet {
-				if err := checkCodecs(of.pq, c.pq.leaf); err != nil {
-					return nil, newError(f.Path, name, err)
-				}
 				of.pqCols = append(of.pqCols, c.pq)
 			} else {
 				of.arCols = append(of.arCols, c.ar)
@@ -163,6 +169,8 @@ func Open(files []File, opt Options) (ds *Dataset, err error) {
 			reason := c.reason
 			switch {
 			case reason != "":
+			case nullOnly[c.name]:
+				reason = "only nulls"
 			case i > 0:
 				reason = "not in the first file"
 			default:
@@ -269,6 +277,29 @@ func find(cols []colInfo, name string) (colInfo, bool) {
 		}
 	}
 	return colInfo{}, false
+}
+
+// onlyNulls returns the numeric columns that hold only nulls in every file that has them (each
+// file a Parquet file whose footer's statistics say so for every row group), and are in at least
+// one file with rows.
+func onlyNulls(infos [][]colInfo) map[string]bool {
+	out := map[string]bool{}
+	for _, c := range infos[0] {
+		if c.reason != "" || !c.allNull {
+			continue
+		}
+		all := true
+		for _, cols := range infos[1:] {
+			if o, ok := find(cols, c.name); ok && !o.allNull {
+				all = false
+				break
+			}
+		}
+		if all {
+			out[c.name] = true
+		}
+	}
+	return out
 }
 
 func anyHas(infos [][]colInfo, name string) bool {

@@ -84,6 +84,7 @@ func (d *Dataset) openParquet(i int, fh Handle, size int64) ([]colInfo, error) {
 		}
 		ci := classifyParquet(e)
 		ci.pq.leaf = leaf
+		ci.allNull = allNullChunks(pf, leaf)
 		if e.RepetitionType.Valid && e.RepetitionType.V == format.Repeated {
 			ci = colInfo{name: e.Name, typ: "repeated " + ci.typ, reason: "nested", nonRoot: true}
 		}
@@ -278,6 +279,24 @@ func classifyParquet(e *format.SchemaElement) colInfo {
 }
 
 // columnChunkBytes returns the compressed size of a column chunk.
+// allNullChunks reports whether the footer's statistics say that every value of column chunk leaf
+// is null, in every row group, and some row group holds values. A chunk without statistics (its
+// null count reads 0) is not all null.
+func allNullChunks(pf *parquet.File, leaf int) bool {
+	var values int64
+	for _, rg := range pf.Metadata().RowGroups {
+		if leaf >= len(rg.Columns) {
+			return false
+		}
+		m := &rg.Columns[leaf].MetaData
+		if m.Statistics.NullCount != m.NumValues {
+			return false
+		}
+		values += m.NumValues
+	}
+	return values > 0
+}
+
 func columnChunkBytes(pf *parquet.File, rowGroup, leaf int) int64 {
 	rgs := pf.Metadata().RowGroups
 	if rowGroup < len(rgs) && leaf < len(rgs[rowGroup].Columns) {
@@ -366,7 +385,15 @@ func (d *Dataset) openParquetUnit(of *openFile, u Unit, fh Handle) (*pqSource, e
 		if !ok {
 			return nil, fmt.Errorf("column chunk %d is not a file column chunk", plan.leaf)
 		}
-		s.cols[c] = pqCursor{name: d.Columns[c], plan: plan, pages: fc.PagesFrom(fh)}
+		pages := fc.PagesFrom(fh)
+		if isLZ4(of.pq, u.Index, plan.leaf) {
+			if pages, err = openLZ4Chunk(of.pq, fh, u.Index, plan.leaf); err != nil {
+				s.close()
+				return nil, &ReadError{File: d.Files[u.File].Path, Unit: u.Index, Row: -1, Column: d.Columns[c],
+					Err: fmt.Errorf("row group %d: %w", u.Index, err)}
+			}
+		}
+		s.cols[c] = pqCursor{name: d.Columns[c], plan: plan, pages: pages}
 	}
 	return s, nil
 }
