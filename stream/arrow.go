@@ -84,6 +84,7 @@ type arrowSource struct {
 	cols    []arrowColumn
 	field   []int // field index of each selected column in the unit's schema
 	scratch [][]float64
+	at      int // the column being converted, -1 between columns
 
 	rec  arrow.Record // current record (owned when from a file)
 	pos  int          // next row of rec
@@ -139,7 +140,7 @@ func (d *Dataset) openArrowFileUnit(of *openFile, u Unit, fh Handle) (*arrowSour
 	if u.Index < 0 || u.Index >= fr.NumRecords() {
 		return nil, fmt.Errorf("no record batch %d", u.Index)
 	}
-	s := &arrowSource{cols: of.arCols}
+	s := &arrowSource{cols: of.arCols, at: -1}
 	if err := s.resolve(fr.Schema()); err != nil {
 		return nil, s.named(err)
 	}
@@ -163,7 +164,7 @@ func (d *Dataset) openArrowStreamUnit(of *openFile, fh Handle) (*arrowSource, er
 	if err != nil {
 		return nil, err
 	}
-	s := &arrowSource{cols: of.arCols, rd: rd}
+	s := &arrowSource{cols: of.arCols, rd: rd, at: -1}
 	if err := s.resolve(rd.Schema()); err != nil {
 		rd.Release()
 		return nil, s.named(err)
@@ -182,6 +183,8 @@ func (s *arrowSource) named(err error) error {
 }
 
 func (s *arrowSource) column(c int) string { return s.cols[c].name }
+
+func (s *arrowSource) decoding() int { return s.at }
 
 // advance makes s.rec a record with rows left, or sets done.
 func (s *arrowSource) advance() error {
@@ -205,6 +208,7 @@ func (s *arrowSource) advance() error {
 }
 
 func (s *arrowSource) fill(dst []float64, bad []uint8, rows int) (int, error) {
+	s.at = -1 // a record batch is decoded whole; set per column below
 	if err := s.advance(); err != nil {
 		return 0, err
 	}
@@ -214,6 +218,7 @@ func (s *arrowSource) fill(dst []float64, bad []uint8, rows int) (int, error) {
 	m := min(rows, int(s.rec.NumRows())-s.pos)
 	d := len(s.cols)
 	for c := range s.cols {
+		s.at = c
 		arr := s.rec.Column(s.field[c])
 		if inf := s.put(c, arr, dst, c, d, s.pos, m, bad[:m]); inf >= 0 {
 			return 0, &colError{col: c, row: int64(inf), err: ErrInfinite}
@@ -224,6 +229,7 @@ func (s *arrowSource) fill(dst []float64, bad []uint8, rows int) (int, error) {
 }
 
 func (s *arrowSource) fillColumns(cols, scratch [][]float64, bad []uint8, rows int) (int, error) {
+	s.at = -1 // a record batch is decoded whole; set per column below
 	if err := s.advance(); err != nil {
 		return 0, err
 	}
@@ -232,6 +238,7 @@ func (s *arrowSource) fillColumns(cols, scratch [][]float64, bad []uint8, rows i
 	}
 	m := min(rows, int(s.rec.NumRows())-s.pos)
 	for c := range s.cols {
+		s.at = c
 		arr := s.rec.Column(s.field[c])
 		var inf int
 		if a, ok := arr.(*array.Float64); ok && arr.NullN() == 0 {

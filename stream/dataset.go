@@ -170,7 +170,7 @@ func Open(files []File, opt Options) (ds *Dataset, err error) {
 			switch {
 			case reason != "":
 			case nullOnly[c.name]:
-				reason = "only nulls"
+				reason = "always null"
 			case i > 0:
 				reason = "not in the first file"
 			default:

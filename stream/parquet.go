@@ -309,7 +309,10 @@ func columnChunkBytes(pf *parquet.File, rowGroup, leaf int) int64 {
 type pqSource struct {
 	cols      []pqCursor
 	remaining int64 // rows of the row group not yet read
+	at        int   // the column being decoded, -1 between columns
 }
+
+func (s *pqSource) decoding() int { return s.at }
 
 // Source modes of a pqCursor's current page.
 const (
@@ -379,7 +382,7 @@ func (d *Dataset) openParquetUnit(of *openFile, u Unit, fh Handle) (*pqSource, e
 				Err: fmt.Errorf("row group %d: %w", u.Index, err)}
 		}
 	}
-	s := &pqSource{cols: make([]pqCursor, len(of.pqCols)), remaining: rg.NumRows()}
+	s := &pqSource{cols: make([]pqCursor, len(of.pqCols)), remaining: rg.NumRows(), at: -1}
 	for c, plan := range of.pqCols {
 		fc, ok := chunks[plan.leaf].(*parquet.FileColumnChunk)
 		if !ok {
@@ -404,7 +407,9 @@ func (s *pqSource) fill(dst []float64, bad []uint8, rows int) (int, error) {
 		return 0, nil
 	}
 	d := len(s.cols)
+	s.at = -1 // set per column below; not reset by a defer, which would run before Read's recover
 	for c := range s.cols {
+		s.at = c
 		cur := &s.cols[c]
 		for filled := 0; filled < m; {
 			if cur.pos == cur.nrows {
@@ -429,7 +434,9 @@ func (s *pqSource) fillColumns(cols, scratch [][]float64, bad []uint8, rows int)
 		return 0, nil
 	}
 	// Stop where the first page of any column ends, so that each column is one run of one page.
+	s.at = -1 // set per column below; not reset by a defer, which would run before Read's recover
 	for c := range s.cols {
+		s.at = c
 		cur := &s.cols[c]
 		if cur.pos == cur.nrows {
 			if err := cur.next(); err != nil {
@@ -439,6 +446,7 @@ func (s *pqSource) fillColumns(cols, scratch [][]float64, bad []uint8, rows int)
 		m = min(m, cur.nrows-cur.pos)
 	}
 	for c := range s.cols {
+		s.at = c
 		cur := &s.cols[c]
 		var inf int
 		if cur.defs == nil && cur.mode == mF64 {

@@ -531,7 +531,7 @@ func TestLZ4RawCorrupt(t *testing.T) {
 }
 
 // TestAllNullColumn: a numeric column whose every value is null (by the footer's statistics) is
-// left out of the default selection with the reason "only nulls", instead of failing the run with
+// left out of the default selection with the reason "always null", instead of failing the run with
 // no usable rows; named in Columns it is an error naming it.
 func TestAllNullColumn(t *testing.T) {
 	type row struct {
@@ -565,7 +565,7 @@ func TestAllNullColumn(t *testing.T) {
 	if !slices.Equal(ds.Columns, []string{"a", "b"}) {
 		t.Errorf("Columns = %v, want [a b]", ds.Columns)
 	}
-	want := []stream.IgnoredColumn{{Name: "n", Type: "float64", Reason: "only nulls"}}
+	want := []stream.IgnoredColumn{{Name: "n", Type: "float64", Reason: "always null"}}
 	if !slices.Equal(ds.Ignored, want) {
 		t.Errorf("Ignored = %v, want %v", ds.Ignored, want)
 	}
