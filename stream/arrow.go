@@ -95,6 +95,7 @@ type arrowSource struct {
 	names   []string // name of each dimension of a row
 	field   []int    // field index of each selected column in the unit's schema
 	scratch [][]float64
+	at      int // the column being converted, -1 between columns
 
 	rec  arrow.Record // current record (owned when from a file)
 	pos  int          // next row of rec
@@ -150,7 +151,7 @@ func (d *Dataset) openArrowFileUnit(of *openFile, u Unit, fh Handle) (*arrowSour
 	if u.Index < 0 || u.Index >= fr.NumRecords() {
 		return nil, fmt.Errorf("no record batch %d", u.Index)
 	}
-	s := &arrowSource{cols: of.arCols, names: d.Columns}
+	s := &arrowSource{cols: of.arCols, names: d.Columns, at: -1}
 	if err := s.resolve(fr.Schema()); err != nil {
 		return nil, s.named(err)
 	}
@@ -174,7 +175,7 @@ func (d *Dataset) openArrowStreamUnit(of *openFile, fh Handle) (*arrowSource, er
 	if err != nil {
 		return nil, err
 	}
-	s := &arrowSource{cols: of.arCols, names: d.Columns, rd: rd}
+	s := &arrowSource{cols: of.arCols, names: d.Columns, rd: rd, at: -1}
 	if err := s.resolve(rd.Schema()); err != nil {
 		rd.Release()
 		return nil, s.named(err)
@@ -193,6 +194,8 @@ func (s *arrowSource) named(err error) error {
 }
 
 func (s *arrowSource) column(c int) string { return s.names[c] }
+
+func (s *arrowSource) decoding() int { return s.at }
 
 // advance makes s.rec a record with rows left, or sets done.
 func (s *arrowSource) advance() error {
@@ -216,6 +219,7 @@ func (s *arrowSource) advance() error {
 }
 
 func (s *arrowSource) fill(dst []float64, bad []uint8, rows int) (int, error) {
+	s.at = -1 // a record batch is decoded whole; set per column below
 	if err := s.advance(); err != nil {
 		return 0, err
 	}
@@ -225,6 +229,7 @@ func (s *arrowSource) fill(dst []float64, bad []uint8, rows int) (int, error) {
 	m := min(rows, int(s.rec.NumRows())-s.pos)
 	d := len(s.names)
 	for c, col := range s.cols {
+		s.at = col.out
 		arr := s.rec.Column(s.field[c])
 		if col.width > 0 {
 			err := putVector(col, arr, s.pos, m, bad, func(r, j int, v float64) { dst[r*d+col.out+j] = v })
@@ -242,6 +247,7 @@ func (s *arrowSource) fill(dst []float64, bad []uint8, rows int) (int, error) {
 }
 
 func (s *arrowSource) fillColumns(cols, scratch [][]float64, bad []uint8, rows int) (int, error) {
+	s.at = -1 // a record batch is decoded whole; set per column below
 	if err := s.advance(); err != nil {
 		return 0, err
 	}
@@ -250,6 +256,7 @@ func (s *arrowSource) fillColumns(cols, scratch [][]float64, bad []uint8, rows i
 	}
 	m := min(rows, int(s.rec.NumRows())-s.pos)
 	for c, col := range s.cols {
+		s.at = col.out
 		arr := s.rec.Column(s.field[c])
 		o := col.out
 		if col.width > 0 {

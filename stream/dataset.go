@@ -67,6 +67,7 @@ type colInfo struct {
 	reason  string // why it cannot be a feature; "" when numeric
 	nonRoot bool   // nested: an error when named, whatever the type
 	vector  bool   // a list of floats: a feature of its lists' length when named (see vector.go)
+	allNull bool   // Parquet: every value of the column is null, by the footer's statistics
 	pq      pqColumn
 	ar      arrowColumn
 }
@@ -99,10 +100,11 @@ func Open(files []File, opt Options) (ds *Dataset, err error) {
 
 	// Resolve the selection against the first file, then check every file.
 	first := infos[0]
+	nullOnly := onlyNulls(infos)
 	var sel []string
 	if len(opt.Columns) == 0 {
 		for _, c := range first {
-			if c.reason == "" && !c.vector {
+			if c.reason == "" && !c.vector && !nullOnly[c.name] {
 				sel = append(sel, c.name)
 			}
 		}
@@ -116,6 +118,13 @@ func Open(files []File, opt Options) (ds *Dataset, err error) {
 				return nil, newError("", name, errors.New("column named twice"))
 			}
 			seen[name] = true
+			if nullOnly[name] {
+				file := ""
+				if len(files) == 1 {
+					file = files[0].Path
+				}
+				return nil, newError(file, name, fmt.Errorf("%w (every value is null in every file's statistics); leave it out of --columns", ErrOnlyNulls))
+			}
 			if !anyHas(infos, name) {
 				file := ""
 				if len(files) == 1 {
@@ -153,9 +162,6 @@ func Open(files []File, opt Options) (ds *Dataset, err error) {
 				widths[name] = width
 			}
 			if f.Format == Parquet {
-				if err := checkCodecs(of.pq, c.pq.leaf); err != nil {
-					return nil, newError(f.Path, name, err)
-				}
 				plan := c.pq
 				plan.name, plan.out, plan.width = name, out, width
 				of.pqCols = append(of.pqCols, plan)
@@ -191,6 +197,8 @@ func Open(files []File, opt Options) (ds *Dataset, err error) {
 			case reason != "":
 			case c.vector && i == 0:
 				reason = "a vector column: name it with --columns to read it"
+			case nullOnly[c.name]:
+				reason = "always null"
 			case i > 0:
 				reason = "not in the first file"
 			default:
@@ -297,6 +305,29 @@ func find(cols []colInfo, name string) (colInfo, bool) {
 		}
 	}
 	return colInfo{}, false
+}
+
+// onlyNulls returns the numeric columns that hold only nulls in every file that has them (each
+// file a Parquet file whose footer's statistics say so for every row group), and are in at least
+// one file with rows.
+func onlyNulls(infos [][]colInfo) map[string]bool {
+	out := map[string]bool{}
+	for _, c := range infos[0] {
+		if c.reason != "" || !c.allNull {
+			continue
+		}
+		all := true
+		for _, cols := range infos[1:] {
+			if o, ok := find(cols, c.name); ok && !o.allNull {
+				all = false
+				break
+			}
+		}
+		if all {
+			out[c.name] = true
+		}
+	}
+	return out
 }
 
 func anyHas(infos [][]colInfo, name string) bool {

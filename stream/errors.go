@@ -22,6 +22,9 @@ var (
 	ErrNotNumeric = errors.New("column is not numeric")
 	// ErrMissingColumn means a selected column is absent from one file.
 	ErrMissingColumn = errors.New("column missing from file")
+	// ErrOnlyNulls means a column named in Options.Columns holds only nulls in every file, as the
+	// Parquet footers' statistics say.
+	ErrOnlyNulls = errors.New("column holds only nulls")
 )
 
 // ReadError says where reading failed. File is the path, Unit the row group or

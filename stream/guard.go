@@ -249,24 +249,6 @@ func checkColumnChunk(fh io.ReaderAt, start, total, footerAt, rows int64, shape 
 	return nil
 }
 
-// errLZ4 refuses LZ4_RAW column chunks. parquet-go v0.32.0 decodes an LZ4_RAW page into a fresh
-// buffer whenever its output guess (three times the compressed size) exceeds the pooled page buffer,
-// and then keeps the pooled buffer, stale bytes and all, when the output has exactly the page's size:
-// poorly compressible pages (floating-point data) come back as other data, silently. It also retries
-// a corrupt LZ4 block with ever larger buffers until memory runs out. (Both seen in its
-// compress/lz4 and Column.decompress code; the first by comparing with its own row reader.)
-var errLZ4 = errors.New("LZ4_RAW compression is not supported: parquet-go v0.32.0 misreads such pages; rewrite the file with snappy, zstd or gzip")
-
-// checkCodecs refuses a column whose chunks in pf use a codec that cannot be read reliably.
-func checkCodecs(pf *parquet.File, leaf int) error {
-	for _, rg := range pf.Metadata().RowGroups {
-		if leaf < len(rg.Columns) && rg.Columns[leaf].MetaData.Codec == format.Lz4Raw {
-			return errLZ4
-		}
-	}
-	return nil
-}
-
 // chunkShape is what checkColumnChunk needs to know of a column chunk to walk its pages' runs.
 type chunkShape struct {
 	codec  format.CompressionCodec
@@ -393,6 +375,17 @@ func (b *pageBody) decompress(codec format.CompressionCodec, src []byte, size in
 		if n, err := snappy.DecodedLen(src); err != nil || int64(n) > size {
 			return nil, corruptf("snappy data claims %d bytes, more than the page's %d", n, size)
 		}
+	case format.Lz4Raw:
+		// parquet-go's LZ4_RAW codec retries a corrupt block with ever larger buffers; the
+		// block is decoded here into exactly the stated size (see lz4raw.go).
+		if int64(cap(b.plain)) < size {
+			b.plain = make([]byte, size)
+		}
+		out := b.plain[:size]
+		if err := lz4Block(out, src); err != nil {
+			return nil, err
+		}
+		return out, nil
 	}
 	out, err := parquet.LookupCompressionCodec(codec).Decode(b.plain[:0], src)
 	if err != nil {

@@ -102,6 +102,7 @@ func (d *Dataset) openParquet(i int, fh Handle, size int64) ([]colInfo, error) {
 		}
 		ci := classifyParquet(e)
 		ci.pq.leaf = leaf
+		ci.allNull = allNullChunks(pf, leaf)
 		if e.RepetitionType.Valid && e.RepetitionType.V == format.Repeated {
 			ci = colInfo{name: e.Name, typ: "repeated " + ci.typ, reason: "nested", nonRoot: true}
 		}
@@ -296,6 +297,24 @@ func classifyParquet(e *format.SchemaElement) colInfo {
 }
 
 // columnChunkBytes returns the compressed size of a column chunk.
+// allNullChunks reports whether the footer's statistics say that every value of column chunk leaf
+// is null, in every row group, and some row group holds values. A chunk without statistics (its
+// null count reads 0) is not all null.
+func allNullChunks(pf *parquet.File, leaf int) bool {
+	var values int64
+	for _, rg := range pf.Metadata().RowGroups {
+		if leaf >= len(rg.Columns) {
+			return false
+		}
+		m := &rg.Columns[leaf].MetaData
+		if m.Statistics.NullCount != m.NumValues {
+			return false
+		}
+		values += m.NumValues
+	}
+	return values > 0
+}
+
 func columnChunkBytes(pf *parquet.File, rowGroup, leaf int) int64 {
 	rgs := pf.Metadata().RowGroups
 	if rowGroup < len(rgs) && leaf < len(rgs[rowGroup].Columns) {
@@ -310,7 +329,10 @@ type pqSource struct {
 	vecs      []pqVector // vector (list) columns
 	names     []string   // name of each dimension of a row
 	remaining int64      // rows of the row group not yet read
+	at        int        // the dimension being decoded, -1 between columns
 }
+
+func (s *pqSource) decoding() int { return s.at }
 
 // Source modes of a pqCursor's current page.
 const (
@@ -379,17 +401,25 @@ func (d *Dataset) openParquetUnit(of *openFile, u Unit, fh Handle) (*pqSource, e
 				Err: fmt.Errorf("row group %d: %w", u.Index, err)}
 		}
 	}
-	s := &pqSource{names: d.Columns, remaining: rg.NumRows()}
+	s := &pqSource{names: d.Columns, remaining: rg.NumRows(), at: -1}
 	for _, plan := range of.pqCols {
 		fc, ok := chunks[plan.leaf].(*parquet.FileColumnChunk)
 		if !ok {
 			s.close()
 			return nil, fmt.Errorf("column chunk %d is not a file column chunk", plan.leaf)
 		}
+		pages := fc.PagesFrom(fh)
+		if isLZ4(of.pq, u.Index, plan.leaf) {
+			if pages, err = openLZ4Chunk(of.pq, fh, u.Index, plan.leaf); err != nil {
+				s.close()
+				return nil, &ReadError{File: d.Files[u.File].Path, Unit: u.Index, Row: -1, Column: plan.name,
+					Err: fmt.Errorf("row group %d: %w", u.Index, err)}
+			}
+		}
 		if plan.width > 0 {
-			s.vecs = append(s.vecs, pqVector{plan: plan, pages: fc.PagesFrom(fh), buf: make([]float64, plan.width)})
+			s.vecs = append(s.vecs, pqVector{plan: plan, pages: pages, buf: make([]float64, plan.width)})
 		} else {
-			s.cols = append(s.cols, pqCursor{plan: plan, pages: fc.PagesFrom(fh)})
+			s.cols = append(s.cols, pqCursor{plan: plan, pages: pages})
 		}
 	}
 	return s, nil
@@ -401,8 +431,10 @@ func (s *pqSource) fill(dst []float64, bad []uint8, rows int) (int, error) {
 		return 0, nil
 	}
 	d := len(s.names)
+	s.at = -1 // set per column below; not reset by a defer, which would run before Read's recover
 	for c := range s.cols {
 		cur := &s.cols[c]
+		s.at = cur.plan.out
 		for filled := 0; filled < m; {
 			if cur.pos == cur.nrows {
 				if err := cur.next(); err != nil {
@@ -418,6 +450,7 @@ func (s *pqSource) fill(dst []float64, bad []uint8, rows int) (int, error) {
 	}
 	for i := range s.vecs {
 		v := &s.vecs[i]
+		s.at = v.plan.out
 		for r := 0; r < m; r++ {
 			if err := v.fillRow(bad, r); err != nil {
 				return 0, err
@@ -435,8 +468,10 @@ func (s *pqSource) fillColumns(cols, scratch [][]float64, bad []uint8, rows int)
 		return 0, nil
 	}
 	// Stop where the first page of any column ends, so that each column is one run of one page.
+	s.at = -1 // set per column below; not reset by a defer, which would run before Read's recover
 	for c := range s.cols {
 		cur := &s.cols[c]
+		s.at = cur.plan.out
 		if cur.pos == cur.nrows {
 			if err := cur.next(); err != nil {
 				return 0, &colError{col: cur.plan.out, row: -1, err: err}
@@ -446,6 +481,7 @@ func (s *pqSource) fillColumns(cols, scratch [][]float64, bad []uint8, rows int)
 	}
 	for i := range s.vecs {
 		v := &s.vecs[i]
+		s.at = v.plan.out
 		for j := range v.plan.width {
 			cols[v.plan.out+j] = scratch[v.plan.out+j][:m]
 		}
@@ -461,6 +497,7 @@ func (s *pqSource) fillColumns(cols, scratch [][]float64, bad []uint8, rows int)
 	for i := range s.cols {
 		cur := &s.cols[i]
 		c := cur.plan.out
+		s.at = c
 		var inf int
 		if cur.defs == nil && cur.mode == mF64 {
 			inf = viewDense(&cols[c], cur.f64[cur.pos:cur.pos+m], bad)

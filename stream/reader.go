@@ -17,6 +17,9 @@ type source interface {
 	// at least rows) filled, and returns the number of rows.
 	fillColumns(cols, scratch [][]float64, bad []uint8, rows int) (int, error)
 	column(c int) string
+	// decoding returns the column being decoded, or -1 between columns: a decoder panic is
+	// reported against it.
+	decoding() int
 	close() error
 }
 
@@ -115,7 +118,7 @@ func (r *UnitReader) Read(dst []float64) (n int, err error) {
 	}
 	defer func() {
 		if p := recover(); p != nil {
-			r.err = r.wrap(&colError{col: -1, row: -1, err: panicError("decoding", p)})
+			r.err = r.wrap(&colError{col: r.src.decoding(), row: -1, err: panicError("decoding", p)})
 			n, err = 0, r.err
 		}
 	}()
@@ -169,7 +172,7 @@ func (r *UnitReader) ReadColumns(max int) (cols [][]float64, err error) {
 	}
 	defer func() {
 		if p := recover(); p != nil {
-			r.err = r.wrap(&colError{col: -1, row: -1, err: panicError("decoding", p)})
+			r.err = r.wrap(&colError{col: r.src.decoding(), row: -1, err: panicError("decoding", p)})
 			cols, err = nil, r.err
 		}
 	}()

@@ -303,7 +303,13 @@ func (d *Dataset) parquetVectorWidth(i int, plan pqColumn) (width int, err error
 		if !ok {
 			return 0, fmt.Errorf("column chunk %d is not a file column chunk", plan.leaf)
 		}
-		v := &pqVector{plan: plan, pages: fc.PagesFrom(fh)}
+		pages := fc.PagesFrom(fh)
+		if isLZ4(of.pq, g, plan.leaf) {
+			if pages, err = openLZ4Chunk(of.pq, fh, g, plan.leaf); err != nil {
+				return 0, fmt.Errorf("row group %d: %w", g, err)
+			}
+		}
+		v := &pqVector{plan: plan, pages: pages}
 		for {
 			n, _, err := v.row()
 			if err == io.EOF {
