@@ -131,7 +131,7 @@ func build(ctx context.Context, paths []string, opt Options, avoid map[string]st
 		return nil, nil, tm, err
 	}
 	in.Tables = describeTables(tables, opt.Tables.Table.Where)
-	if opt, err = opt.fitMemory(ds.Dims()); err != nil {
+	if opt, err = opt.fitMemory(ds); err != nil {
 		return nil, nil, tm, err
 	}
 	if p := opt.Progress; p != nil {

@@ -63,7 +63,7 @@ func PlanUnits(ctx context.Context, paths []string, opt Options) (*UnitPlan, err
 		return nil, err
 	}
 	defer ds.Close()
-	if opt, err = opt.fitMemory(ds.Dims()); err != nil {
+	if opt, err = opt.fitMemory(ds); err != nil {
 		return nil, err
 	}
 	opt.Progress = nil

@@ -1,4 +1,4 @@
-// Package model predicts what an estimate costs before it runs: its wall time and its peak memory on
+// Package cost predicts what an estimate costs before it runs: its wall time and its peak memory on
 // this machine, as a sum of named terms whose constants are measured, never typed in.
 //
 // # Time
@@ -32,4 +32,4 @@
 // "go run ./cmd/kgauge-calibrate" from timed runs on generated files; a plan replaces the
 // machine-dependent rates by what its short timed probe of the real input measured (see
 // kgauge.TimedProbe and [ProbeTiming]). No constant is asserted in a test: the tests check the model's algebra.
-package model
+package cost
