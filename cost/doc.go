@@ -24,7 +24,12 @@
 //
 // # Memory
 //
-//	peak = base + W·(sketch + read buffer + d·PageBytes) + probe rows + criteria working set
+//	peak = base + (1 + GOGC/100)·max(probe rows, W·(sketch + read buffer + d·PageBytes), criteria stage)
+//
+// [PredictMemory] is the one memory model: plan prints it, --memory is checked against it, the
+// projection and Beam's per-worker figure ([BeamWorkerBytes]) use it. The sizes come from the
+// packages that own them: sketch.HeldBytes, criteria.WorkingBytes, sketch.ProbeSeedRows,
+// criteria.WardLeaves; each is tested there against the heap it measures.
 //
 // # Constants
 //

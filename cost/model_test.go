@@ -293,3 +293,25 @@ func TestParseCriteriaFactors(t *testing.T) {
 		t.Errorf("criteria %v without the legacy factor, want %v", got, 0.5+work/1e9)
 	}
 }
+
+// TestBeamFigures: a Beam worker holds one partial sketch with its buffers (the pass parts of
+// PredictMemory for one worker), and the Beam pass is the single-worker pass and the per-item
+// overhead shared by the workers, plus the start-up once.
+func TestBeamFigures(t *testing.T) {
+	c, w := testCal(), testWork()
+	one := w
+	one.Workers, one.Units = 1, 1
+	m := PredictMemory(one, c)
+	if got, want := BeamWorkerBytes(w, c), m.Base+(m.Sketches+m.ReadBuffers+m.PageBuffers)*(100+GCPercent)/100; got != want {
+		t.Errorf("BeamWorkerBytes = %d, want %d", got, want)
+	}
+	w1, w4 := w, w
+	w1.Workers, w4.Workers = 1, 4
+	a, b := BeamPassSeconds(w1, c)-BeamPipelineStartup.Seconds(), BeamPassSeconds(w4, c)-BeamPipelineStartup.Seconds()
+	if math.Abs(a/b-4) > 1e-9 {
+		t.Errorf("Beam pass on 1 and 4 workers: %v and %v s; want a ratio of 4", a, b)
+	}
+	if want := float64(w.Units) * BeamWorkItemOverhead.Seconds(); a < want {
+		t.Errorf("Beam pass %v s misses the %v s of per-item overhead", a, want)
+	}
+}
