@@ -5,8 +5,6 @@ import (
 	"errors"
 	"fmt"
 	"io"
-	"math"
-	"math/rand/v2"
 	"runtime"
 	"slices"
 	"sync"
@@ -14,7 +12,6 @@ import (
 
 	"github.com/kgauge/kgauge/cost"
 	"github.com/kgauge/kgauge/criteria"
-	"github.com/kgauge/kgauge/internal/kmeans"
 	"github.com/kgauge/kgauge/sketch"
 	"github.com/kgauge/kgauge/stream"
 )
@@ -54,30 +51,13 @@ type CapacityPlan struct {
 // With probe false it skips the timed read and uses the committed calibration alone.
 func PlanCapacity(ctx context.Context, paths []string, opt Options, probe bool) (*CapacityPlan, error) {
 	start := time.Now()
-	if err := opt.Validate(); err != nil {
-		return nil, err
-	}
-	opt = opt.withDefaults()
-	files, _, _, err := discoverFiles(paths, opt)
+	op, err := Open(paths, opt)
 	if err != nil {
 		return nil, err
 	}
-	ds, err := stream.Open(files, stream.Options{Columns: opt.Columns})
-	if err != nil {
-		return nil, err
-	}
+	ds := op.Dataset
 	defer ds.Close()
-	// The same refusals as the estimate's, before the timed probe: too wide, a k range beyond the
-	// rows, a memory bound that even the smallest sizes exceed (with the figure needed).
-	if d := ds.Dims(); d > MaxColumns {
-		return nil, fmt.Errorf("%w: %d feature columns, more than %d", ErrTooWide, d, MaxColumns)
-	}
-	if opt, err = opt.capToInput(ds); err != nil {
-		return nil, err
-	}
-	if opt, err = opt.fitMemory(ds); err != nil {
-		return nil, err
-	}
+	opt = op.Options
 	cal := cost.Default()
 	if probe {
 		if cal, err = TimedProbe(ctx, ds, opt, cal); err != nil {
@@ -111,22 +91,12 @@ func PlanWorkload(paths []string, opt Options) (cost.Workload, error) {
 	if len(data) == 0 {
 		return cost.Workload{}, errors.New("plan: only saved sketches given; nothing to read")
 	}
-	files, _, _, err := discoverFiles(data, opt)
+	op, err := Open(data, opt)
 	if err != nil {
 		return cost.Workload{}, err
 	}
-	ds, err := stream.Open(files, stream.Options{Columns: opt.Columns})
-	if err != nil {
-		return cost.Workload{}, err
-	}
-	defer ds.Close()
-	if opt, err = opt.capToInput(ds); err != nil {
-		return cost.Workload{}, err
-	}
-	if opt, err = opt.fitMemory(ds); err != nil {
-		return cost.Workload{}, err
-	}
-	return WorkloadOf(ds, opt), nil
+	defer op.Dataset.Close()
+	return WorkloadOf(op.Dataset, op.Options), nil
 }
 
 // WorkloadOf describes the estimate opt would run on the opened dataset ds.
@@ -255,40 +225,6 @@ func TimedProbe(ctx context.Context, ds *stream.Dataset, opt Options, cal cost.C
 	return cal, nil
 }
 
-// probeFor returns a sketch.Probe for rows: their mean and spread, and starting centres for every k.
-func probeFor(rows []float64, d, minK, maxK int) sketch.Probe {
-	n := len(rows) / d
-	p := sketch.Probe{Center: make([]float64, d), Scale: make([]float64, d), Init: map[int][]float64{}, Rows: int64(n)}
-	col := make([]float64, n)
-	for j := range d {
-		for i := range n {
-			col[i] = rows[i*d+j]
-		}
-		p.Center[j], p.Scale[j] = meanStd(col)
-		if !(p.Scale[j] > 0) || math.IsInf(p.Scale[j], 0) {
-			p.Scale[j] = 1
-		}
-	}
-	p.MeanSq = float64(d)
-	// Starting centres as the estimate's probe makes them: k-means++ on up to probeInitRows scaled rows. The
-	// mini-batch fit from them seeds one of each k's coreset fits, whose Lloyd iterations (and so the
-	// criteria's cost) depend on how good they are.
-	m := min(n, probeInitRows)
-	x := make([]float64, m*d)
-	for i := range x {
-		j := i % d
-		x[i] = (rows[i] - p.Center[j]) / p.Scale[j]
-		if math.IsInf(x[i], 0) {
-			x[i] = rows[i]/p.Scale[j] - p.Center[j]/p.Scale[j]
-		}
-	}
-	rng := rand.New(rand.NewPCG(1, 2))
-	for k := minK; k <= maxK; k++ {
-		p.Init[k] = kmeans.PlusPlus(kmeans.Data{X: x, D: d}, min(k, m), rng, nil)
-	}
-	return p
-}
-
 // timeSketch sets cal's sketch.Add cost per value (steady state, once the coreset and sample are
 // full) and its mini-batch kernel rate (a fresh sketch feeding every row, less one feeding none).
 func timeSketch(cal *cost.Calibration, rows []float64, cols []string, opt Options) error {
@@ -297,7 +233,10 @@ func timeSketch(cal *cost.Calibration, rows []float64, cols []string, opt Option
 	cfg := opt.Sketch
 	cfg.Columns = cols
 	cfg.ExpectedRows = 1 << 60 // a feed rate of ~0: rows pass the moments, coreset and sample only
-	pr := probeFor(rows, d, cfg.MinK, cfg.MaxK)
+	pr, err := probeFromRows(rows, cols, opt)
+	if err != nil {
+		return err
+	}
 	base, err := sketch.New(cfg, pr)
 	if err != nil {
 		return err
@@ -378,7 +317,11 @@ func timeCriteria(ctx context.Context, cal *cost.Calibration, rows []float64, co
 	cfg.Columns = cols
 	cfg.ExpectedRows = int64(n)
 	cfg.MiniBatchRows = int64(min(n, probeFeedRows))
-	sk, err := sketch.New(cfg, probeFor(rows, d, cfg.MinK, cfg.MaxK))
+	pr, err := probeFromRows(rows, cols, opt)
+	if err != nil {
+		return err
+	}
+	sk, err := sketch.New(cfg, pr)
 	if err != nil {
 		return err
 	}
