@@ -109,34 +109,17 @@ func build(ctx context.Context, paths []string, opt Options, avoid map[string]st
 	opt = opt.withDefaults()
 	start := time.Now()
 	opt.Progress.stage("open")
-	if found == nil {
-		var err error
-		if found, err = discoverInputs(paths, opt, false); err != nil {
-			return nil, nil, tm, err
-		}
-	}
-	files, skipped, tables := found.files, found.skipped, found.tables
-	ids, err := contentIDs(files, avoid)
+	var ids []string
+	op, err := open(paths, opt, found, func(files []stream.File) (err error) {
+		ids, err = contentIDs(files, avoid)
+		return err
+	})
 	if err != nil {
 		return nil, nil, tm, err
 	}
-	ds, err := stream.Open(files, stream.Options{Columns: opt.Columns})
-	if err != nil {
-		return nil, nil, tm, err
-	}
+	ds, in := op.Dataset, op.Input
 	defer ds.Close()
-	in := describe(ds)
-	in.Skipped = skipped
-	if d := ds.Dims(); d > MaxColumns {
-		return nil, nil, tm, fmt.Errorf("%w: %d feature columns, more than %d", ErrTooWide, d, MaxColumns)
-	}
-	if opt, err = opt.capToInput(ds); err != nil {
-		return nil, nil, tm, err
-	}
-	in.Tables = describeTables(tables, opt.Tables.Table.Where)
-	if opt, err = opt.fitMemory(ds.Dims()); err != nil {
-		return nil, nil, tm, err
-	}
+	opt = op.Options
 	if p := opt.Progress; p != nil {
 		p.TotalRows.Store(ds.Rows)
 		p.TotalBytes.Store(ds.Bytes)
@@ -292,6 +275,17 @@ func probe(ctx context.Context, ds *stream.Dataset, units []stream.Unit, opt Opt
 		}
 		r.Close()
 	}
+	return probeFromRows(rows, ds.Columns, opt)
+}
+
+// probeFromRows derives the pass's scale and starting centres from the probe's rows (row-major, raw
+// units; not modified): each column's mean and spread, the mean squared scaled norm, and for every
+// k the k-means++ centres on the first probeInitRows scaled rows, one random stream per k, seeded
+// on opt.Workers goroutines. The estimate's probe and the capacity planner's timed probe both use
+// it, so the planner times the sketch and the criteria from the centres the estimate would start
+// from.
+func probeFromRows(rows []float64, cols []string, opt Options) (sketch.Probe, error) {
+	d := len(cols)
 	n := len(rows) / d
 	p := sketch.Probe{Center: make([]float64, d), Scale: make([]float64, d), Init: map[int][]float64{}, Rows: int64(n)}
 	if n == 0 {
@@ -324,10 +318,12 @@ func probe(ctx context.Context, ds *stream.Dataset, units []stream.Unit, opt Opt
 		}
 	}
 	if opt.Scale == Raw {
-		if err := checkRaw(ds.Columns, lo, hi); err != nil {
+		if err := checkRaw(cols, lo, hi); err != nil {
 			return sketch.Probe{}, err
 		}
 	}
+	m := min(n, probeInitRows)
+	initRows := make([]float64, m*d)
 	for i := range n {
 		var s float64
 		for j := range d {
@@ -335,13 +331,14 @@ func probe(ctx context.Context, ds *stream.Dataset, units []stream.Unit, opt Opt
 			if math.IsInf(z, 0) { // a difference beyond float64: scale both terms first
 				z = rows[i*d+j]/p.Scale[j] - p.Center[j]/p.Scale[j]
 			}
-			rows[i*d+j] = z
+			if i < m {
+				initRows[i*d+j] = z
+			}
 			s += z * z
 		}
 		p.MeanSq += s
 	}
 	p.MeanSq /= float64(n)
-	initRows := rows[:min(n, probeInitRows)*d]
 	data := kmeans.Data{X: initRows, D: d}
 	// The seedings are independent (one random stream per k): spread them over the workers,
 	// largest k first. They were most of the probe's time (issue 15).
@@ -450,43 +447,57 @@ func pass(ctx context.Context, ds *stream.Dataset, units []stream.Unit, unitID m
 func work(ctx context.Context, ds *stream.Dataset, units []stream.Unit, unitID map[stream.Unit]int,
 	w, workers int, sk *sketch.Sketch, opt Options, nulls []int64) error {
 	for i := w; i < len(units); i += workers {
-		if err := ctx.Err(); err != nil {
+		if err := readUnit(ctx, ds, units[i], unitID[units[i]], sk, opt.BatchRows, opt.Progress, nulls); err != nil {
 			return err
 		}
-		u := units[i]
-		r, err := ds.OpenUnit(u)
+	}
+	return nil
+}
+
+// readUnit is the one read loop of a pass, shared by Estimate's workers and Beam's work items
+// (Builder.Build): it opens unit u of ds, keys its rows by id (sketch.BeginUnit), reads it by
+// column in batches of at most batchRows rows into sk, and counts its skipped rows in sk and per
+// column in nulls (when not nil) and its rows and bytes in progress (when not nil). It checks ctx
+// before opening and after every batch.
+func readUnit(ctx context.Context, ds *stream.Dataset, u stream.Unit, id int, sk *sketch.Sketch,
+	batchRows int, progress *Progress, nulls []int64) error {
+	if err := ctx.Err(); err != nil {
+		return err
+	}
+	r, err := ds.OpenUnit(u)
+	if err != nil {
+		return err
+	}
+	sk.BeginUnit(id)
+	for {
+		cols, err := r.ReadColumns(max(1, batchRows))
+		if err == io.EOF {
+			break
+		}
 		if err != nil {
+			r.Close()
 			return err
 		}
-		sk.BeginUnit(unitID[u])
-		for {
-			cols, err := r.ReadColumns(opt.BatchRows)
-			if err == io.EOF {
-				break
-			}
-			if err != nil {
-				r.Close()
-				return err
-			}
-			sk.AddColumns(cols)
-			if p := opt.Progress; p != nil {
-				p.Rows.Add(int64(len(cols[0])))
-			}
-			if err := ctx.Err(); err != nil {
-				r.Close()
-				return err
-			}
+		sk.AddColumns(cols)
+		if progress != nil {
+			progress.Rows.Add(int64(len(cols[0])))
 		}
-		sk.Meta.SkippedRows += r.Skipped()
+		if err := ctx.Err(); err != nil {
+			r.Close()
+			return err
+		}
+	}
+	sk.Meta.SkippedRows += r.Skipped()
+	if nulls != nil {
 		for j, c := range r.SkippedByColumn() {
 			nulls[j] += c
 		}
-		if err := r.Close(); err != nil {
-			return err
-		}
-		if p := opt.Progress; p != nil {
-			p.Bytes.Add(u.Bytes)
-		}
+	}
+	if err := r.Close(); err != nil {
+		return err
+	}
+	if progress != nil {
+		progress.Bytes.Add(u.Bytes)
 	}
 	return nil
 }

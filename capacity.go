@@ -5,16 +5,13 @@ import (
 	"errors"
 	"fmt"
 	"io"
-	"math"
-	"math/rand/v2"
 	"runtime"
 	"slices"
 	"sync"
 	"time"
 
-	"github.com/kgauge/kgauge/bench/model"
+	"github.com/kgauge/kgauge/cost"
 	"github.com/kgauge/kgauge/criteria"
-	"github.com/kgauge/kgauge/internal/kmeans"
 	"github.com/kgauge/kgauge/sketch"
 	"github.com/kgauge/kgauge/stream"
 )
@@ -36,15 +33,15 @@ var PlanScales = []float64{1, 10, 100}
 
 // CapacityPlan is what PlanCapacity predicts for an estimate of the same inputs and options.
 type CapacityPlan struct {
-	Input       *Input            `json:"input"`
-	Workload    model.Workload    `json:"workload"`
-	Calibration model.Calibration `json:"calibration"`
-	model.Prediction
-	Workers     []model.Row `json:"by_workers"`
-	Scales      []model.Row `json:"by_data_scale"`
-	Cores       int         `json:"cores"`
-	PlanSeconds float64     `json:"plan_seconds"` // what the plan itself took
-	Notes       []string    `json:"notes"`
+	Input       *Input           `json:"input"`
+	Workload    cost.Workload    `json:"workload"`
+	Calibration cost.Calibration `json:"calibration"`
+	cost.Prediction
+	Workers     []cost.Row `json:"by_workers"`
+	Scales      []cost.Row `json:"by_data_scale"`
+	Cores       int        `json:"cores"`
+	PlanSeconds float64    `json:"plan_seconds"` // what the plan itself took
+	Notes       []string   `json:"notes"`
 }
 
 // PlanCapacity reads only the footers and metadata of the data files named by paths and a few whole row
@@ -54,40 +51,23 @@ type CapacityPlan struct {
 // With probe false it skips the timed read and uses the committed calibration alone.
 func PlanCapacity(ctx context.Context, paths []string, opt Options, probe bool) (*CapacityPlan, error) {
 	start := time.Now()
-	if err := opt.Validate(); err != nil {
-		return nil, err
-	}
-	opt = opt.withDefaults()
-	files, _, _, err := discoverFiles(paths, opt)
+	op, err := Open(paths, opt)
 	if err != nil {
 		return nil, err
 	}
-	ds, err := stream.Open(files, stream.Options{Columns: opt.Columns})
-	if err != nil {
-		return nil, err
-	}
+	ds := op.Dataset
 	defer ds.Close()
-	// The same refusals as the estimate's, before the timed probe: too wide, a k range beyond the
-	// rows, a memory bound that even the smallest sizes exceed (with the figure needed).
-	if d := ds.Dims(); d > MaxColumns {
-		return nil, fmt.Errorf("%w: %d feature columns, more than %d", ErrTooWide, d, MaxColumns)
-	}
-	if opt, err = opt.capToInput(ds); err != nil {
-		return nil, err
-	}
-	if opt, err = opt.fitMemory(ds.Dims()); err != nil {
-		return nil, err
-	}
-	cal := model.Default()
+	opt = op.Options
+	cal := cost.Default()
 	if probe {
 		if cal, err = TimedProbe(ctx, ds, opt, cal); err != nil {
 			return nil, err
 		}
 	}
 	p := &CapacityPlan{Input: describe(ds), Workload: WorkloadOf(ds, opt), Calibration: cal, Cores: runtime.NumCPU()}
-	p.Prediction = model.Predict(p.Workload, cal)
-	p.Workers = model.WorkerTable(p.Workload, cal, PlanWorkers...)
-	p.Scales = model.ScaleTable(p.Workload, cal, PlanScales...)
+	p.Prediction = cost.Predict(p.Workload, cal)
+	p.Workers = cost.WorkerTable(p.Workload, cal, PlanWorkers...)
+	p.Scales = cost.ScaleTable(p.Workload, cal, PlanScales...)
 	if p.Cores <= 2 {
 		p.Notes = append(p.Notes, fmt.Sprintf("this machine has %d CPUs: more than %d workers gain nothing", p.Cores, p.Cores))
 	}
@@ -99,30 +79,28 @@ func PlanCapacity(ctx context.Context, paths []string, opt Options, probe bool) 
 }
 
 // PlanWorkload opens the footers of the data files named by paths and describes the estimate opt
-// would run on them, without reading any rows.
-func PlanWorkload(paths []string, opt Options) (model.Workload, error) {
+// would run on them, without reading any rows: the options after the same caps and the same
+// --memory fit as Estimate's (capToInput, fitMemory), so that the progress bar's first figure,
+// the report's planned column and plan --no-probe price the same run.
+func PlanWorkload(paths []string, opt Options) (cost.Workload, error) {
 	opt = opt.withDefaults()
 	_, data, err := splitInputs(paths)
 	if err != nil {
-		return model.Workload{}, err
+		return cost.Workload{}, err
 	}
 	if len(data) == 0 {
-		return model.Workload{}, errors.New("plan: only saved sketches given; nothing to read")
+		return cost.Workload{}, errors.New("plan: only saved sketches given; nothing to read")
 	}
-	files, _, _, err := discoverFiles(data, opt)
+	op, err := Open(data, opt)
 	if err != nil {
-		return model.Workload{}, err
+		return cost.Workload{}, err
 	}
-	ds, err := stream.Open(files, stream.Options{Columns: opt.Columns})
-	if err != nil {
-		return model.Workload{}, err
-	}
-	defer ds.Close()
-	return WorkloadOf(ds, opt), nil
+	defer op.Dataset.Close()
+	return WorkloadOf(op.Dataset, op.Options), nil
 }
 
 // WorkloadOf describes the estimate opt would run on the opened dataset ds.
-func WorkloadOf(ds *stream.Dataset, opt Options) model.Workload {
+func WorkloadOf(ds *stream.Dataset, opt Options) cost.Workload {
 	opt = opt.withDefaults()
 	c := opt.Criteria
 	s := opt.Sketch
@@ -144,13 +122,14 @@ func WorkloadOf(ds *stream.Dataset, opt Options) model.Workload {
 		}
 		return v
 	}
-	return model.Workload{Files: len(ds.Files), Units: len(ds.Units), Rows: ds.Rows, Bytes: ds.Bytes,
+	return cost.Workload{Files: len(ds.Files), Units: len(ds.Units), Rows: ds.Rows, Bytes: ds.Bytes,
 		Dims: ds.Dims(), Workers: opt.Workers, Cores: runtime.GOMAXPROCS(0), MinK: c.MinK, MaxK: c.MaxK,
 		Coreset: cs, Sample: ss, MiniBatchRows: mb, BatchRows: opt.BatchRows, ProbeRows: opt.ProbeRows,
 		ProbeUnits: opt.ProbeUnits, Restarts: pick(c.Restarts, dc.Restarts), Anchors: pick(c.Anchors, dc.Anchors),
 		GapRefs: pick(c.GapRefs, dc.GapRefs), GapSample: pick(c.GapSample, dc.GapSample),
-		GapRestarts: pick(c.GapRestarts, dc.GapRestarts),
-		WardLeaves:  wardLeaves(int(min(int64(cs), max(ds.Rows, 1))), c.MaxK)}
+		GapRestarts:   pick(c.GapRestarts, dc.GapRestarts),
+		WardLeaves:    criteria.WardLeaves(int(min(int64(cs), max(ds.Rows, 1))), c.MaxK),
+		MiniBatchSize: s.MiniBatchSize, CriteriaWorkers: c.Workers}
 }
 
 // Probe limits of TimedProbe.
@@ -168,14 +147,14 @@ const (
 // sketch.Add with and without the mini-batch feed, and the criteria for a few k at the estimate's
 // option sizes on a sketch of the rows read (timeCriteria), and returns cal with those machine- and
 // file-dependent rates replaced and the criteria runs in cal.Probe.Criteria, from which
-// model.Predict prices the criteria stage. The ratios that a short run cannot measure (pass and
+// cost.Predict prices the criteria stage. The ratios that a short run cannot measure (pass and
 // probe overheads, parallel fraction) stay those of cal.
-func TimedProbe(ctx context.Context, ds *stream.Dataset, opt Options, cal model.Calibration) (model.Calibration, error) {
+func TimedProbe(ctx context.Context, ds *stream.Dataset, opt Options, cal cost.Calibration) (cost.Calibration, error) {
 	opt = opt.withDefaults()
 	d := ds.Dims()
 	units := stream.Shuffle(ds.Units, opt.Seed)
 	budget := ds.Rows / probeShare
-	pt := &model.ProbeTiming{}
+	pt := &cost.ProbeTiming{}
 	var rows []float64
 	buf := make([]float64, opt.BatchRows*d)
 	for _, u := range units {
@@ -246,49 +225,18 @@ func TimedProbe(ctx context.Context, ds *stream.Dataset, opt Options, cal model.
 	return cal, nil
 }
 
-// probeFor returns a sketch.Probe for rows: their mean and spread, and starting centres for every k.
-func probeFor(rows []float64, d, minK, maxK int) sketch.Probe {
-	n := len(rows) / d
-	p := sketch.Probe{Center: make([]float64, d), Scale: make([]float64, d), Init: map[int][]float64{}, Rows: int64(n)}
-	col := make([]float64, n)
-	for j := range d {
-		for i := range n {
-			col[i] = rows[i*d+j]
-		}
-		p.Center[j], p.Scale[j] = meanStd(col)
-		if !(p.Scale[j] > 0) || math.IsInf(p.Scale[j], 0) {
-			p.Scale[j] = 1
-		}
-	}
-	p.MeanSq = float64(d)
-	// Starting centres as the estimate's probe makes them: k-means++ on up to 8192 scaled rows. The
-	// mini-batch fit from them seeds one of each k's coreset fits, whose Lloyd iterations (and so the
-	// criteria's cost) depend on how good they are.
-	m := min(n, 8192)
-	x := make([]float64, m*d)
-	for i := range x {
-		j := i % d
-		x[i] = (rows[i] - p.Center[j]) / p.Scale[j]
-		if math.IsInf(x[i], 0) {
-			x[i] = rows[i]/p.Scale[j] - p.Center[j]/p.Scale[j]
-		}
-	}
-	rng := rand.New(rand.NewPCG(1, 2))
-	for k := minK; k <= maxK; k++ {
-		p.Init[k] = kmeans.PlusPlus(kmeans.Data{X: x, D: d}, min(k, m), rng, nil)
-	}
-	return p
-}
-
 // timeSketch sets cal's sketch.Add cost per value (steady state, once the coreset and sample are
 // full) and its mini-batch kernel rate (a fresh sketch feeding every row, less one feeding none).
-func timeSketch(cal *model.Calibration, rows []float64, cols []string, opt Options) error {
+func timeSketch(cal *cost.Calibration, rows []float64, cols []string, opt Options) error {
 	d := len(cols)
 	n := len(rows) / d
 	cfg := opt.Sketch
 	cfg.Columns = cols
 	cfg.ExpectedRows = 1 << 60 // a feed rate of ~0: rows pass the moments, coreset and sample only
-	pr := probeFor(rows, d, cfg.MinK, cfg.MaxK)
+	pr, err := probeFromRows(rows, cols, opt)
+	if err != nil {
+		return err
+	}
 	base, err := sketch.New(cfg, pr)
 	if err != nil {
 		return err
@@ -340,47 +288,40 @@ const addRuns = 3
 // probeRuns returns the probe's criteria runs, the most expensive first (the order they start in):
 // without the Ward linkage the largest k, the middle of the range from the smallest k >= 2 and that
 // smallest k; k = 1 with the Ward linkage; and k = 1 without it.
-func probeRuns(minK, maxK int) []model.CriteriaRun {
+func probeRuns(minK, maxK int) []cost.CriteriaRun {
 	lo := max(minK, 2)
-	var runs []model.CriteriaRun
+	var runs []cost.CriteriaRun
 	if maxK > lo {
-		runs = append(runs, model.CriteriaRun{K: maxK})
+		runs = append(runs, cost.CriteriaRun{K: maxK})
 		if mid := (lo + maxK) / 2; mid > lo {
-			runs = append(runs, model.CriteriaRun{K: mid})
+			runs = append(runs, cost.CriteriaRun{K: mid})
 		}
 	}
 	if maxK >= lo {
-		runs = append(runs, model.CriteriaRun{K: lo})
+		runs = append(runs, cost.CriteriaRun{K: lo})
 	}
-	return append(runs, model.CriteriaRun{K: 1, Ward: true}, model.CriteriaRun{K: 1})
-}
-
-// wardLeaves is the number of leaves of criteria.Evaluate's Ward linkage on a coreset of m points
-// with candidates up to maxK: the coreset itself up to 400 points, otherwise the centroids of a
-// k-means fit with max(3 maxK, 50) centres (or the coreset, if that is not fewer). A test checks it
-// against Evaluate's Result.Ward.Leaves.
-func wardLeaves(m, maxK int) int {
-	if kf := max(3*maxK, 50); m > 400 && kf < m {
-		return kf
-	}
-	return m
+	return append(runs, cost.CriteriaRun{K: 1, Ward: true}, cost.CriteriaRun{K: 1})
 }
 
 // timeCriteria times the criteria at the estimate's option sizes on a sketch of the probe rows (of
-// the estimate's coreset and sample sizes as far as the rows go; model.CriteriaFromRuns scales a
+// the estimate's coreset and sample sizes as far as the rows go; cost.CriteriaFromRuns scales a
 // smaller coreset up), for the few k of probeRuns only:
 // one criteria.Evaluate per run on one worker, as many side by side as the estimate's criteria run
 // (one per CPU), without the Ward linkage but in one run, and records the runs in
-// cal.Probe.Criteria for model.CriteriaFromRuns. It also sets cal's criteria work rate to what those
+// cal.Probe.Criteria for cost.CriteriaFromRuns. It also sets cal's criteria work rate to what those
 // runs imply for w, for the record.
-func timeCriteria(ctx context.Context, cal *model.Calibration, rows []float64, cols []string, opt Options, w model.Workload) error {
+func timeCriteria(ctx context.Context, cal *cost.Calibration, rows []float64, cols []string, opt Options, w cost.Workload) error {
 	d := len(cols)
 	n := len(rows) / d
 	cfg := opt.Sketch
 	cfg.Columns = cols
 	cfg.ExpectedRows = int64(n)
 	cfg.MiniBatchRows = int64(min(n, probeFeedRows))
-	sk, err := sketch.New(cfg, probeFor(rows, d, cfg.MinK, cfg.MaxK))
+	pr, err := probeFromRows(rows, cols, opt)
+	if err != nil {
+		return err
+	}
+	sk, err := sketch.New(cfg, pr)
 	if err != nil {
 		return err
 	}
@@ -422,13 +363,13 @@ func timeCriteria(ctx context.Context, cal *model.Calibration, rows []float64, c
 	if err := errors.Join(errs...); err != nil {
 		return fmt.Errorf("plan: probe criteria run: %w", err)
 	}
-	slices.SortStableFunc(runs, func(a, b model.CriteriaRun) int { return a.K - b.K })
-	cp := &model.CriteriaProbe{Coreset: sum.Coreset.Len(), Parallel: par, Runs: runs}
+	slices.SortStableFunc(runs, func(a, b cost.CriteriaRun) int { return a.K - b.K })
+	cp := &cost.CriteriaProbe{Coreset: sum.Coreset.Len(), Parallel: par, Runs: runs}
 	cal.Probe.Criteria = cp
-	if s, ok := model.CriteriaFromRuns(w, cp, w.Cores); ok && s > 0 {
+	if s, ok := cost.CriteriaFromRuns(w, cp, w.Cores); ok && s > 0 {
 		m := min(w.Coreset, int(max(w.Rows, 1)))
 		g := min(w.GapSample, w.Sample, int(max(w.Rows, 1)))
-		work := model.CriteriaWork(m, w.MinK, w.MaxK, w.Dims, w.Restarts, w.GapRefs, g, w.GapRestarts, min(w.Anchors, m))
+		work := cost.CriteriaWork(m, w.MinK, w.MaxK, w.Dims, w.Restarts, w.GapRefs, g, w.GapRestarts, min(w.Anchors, m))
 		cal.CriteriaWorkPerSec = work / s
 		cal.CriteriaScaleUp, cal.CriteriaFixed = 0, 0
 	}
@@ -439,23 +380,23 @@ func timeCriteria(ctx context.Context, cal *model.Calibration, rows []float64, c
 // and 100 times its input, after fitting the committed constants to the stages this run measured
 // (so the 1× row reproduces the run, and the others extrapolate it). w describes the run's input
 // (PlanWorkload); a result made from saved sketches only, with no pass, gets neither.
-func Project(r *Result, w model.Workload) {
+func Project(r *Result, w cost.Workload) {
 	if r == nil || r.Timings.Pass <= 0 || w.Dims == 0 {
 		return
 	}
 	r.Throughput = &Throughput{Workers: w.Workers, PassSeconds: r.Timings.Pass,
 		RowsPerSecond:  float64(r.Rows+r.SkippedRows) / r.Timings.Pass,
 		BytesPerSecond: float64(w.Bytes) / r.Timings.Pass, Bytes: w.Bytes}
-	cal := FitToRun(model.Default(), w, r.Timings)
-	r.Projection = model.ScaleTable(w, cal, PlanScales...)
+	cal := FitToRun(cost.Default(), w, r.Timings)
+	r.Projection = cost.ScaleTable(w, cal, PlanScales...)
 }
 
 // FitToRun rescales the constants of cal so that the model reproduces the measured stage times tm
 // of a run of w: the open, probe and criteria terms by their ratios, and the rows-proportional part
 // of the pass (unit opens, scan and sketch) so that the whole pass matches; when the fixed feed term
 // alone exceeds the measured pass, the pass overhead takes the whole ratio instead.
-func FitToRun(cal model.Calibration, w model.Workload, tm Timings) model.Calibration {
-	p := model.Predict(w, cal)
+func FitToRun(cal cost.Calibration, w cost.Workload, tm Timings) cost.Calibration {
+	p := cost.Predict(w, cal)
 	t := p.Terms
 	if tm.Open > 0 && t.Open > 0 && w.Files > 0 {
 		cal.OpenFileSeconds *= tm.Open / t.Open
@@ -474,12 +415,12 @@ func FitToRun(cal model.Calibration, w model.Workload, tm Timings) model.Calibra
 			cal.AddSecPerValue *= f
 			cal.OpenUnitSeconds *= f
 		} else {
-			cal.PassOverhead = model.Overhead(cal.PassOverhead) * tm.Pass / t.Pass
+			cal.PassOverhead = cost.Overhead(cal.PassOverhead) * tm.Pass / t.Pass
 		}
 	}
 	// The probe shares the scan and kernel rates just refitted: fit it last.
-	if p := model.Predict(w, cal).Terms.Probe; tm.Probe > 0 && p > 0 {
-		cal.ProbeOverhead = model.Overhead(cal.ProbeOverhead) * tm.Probe / p
+	if p := cost.Predict(w, cal).Terms.Probe; tm.Probe > 0 && p > 0 {
+		cal.ProbeOverhead = cost.Overhead(cal.ProbeOverhead) * tm.Probe / p
 	}
 	cal.Source = "fitted to this run; " + cal.Source
 	cal.Probe = nil

@@ -10,8 +10,8 @@ import (
 	"reflect"
 	"testing"
 
-	"github.com/kgauge/kgauge/bench/model"
 	"github.com/kgauge/kgauge/bench/synth"
+	"github.com/kgauge/kgauge/cost"
 	"github.com/kgauge/kgauge/criteria"
 	"github.com/kgauge/kgauge/internal/kmeans"
 	"github.com/kgauge/kgauge/sketch"
@@ -74,7 +74,7 @@ func TestTimedProbeLimits(t *testing.T) {
 	if cp == nil {
 		t.Fatal("no criteria runs recorded")
 	}
-	want := []model.CriteriaRun{{K: 1, Ward: true, Leaves: 50}, {K: 1}, {K: 2}, {K: 4}, {K: 6}}
+	want := []cost.CriteriaRun{{K: 1, Ward: true, Leaves: 50}, {K: 1}, {K: 2}, {K: 4}, {K: 6}}
 	if len(cp.Runs) != len(want) || cp.Coreset != 800 || cp.Parallel < 1 {
 		t.Fatalf("criteria runs %+v, want k = 1 (Ward), 1, 2, 4, 6 on an 800-point coreset", cp)
 	}
@@ -83,7 +83,7 @@ func TestTimedProbeLimits(t *testing.T) {
 			t.Errorf("criteria run %d: %+v, want %+v with a positive time", i, r, want[i])
 		}
 	}
-	fromRuns, ok := model.CriteriaFromRuns(p.Workload, cp, p.Workload.Cores)
+	fromRuns, ok := cost.CriteriaFromRuns(p.Workload, cp, p.Workload.Cores)
 	if !ok || p.Terms.Criteria != fromRuns {
 		t.Errorf("criteria term %v is not the runs' price %v (ok %v)", p.Terms.Criteria, fromRuns, ok)
 	}
@@ -97,7 +97,7 @@ func TestTimedProbeLimits(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if noProbe.Calibration.Probe != nil || noProbe.Calibration != model.Default() {
+	if noProbe.Calibration.Probe != nil || noProbe.Calibration != cost.Default() {
 		t.Error("a plan without the probe does not use the committed calibration as it is")
 	}
 }
@@ -105,16 +105,16 @@ func TestTimedProbeLimits(t *testing.T) {
 // TestFitToRun: after fitting, the model reproduces the measured open, probe, pass and criteria times of
 // the run, whatever they were.
 func TestFitToRun(t *testing.T) {
-	w := model.Workload{Files: 3, Units: 40, Rows: 2_000_000, Bytes: 256_000_000, Dims: 16, Workers: 2, Cores: 2,
+	w := cost.Workload{Files: 3, Units: 40, Rows: 2_000_000, Bytes: 256_000_000, Dims: 16, Workers: 2, Cores: 2,
 		MinK: 1, MaxK: 20, Coreset: 8192, Sample: 4096, MiniBatchRows: 1 << 17, BatchRows: 4096, ProbeRows: 65536,
 		ProbeUnits: 16, Restarts: 3, Anchors: 1000, GapRefs: 10, GapSample: 2000, GapRestarts: 1}
 	for _, tm := range []Timings{{Open: 0.01, Probe: 0.2, Pass: 4, Criteria: 9}, {Open: 0.5, Probe: 1, Pass: 40, Criteria: 2},
 		{Open: 0.001, Probe: 0.1, Pass: 0.05, Criteria: 30}} {
-		cal := FitToRun(model.Default(), w, tm)
+		cal := FitToRun(cost.Default(), w, tm)
 		if err := cal.Validate(); err != nil {
 			t.Fatalf("fitted calibration: %v", err)
 		}
-		p := model.Predict(w, cal).Terms
+		p := cost.Predict(w, cal).Terms
 		for _, c := range []struct {
 			name      string
 			got, want float64
@@ -156,7 +156,7 @@ func TestProject(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	Project(merged, model.Workload{})
+	Project(merged, cost.Workload{})
 	if merged.Throughput != nil || merged.Projection != nil {
 		t.Error("a sketch-only result got a throughput or projection")
 	}
@@ -248,8 +248,8 @@ func TestWardLeaves(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		if got := wardLeaves(tc.m, tc.maxK); got != res.Ward.Leaves {
-			t.Errorf("wardLeaves(%d, %d) = %d, Evaluate's linkage had %d leaves", tc.m, tc.maxK, got, res.Ward.Leaves)
+		if got := criteria.WardLeaves(tc.m, tc.maxK); got != res.Ward.Leaves {
+			t.Errorf("criteria.WardLeaves(%d, %d) = %d, Evaluate's linkage had %d leaves", tc.m, tc.maxK, got, res.Ward.Leaves)
 		}
 	}
 	s := criteria.ExactSummary(blobs(600, 3, 4))

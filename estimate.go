@@ -14,7 +14,7 @@ import (
 	"strings"
 	"time"
 
-	"github.com/kgauge/kgauge/bench/model"
+	"github.com/kgauge/kgauge/cost"
 	"github.com/kgauge/kgauge/criteria"
 	"github.com/kgauge/kgauge/sketch"
 )
@@ -64,7 +64,7 @@ type Result struct {
 	Version      string        `json:"version"`
 	Timings      Timings       `json:"timings"`
 	Throughput   *Throughput   `json:"throughput,omitempty"` // the pass's measured speed (see Project)
-	Projection   []model.Row   `json:"projection,omitempty"` // the model's time for 1×, 10×, 100× the input
+	Projection   []cost.Row    `json:"projection,omitempty"` // the model's time for 1×, 10×, 100× the input
 
 	criteria *criteria.Result
 }

@@ -6,58 +6,31 @@ import (
 	"math"
 	"strconv"
 	"strings"
-)
 
-// Fixed parts of the memory estimate: the Go runtime and binary, and the pages a Parquet reader
-// holds per selected column (a compressed and a decoded page of about 1 MiB each).
-const (
-	runtimeBytes    = 48 << 20
-	pageBytesPerCol = 2 << 20
+	"github.com/kgauge/kgauge/cost"
+	"github.com/kgauge/kgauge/stream"
 )
 
 // ErrMemoryLimit is returned when Options.Memory cannot hold even the smallest sizes.
 var ErrMemoryLimit = errors.New("memory limit")
 
-// MemoryEstimate breaks down the peak memory Build and Evaluate are expected to hold for d columns.
-type MemoryEstimate struct {
-	PerWorker int64 `json:"per_worker_bytes"` // sketch, read buffer and reader pages of one worker
-	Criteria  int64 `json:"criteria_bytes"`   // scaled coreset and sample, fits, references
-	Fixed     int64 `json:"fixed_bytes"`      // runtime and probe
-	Total     int64 `json:"total_bytes"`
+// PeakMemory is the predicted peak memory of Estimate with o on the opened dataset ds: the one
+// memory model (cost.PredictMemory) that plan prints and --memory is checked against.
+func PeakMemory(ds *stream.Dataset, o Options) int64 {
+	return cost.PredictMemory(WorkloadOf(ds, o), cost.Default()).Peak
 }
 
-// EstimateMemory returns the expected peak memory of a run with these options on d columns.
-func EstimateMemory(o Options, d int) MemoryEstimate {
-	o = o.withDefaults()
-	row := int64(d) * 8
-	s := o.Sketch
-	sumK := int64(0)
-	for k := o.Criteria.MinK; k <= o.Criteria.MaxK; k++ {
-		sumK += int64(k)
-	}
-	per := int64(s.CoresetSize+1)*(row+20) + int64(s.SampleSize)*(row+20) +
-		int64(o.BatchRows)*row + int64(s.MiniBatchSize)*(row+4) + 2*sumK*row + int64(d*d)*16 +
-		int64(d)*pageBytesPerCol
-	c := o.Criteria
-	// The width terms: the covariance, its eigenvectors and the decomposition's workspace (d×d each).
-	crit := 4*int64(d)*int64(d)*8 +
-		4*int64(s.CoresetSize)*row + 2*int64(s.SampleSize)*row + 2*int64(c.GapSample)*row*int64(max(1, o.Workers)) +
-		int64(c.Anchors)*int64(s.CoresetSize)*8/16 + sumK*row*4
-	fixed := int64(runtimeBytes) + int64(o.ProbeRows)*row*2
-	m := MemoryEstimate{PerWorker: per, Criteria: crit, Fixed: fixed}
-	m.Total = int64(o.Workers)*per + max(crit, 0) + fixed
-	return m
-}
-
-// fitMemory shrinks the sizes that cost memory until the estimate fits o.Memory, in this order:
-// read batch, probe, uniform sample, coreset. It fails when even the smallest sizes do not fit.
-func (o Options) fitMemory(d int) (Options, error) {
+// fitMemory shrinks the sizes that cost memory until the predicted peak (PeakMemory) fits o.Memory,
+// in this order: read batch, probe, uniform sample, coreset, workers. It fails, naming the figure
+// needed, when even the smallest sizes do not fit. It runs after the footers are read and before
+// any row is, in estimate, plan and Beam's planning step alike.
+func (o Options) fitMemory(ds *stream.Dataset) (Options, error) {
 	if o.Memory <= 0 {
 		return o, nil
 	}
 	o = o.withDefaults()
 	minCoreset := max(1000, 2*o.Criteria.MaxK)
-	for EstimateMemory(o, d).Total > o.Memory {
+	for PeakMemory(ds, o) > o.Memory {
 		switch {
 		case o.BatchRows > 512:
 			o.BatchRows /= 2
@@ -72,7 +45,7 @@ func (o Options) fitMemory(d int) (Options, error) {
 			o.Workers--
 		default:
 			return o, fmt.Errorf("%w: %s is too small for %d columns (at least %s is needed)",
-				ErrMemoryLimit, FormatBytes(o.Memory), d, FormatBytes(EstimateMemory(o, d).Total))
+				ErrMemoryLimit, FormatBytes(o.Memory), ds.Dims(), FormatBytes(PeakMemory(ds, o)))
 		}
 	}
 	return o, nil

@@ -35,7 +35,7 @@ const (
 	DefaultProbeRows  = 65536
 	DefaultProbeUnits = 16
 	// probeInitRows caps the probe rows used for k-means++ starting centres.
-	probeInitRows = 8192
+	probeInitRows = sketch.ProbeSeedRows
 )
 
 // Options configures Build, Evaluate and Estimate. Zero fields take their defaults.

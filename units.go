@@ -3,7 +3,6 @@ package kgauge
 import (
 	"context"
 	"fmt"
-	"io"
 	"slices"
 	"sync"
 	"time"
@@ -53,23 +52,18 @@ func PlanUnits(ctx context.Context, paths []string, opt Options) (*UnitPlan, err
 	if err := opt.Validate(); err != nil {
 		return nil, err
 	}
-	opt = opt.withDefaults()
 	start := time.Now()
-	files, _, tables, err := discoverFiles(paths, opt)
+	op, err := Open(paths, opt)
 	if err != nil {
 		return nil, err
 	}
-	ds, err := stream.Open(files, stream.Options{Columns: opt.Columns})
-	if err != nil {
-		return nil, err
-	}
+	ds := op.Dataset
 	defer ds.Close()
-	if opt, err = opt.fitMemory(ds.Dims()); err != nil {
-		return nil, err
-	}
+	opt = op.Options
 	opt.Progress = nil
-	p := &UnitPlan{Input: describe(ds), Files: slices.Clone(ds.Files), Columns: slices.Clone(ds.Columns)}
-	for i, f := range p.Files {
+	p := &UnitPlan{Input: op.Input, Files: slices.Clone(ds.Files), Columns: slices.Clone(ds.Columns)}
+	p.Input.Skipped = nil
+	for i, f := range p.Files { // the plan travels as JSON, and File.Deleted does not
 		if f.Deleted == nil {
 			continue
 		}
@@ -80,7 +74,6 @@ func PlanUnits(ctx context.Context, paths []string, opt Options) (*UnitPlan, err
 			return nil, fmt.Errorf("kgauge: %s: row deletes: %w", f.Path, err)
 		}
 	}
-	p.Input.Tables = describeTables(tables, opt.Tables.Table.Where)
 	for i, u := range ds.Units {
 		p.Units = append(p.Units, PlanUnit{ID: i, File: u.File, Index: u.Index, Rows: u.Rows, Bytes: u.Bytes})
 	}
@@ -150,27 +143,7 @@ func (b *Builder) Build(ctx context.Context, id int) (*sketch.Sketch, error) {
 	if err != nil {
 		return nil, err
 	}
-	r, err := ds.OpenUnit(ds.Units[u.Index])
-	if err != nil {
-		return nil, err
-	}
-	defer r.Close()
-	sk.BeginUnit(id)
-	for {
-		if err := ctx.Err(); err != nil {
-			return nil, err
-		}
-		cols, err := r.ReadColumns(max(1, p.Options.BatchRows))
-		if err == io.EOF {
-			break
-		}
-		if err != nil {
-			return nil, err
-		}
-		sk.AddColumns(cols)
-	}
-	sk.Meta.SkippedRows += r.Skipped()
-	if err := r.Close(); err != nil {
+	if err := readUnit(ctx, ds, ds.Units[u.Index], id, sk, p.Options.BatchRows, nil, nil); err != nil {
 		return nil, err
 	}
 	return sk, nil

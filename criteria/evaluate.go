@@ -385,8 +385,7 @@ func gapSide(s Summary, n int, rng *rand.Rand) kmeans.Data {
 func wardLeaves(core kmeans.Data, opt Options, scale float64) (Ward, []Merge) {
 	leaves := core
 	w := Ward{Source: "coreset"}
-	kf := max(3*opt.MaxK, 50)
-	if core.Len() > wardDirectMax && kf < core.Len() {
+	if kf := WardLeaves(core.Len(), opt.MaxK); kf < core.Len() {
 		fit := kmeans.Fit(core, kf, kmeans.FitOptions{Restarts: 1, Rand: rngFor(opt.Seed, kf, streamWard)})
 		leaves = kmeans.Data{X: fit.Centres, W: fit.Sizes, D: core.D}
 		w.Source = fmt.Sprintf("k-means centroids (k=%d)", kf)

@@ -14,7 +14,7 @@ import (
 	"time"
 
 	"github.com/kgauge/kgauge"
-	"github.com/kgauge/kgauge/bench/model"
+	"github.com/kgauge/kgauge/cost"
 	"github.com/kgauge/kgauge/criteria"
 	"github.com/kgauge/kgauge/internal/atomicfile"
 )
@@ -65,7 +65,7 @@ type view struct {
 	Figures                []Figure
 	Ward                   criteria.Ward
 	Accuracy               accuracy
-	Plan                   *model.Prediction
+	Plan                   *cost.Prediction
 	Stages                 []stageRow
 	JSON                   template.JS
 }
@@ -99,7 +99,7 @@ type accuracy struct {
 
 // Render writes the report of res to w. plan, when not nil, is the model's prediction made before
 // the run, shown beside the measured stage times.
-func Render(w io.Writer, res *kgauge.Result, plan *model.Prediction) error {
+func Render(w io.Writer, res *kgauge.Result, plan *cost.Prediction) error {
 	if res == nil {
 		return fmt.Errorf("report: no result")
 	}
@@ -171,7 +171,7 @@ func Render(w io.Writer, res *kgauge.Result, plan *model.Prediction) error {
 }
 
 // Write renders the report of res to path atomically: a failed run leaves no partial page behind.
-func Write(path string, res *kgauge.Result, plan *model.Prediction) error {
+func Write(path string, res *kgauge.Result, plan *cost.Prediction) error {
 	var b bytes.Buffer
 	if err := Render(&b, res, plan); err != nil {
 		return err

@@ -19,8 +19,8 @@ import (
 	"github.com/apache/arrow/go/v17/arrow/memory"
 	"github.com/apache/arrow/go/v17/parquet/pqarrow"
 	"github.com/kgauge/kgauge"
-	"github.com/kgauge/kgauge/bench/model"
 	"github.com/kgauge/kgauge/bench/synth"
+	"github.com/kgauge/kgauge/cost"
 )
 
 // Hostile names: a feature column, an ignored column and a folder that would run script if the page
@@ -153,9 +153,9 @@ func wideFixture(t testing.TB) *kgauge.Result {
 func render(t testing.TB) string {
 	t.Helper()
 	res := fixture(t)
-	plan := model.Predict(model.Workload{Files: 1, Units: 1, Rows: 3000, Bytes: 72000, Dims: 3, Workers: 2,
+	plan := cost.Predict(cost.Workload{Files: 1, Units: 1, Rows: 3000, Bytes: 72000, Dims: 3, Workers: 2,
 		MinK: 1, MaxK: 6, Coreset: 600, Sample: 600, MiniBatchRows: 1 << 17, BatchRows: 4096, ProbeRows: 65536,
-		ProbeUnits: 16, Restarts: 3, Anchors: 150, GapRefs: 4, GapSample: 400, GapRestarts: 1}, model.Default())
+		ProbeUnits: 16, Restarts: 3, Anchors: 150, GapRefs: 4, GapSample: 400, GapRestarts: 1}, cost.Default())
 	var b bytes.Buffer
 	if err := Render(&b, res, &plan); err != nil {
 		t.Fatal(err)

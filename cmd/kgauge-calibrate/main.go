@@ -1,7 +1,7 @@
-// Command kgauge-calibrate measures the constants of the cost model (bench/model) on this machine and
+// Command kgauge-calibrate measures the constants of the cost model (package cost) on this machine and
 // checks its predictions.
 //
-//	go run ./cmd/kgauge-calibrate                      # rewrite bench/model/calibration.json
+//	go run ./cmd/kgauge-calibrate                      # rewrite cost/calibration.json
 //	go run ./cmd/kgauge-calibrate --accuracy           # rewrite bench/plan-accuracy.md
 //
 // Both generate Gaussian-mixture Parquet files with bench/synth.WriteMixture in a temporary
@@ -29,8 +29,8 @@ import (
 	"time"
 
 	"github.com/kgauge/kgauge"
-	"github.com/kgauge/kgauge/bench/model"
 	"github.com/kgauge/kgauge/bench/synth"
+	"github.com/kgauge/kgauge/cost"
 	"github.com/kgauge/kgauge/internal/atomicfile"
 )
 
@@ -58,7 +58,7 @@ type childOut struct {
 	Rows     int64                `json:"rows"`
 	K        int                  `json:"k"`
 	MaxRSS   int64                `json:"max_rss_bytes"`
-	Workload model.Workload       `json:"workload"`
+	Workload cost.Workload        `json:"workload"`
 }
 
 // child runs "plan MAXK FILE" or "estimate WORKERS MAXK FILE" (MAXK 0: the default k range) and
@@ -174,7 +174,7 @@ func (s shape) write(dir string) (string, error) {
 func run(args []string) error {
 	fs := flag.NewFlagSet("kgauge-calibrate", flag.ContinueOnError)
 	accuracy := fs.Bool("accuracy", false, "check predictions against measurements instead of calibrating")
-	out := fs.String("out", "", "output file (default bench/model/calibration.json, or bench/plan-accuracy.md with --accuracy)")
+	out := fs.String("out", "", "output file (default cost/calibration.json, or bench/plan-accuracy.md with --accuracy)")
 	repeats := fs.Int("repeats", 3, "runs per measurement; the median is kept")
 	quick := fs.Bool("quick", false, "small files only (a smoke run; do not commit its output)")
 	if err := fs.Parse(args); err != nil {
@@ -195,7 +195,7 @@ func run(args []string) error {
 		return checkAccuracy(dir, *out, *repeats, *quick)
 	}
 	if *out == "" {
-		*out = "bench/model/calibration.json"
+		*out = "cost/calibration.json"
 	}
 	return calibrate(dir, *out, *repeats, *quick)
 }
@@ -250,7 +250,7 @@ func calibrate(dir, out string, repeats int, quick bool) error {
 	if err != nil {
 		return err
 	}
-	var probes []model.Calibration
+	var probes []cost.Calibration
 	for range repeats {
 		c, err := runChild("plan", "0", path)
 		if err != nil {
@@ -258,23 +258,23 @@ func calibrate(dir, out string, repeats int, quick bool) error {
 		}
 		probes = append(probes, c.Plan.Calibration)
 	}
-	cal := model.Default()
-	pick := func(f func(model.Calibration) float64) float64 {
+	cal := cost.Default()
+	pick := func(f func(cost.Calibration) float64) float64 {
 		v := make([]float64, len(probes))
 		for i, c := range probes {
 			v[i] = f(c)
 		}
 		return median(v)
 	}
-	cal.ScanBytesPerSec = pick(func(c model.Calibration) float64 { return c.ScanBytesPerSec })
-	cal.OpenUnitSeconds = pick(func(c model.Calibration) float64 { return c.OpenUnitSeconds })
-	cal.AddSecPerValue = pick(func(c model.Calibration) float64 { return c.AddSecPerValue })
-	cal.KernelPKDPerSec = pick(func(c model.Calibration) float64 { return c.KernelPKDPerSec })
+	cal.ScanBytesPerSec = pick(func(c cost.Calibration) float64 { return c.ScanBytesPerSec })
+	cal.OpenUnitSeconds = pick(func(c cost.Calibration) float64 { return c.OpenUnitSeconds })
+	cal.AddSecPerValue = pick(func(c cost.Calibration) float64 { return c.AddSecPerValue })
+	cal.KernelPKDPerSec = pick(func(c cost.Calibration) float64 { return c.KernelPKDPerSec })
 	cal.Cores = runtime.NumCPU()
 	cal.PassOverhead, cal.ProbeOverhead, cal.CriteriaScaleUp, cal.CriteriaFixed = 1, 1, 0, 0
 
 	var pass1, pass2, crit, open, probe, rss []float64
-	var work model.Workload
+	var work cost.Workload
 	for _, workers := range []int{1, 2} {
 		for range repeats {
 			fmt.Fprintf(os.Stderr, "calibrate: estimate with %d worker(s)\n", workers)
@@ -303,18 +303,18 @@ func calibrate(dir, out string, repeats int, quick bool) error {
 	}
 	w1 := work
 	w1.Workers = 1
-	pred := model.Predict(w1, cal)
+	pred := cost.Predict(w1, cal)
 	linear := pred.Terms.Scan + pred.Terms.Sketch + pred.Terms.Feed
 	if linear > 0 {
 		cal.PassOverhead = median(pass1) / linear
 	}
 	// Without a probe, the criteria are priced from work units at the rate of the estimates' own
 	// criteria stage (a plan's probe prices them from its own criteria runs instead, with no constant).
-	cw := model.CriteriaWork(work.Coreset, work.MinK, work.MaxK, work.Dims, work.Restarts, work.GapRefs,
+	cw := cost.CriteriaWork(work.Coreset, work.MinK, work.MaxK, work.Dims, work.Restarts, work.GapRefs,
 		min(work.GapSample, work.Sample), work.GapRestarts, work.Anchors)
 	cal.CriteriaWorkPerSec = cw / median(crit)
 	cal.OpenFileSeconds = median(open)
-	pred = model.Predict(work, cal)
+	pred = cost.Predict(work, cal)
 	if pred.Terms.Probe > 0 {
 		cal.ProbeOverhead = median(probe) / pred.Terms.Probe
 	}
@@ -349,7 +349,7 @@ type accuracyRow struct {
 	Err                float64
 	PredPeak, MeasPeak int64
 	PlanSeconds        float64
-	Terms              model.Terms
+	Terms              cost.Terms
 	Timings            kgauge.Timings
 }
 
@@ -452,7 +452,7 @@ func writeAccuracy(out string, rows []accuracyRow, repeats int, loadBefore strin
 		verdict = "**outside**"
 	}
 	fmt.Fprintf(&b, "\nLargest time error: %.0f%%, %s the ±25%% target.\n", 100*worst, verdict)
-	b.WriteString("\nThe criteria term is priced from the plan's criteria runs: the criteria at the estimate's option sizes on a sketch of the probe rows, for k = 1 (with and without the Ward linkage), the smallest k ≥ 2, the middle and the largest k of the range, one per CPU side by side, interpolated over the other k (bench/model.CriteriaFromRuns).\n")
+	b.WriteString("\nThe criteria term is priced from the plan's criteria runs: the criteria at the estimate's option sizes on a sketch of the probe rows, for k = 1 (with and without the Ward linkage), the smallest k ≥ 2, the middle and the largest k of the range, one per CPU side by side, interpolated over the other k (bench/cost.CriteriaFromRuns).\n")
 	b.WriteString("\nThese machines are shared: another session's load changes both the probe's rates and the run it predicts, and not always equally. Memory is predicted from the sizes the options fix plus a baseline measured by `kgauge-calibrate`; it is a planning figure, not a bound.\n")
 	return atomicfile.Write(out, 0o644, func(w io.Writer) error { _, err := io.WriteString(w, b.String()); return err })
 }

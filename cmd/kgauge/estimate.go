@@ -12,7 +12,7 @@ import (
 	"time"
 
 	"github.com/kgauge/kgauge"
-	"github.com/kgauge/kgauge/bench/model"
+	"github.com/kgauge/kgauge/cost"
 	"github.com/kgauge/kgauge/internal/atomicfile"
 	"github.com/kgauge/kgauge/internal/cliflags"
 	htmlreport "github.com/kgauge/kgauge/report"
@@ -131,7 +131,7 @@ func runEstimate(ctx context.Context, paths []string, opt kgauge.Options, f *est
 	var stopBar func()
 	if !f.quiet && isTerminal(stderr) {
 		opt.Progress = new(kgauge.Progress)
-		var terms model.Terms
+		var terms cost.Terms
 		if plan != nil {
 			terms = plan.Terms
 		}
@@ -197,7 +197,7 @@ func isTerminal(w io.Writer) bool {
 // showProgress draws a bar of rows read on w until the returned function is called. Its ETA starts
 // from the model's predicted terms (zero when unknown) and moves to the rate
 // measured on the rows read so far as the pass advances.
-func showProgress(p *kgauge.Progress, w io.Writer, pred model.Terms) func() {
+func showProgress(p *kgauge.Progress, w io.Writer, pred cost.Terms) func() {
 	done := make(chan struct{})
 	finished := make(chan struct{})
 	start := time.Now()
@@ -258,7 +258,7 @@ func showProgress(p *kgauge.Progress, w io.Writer, pred model.Terms) func() {
 // pass's remaining time is (1−f)·(model's) + f·(measured rate's), so the model leads at the start and
 // the measurement at the end; the model's criteria time follows. While scoring k it is the model's
 // criteria time less the time spent on them.
-func progressETA(pred model.Terms, elapsed float64, stage string, stageStart time.Time, rows, total int64) float64 {
+func progressETA(pred cost.Terms, elapsed float64, stage string, stageStart time.Time, rows, total int64) float64 {
 	total0 := pred.Open + pred.Probe + pred.Pass + pred.Criteria
 	inStage := time.Since(stageStart).Seconds()
 	switch {

@@ -10,7 +10,7 @@ import (
 	"text/tabwriter"
 
 	"github.com/kgauge/kgauge"
-	"github.com/kgauge/kgauge/bench/model"
+	"github.com/kgauge/kgauge/cost"
 	"github.com/kgauge/kgauge/internal/atomicfile"
 )
 
@@ -131,11 +131,12 @@ func writePlan(out io.Writer, p *kgauge.CapacityPlan) error {
 		name string
 		v    int64
 		how  string
-	}{{"runtime and footers", m.Base, "measured baseline"}, {"sketches", m.Sketches, "coreset, sample, per-k state × workers"},
-		{"read buffers", m.ReadBuffers, fmt.Sprintf("%d rows × d × workers", w.BatchRows)},
-		{"page buffers", m.PageBuffers, "one page per column chunk × workers"},
-		{"probe rows", m.Probe, ""}, {"criteria", m.Criteria, "gap references, fits, Ward"},
-		{"peak", m.Peak, ""}} {
+	}{{"runtime and footers", m.Base, "measured baseline"}, {"sketches", m.Sketches, "pass: coreset, sample, per-k state × workers"},
+		{"read buffers", m.ReadBuffers, fmt.Sprintf("pass: %d rows × d × workers", w.BatchRows)},
+		{"page buffers", m.PageBuffers, "pass: one page per column chunk × workers"},
+		{"probe rows", m.Probe, "probe"}, {"criteria", m.Criteria, "merged sketch, summary, gap references, fits, covariance and eigen work, Ward"},
+		{"largest stage", m.Live, "max(probe, pass, criteria)"},
+		{"peak", m.Peak, fmt.Sprintf("base + (1 + GOGC/100) × largest stage, GOGC %d", cost.GCPercent)}} {
 		fmt.Fprintf(tw, "%s\t%s\t%s\n", r.name, bytesText(r.v), r.how)
 	}
 	if err := tw.Flush(); err != nil {
@@ -159,7 +160,7 @@ func writePlan(out io.Writer, p *kgauge.CapacityPlan) error {
 	for _, n := range p.Notes {
 		fmt.Fprintf(&b, "note: %s\n", n)
 	}
-	fmt.Fprintf(&b, "note: predictions of the model in bench/model; bench/plan-accuracy.md records how close they came\n")
+	fmt.Fprintf(&b, "note: predictions of the cost model (package cost); bench/plan-accuracy.md records how close they came\n")
 	_, err := io.WriteString(out, b.String())
 	return err
 }
@@ -167,11 +168,11 @@ func writePlan(out io.Writer, p *kgauge.CapacityPlan) error {
 // planFor prices the estimate from the footers alone with the committed calibration, for the
 // progress bar, the projection and the report; the prediction is nil when the inputs cannot be priced
 // (saved sketches only, or an error the estimate itself will report).
-func planFor(paths []string, opt kgauge.Options) (model.Workload, *model.Prediction) {
+func planFor(paths []string, opt kgauge.Options) (cost.Workload, *cost.Prediction) {
 	w, err := kgauge.PlanWorkload(paths, opt)
 	if err != nil {
 		return w, nil
 	}
-	p := model.Predict(w, model.Default())
+	p := cost.Predict(w, cost.Default())
 	return w, &p
 }

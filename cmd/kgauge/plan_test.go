@@ -8,7 +8,7 @@ import (
 	"testing"
 	"time"
 
-	"github.com/kgauge/kgauge/bench/model"
+	"github.com/kgauge/kgauge/cost"
 )
 
 // TestPlanJSON: plan --json carries the top-level numbers a job reads, the cost-model terms, the
@@ -201,6 +201,6 @@ func TestProgressETA(t *testing.T) {
 }
 
 // modelTerms spreads before over open and probe.
-func modelTerms(before, pass, criteria float64) model.Terms {
-	return model.Terms{Open: before / 2, Probe: before / 2, Pass: pass, Criteria: criteria}
+func modelTerms(before, pass, criteria float64) cost.Terms {
+	return cost.Terms{Open: before / 2, Probe: before / 2, Pass: pass, Criteria: criteria}
 }

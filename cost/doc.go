@@ -1,4 +1,4 @@
-// Package model predicts what an estimate costs before it runs: its wall time and its peak memory on
+// Package cost predicts what an estimate costs before it runs: its wall time and its peak memory on
 // this machine, as a sum of named terms whose constants are measured, never typed in.
 //
 // # Time
@@ -24,7 +24,12 @@
 //
 // # Memory
 //
-//	peak = base + W·(sketch + read buffer + d·PageBytes) + probe rows + criteria working set
+//	peak = base + (1 + GOGC/100)·max(probe rows, W·(sketch + read buffer + d·PageBytes), criteria stage)
+//
+// [PredictMemory] is the one memory model: plan prints it, --memory is checked against it, the
+// projection and Beam's per-worker figure ([BeamWorkerBytes]) use it. The sizes come from the
+// packages that own them: sketch.HeldBytes, criteria.WorkingBytes, sketch.ProbeSeedRows,
+// criteria.WardLeaves; each is tested there against the heap it measures.
 //
 // # Constants
 //
@@ -32,4 +37,4 @@
 // "go run ./cmd/kgauge-calibrate" from timed runs on generated files; a plan replaces the
 // machine-dependent rates by what its short timed probe of the real input measured (see
 // kgauge.TimedProbe and [ProbeTiming]). No constant is asserted in a test: the tests check the model's algebra.
-package model
+package cost

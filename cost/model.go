@@ -1,4 +1,4 @@
-package model
+package cost
 
 import (
 	"bytes"
@@ -7,6 +7,9 @@ import (
 	"errors"
 	"fmt"
 	"math"
+
+	"github.com/kgauge/kgauge/criteria"
+	"github.com/kgauge/kgauge/sketch"
 )
 
 // Calibration holds the measured constants of the cost model. Rates are per worker (one goroutine on
@@ -81,7 +84,7 @@ var defaultJSON []byte
 func Default() Calibration {
 	c, err := Parse(defaultJSON)
 	if err != nil {
-		panic("model: embedded calibration.json: " + err.Error())
+		panic("cost: embedded calibration.json: " + err.Error())
 	}
 	return c
 }
@@ -92,7 +95,7 @@ func Parse(b []byte) (Calibration, error) {
 	dec := json.NewDecoder(bytes.NewReader(b))
 	dec.DisallowUnknownFields()
 	if err := dec.Decode(&c); err != nil {
-		return c, fmt.Errorf("model: calibration: %w", err)
+		return c, fmt.Errorf("cost: calibration: %w", err)
 	}
 	return c, c.Validate()
 }
@@ -105,20 +108,20 @@ func (c Calibration) Validate() error {
 	}{{"scan_bytes_per_second", c.ScanBytesPerSec}, {"add_seconds_per_value", c.AddSecPerValue},
 		{"kernel_pkd_per_second", c.KernelPKDPerSec}, {"criteria_work_per_second", c.CriteriaWorkPerSec}} {
 		if !(f.v > 0) || math.IsInf(f.v, 0) {
-			return fmt.Errorf("model: calibration %s must be a positive number, got %v", f.name, f.v)
+			return fmt.Errorf("cost: calibration %s must be a positive number, got %v", f.name, f.v)
 		}
 	}
 	switch {
 	case c.CriteriaScaleUp < 0 || math.IsInf(c.CriteriaScaleUp, 0):
-		return fmt.Errorf("model: calibration criteria_scale_up must be finite and not negative, got %v", c.CriteriaScaleUp)
+		return fmt.Errorf("cost: calibration criteria_scale_up must be finite and not negative, got %v", c.CriteriaScaleUp)
 	case c.OpenFileSeconds < 0 || c.OpenUnitSeconds < 0 || c.CriteriaFixed < 0 || c.PassOverhead < 0 || c.ProbeOverhead < 0:
-		return errors.New("model: calibration times must not be negative")
+		return errors.New("cost: calibration times must not be negative")
 	case !(c.ParallelFraction >= 0 && c.ParallelFraction <= 1):
-		return fmt.Errorf("model: calibration parallel_fraction must be in [0, 1], got %v", c.ParallelFraction)
+		return fmt.Errorf("cost: calibration parallel_fraction must be in [0, 1], got %v", c.ParallelFraction)
 	case c.Cores < 1:
-		return fmt.Errorf("model: calibration cores must be at least 1, got %d", c.Cores)
+		return fmt.Errorf("cost: calibration cores must be at least 1, got %d", c.Cores)
 	case c.PageBytes < 0 || c.BaseBytes < 0:
-		return errors.New("model: calibration sizes must not be negative")
+		return errors.New("cost: calibration sizes must not be negative")
 	}
 	return nil
 }
@@ -152,19 +155,25 @@ type Workload struct {
 	GapSample     int
 	GapRestarts   int
 	WardLeaves    int // leaves of the criteria's Ward linkage (0: as the probe's run had)
+
+	// Sizes owned by other packages, filled in by whoever describes the run (kgauge.WorkloadOf):
+	// 0 takes the owner's default.
+	MiniBatchSize   int // rows of a sketch's mini-batch buffer (sketch.Config.MiniBatchSize)
+	CriteriaWorkers int // goroutines across k in the criteria stage (0: Cores)
+	GCPercent       int // the collector's target while the run holds its peak (0: GCPercent)
 }
 
 // Validate reports a workload the model cannot price.
 func (w Workload) Validate() error {
 	switch {
 	case w.Dims < 1:
-		return fmt.Errorf("model: workload needs at least one column, got %d", w.Dims)
+		return fmt.Errorf("cost: workload needs at least one column, got %d", w.Dims)
 	case w.Workers < 1:
-		return fmt.Errorf("model: workload needs at least one worker, got %d", w.Workers)
+		return fmt.Errorf("cost: workload needs at least one worker, got %d", w.Workers)
 	case w.MinK < 1 || w.MaxK < w.MinK:
-		return fmt.Errorf("model: bad k range %d..%d", w.MinK, w.MaxK)
+		return fmt.Errorf("cost: bad k range %d..%d", w.MinK, w.MaxK)
 	case w.Rows < 0 || w.Bytes < 0:
-		return errors.New("model: workload rows and bytes must not be negative")
+		return errors.New("cost: workload rows and bytes must not be negative")
 	}
 	return nil
 }
@@ -216,14 +225,15 @@ type Terms struct {
 	Speedup  float64 `json:"pass_speedup"` // effective workers of the pass
 }
 
-// Memory are the predicted bytes of the peak's parts.
+// Memory are the predicted bytes of the peak's parts (PredictMemory).
 type Memory struct {
 	Base        int64 `json:"base_bytes"`
-	Sketches    int64 `json:"sketch_bytes"`      // all workers' sketches
-	ReadBuffers int64 `json:"read_buffer_bytes"` // row-major batches, all workers
+	Sketches    int64 `json:"sketch_bytes"`      // all workers' sketches during the pass
+	ReadBuffers int64 `json:"read_buffer_bytes"` // read batches, all workers
 	PageBuffers int64 `json:"page_buffer_bytes"` // library pages, one per column chunk per worker
 	Probe       int64 `json:"probe_bytes"`       // probe rows held before the pass
-	Criteria    int64 `json:"criteria_bytes"`    // gap references, Ward, fits
+	Criteria    int64 `json:"criteria_bytes"`    // merged sketch, summary and the criteria's working set
+	Live        int64 `json:"live_bytes"`        // the largest stage: max(probe, pass, criteria)
 	Peak        int64 `json:"peak_bytes"`
 }
 
@@ -256,14 +266,14 @@ func Predict(w Workload, c Calibration) Prediction {
 	t.Open = float64(w.Files) * c.OpenFileSeconds
 
 	// The probe reads ProbeRows rows spread over ProbeUnits units, then seeds k-means++ for every k
-	// on up to 8192 of them (one distance per row, centre and column).
+	// on up to sketch.ProbeSeedRows of them (one distance per row, centre and column).
 	probeUnits := min(w.Units, max(w.ProbeUnits, 1))
 	probeRows := math.Min(rows, float64(w.ProbeRows))
 	bytesPerRow := 0.0
 	if rows > 0 {
 		bytesPerRow = float64(w.Bytes) / rows
 	}
-	seedRows := math.Min(probeRows, 8192)
+	seedRows := math.Min(probeRows, sketch.ProbeSeedRows)
 	t.Probe = (float64(probeUnits)*c.OpenUnitSeconds + probeRows*bytesPerRow/c.ScanBytesPerSec +
 		seedRows*float64(w.SumK())*d/c.KernelPKDPerSec) * Overhead(c.ProbeOverhead)
 
@@ -289,27 +299,63 @@ func Predict(w Workload, c Calibration) Prediction {
 	}
 	p.Seconds = t.Open + t.Probe + t.Pass + t.Criteria
 
-	mem := &p.Memory
-	W := int64(min(w.Workers, max(w.Units, 1)))
+	p.Memory = PredictMemory(w, c)
+	p.PeakBytes = p.Memory.Peak
+	return p
+}
+
+// GCPercent is the collector's target (GOGC) the memory model assumes when a workload does not
+// say: cmd/kgauge runs estimates at 50 (DEVELOPERS.md, measured design decisions).
+const GCPercent = 50
+
+// PredictMemory is the one memory model of a run: what plan prints, what --memory is checked
+// against, what the projection and the report show. The run holds its peak in one of three
+// stages, each the live bytes of its parts; the heap grows to (1 + GOGC/100) times what is live
+// before the collector runs, and the runtime, binary and footers (c.BaseBytes) come on top:
+//
+//	probe    = probe rows × d × 8
+//	pass     = W × (sketch.HeldBytes + read buffer + page buffers)
+//	criteria = merged sketch + scaled summary (coreset, sample, covariance) + criteria.WorkingBytes
+//	peak     = base + (1 + GOGC/100) × max(probe, pass, criteria)
+//
+// The sizes come from the packages that own them (sketch.HeldBytes, criteria.WorkingBytes), so a
+// change of their layout changes the prediction; the width terms (d×d cross products, covariance,
+// eigen decompositions, whitening, full-covariance mixtures) are inside them.
+func PredictMemory(w Workload, c Calibration) Memory {
+	var mem Memory
+	rows := w.rowsOf()
 	D := int64(w.Dims)
-	nk := int64(w.MaxK - w.MinK + 1)
-	// Per sketch: coreset and sample rows with their keys and weights, the mini-batch centres, counts
-	// and buffer (1024 rows), the d×d cross products and the moments.
-	sk := (int64(w.Coreset+1)*(D+2)+int64(w.Sample)*(D+1))*8 + w.SumK()*(D+1)*8*2 + 1024*(D+1)*8 + D*D*8 + 6*D*8
+	W := int64(min(w.Workers, max(w.Units, 1)))
+	cfg := sketch.Config{MinK: w.MinK, MaxK: w.MaxK, CoresetSize: w.Coreset, SampleSize: w.Sample,
+		MiniBatchSize: w.MiniBatchSize, MiniBatchRows: w.MiniBatchRows}
+	held := sketch.HeldBytes(cfg, w.Dims, w.BatchRows)
 	mem.Base = c.BaseBytes
-	mem.Sketches = W * sk
+	mem.Sketches = W * held
 	mem.ReadBuffers = W * int64(w.BatchRows) * D * 8
 	chunk := int64(0)
 	if w.Units > 0 {
 		chunk = w.Bytes / int64(w.Units) / max(D, 1)
 	}
 	mem.PageBuffers = W * D * 2 * min(c.PageBytes, max(chunk, 1))
-	mem.Probe = int64(probeRows) * D * 8
-	gs := int64(g)
-	mem.Criteria = (int64(1+2*w.GapRefs)*gs*D+nk*int64(m)*2+int64(m)*D*2)*8 + 400*400*8
-	mem.Peak = mem.Base + mem.Sketches + mem.ReadBuffers + mem.PageBuffers + mem.Probe + mem.Criteria
-	p.PeakBytes = mem.Peak
-	return p
+	mem.Probe = int64(math.Min(rows, float64(w.ProbeRows))) * D * 8
+	m := min(w.Coreset, int(math.Max(rows, 1)))
+	n := min(w.Sample, int(math.Max(rows, 1)))
+	summary := int64(m)*(D+1)*8 + int64(n)*D*8 + D*D*8
+	co := criteria.Options{MinK: w.MinK, MaxK: w.MaxK, Restarts: w.Restarts, Anchors: w.Anchors,
+		GapRefs: w.GapRefs, GapSample: w.GapSample, GapRestarts: w.GapRestarts}
+	workers := w.CriteriaWorkers
+	if workers < 1 {
+		workers = max(w.Cores, c.Cores, 1)
+	}
+	mem.Criteria = held + summary + criteria.WorkingBytes(co, m, n, w.Dims, workers)
+	gc := w.GCPercent
+	if gc <= 0 {
+		gc = GCPercent
+	}
+	live := max(mem.Probe, mem.Sketches+mem.ReadBuffers+mem.PageBuffers, mem.Criteria)
+	mem.Live = live
+	mem.Peak = mem.Base + live*int64(100+gc)/100
+	return mem
 }
 
 // probeCriteria returns the probe's criteria runs, if any.

@@ -1,9 +1,12 @@
-package model
+package cost
 
 import (
 	"math"
 	"strings"
 	"testing"
+
+	"github.com/kgauge/kgauge/criteria"
+	"github.com/kgauge/kgauge/sketch"
 )
 
 // testCal is a calibration with round numbers, so that terms can be checked by hand.
@@ -90,11 +93,39 @@ func TestPredictTerms(t *testing.T) {
 	near("criteria", tm.Criteria, 0.5+work/2e9)
 	near("total", p.Seconds, tm.Open+tm.Probe+tm.Pass+tm.Criteria)
 	m := p.Memory
-	if m.Peak != m.Base+m.Sketches+m.ReadBuffers+m.PageBuffers+m.Probe+m.Criteria || p.PeakBytes != m.Peak {
-		t.Errorf("peak %d is not the sum of its parts %+v", p.PeakBytes, m)
+	live := max(m.Probe, m.Sketches+m.ReadBuffers+m.PageBuffers, m.Criteria)
+	if m.Live != live || m.Peak != m.Base+live*(100+GCPercent)/100 || p.PeakBytes != m.Peak {
+		t.Errorf("peak %d is not base + (1 + GOGC/100) × the largest stage of %+v", p.PeakBytes, m)
 	}
 	if m.ReadBuffers != 2*4096*16*8 {
 		t.Errorf("read buffers %d, want %d", m.ReadBuffers, 2*4096*16*8)
+	}
+}
+
+// TestMemoryFromOwners: the sketch and criteria terms are the owning packages' own size functions
+// (each tested there against the heap it measures), not copies, and the width terms grow as d².
+func TestMemoryFromOwners(t *testing.T) {
+	w := testWork()
+	m := PredictMemory(w, testCal())
+	cfg := sketch.Config{MinK: w.MinK, MaxK: w.MaxK, CoresetSize: w.Coreset, SampleSize: w.Sample,
+		MiniBatchRows: w.MiniBatchRows}
+	held := sketch.HeldBytes(cfg, w.Dims, w.BatchRows)
+	if m.Sketches != 2*held {
+		t.Errorf("sketch bytes %d, want 2 workers × sketch.HeldBytes = %d", m.Sketches, 2*held)
+	}
+	co := criteria.Options{MinK: w.MinK, MaxK: w.MaxK, Restarts: w.Restarts, Anchors: w.Anchors,
+		GapRefs: w.GapRefs, GapSample: w.GapSample, GapRestarts: w.GapRestarts}
+	summary := int64(w.Coreset)*17*8 + int64(w.Sample)*16*8 + 16*16*8
+	if want := held + summary + criteria.WorkingBytes(co, w.Coreset, w.Sample, w.Dims, w.Cores); m.Criteria != want {
+		t.Errorf("criteria bytes %d, want %d", m.Criteria, want)
+	}
+	// Width: from 100 to 1000 columns the criteria stage must grow at least 15-fold (d² terms:
+	// cross products, covariance, eigen decompositions, full-covariance mixtures), not 10-fold.
+	narrow, wide := w, w
+	narrow.Dims, wide.Dims = 100, 1000
+	a, b := PredictMemory(narrow, testCal()).Criteria, PredictMemory(wide, testCal()).Criteria
+	if b < 15*a {
+		t.Errorf("criteria bytes at 1000 columns %d, at 100 %d: the d² terms are missing", b, a)
 	}
 }
 
@@ -260,5 +291,27 @@ func TestParseCriteriaFactors(t *testing.T) {
 	work := CriteriaWork(8192, 1, 20, 16, 3, 10, 2000, 1, 1000)
 	if got := Predict(w, c).Terms.Criteria; math.Abs(got-(0.5+work/1e9)) > 1e-9 {
 		t.Errorf("criteria %v without the legacy factor, want %v", got, 0.5+work/1e9)
+	}
+}
+
+// TestBeamFigures: a Beam worker holds one partial sketch with its buffers (the pass parts of
+// PredictMemory for one worker), and the Beam pass is the single-worker pass and the per-item
+// overhead shared by the workers, plus the start-up once.
+func TestBeamFigures(t *testing.T) {
+	c, w := testCal(), testWork()
+	one := w
+	one.Workers, one.Units = 1, 1
+	m := PredictMemory(one, c)
+	if got, want := BeamWorkerBytes(w, c), m.Base+(m.Sketches+m.ReadBuffers+m.PageBuffers)*(100+GCPercent)/100; got != want {
+		t.Errorf("BeamWorkerBytes = %d, want %d", got, want)
+	}
+	w1, w4 := w, w
+	w1.Workers, w4.Workers = 1, 4
+	a, b := BeamPassSeconds(w1, c)-BeamPipelineStartup.Seconds(), BeamPassSeconds(w4, c)-BeamPipelineStartup.Seconds()
+	if math.Abs(a/b-4) > 1e-9 {
+		t.Errorf("Beam pass on 1 and 4 workers: %v and %v s; want a ratio of 4", a, b)
+	}
+	if want := float64(w.Units) * BeamWorkItemOverhead.Seconds(); a < want {
+		t.Errorf("Beam pass %v s misses the %v s of per-item overhead", a, want)
 	}
 }
