@@ -54,6 +54,10 @@ type Options struct {
 	// truncated or damaged file or footer) and lists them in the result, instead of failing.
 	SkipUnreadable bool
 	Progress       *Progress // optional; updated as rows are read
+	// AfterPass, when not nil, is called once by Estimate between the pass and the criteria (when
+	// a pass ran). The library changes no process-wide state; cmd/kgauge returns the pass's memory
+	// to the system here (DEVELOPERS.md, measured design decisions).
+	AfterPass func() `json:"-"`
 	// Tables says how Delta Lake and Apache Iceberg tables among the inputs are read: their
 	// latest state by default, a version or snapshot, files only, a partition filter.
 	Tables stream.DiscoverOptions

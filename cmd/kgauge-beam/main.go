@@ -31,7 +31,8 @@ import (
 	"github.com/kgauge/kgauge/internal/cliflags"
 	"github.com/kgauge/kgauge/stream"
 	"github.com/kgauge/kgauge/stream/objstore"
-	_ "gocloud.dev/blob/azureblob" // azblob:// inputs; this binary links the big SDKs anyway
+	_ "github.com/kgauge/kgauge/stream/objstore/s3" // s3:// inputs and --out
+	_ "gocloud.dev/blob/azureblob"                  // azblob:// inputs; this binary links the big SDKs anyway
 	_ "gocloud.dev/blob/gcsblob"   // gs:// inputs
 )
 
