@@ -275,16 +275,16 @@ func probe(ctx context.Context, ds *stream.Dataset, units []stream.Unit, opt Opt
 		}
 		r.Close()
 	}
-	return probeFromRows(rows, ds.Columns, opt)
+	return ProbeFromRows(rows, ds.Columns, opt)
 }
 
-// probeFromRows derives the pass's scale and starting centres from the probe's rows (row-major, raw
+// ProbeFromRows derives the pass's scale and starting centres from the probe's rows (row-major, raw
 // units; not modified): each column's mean and spread, the mean squared scaled norm, and for every
 // k the k-means++ centres on the first probeInitRows scaled rows, one random stream per k, seeded
 // on opt.Workers goroutines. The estimate's probe and the capacity planner's timed probe both use
 // it, so the planner times the sketch and the criteria from the centres the estimate would start
 // from.
-func probeFromRows(rows []float64, cols []string, opt Options) (sketch.Probe, error) {
+func ProbeFromRows(rows []float64, cols []string, opt Options) (sketch.Probe, error) {
 	d := len(cols)
 	n := len(rows) / d
 	p := sketch.Probe{Center: make([]float64, d), Scale: make([]float64, d), Init: map[int][]float64{}, Rows: int64(n)}

@@ -8,8 +8,6 @@ import (
 	"io"
 	"math"
 	"os"
-	"runtime"
-	"runtime/debug"
 	"slices"
 	"strings"
 	"time"
@@ -145,9 +143,6 @@ func Evaluate(ctx context.Context, sk *sketch.Sketch, opt Options) (*Result, err
 // ErrTooFewRows is returned when there are fewer usable rows than the largest k.
 var ErrTooFewRows = errors.New("too few rows")
 
-// estimateGCPercent is the garbage collector's target (GOGC) while Estimate runs.
-const estimateGCPercent = 50
-
 // Estimate runs the whole job on inputs: data files, directories and globs (read in one pass) and
 // saved sketch files (merged without reading their data). It returns the result and the merged
 // sketch, which the caller may save.
@@ -159,16 +154,6 @@ func Estimate(ctx context.Context, inputs []string, opt Options) (*Result, *sket
 	sketchPaths, dataPaths, err := splitInputs(inputs)
 	if err != nil {
 		return nil, nil, err
-	}
-	// The pass discards decoded pages and the criteria their fits' buffers; with the collector's
-	// default target (a heap of twice the live data) the peak then depends on where collections
-	// fall, so it varied with the row count. Half the headroom keeps it flat and lower, at no
-	// measured cost in time (DEVELOPERS.md, measured design decisions). A lower setting, or the
-	// collector turned off (GOGC=off, -1), is kept.
-	if old := debug.SetGCPercent(estimateGCPercent); old < estimateGCPercent {
-		debug.SetGCPercent(old)
-	} else {
-		defer debug.SetGCPercent(old)
 	}
 	// Directories and globs may hold saved sketches as well as data files (a ledger's sketch
 	// folder, a quoted glob over it): they are found in one discovery and merged like named ones.
@@ -213,8 +198,8 @@ func Estimate(ctx context.Context, inputs []string, opt Options) (*Result, *sket
 			return nil, nil, &InputError{Path: ls.path, Err: err}
 		}
 	}
-	if len(dataPaths) > 0 {
-		releasePassMemory()
+	if len(dataPaths) > 0 && opt.AfterPass != nil {
+		opt.AfterPass()
 	}
 	opt.Progress.stage("criteria")
 	r, err := Evaluate(ctx, total, opt)
@@ -321,12 +306,3 @@ type InputError struct {
 
 func (e *InputError) Error() string { return e.Path + ": " + e.Err.Error() }
 func (e *InputError) Unwrap() error { return e.Err }
-
-// releasePassMemory hands what the pass freed back to the system before the criteria start: the
-// decoders' page pools survive one collection, so it takes two, and then the freed spans are
-// returned. The criteria's working set then starts from the sketch alone instead of stacking on
-// the pass's leftovers (DEVELOPERS.md, measured design decisions).
-func releasePassMemory() {
-	runtime.GC()
-	debug.FreeOSMemory()
-}

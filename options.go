@@ -48,12 +48,19 @@ type Options struct {
 	ProbeUnits int // units the probe spreads over at least (when there are that many)
 	Sketch     sketch.Config
 	Criteria   criteria.Options
-	Seed       uint64
-	Memory     int64 // bytes the run may hold at most (estimated); 0 means no limit
+	// Seed seeds every random choice of the run: the probe's order and centres, the sketch
+	// (Sketch.Seed) and the criteria (Criteria.Seed), which take it whatever they hold. 0 means
+	// the default, 1, as for every other zero field.
+	Seed   uint64
+	Memory int64 // bytes the run may hold at most (cost.PredictMemory); 0 means no limit
 	// SkipUnreadable leaves out data files that cannot be read (permissions, a dangling link, a
 	// truncated or damaged file or footer) and lists them in the result, instead of failing.
 	SkipUnreadable bool
 	Progress       *Progress // optional; updated as rows are read
+	// AfterPass, when not nil, is called once by Estimate between the pass and the criteria (when
+	// a pass ran). The library changes no process-wide state; cmd/kgauge returns the pass's memory
+	// to the system here (DEVELOPERS.md, measured design decisions).
+	AfterPass func() `json:"-"`
 	// Tables says how Delta Lake and Apache Iceberg tables among the inputs are read: their
 	// latest state by default, a version or snapshot, files only, a partition filter.
 	Tables stream.DiscoverOptions
@@ -88,15 +95,28 @@ func (o Options) withDefaults() Options {
 	}
 	c := o.Criteria
 	dc := def.Criteria
-	if c.MinK == 0 {
-		c.MinK = dc.MinK
+	fill := func(v *int, d int) {
+		if *v == 0 {
+			*v = d
+		}
 	}
-	if c.MaxK == 0 {
-		c.MaxK = dc.MaxK
+	fill(&c.MinK, dc.MinK)
+	fill(&c.MaxK, dc.MaxK)
+	fill(&c.Restarts, dc.Restarts)
+	fill(&c.Anchors, dc.Anchors)
+	fill(&c.GapRefs, dc.GapRefs)
+	fill(&c.GapSample, dc.GapSample)
+	fill(&c.GapRestarts, dc.GapRestarts)
+	fill(&o.Sketch.CoresetSize, def.Sketch.CoresetSize)
+	fill(&o.Sketch.SampleSize, def.Sketch.SampleSize)
+	fill(&o.Sketch.MiniBatchSize, def.Sketch.MiniBatchSize)
+	if o.Sketch.MiniBatchRows == 0 {
+		o.Sketch.MiniBatchRows = def.Sketch.MiniBatchRows
 	}
-	if c.Seed == 0 {
-		c.Seed = o.Seed
+	if o.Seed == 0 {
+		o.Seed = def.Seed
 	}
+	c.Seed = o.Seed
 	o.Criteria = c
 	o.Sketch.MinK, o.Sketch.MaxK = c.MinK, c.MaxK
 	o.Sketch.Seed = o.Seed

@@ -10,8 +10,7 @@ import (
 	"github.com/RoaringBitmap/roaring/v2/roaring64"
 	"github.com/kgauge/kgauge/sketch"
 	"github.com/kgauge/kgauge/stream"
-	_ "github.com/kgauge/kgauge/stream/lake"     // Delta Lake and Iceberg tables as inputs
-	_ "github.com/kgauge/kgauge/stream/objstore" // s3:// (gs://, azblob:// with build tags) inputs
+	_ "github.com/kgauge/kgauge/stream/lake" // Delta Lake and Iceberg tables as inputs
 )
 
 // UnitPlan is everything a distributed pass needs, fixed before it starts: the files, the resolved

@@ -36,5 +36,5 @@
 // [Default] returns the constants committed in calibration.json, written by
 // "go run ./cmd/kgauge-calibrate" from timed runs on generated files; a plan replaces the
 // machine-dependent rates by what its short timed probe of the real input measured (see
-// kgauge.TimedProbe and [ProbeTiming]). No constant is asserted in a test: the tests check the model's algebra.
+// capacity.TimedProbe and [ProbeTiming]). No constant is asserted in a test: the tests check the model's algebra.
 package cost

@@ -20,6 +20,7 @@ import (
 	"github.com/apache/arrow/go/v17/parquet/pqarrow"
 	"github.com/kgauge/kgauge"
 	"github.com/kgauge/kgauge/bench/synth"
+	"github.com/kgauge/kgauge/capacity"
 	"github.com/kgauge/kgauge/cost"
 )
 
@@ -106,7 +107,7 @@ func fixture(t testing.TB) *kgauge.Result {
 		}
 		fixtureRes, _, fixtureErr = kgauge.Estimate(context.Background(), []string{sub}, opt)
 		if fixtureErr == nil {
-			kgauge.Project(fixtureRes, w)
+			capacity.Project(fixtureRes, w)
 		}
 	})
 	if fixtureErr != nil {

@@ -13,7 +13,6 @@ package main
 
 import (
 	"context"
-	"errors"
 	"flag"
 	"fmt"
 	"io"
@@ -29,24 +28,26 @@ import (
 	"github.com/kgauge/kgauge"
 	kbeam "github.com/kgauge/kgauge/beam"
 	"github.com/kgauge/kgauge/internal/cliflags"
-	"github.com/kgauge/kgauge/stream"
+	"github.com/kgauge/kgauge/internal/exitcode"
 	"github.com/kgauge/kgauge/stream/objstore"
-	_ "gocloud.dev/blob/azureblob" // azblob:// inputs; this binary links the big SDKs anyway
-	_ "gocloud.dev/blob/gcsblob"   // gs:// inputs
+	_ "github.com/kgauge/kgauge/stream/objstore/s3" // s3:// inputs and --out
+	_ "gocloud.dev/blob/azureblob"                  // azblob:// inputs; this binary links the big SDKs anyway
+	_ "gocloud.dev/blob/gcsblob"                    // gs:// inputs
 )
 
-// Exit codes, as those of kgauge.
+// Exit codes: those of kgauge (internal/exitcode).
 const (
-	exitOK          = 0
-	exitInternal    = 1
-	exitUsage       = 2
-	exitInput       = 3
-	exitInterrupted = 130
+	exitOK          = exitcode.OK
+	exitInternal    = exitcode.Internal
+	exitUsage       = exitcode.Usage
+	exitInput       = exitcode.Input
+	exitInterrupted = exitcode.Interrupted
 )
 
 type usageError struct{ msg string }
 
 func (e *usageError) Error() string { return e.msg }
+func (e *usageError) ExitCode() int { return exitUsage }
 
 // flags are the data flags kgauge-beam shares with `kgauge estimate` (internal/cliflags), and --out.
 type flags struct {
@@ -134,20 +135,7 @@ func report(err error, stderr io.Writer) int {
 	if err == nil {
 		return exitOK
 	}
-	code := exitInternal
-	var ue *usageError
-	var re *stream.ReadError
-	var ie *kgauge.InputError
-	switch {
-	case errors.Is(err, context.Canceled):
-		code = exitInterrupted
-	case errors.As(err, &ue), errors.Is(err, kgauge.ErrMemoryLimit):
-		code = exitUsage
-	case errors.As(err, &re), errors.As(err, &ie), errors.Is(err, kgauge.ErrNoRows), errors.Is(err, kgauge.ErrTooFewRows), errors.Is(err, kgauge.ErrNonPositive),
-		errors.Is(err, os.ErrNotExist), errors.Is(err, stream.ErrNoDataFiles), errors.Is(err, stream.ErrUnknownColumn),
-		errors.Is(err, stream.ErrNotNumeric), errors.Is(err, stream.ErrMissingColumn), errors.Is(err, stream.ErrInfinite):
-		code = exitInput
-	}
+	code := exitcode.Of(err)
 	msg := strings.ReplaceAll(err.Error(), "\n", "; ")
 	if !strings.HasPrefix(msg, "kgauge") {
 		msg = "kgauge-beam: " + msg

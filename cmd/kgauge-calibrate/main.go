@@ -30,6 +30,7 @@ import (
 
 	"github.com/kgauge/kgauge"
 	"github.com/kgauge/kgauge/bench/synth"
+	"github.com/kgauge/kgauge/capacity"
 	"github.com/kgauge/kgauge/cost"
 	"github.com/kgauge/kgauge/internal/atomicfile"
 )
@@ -52,13 +53,13 @@ func main() {
 
 // childOut is what a child run reports on stdout.
 type childOut struct {
-	Plan     *kgauge.CapacityPlan `json:"plan,omitempty"`
-	Timings  kgauge.Timings       `json:"timings"`
-	Seconds  float64              `json:"seconds"` // wall time of the estimate (or plan)
-	Rows     int64                `json:"rows"`
-	K        int                  `json:"k"`
-	MaxRSS   int64                `json:"max_rss_bytes"`
-	Workload cost.Workload        `json:"workload"`
+	Plan     *capacity.Plan `json:"plan,omitempty"`
+	Timings  kgauge.Timings `json:"timings"`
+	Seconds  float64        `json:"seconds"` // wall time of the estimate (or plan)
+	Rows     int64          `json:"rows"`
+	K        int            `json:"k"`
+	MaxRSS   int64          `json:"max_rss_bytes"`
+	Workload cost.Workload  `json:"workload"`
 }
 
 // child runs "plan MAXK FILE" or "estimate WORKERS MAXK FILE" (MAXK 0: the default k range) and
@@ -76,7 +77,7 @@ func child(args []string) error {
 			return fmt.Errorf("child: bad max-k %q", args[1])
 		}
 		start := time.Now()
-		p, err := kgauge.PlanCapacity(ctx, args[2:], opt, true)
+		p, err := capacity.Forecast(ctx, args[2:], opt, true)
 		if err != nil {
 			return err
 		}

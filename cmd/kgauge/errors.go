@@ -1,36 +1,35 @@
 package main
 
 import (
-	"context"
 	"errors"
 	"flag"
 	"fmt"
 	"io"
-	"os"
 	"regexp"
 	"strings"
-	"syscall"
 
 	"github.com/kgauge/kgauge"
 	"github.com/kgauge/kgauge/internal/cliflags"
+	"github.com/kgauge/kgauge/internal/exitcode"
 	"github.com/kgauge/kgauge/stream"
 )
 
-// Exit codes; the README and the usage text list them.
+// Exit codes (internal/exitcode, shared with cmd/kgauge-beam); the README and the usage text list them.
 const (
-	ExitOK          = 0
-	ExitInternal    = 1
-	ExitUsage       = 2
-	ExitInput       = 3
-	ExitOutput      = 4
-	ExitDrift       = 5 // track: a newly profiled partition drifted
-	ExitInterrupted = 130
+	ExitOK          = exitcode.OK
+	ExitInternal    = exitcode.Internal
+	ExitUsage       = exitcode.Usage
+	ExitInput       = exitcode.Input
+	ExitOutput      = exitcode.Output
+	ExitDrift       = exitcode.Drift // track: a newly profiled partition drifted
+	ExitInterrupted = exitcode.Interrupted
 )
 
 // usageError is a problem with the command line.
 type usageError struct{ msg string }
 
 func (e *usageError) Error() string { return e.msg }
+func (e *usageError) ExitCode() int { return ExitUsage }
 
 func usageErrorf(format string, args ...any) error {
 	return &usageError{msg: fmt.Sprintf(format, args...)}
@@ -41,42 +40,15 @@ type outputError struct{ err error }
 
 func (e *outputError) Error() string { return e.err.Error() }
 func (e *outputError) Unwrap() error { return e.err }
+func (e *outputError) ExitCode() int { return ExitOutput }
 
 // internalError is a failure that no input or flag should cause: a bug.
 type internalError struct{ msg string }
 
 func (e *internalError) Error() string { return e.msg }
 
-// exitCode maps an error to the documented exit code.
-func exitCode(err error) int {
-	var ue *usageError
-	var oe *outputError
-	var re *stream.ReadError
-	var ie *kgauge.InputError
-	switch {
-	case err == nil:
-		return ExitOK
-	case errors.Is(err, flag.ErrHelp):
-		return ExitOK
-	case errors.Is(err, context.Canceled):
-		return ExitInterrupted
-	case errors.As(err, &ue), errors.Is(err, kgauge.ErrMemoryLimit), errors.Is(err, kgauge.ErrSameData):
-		return ExitUsage
-	case errors.As(err, &oe):
-		return ExitOutput
-	case errors.As(err, &re), errors.As(err, &ie),
-		errors.Is(err, kgauge.ErrNoRows), errors.Is(err, kgauge.ErrTooFewRows), errors.Is(err, kgauge.ErrNonPositive),
-		errors.Is(err, kgauge.ErrUnrepresentable), errors.Is(err, kgauge.ErrTooWide),
-		errors.Is(err, os.ErrNotExist), errors.Is(err, os.ErrPermission),
-		errors.Is(err, syscall.EISDIR), errors.Is(err, syscall.ENOTDIR), // a file named where a directory is, or the reverse
-		errors.Is(err, stream.ErrNoDataFiles), errors.Is(err, stream.ErrNotRegular), errors.Is(err, stream.ErrNoNumericColumns),
-		errors.Is(err, stream.ErrUnknownColumn), errors.Is(err, stream.ErrNotNumeric),
-		errors.Is(err, stream.ErrMissingColumn), errors.Is(err, stream.ErrInfinite),
-		errors.Is(err, stream.ErrUnreadableFile), errors.Is(err, stream.ErrDuplicateColumn):
-		return ExitInput
-	}
-	return ExitInternal
-}
+// exitCode maps an error to the documented exit code (internal/exitcode).
+func exitCode(err error) int { return exitcode.Of(err) }
 
 // report prints err as one line and returns its exit code.
 func report(err error, stderr io.Writer) int {

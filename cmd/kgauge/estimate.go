@@ -12,6 +12,7 @@ import (
 	"time"
 
 	"github.com/kgauge/kgauge"
+	"github.com/kgauge/kgauge/capacity"
 	"github.com/kgauge/kgauge/cost"
 	"github.com/kgauge/kgauge/internal/atomicfile"
 	"github.com/kgauge/kgauge/internal/cliflags"
@@ -137,6 +138,7 @@ func runEstimate(ctx context.Context, paths []string, opt kgauge.Options, f *est
 		}
 		stopBar = showProgress(opt.Progress, stderr, terms)
 	}
+	opt.AfterPass = releasePassMemory
 	res, sk, err := kgauge.Estimate(ctx, paths, opt)
 	if stopBar != nil {
 		stopBar()
@@ -144,7 +146,7 @@ func runEstimate(ctx context.Context, paths []string, opt kgauge.Options, f *est
 	if err != nil {
 		return nil, err
 	}
-	kgauge.Project(res, work)
+	capacity.Project(res, work)
 	var failed []error
 	if f.report != "" {
 		if err := htmlreport.Write(f.report, res, plan); err != nil {

@@ -10,6 +10,7 @@ import (
 	"text/tabwriter"
 
 	"github.com/kgauge/kgauge"
+	"github.com/kgauge/kgauge/capacity"
 	"github.com/kgauge/kgauge/cost"
 	"github.com/kgauge/kgauge/internal/atomicfile"
 )
@@ -45,7 +46,7 @@ func (c *PlanCommand) Run(ctx context.Context, args []string) error {
 			return err
 		}
 	}
-	p, err := kgauge.PlanCapacity(ctx, fs.Args(), opt, !*noProbe)
+	p, err := capacity.Forecast(ctx, fs.Args(), opt, !*noProbe)
 	if err != nil {
 		return err
 	}
@@ -60,7 +61,7 @@ func (c *PlanCommand) Run(ctx context.Context, args []string) error {
 	return writePlan(c.Stdout, p)
 }
 
-func writePlanJSON(w io.Writer, p *kgauge.CapacityPlan) error {
+func writePlanJSON(w io.Writer, p *capacity.Plan) error {
 	enc := json.NewEncoder(w)
 	enc.SetIndent("", "  ")
 	return enc.Encode(p)
@@ -96,7 +97,7 @@ func secondsText(s float64) string {
 	return fmt.Sprintf("%.3f s", s)
 }
 
-func writePlan(out io.Writer, p *kgauge.CapacityPlan) error {
+func writePlan(out io.Writer, p *capacity.Plan) error {
 	var b strings.Builder
 	w := p.Workload
 	cal := p.Calibration

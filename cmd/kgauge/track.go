@@ -139,6 +139,7 @@ Flags:`)
 	if err != nil {
 		return err
 	}
+	opt.AfterPass = releasePassMemory
 	enc := json.NewEncoder(c.Stdout)
 	res, err := ledger.Track(ctx, pos[0], ledgerPath, ledger.TrackOptions{
 		Estimate: opt, Drift: rules, LockWait: lockWait, Quarantine: quarantine, Release: release,

@@ -138,6 +138,9 @@ func (s *Store) bucket(ctx context.Context, l Location) (*blob.Bucket, error) {
 		return b, nil
 	}
 	if !blob.DefaultURLMux().ValidBucketScheme(l.Scheme) {
+		if l.Scheme == "s3" {
+			return nil, errors.New("objstore: s3:// is not linked into this binary (import github.com/kgauge/kgauge/stream/objstore/s3, or build cmd/kgauge without -tags kgauge_nos3)")
+		}
 		return nil, fmt.Errorf("objstore: %s:// is not linked into this binary (build with -tags %s)", l.Scheme, schemes[l.Scheme])
 	}
 	b, err := blob.OpenBucket(ctx, u)

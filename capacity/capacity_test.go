@@ -1,8 +1,9 @@
-package kgauge
+package capacity
 
 import (
 	"context"
 	"fmt"
+	"github.com/kgauge/kgauge"
 	"math"
 	"math/rand/v2"
 	"os"
@@ -28,8 +29,8 @@ func smallMixture(t *testing.T, rows, rowGroup int) string {
 	return path
 }
 
-func quickOptions() Options {
-	o := DefaultOptions()
+func quickOptions() kgauge.Options {
+	o := kgauge.DefaultOptions()
 	o.Criteria.MaxK = 6
 	o.Sketch.CoresetSize = 800
 	o.Sketch.SampleSize = 800
@@ -44,7 +45,7 @@ func quickOptions() Options {
 // more than a twentieth of the rows, and replaces the machine rates with positive measurements.
 func TestTimedProbeLimits(t *testing.T) {
 	path := smallMixture(t, 100_000, 2048)
-	p, err := PlanCapacity(context.Background(), []string{path}, quickOptions(), true)
+	p, err := Forecast(context.Background(), []string{path}, quickOptions(), true)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -93,7 +94,7 @@ func TestTimedProbeLimits(t *testing.T) {
 	if p.Seconds != p.Terms.Open+p.Terms.Probe+p.Terms.Pass+p.Terms.Criteria {
 		t.Errorf("predicted seconds %v is not the sum of the terms %+v", p.Seconds, p.Terms)
 	}
-	noProbe, err := PlanCapacity(context.Background(), []string{path}, quickOptions(), false)
+	noProbe, err := Forecast(context.Background(), []string{path}, quickOptions(), false)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -108,7 +109,7 @@ func TestFitToRun(t *testing.T) {
 	w := cost.Workload{Files: 3, Units: 40, Rows: 2_000_000, Bytes: 256_000_000, Dims: 16, Workers: 2, Cores: 2,
 		MinK: 1, MaxK: 20, Coreset: 8192, Sample: 4096, MiniBatchRows: 1 << 17, BatchRows: 4096, ProbeRows: 65536,
 		ProbeUnits: 16, Restarts: 3, Anchors: 1000, GapRefs: 10, GapSample: 2000, GapRestarts: 1}
-	for _, tm := range []Timings{{Open: 0.01, Probe: 0.2, Pass: 4, Criteria: 9}, {Open: 0.5, Probe: 1, Pass: 40, Criteria: 2},
+	for _, tm := range []kgauge.Timings{{Open: 0.01, Probe: 0.2, Pass: 4, Criteria: 9}, {Open: 0.5, Probe: 1, Pass: 40, Criteria: 2},
 		{Open: 0.001, Probe: 0.1, Pass: 0.05, Criteria: 30}} {
 		cal := FitToRun(cost.Default(), w, tm)
 		if err := cal.Validate(); err != nil {
@@ -129,11 +130,11 @@ func TestFitToRun(t *testing.T) {
 func TestProject(t *testing.T) {
 	path := smallMixture(t, 20_000, 4096)
 	opt := quickOptions()
-	w, err := PlanWorkload([]string{path}, opt)
+	w, err := kgauge.PlanWorkload([]string{path}, opt)
 	if err != nil {
 		t.Fatal(err)
 	}
-	res, sk, err := Estimate(context.Background(), []string{path}, opt)
+	res, sk, err := kgauge.Estimate(context.Background(), []string{path}, opt)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -149,10 +150,10 @@ func TestProject(t *testing.T) {
 	if err := saveTo(kgs, sk); err != nil {
 		t.Fatal(err)
 	}
-	if _, err := PlanWorkload([]string{kgs}, opt); err == nil {
+	if _, err := kgauge.PlanWorkload([]string{kgs}, opt); err == nil {
 		t.Error("PlanWorkload priced a saved sketch")
 	}
-	merged, _, err := Estimate(context.Background(), []string{kgs}, opt)
+	merged, _, err := kgauge.Estimate(context.Background(), []string{kgs}, opt)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -183,7 +184,7 @@ func TestTimedProbeArrowStream(t *testing.T) {
 	if err := synth.WriteMixture(path, o); err != nil {
 		t.Fatal(err)
 	}
-	p, err := PlanCapacity(context.Background(), []string{path}, quickOptions(), true)
+	p, err := Forecast(context.Background(), []string{path}, quickOptions(), true)
 	if err != nil {
 		t.Fatal(err)
 	}

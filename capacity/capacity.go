@@ -1,4 +1,8 @@
-package kgauge
+// Package capacity is the capacity planner: a short timed probe of the real input, the cost model
+// (package cost) fitted to it or to a finished run, and the projection of a run to more data and
+// more workers. It reads the inputs through the one open step of package kgauge (kgauge.Open) and
+// starts its timings from the estimate's own probe (kgauge.ProbeFromRows).
+package capacity
 
 import (
 	"context"
@@ -10,20 +14,12 @@ import (
 	"sync"
 	"time"
 
+	"github.com/kgauge/kgauge"
 	"github.com/kgauge/kgauge/cost"
 	"github.com/kgauge/kgauge/criteria"
 	"github.com/kgauge/kgauge/sketch"
 	"github.com/kgauge/kgauge/stream"
 )
-
-// Throughput is what the pass of an estimate achieved.
-type Throughput struct {
-	Workers        int     `json:"workers"`
-	PassSeconds    float64 `json:"pass_seconds"`
-	RowsPerSecond  float64 `json:"rows_per_second"`
-	BytesPerSecond float64 `json:"bytes_per_second"` // unit bytes (compressed column chunks) per second
-	Bytes          int64   `json:"bytes"`
-}
 
 // PlanWorkers is the worker counts of a plan's scaling table.
 var PlanWorkers = []int{1, 2, 4, 8}
@@ -31,9 +27,9 @@ var PlanWorkers = []int{1, 2, 4, 8}
 // PlanScales is the data multiples of a plan's and an estimate's projection.
 var PlanScales = []float64{1, 10, 100}
 
-// CapacityPlan is what PlanCapacity predicts for an estimate of the same inputs and options.
-type CapacityPlan struct {
-	Input       *Input           `json:"input"`
+// Plan is what Forecast predicts for an estimate of the same inputs and options.
+type Plan struct {
+	Input       *kgauge.Input    `json:"input"`
 	Workload    cost.Workload    `json:"workload"`
 	Calibration cost.Calibration `json:"calibration"`
 	cost.Prediction
@@ -44,14 +40,14 @@ type CapacityPlan struct {
 	Notes       []string   `json:"notes"`
 }
 
-// PlanCapacity reads only the footers and metadata of the data files named by paths and a few whole row
+// Forecast reads only the footers and metadata of the data files named by paths and a few whole row
 // groups (at most a twentieth of the rows), times that read, sketch.Add and a few full-size criteria
 // runs on the rows read, and predicts the wall time and peak memory of Estimate with opt on this
 // machine.
 // With probe false it skips the timed read and uses the committed calibration alone.
-func PlanCapacity(ctx context.Context, paths []string, opt Options, probe bool) (*CapacityPlan, error) {
+func Forecast(ctx context.Context, paths []string, opt kgauge.Options, probe bool) (*Plan, error) {
 	start := time.Now()
-	op, err := Open(paths, opt)
+	op, err := kgauge.Open(paths, opt)
 	if err != nil {
 		return nil, err
 	}
@@ -64,7 +60,7 @@ func PlanCapacity(ctx context.Context, paths []string, opt Options, probe bool) 
 			return nil, err
 		}
 	}
-	p := &CapacityPlan{Input: describe(ds), Workload: WorkloadOf(ds, opt), Calibration: cal, Cores: runtime.NumCPU()}
+	p := &Plan{Input: op.Input, Workload: kgauge.WorkloadOf(ds, opt), Calibration: cal, Cores: runtime.NumCPU()}
 	p.Prediction = cost.Predict(p.Workload, cal)
 	p.Workers = cost.WorkerTable(p.Workload, cal, PlanWorkers...)
 	p.Scales = cost.ScaleTable(p.Workload, cal, PlanScales...)
@@ -76,60 +72,6 @@ func PlanCapacity(ctx context.Context, paths []string, opt Options, probe bool) 
 	}
 	p.PlanSeconds = time.Since(start).Seconds()
 	return p, nil
-}
-
-// PlanWorkload opens the footers of the data files named by paths and describes the estimate opt
-// would run on them, without reading any rows: the options after the same caps and the same
-// --memory fit as Estimate's (capToInput, fitMemory), so that the progress bar's first figure,
-// the report's planned column and plan --no-probe price the same run.
-func PlanWorkload(paths []string, opt Options) (cost.Workload, error) {
-	opt = opt.withDefaults()
-	_, data, err := splitInputs(paths)
-	if err != nil {
-		return cost.Workload{}, err
-	}
-	if len(data) == 0 {
-		return cost.Workload{}, errors.New("plan: only saved sketches given; nothing to read")
-	}
-	op, err := Open(data, opt)
-	if err != nil {
-		return cost.Workload{}, err
-	}
-	defer op.Dataset.Close()
-	return WorkloadOf(op.Dataset, op.Options), nil
-}
-
-// WorkloadOf describes the estimate opt would run on the opened dataset ds.
-func WorkloadOf(ds *stream.Dataset, opt Options) cost.Workload {
-	opt = opt.withDefaults()
-	c := opt.Criteria
-	s := opt.Sketch
-	cs, ss := s.CoresetSize, s.SampleSize
-	if cs == 0 {
-		cs = sketch.DefaultCoresetSize
-	}
-	if ss == 0 {
-		ss = sketch.DefaultSampleSize
-	}
-	mb := s.MiniBatchRows
-	if mb == 0 {
-		mb = sketch.DefaultMiniBatchRows
-	}
-	dc := criteria.DefaultOptions()
-	pick := func(v, def int) int {
-		if v == 0 {
-			return def
-		}
-		return v
-	}
-	return cost.Workload{Files: len(ds.Files), Units: len(ds.Units), Rows: ds.Rows, Bytes: ds.Bytes,
-		Dims: ds.Dims(), Workers: opt.Workers, Cores: runtime.GOMAXPROCS(0), MinK: c.MinK, MaxK: c.MaxK,
-		Coreset: cs, Sample: ss, MiniBatchRows: mb, BatchRows: opt.BatchRows, ProbeRows: opt.ProbeRows,
-		ProbeUnits: opt.ProbeUnits, Restarts: pick(c.Restarts, dc.Restarts), Anchors: pick(c.Anchors, dc.Anchors),
-		GapRefs: pick(c.GapRefs, dc.GapRefs), GapSample: pick(c.GapSample, dc.GapSample),
-		GapRestarts:   pick(c.GapRestarts, dc.GapRestarts),
-		WardLeaves:    criteria.WardLeaves(int(min(int64(cs), max(ds.Rows, 1))), c.MaxK),
-		MiniBatchSize: s.MiniBatchSize, CriteriaWorkers: c.Workers}
 }
 
 // Probe limits of TimedProbe.
@@ -148,9 +90,9 @@ const (
 // option sizes on a sketch of the rows read (timeCriteria), and returns cal with those machine- and
 // file-dependent rates replaced and the criteria runs in cal.Probe.Criteria, from which
 // cost.Predict prices the criteria stage. The ratios that a short run cannot measure (pass and
-// probe overheads, parallel fraction) stay those of cal.
-func TimedProbe(ctx context.Context, ds *stream.Dataset, opt Options, cal cost.Calibration) (cost.Calibration, error) {
-	opt = opt.withDefaults()
+// probe overheads, parallel fraction) stay those of cal. opt is the options kgauge.Open returned
+// with ds (defaults filled in, fitted to the input).
+func TimedProbe(ctx context.Context, ds *stream.Dataset, opt kgauge.Options, cal cost.Calibration) (cost.Calibration, error) {
 	d := ds.Dims()
 	units := stream.Shuffle(ds.Units, opt.Seed)
 	budget := ds.Rows / probeShare
@@ -218,7 +160,7 @@ func TimedProbe(ctx context.Context, ds *stream.Dataset, opt Options, cal cost.C
 	}
 	pt.SketchSeconds = time.Since(t0).Seconds()
 	t0 = time.Now()
-	if err := timeCriteria(ctx, &cal, rows, ds.Columns, opt, WorkloadOf(ds, opt)); err != nil {
+	if err := timeCriteria(ctx, &cal, rows, ds.Columns, opt, kgauge.WorkloadOf(ds, opt)); err != nil {
 		return cal, err
 	}
 	pt.CriteriaSeconds = time.Since(t0).Seconds()
@@ -227,13 +169,13 @@ func TimedProbe(ctx context.Context, ds *stream.Dataset, opt Options, cal cost.C
 
 // timeSketch sets cal's sketch.Add cost per value (steady state, once the coreset and sample are
 // full) and its mini-batch kernel rate (a fresh sketch feeding every row, less one feeding none).
-func timeSketch(cal *cost.Calibration, rows []float64, cols []string, opt Options) error {
+func timeSketch(cal *cost.Calibration, rows []float64, cols []string, opt kgauge.Options) error {
 	d := len(cols)
 	n := len(rows) / d
 	cfg := opt.Sketch
 	cfg.Columns = cols
 	cfg.ExpectedRows = 1 << 60 // a feed rate of ~0: rows pass the moments, coreset and sample only
-	pr, err := probeFromRows(rows, cols, opt)
+	pr, err := kgauge.ProbeFromRows(rows, cols, opt)
 	if err != nil {
 		return err
 	}
@@ -310,14 +252,14 @@ func probeRuns(minK, maxK int) []cost.CriteriaRun {
 // (one per CPU), without the Ward linkage but in one run, and records the runs in
 // cal.Probe.Criteria for cost.CriteriaFromRuns. It also sets cal's criteria work rate to what those
 // runs imply for w, for the record.
-func timeCriteria(ctx context.Context, cal *cost.Calibration, rows []float64, cols []string, opt Options, w cost.Workload) error {
+func timeCriteria(ctx context.Context, cal *cost.Calibration, rows []float64, cols []string, opt kgauge.Options, w cost.Workload) error {
 	d := len(cols)
 	n := len(rows) / d
 	cfg := opt.Sketch
 	cfg.Columns = cols
 	cfg.ExpectedRows = int64(n)
 	cfg.MiniBatchRows = int64(min(n, probeFeedRows))
-	pr, err := probeFromRows(rows, cols, opt)
+	pr, err := kgauge.ProbeFromRows(rows, cols, opt)
 	if err != nil {
 		return err
 	}
@@ -326,7 +268,7 @@ func timeCriteria(ctx context.Context, cal *cost.Calibration, rows []float64, co
 		return err
 	}
 	sk.Add(rows)
-	sum, _ := Summarize(sk, opt.Scale)
+	sum, _ := kgauge.Summarize(sk, opt.Scale)
 	runs := probeRuns(opt.Criteria.MinK, opt.Criteria.MaxK)
 	par := opt.Criteria.Workers
 	if par == 0 {
@@ -380,11 +322,11 @@ func timeCriteria(ctx context.Context, cal *cost.Calibration, rows []float64, co
 // and 100 times its input, after fitting the committed constants to the stages this run measured
 // (so the 1× row reproduces the run, and the others extrapolate it). w describes the run's input
 // (PlanWorkload); a result made from saved sketches only, with no pass, gets neither.
-func Project(r *Result, w cost.Workload) {
+func Project(r *kgauge.Result, w cost.Workload) {
 	if r == nil || r.Timings.Pass <= 0 || w.Dims == 0 {
 		return
 	}
-	r.Throughput = &Throughput{Workers: w.Workers, PassSeconds: r.Timings.Pass,
+	r.Throughput = &kgauge.Throughput{Workers: w.Workers, PassSeconds: r.Timings.Pass,
 		RowsPerSecond:  float64(r.Rows+r.SkippedRows) / r.Timings.Pass,
 		BytesPerSecond: float64(w.Bytes) / r.Timings.Pass, Bytes: w.Bytes}
 	cal := FitToRun(cost.Default(), w, r.Timings)
@@ -395,7 +337,7 @@ func Project(r *Result, w cost.Workload) {
 // of a run of w: the open, probe and criteria terms by their ratios, and the rows-proportional part
 // of the pass (unit opens, scan and sketch) so that the whole pass matches; when the fixed feed term
 // alone exceeds the measured pass, the pass overhead takes the whole ratio instead.
-func FitToRun(cal cost.Calibration, w cost.Workload, tm Timings) cost.Calibration {
+func FitToRun(cal cost.Calibration, w cost.Workload, tm kgauge.Timings) cost.Calibration {
 	p := cost.Predict(w, cal)
 	t := p.Terms
 	if tm.Open > 0 && t.Open > 0 && w.Files > 0 {

@@ -1,8 +1,9 @@
-package kgauge
+package capacity
 
 import (
 	"context"
 	"errors"
+	"github.com/kgauge/kgauge"
 	"strings"
 	"testing"
 
@@ -18,9 +19,9 @@ import (
 func TestPlanFiguresAgree(t *testing.T) {
 	path := smallMixture(t, 60_000, 4096)
 	ctx := context.Background()
-	base := DefaultOptions()
+	base := kgauge.DefaultOptions()
 	base.Workers = 2
-	free, err := PlanCapacity(ctx, []string{path}, base, false)
+	free, err := Forecast(ctx, []string{path}, base, false)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -31,11 +32,11 @@ func TestPlanFiguresAgree(t *testing.T) {
 		t.Run(tc.name, func(t *testing.T) {
 			opt := base
 			opt.Memory = tc.memory
-			plan, err := PlanCapacity(ctx, []string{path}, opt, false)
+			plan, err := Forecast(ctx, []string{path}, opt, false)
 			if err != nil {
 				t.Fatal(err)
 			}
-			w, err := PlanWorkload([]string{path}, opt)
+			w, err := kgauge.PlanWorkload([]string{path}, opt)
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -56,9 +57,9 @@ func TestPlanFiguresAgree(t *testing.T) {
 	}
 	opt := base
 	opt.Memory = 1 << 20
-	_, perr := PlanCapacity(ctx, []string{path}, opt, false)
-	_, _, eerr := Estimate(ctx, []string{path}, opt)
-	if !errors.Is(perr, ErrMemoryLimit) || !errors.Is(eerr, ErrMemoryLimit) {
+	_, perr := Forecast(ctx, []string{path}, opt, false)
+	_, _, eerr := kgauge.Estimate(ctx, []string{path}, opt)
+	if !errors.Is(perr, kgauge.ErrMemoryLimit) || !errors.Is(eerr, kgauge.ErrMemoryLimit) {
 		t.Fatalf("--memory 1MiB: plan %v, estimate %v; want both refused", perr, eerr)
 	}
 	if perr.Error() != eerr.Error() || !strings.Contains(perr.Error(), "at least") {

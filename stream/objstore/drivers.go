@@ -1,3 +1,0 @@
-package objstore
-
-import _ "gocloud.dev/blob/s3blob" // s3://
