@@ -386,6 +386,7 @@ func timeCriteria(ctx context.Context, cal *model.Calibration, rows []float64, c
 	}
 	sk.Add(rows)
 	sum, _ := Summarize(sk, opt.Scale)
+	sum, _ = reduceWide(sum, opt) // the criteria run where Evaluate runs them
 	runs := probeRuns(opt.Criteria.MinK, opt.Criteria.MaxK)
 	par := opt.Criteria.Workers
 	if par == 0 {
