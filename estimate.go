@@ -15,6 +15,7 @@ import (
 	"github.com/kgauge/kgauge/cost"
 	"github.com/kgauge/kgauge/criteria"
 	"github.com/kgauge/kgauge/sketch"
+	"github.com/kgauge/kgauge/sketch/reduce"
 )
 
 // Version is the tool version reported in results.
@@ -55,14 +56,17 @@ type Result struct {
 	// SkippedFiles are data files left out because they cannot be read (--skip-unreadable).
 	SkippedFiles []SkippedFile `json:"skipped_files,omitempty"`
 	Scaling      Scaling       `json:"scaling"`
-	Sketch       SketchInfo    `json:"sketch"`
-	MinK         int           `json:"min_k"`
-	MaxK         int           `json:"max_k"`
-	Seed         uint64        `json:"seed"`
-	Version      string        `json:"version"`
-	Timings      Timings       `json:"timings"`
-	Throughput   *Throughput   `json:"throughput,omitempty"` // the pass's measured speed (see Project)
-	Projection   []cost.Row    `json:"projection,omitempty"` // the model's time for 1×, 10×, 100× the input
+	// Reduction is set when the criteria ran in fewer dimensions than the feature columns: a
+	// seeded random projection of the summary (sketch/reduce); nil otherwise.
+	Reduction  *reduce.Info `json:"reduction,omitempty"`
+	Sketch     SketchInfo   `json:"sketch"`
+	MinK       int          `json:"min_k"`
+	MaxK       int          `json:"max_k"`
+	Seed       uint64       `json:"seed"`
+	Version    string       `json:"version"`
+	Timings    Timings      `json:"timings"`
+	Throughput *Throughput  `json:"throughput,omitempty"` // the pass's measured speed (see Project)
+	Projection []cost.Row   `json:"projection,omitempty"` // the model's time for 1×, 10×, 100× the input
 
 	criteria *criteria.Result
 }
@@ -105,6 +109,7 @@ func Evaluate(ctx context.Context, sk *sketch.Sketch, opt Options) (*Result, err
 	}
 	start := time.Now()
 	sum, sc := Summarize(sk, opt.Scale)
+	sum, red := ReduceWide(sum, opt)
 	cr, err := criteria.Evaluate(ctx, sum, opt.Criteria)
 	if err != nil {
 		return nil, err
@@ -117,7 +122,8 @@ func Evaluate(ctx context.Context, sk *sketch.Sketch, opt Options) (*Result, err
 		Votes:  map[string]*int{}, VoteList: cr.Votes, PerK: cr.PerK,
 		Rows: sk.Rows(), SkippedRows: sk.Meta.SkippedRows, ProbeRows: sk.Meta.ProbeRows,
 		Columns: sk.Columns(), Ignored: []IgnoredColumn{}, Scaling: sc,
-		MinK: opt.Criteria.MinK, MaxK: opt.Criteria.MaxK, Seed: opt.Seed, Version: Version, criteria: cr}
+		MinK: opt.Criteria.MinK, MaxK: opt.Criteria.MaxK, Seed: opt.Seed, Version: Version, criteria: cr,
+		Reduction: red}
 	if math.IsNaN(r.Confidence) {
 		r.Confidence = 0 // no calibration table (never with the embedded weights)
 	}

@@ -62,11 +62,12 @@ func checkRawSketch(sk *sketch.Sketch) error {
 	return checkRaw(sk.Columns(), m.Min, m.Max)
 }
 
-// MaxColumns is the widest input an estimate accepts. The sampled covariance costs d² per fed row in
-// the pass and the principal-component reference of the gap statistic an eigen decomposition of
-// d×d (d³); at 1000 columns these take about a minute and 100 MB, at 5000 columns hours and
-// gigabytes, with no way to stop the decomposition part way. Wider data needs its columns chosen
-// (--columns) or reduced first.
+// MaxColumns is the widest input an estimate accepts. Above 64 columns the criteria run on a random
+// projection of the summary (Options.Reduce, sketch/reduce), so no d×d eigen decomposition is made
+// by default; the bound stands for what the reduction does not remove: the sampled covariance
+// costs d² per fed row in the pass and d² floats in every worker's sketch and sketch file (8 MB at
+// 1000 columns, 200 MB at 5000), and `--reduce off` still decomposes d×d. Wider data needs its
+// columns chosen (--columns).
 const MaxColumns = 1000
 
 // ErrTooWide is returned for an input with more than MaxColumns feature columns.

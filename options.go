@@ -64,6 +64,10 @@ type Options struct {
 	// Tables says how Delta Lake and Apache Iceberg tables among the inputs are read: their
 	// latest state by default, a version or snapshot, files only, a partition filter.
 	Tables stream.DiscoverOptions
+	// Reduce says in how many dimensions the criteria run for a wide input (sketch/reduce): 0
+	// projects an input of more than reduce.Above columns to reduce.Dims dimensions, −1 never
+	// reduces, m ≥ 2 projects an input of more than m columns to m dimensions.
+	Reduce int
 }
 
 // DefaultOptions returns the options used for zero fields.
@@ -140,6 +144,8 @@ func (o Options) Validate() error {
 		return fmt.Errorf("memory limit must not be negative, got %d", o.Memory)
 	case o.ProbeUnits < 1:
 		return fmt.Errorf("probe units must be positive, got %d", o.ProbeUnits)
+	case o.Reduce < -1 || o.Reduce == 1:
+		return fmt.Errorf("reduce must be -1 (off), 0 (automatic) or at least 2 dimensions, got %d", o.Reduce)
 	}
 	if err := o.Criteria.Validate(); err != nil {
 		return err

@@ -7,6 +7,7 @@ import (
 	"github.com/kgauge/kgauge/criteria"
 	"github.com/kgauge/kgauge/internal/kmeans"
 	"github.com/kgauge/kgauge/sketch"
+	"github.com/kgauge/kgauge/sketch/reduce"
 )
 
 // Scaling is the affine map applied to every feature before the criteria: z = (x − Center) / Spread.
@@ -120,6 +121,25 @@ func Summarize(sk *sketch.Sketch, method Scale) (criteria.Summary, Scaling) {
 		}
 	}
 	return s, sc
+}
+
+// ReduceWide projects the summary of an input wider than the reduction threshold to fewer
+// dimensions (sketch/reduce), as opt.Reduce says, and reports what it did (nil when nothing).
+func ReduceWide(s criteria.Summary, opt Options) (criteria.Summary, *reduce.Info) {
+	m, eps := opt.Reduce, 0.0
+	switch {
+	case m < 0:
+		return s, nil
+	case m == 0:
+		if s.D <= reduce.Above {
+			return s, nil
+		}
+		m, eps = reduce.Dims(s.D, opt.Criteria.MaxK), reduce.Epsilon
+	}
+	if m >= s.D {
+		return s, nil
+	}
+	return reduce.Project(s, m, opt.Seed), &reduce.Info{Method: "random_projection", From: s.D, To: m, Seed: opt.Seed, Epsilon: eps}
 }
 
 // reconcile pools the parts' mini-batch centres for one k into k centres in the scaled space.

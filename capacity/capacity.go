@@ -269,6 +269,7 @@ func timeCriteria(ctx context.Context, cal *cost.Calibration, rows []float64, co
 	}
 	sk.Add(rows)
 	sum, _ := kgauge.Summarize(sk, opt.Scale)
+	sum, _ = kgauge.ReduceWide(sum, opt) // the criteria run where Evaluate runs them
 	runs := probeRuns(opt.Criteria.MinK, opt.Criteria.MaxK)
 	par := opt.Criteria.Workers
 	if par == 0 {

@@ -77,6 +77,9 @@ func writeTable(w io.Writer, res *kgauge.Result) error {
 	for _, t := range res.Tables {
 		b.WriteString(tableLine(t))
 	}
+	if r := res.Reduction; r != nil {
+		fmt.Fprintf(&b, "reduced: the criteria ran in %d dimensions, a seeded random projection of the %d columns (--reduce)\n", r.To, r.From)
+	}
 	if len(res.Ignored) > 0 {
 		names := make([]string, len(res.Ignored))
 		for i, c := range res.Ignored {

@@ -35,6 +35,7 @@ type Data struct {
 	columns string
 	scale   string
 	memory  string
+	reduce  string
 
 	// Lake tables (README "Lake tables"): how a Delta Lake or Apache Iceberg table is read.
 	asFiles      bool
@@ -72,6 +73,7 @@ func (d *Data) Register(fs *flag.FlagSet) {
 	fs.IntVar(&o.Criteria.GapSample, "gap-sample", o.Criteria.GapSample, "points per gap reference set and on the data side")
 	fs.IntVar(&o.ProbeRows, "probe-rows", o.ProbeRows, "rows read before the pass to fix the scale")
 	fs.IntVar(&o.BatchRows, "batch-rows", o.BatchRows, "rows per read batch")
+	fs.StringVar(&d.reduce, "reduce", "auto", "dimensions the criteria run in for wide inputs: auto (a seeded random projection above 64 columns), off, or a number of dimensions (2 to 1000)")
 	fs.StringVar(&d.memory, "memory", "", "memory limit such as 512MiB or 2GiB: sizes shrink to fit the estimate (default: no limit)")
 	fs.BoolVar(&d.asFiles, "as-files", false, "read a Delta Lake or Iceberg table's folder as plain files, removed ones included")
 	fs.StringVar(&d.tableVersion, "table-version", "", "Delta Lake table version to read (default: the latest)")
@@ -154,6 +156,18 @@ func (d *Data) Options() (kgauge.Options, error) {
 		if len(o.Columns) == 0 {
 			return o, usagef("--columns: no column named")
 		}
+	}
+	switch d.reduce {
+	case "auto", "":
+		o.Reduce = 0
+	case "off":
+		o.Reduce = -1
+	default:
+		m, err := strconv.Atoi(d.reduce)
+		if err != nil || m < 2 || m > 1000 {
+			return o, usagef("--reduce must be auto, off or a number of dimensions from 2 to 1000, got %q", d.reduce)
+		}
+		o.Reduce = m
 	}
 	if o.Tables, err = d.tables(); err != nil {
 		return o, err

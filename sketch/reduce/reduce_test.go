@@ -1,0 +1,135 @@
+package reduce
+
+import (
+	"math"
+	"math/rand/v2"
+	"testing"
+
+	"github.com/kgauge/kgauge/criteria"
+	"github.com/kgauge/kgauge/internal/kmeans"
+)
+
+// blobs are invented points for a property test: k Gaussian blobs in d dimensions, n points each,
+// centres 6 standard deviations apart on average, and the label of each point.
+func blobs(k, n, d int, seed uint64) (kmeans.Data, []int) {
+	rng := rand.New(rand.NewPCG(seed, 1))
+	centres := make([]float64, k*d)
+	for i := range centres {
+		centres[i] = rng.NormFloat64() * 6 / math.Sqrt2
+	}
+	p := kmeans.Data{D: d}
+	var labels []int
+	for c := range k {
+		for range n {
+			for j := range d {
+				p.X = append(p.X, centres[c*d+j]+rng.NormFloat64())
+			}
+			p.W = append(p.W, 1)
+			labels = append(labels, c)
+		}
+	}
+	return p, labels
+}
+
+// cost is the k-means cost of the partition labels of p (sum of squared distances to the means).
+func cost(p kmeans.Data, labels []int, k int) float64 {
+	d := p.D
+	mean := make([]float64, k*d)
+	cnt := make([]float64, k)
+	for i, l := range labels {
+		cnt[l]++
+		for j := range d {
+			mean[l*d+j] += p.X[i*d+j]
+		}
+	}
+	for l := range k {
+		for j := range d {
+			mean[l*d+j] /= cnt[l]
+		}
+	}
+	var c float64
+	for i, l := range labels {
+		for j := range d {
+			v := p.X[i*d+j] - mean[l*d+j]
+			c += v * v
+		}
+	}
+	return c
+}
+
+// TestProjectIsExactOnTheSummary checks that the projected summary is the summary of the
+// projected points: mean, covariance (RᵀCR) and box, to rounding, when the coreset and sample are
+// the whole point set.
+func TestProjectIsExactOnTheSummary(t *testing.T) {
+	p, _ := blobs(4, 50, 120, 3)
+	m := 17
+	got := Project(criteria.ExactSummary(p), m, 9)
+	r := Matrix(p.D, m, 9)
+	q := kmeans.Data{D: m, W: p.W}
+	for i := range p.Len() {
+		x := p.Point(i)
+		for l := range m {
+			var v float64
+			for j := range p.D {
+				v += x[j] * r[j*m+l]
+			}
+			q.X = append(q.X, v)
+		}
+	}
+	want := criteria.ExactSummary(q)
+	if got.D != m || got.N != want.N || got.Coreset.Len() != p.Len() || got.Sample.Len() != p.Len() {
+		t.Fatalf("projected summary: D %d, N %v, %d coreset and %d sample rows", got.D, got.N, got.Coreset.Len(), got.Sample.Len())
+	}
+	near := func(name string, a, b []float64) {
+		t.Helper()
+		if len(a) != len(b) {
+			t.Fatalf("%s: %d values, want %d", name, len(a), len(b))
+		}
+		for i := range a {
+			if math.Abs(a[i]-b[i]) > 1e-9*(1+math.Abs(b[i])) {
+				t.Fatalf("%s[%d] = %v, the projected points give %v", name, i, a[i], b[i])
+			}
+		}
+	}
+	near("mean", got.Mean, want.Mean)
+	near("covariance", got.Cov, want.Cov)
+	near("min", got.Min, want.Min)
+	near("max", got.Max, want.Max)
+	near("coreset", got.Coreset.X, q.X)
+	if same := Project(criteria.ExactSummary(p), p.D, 9); same.D != p.D {
+		t.Errorf("a projection to the input's own width changed it to %d dimensions", same.D)
+	}
+}
+
+// TestProjectKeepsClusteringCost checks the property the reduction rests on (Makarychev,
+// Makarychev and Razenshteyn 2019): at the dimension Dims gives, the k-means cost of the true
+// partition and of a wrong one (two clusters merged) keep their values within the factor 1 ± ε,
+// and their order, for several seeds, on 512-dimensional blobs.
+func TestProjectKeepsClusteringCost(t *testing.T) {
+	const k, d = 8, 512
+	p, labels := blobs(k, 60, d, 5)
+	merged := make([]int, len(labels))
+	for i, l := range labels {
+		merged[i] = min(l, k-2) // clusters k-2 and k-1 as one
+	}
+	m := Dims(d, 20)
+	if m < 20 || m > 64 {
+		t.Fatalf("Dims(512, 20) = %d", m)
+	}
+	full, wrong := cost(p, labels, k), cost(p, merged, k-1)
+	for seed := range uint64(5) {
+		s := Project(criteria.ExactSummary(p), m, seed)
+		pc, pw := cost(s.Coreset, labels, k), cost(s.Coreset, merged, k-1)
+		for _, c := range []struct {
+			name      string
+			got, want float64
+		}{{"true partition", pc, full}, {"merged partition", pw, wrong}} {
+			if r := c.got / c.want; r < 1-Epsilon || r > 1+Epsilon {
+				t.Errorf("seed %d: cost of the %s is %.3g after projection, %.3g before (ratio %.3f, outside 1 ± %v)", seed, c.name, c.got, c.want, r, Epsilon)
+			}
+		}
+		if !(pc < pw) {
+			t.Errorf("seed %d: the projection ranks the merged partition (%.3g) at or below the true one (%.3g)", seed, pw, pc)
+		}
+	}
+}
