@@ -248,7 +248,7 @@ func orEmpty[T any](s []T) []T {
 
 // ErrColumnsDiffer means a saved sketch and the other inputs hold different feature columns, so
 // they cannot be merged.
-var ErrColumnsDiffer = errors.New("the inputs' feature columns differ")
+var ErrColumnsDiffer = errors.New("the inputs hold different columns")
 
 // sameColumns checks that the sketch o holds the feature columns of total, in the same order.
 // fromData says total holds data files read in this run.
@@ -265,12 +265,16 @@ func sameColumns(total, o *sketch.Sketch, fromData bool) error {
 		"choose them with --columns, in the same order)", ErrColumnsDiffer, quoteList(b), other, quoteList(a))
 }
 
-// quoteList prints names as a short list: "a, b, c", at most eight names.
+// quoteList prints names as a short list: "a", "b", "c", at most eight names.
 func quoteList(names []string) string {
-	if len(names) > 8 {
-		return fmt.Sprintf("%s … (%d columns)", strings.Join(names[:8], ", "), len(names))
+	q := make([]string, 0, min(len(names), 8))
+	for _, n := range names[:min(len(names), 8)] {
+		q = append(q, fmt.Sprintf("%q", n))
 	}
-	return strings.Join(names, ", ")
+	if len(names) > 8 {
+		return fmt.Sprintf("%s … (%d columns)", strings.Join(q, ", "), len(names))
+	}
+	return strings.Join(q, ", ")
 }
 
 // splitInputs separates saved sketch files (recognised by their magic bytes) from data inputs.

@@ -1,6 +1,7 @@
 package main
 
 import (
+	"context"
 	"encoding/json"
 	"errors"
 	"math"
@@ -209,19 +210,35 @@ type failingWriter struct{}
 
 func (failingWriter) Write([]byte) (int, error) { return 0, syscall.ENOSPC }
 
+// tinyInput writes a small file of three clusters (invented data) for tests that need a quick run.
+func tinyInput(t *testing.T) string {
+	t.Helper()
+	p := filepath.Join(t.TempDir(), "blobs.parquet")
+	x, y := threeBlobs(300, 1)
+	xyParquet(t, p, x, y, math.NaN())
+	return p
+}
+
+// tinyFlags keep the runs on tinyInput short.
+var tinyFlags = []string{"--quiet", "--max-k", "4", "--workers", "1"}
+
 // TestStdoutFailureExit4: a result that cannot be written to stdout is an output failure (exit 4)
-// naming stdout, for the table and JSON, in Run and in the binary with stdout on /dev/full.
+// naming stdout, for the table and JSON, through Run and in a process whose stdout is /dev/full
+// (this test binary re-run as the command, as main runs it).
 func TestStdoutFailureExit4(t *testing.T) {
-	dir := lake(t, smallLoads())
+	if os.Getenv("KGAUGE_TEST_AS_MAIN") == "1" {
+		os.Exit(Run(context.Background(), strings.Split(os.Getenv("KGAUGE_TEST_ARGS"), "\x1f"), os.Stdout, os.Stderr))
+	}
+	in := tinyInput(t)
 	for _, asJSON := range []bool{false, true} {
-		args := append(append([]string{"estimate"}, quickFlags...), dir)
+		args := append(append([]string{"estimate"}, tinyFlags...), in)
 		if asJSON {
 			args = append(args, "--json")
 		}
 		var errs strings.Builder
 		code := Run(t.Context(), args, failingWriter{}, &errs)
-		if code != ExitOutput || !strings.Contains(errs.String(), "stdout") {
-			t.Errorf("json %v: exit %d, %q; want 4 naming stdout", asJSON, code, errs.String())
+		if code != ExitOutput || !strings.Contains(errs.String(), "stdout") || strings.Count(errs.String(), "\n") != 1 {
+			t.Errorf("json %v: exit %d, %q; want 4 and one line naming stdout", asJSON, code, errs.String())
 		}
 	}
 	full, err := os.OpenFile("/dev/full", os.O_WRONLY, 0)
@@ -229,15 +246,16 @@ func TestStdoutFailureExit4(t *testing.T) {
 		t.Skip("no /dev/full:", err)
 	}
 	defer full.Close()
-	bin := buildKgauge(t, t.TempDir())
-	cmd := exec.Command(bin, append(append([]string{"estimate"}, quickFlags...), dir)...)
+	cmd := exec.Command(os.Args[0], "-test.run=^TestStdoutFailureExit4$")
+	cmd.Env = append(os.Environ(), "KGAUGE_TEST_AS_MAIN=1",
+		"KGAUGE_TEST_ARGS="+strings.Join(append(append([]string{"estimate"}, tinyFlags...), in), "\x1f"))
 	cmd.Stdout = full
 	var stderr strings.Builder
 	cmd.Stderr = &stderr
 	err = cmd.Run()
 	var ee *exec.ExitError
-	if !errors.As(err, &ee) || ee.ExitCode() != ExitOutput {
-		t.Errorf("kgauge estimate > /dev/full: %v, %q; want exit 4", err, stderr.String())
+	if !errors.As(err, &ee) || ee.ExitCode() != ExitOutput || !strings.Contains(stderr.String(), "stdout") {
+		t.Errorf("kgauge estimate > /dev/full: %v, %q; want exit 4 naming stdout", err, stderr.String())
 	}
 }
 
@@ -245,13 +263,13 @@ func TestStdoutFailureExit4(t *testing.T) {
 // apply, in a result from data files and in one from saved sketches alone (the full contract over
 // every input kind, Beam's included, is beam's TestJSONContract).
 func TestJSONKeysAlwaysPresent(t *testing.T) {
-	dir := lake(t, smallLoads())
+	in := tinyInput(t)
 	sk := filepath.Join(t.TempDir(), "a.kgs")
-	code, out, errs := run(t, append(append([]string{"estimate", "--json", "--save-sketch", sk}, quickFlags...), dir)...)
+	code, out, errs := run(t, append(append([]string{"estimate", "--json", "--save-sketch", sk}, tinyFlags...), in)...)
 	if code != 0 {
 		t.Fatalf("exit %d: %s", code, errs)
 	}
-	code, outSk, errs := run(t, append(append([]string{"estimate", "--json"}, quickFlags...), sk)...)
+	code, outSk, errs := run(t, append(append([]string{"estimate", "--json"}, tinyFlags...), sk)...)
 	if code != 0 {
 		t.Fatalf("exit %d: %s", code, errs)
 	}
