@@ -35,10 +35,10 @@ type Result struct {
 	// Confidence is the verdict's calibrated confidence (bench/report/CALIBRATION.md): on the
 	// benchmark grid, verdicts given this confidence were right about this share of the time.
 	Confidence   float64            `json:"confidence"`
-	Unstable     bool               `json:"unstable"`     // another k holds nearly as much vote weight
-	Alternatives []int              `json:"alternatives"` // those k, strongest first
-	Why          string             `json:"why"`          // what decided the verdict, in one sentence
-	WhyRunnerUp  string             `json:"why_runner_up,omitempty"`
+	Unstable     bool               `json:"unstable"`      // another k holds nearly as much vote weight
+	Alternatives []int              `json:"alternatives"`  // those k, strongest first
+	Why          string             `json:"why"`           // what decided the verdict, in one sentence
+	WhyRunnerUp  string             `json:"why_runner_up"` // "" when there is no runner-up
 	OneMode      criteria.ModeCheck `json:"one_mode_check"`
 	FarRows      criteria.FarRows   `json:"far_rows"`
 	Skewed       []SkewedColumn     `json:"skewed_columns"` // columns that look right-skewed, and what was done
@@ -51,22 +51,23 @@ type Result struct {
 	Columns      []string           `json:"columns"`
 	Ignored      []IgnoredColumn    `json:"ignored_columns"`
 	Files        []FileInfo         `json:"files"`
-	Tables       []TableInfo        `json:"tables,omitempty"` // Delta Lake and Iceberg tables read as tables
-	Sketches     []string           `json:"sketches,omitempty"`
-	// SkippedFiles are data files left out because they cannot be read (--skip-unreadable).
-	SkippedFiles []SkippedFile `json:"skipped_files,omitempty"`
+	Tables       []TableInfo        `json:"tables"`   // Delta Lake and Iceberg tables read as tables; empty when none
+	Sketches     []string           `json:"sketches"` // saved sketch files merged; empty when none
+	// SkippedFiles are data files left out because they cannot be read (--skip-unreadable);
+	// empty when none.
+	SkippedFiles []SkippedFile `json:"skipped_files"`
 	Scaling      Scaling       `json:"scaling"`
 	// Reduction is set when the criteria ran in fewer dimensions than the feature columns: a
-	// seeded random projection of the summary (sketch/reduce); nil otherwise.
-	Reduction  *reduce.Info `json:"reduction,omitempty"`
+	// seeded random projection of the summary (sketch/reduce); null otherwise.
+	Reduction  *reduce.Info `json:"reduction"`
 	Sketch     SketchInfo   `json:"sketch"`
 	MinK       int          `json:"min_k"`
 	MaxK       int          `json:"max_k"`
 	Seed       uint64       `json:"seed"`
 	Version    string       `json:"version"`
 	Timings    Timings      `json:"timings"`
-	Throughput *Throughput  `json:"throughput,omitempty"` // the pass's measured speed (see Project)
-	Projection []cost.Row   `json:"projection,omitempty"` // the model's time for 1×, 10×, 100× the input
+	Throughput *Throughput  `json:"throughput"` // the pass's measured speed (see Project); null without a pass
+	Projection []cost.Row   `json:"projection"` // the model's time for 1×, 10×, 100× the input; null without a pass
 
 	criteria *criteria.Result
 }
@@ -121,7 +122,8 @@ func Evaluate(ctx context.Context, sk *sketch.Sketch, opt Options) (*Result, err
 		Skewed: skewedColumns(sk, opt.Scale),
 		Votes:  map[string]*int{}, VoteList: cr.Votes, PerK: cr.PerK,
 		Rows: sk.Rows(), SkippedRows: sk.Meta.SkippedRows, ProbeRows: sk.Meta.ProbeRows,
-		Columns: sk.Columns(), Ignored: []IgnoredColumn{}, Scaling: sc,
+		Columns: sk.Columns(), Ignored: []IgnoredColumn{}, Files: []FileInfo{}, Tables: []TableInfo{},
+		Sketches: []string{}, SkippedFiles: []SkippedFile{}, Scaling: sc,
 		MinK: opt.Criteria.MinK, MaxK: opt.Criteria.MaxK, Seed: opt.Seed, Version: Version, criteria: cr,
 		Reduction: red}
 	if math.IsNaN(r.Confidence) {
@@ -215,23 +217,29 @@ func Estimate(ctx context.Context, inputs []string, opt Options) (*Result, *sket
 	crit := r.Timings.Criteria
 	r.Timings = tm
 	r.Timings.Criteria = crit
-	r.Sketches = sketchPaths
+	r.Sketches = orEmpty(sketchPaths)
 	if in != nil {
-		r.Files = in.Files
-		r.Ignored = in.Ignored
-		r.SkippedFiles = in.Skipped
-		r.Tables = in.Tables
-	}
-	if r.Files == nil {
-		r.Files = []FileInfo{}
+		r.Files = orEmpty(in.Files)
+		r.Ignored = orEmpty(in.Ignored)
+		r.SkippedFiles = orEmpty(in.Skipped)
+		r.Tables = orEmpty(in.Tables)
 	}
 	opt.Progress.stage("done")
 	return r, total, nil
 }
 
+// orEmpty returns s, or an empty slice for nil: a list of the JSON contract is [] when empty,
+// never null or missing.
+func orEmpty[T any](s []T) []T {
+	if s == nil {
+		return []T{}
+	}
+	return s
+}
+
 // ErrColumnsDiffer means a saved sketch and the other inputs hold different feature columns, so
 // they cannot be merged.
-var ErrColumnsDiffer = errors.New("the inputs' feature columns differ")
+var ErrColumnsDiffer = errors.New("the inputs hold different columns")
 
 // sameColumns checks that the sketch o holds the feature columns of total, in the same order.
 // fromData says total holds data files read in this run.
@@ -248,12 +256,16 @@ func sameColumns(total, o *sketch.Sketch, fromData bool) error {
 		"choose them with --columns, in the same order)", ErrColumnsDiffer, quoteList(b), other, quoteList(a))
 }
 
-// quoteList prints names as a short list: "a, b, c", at most eight names.
+// quoteList prints names as a short list: "a", "b", "c", at most eight names.
 func quoteList(names []string) string {
-	if len(names) > 8 {
-		return fmt.Sprintf("%s … (%d columns)", strings.Join(names[:8], ", "), len(names))
+	q := make([]string, 0, min(len(names), 8))
+	for _, n := range names[:min(len(names), 8)] {
+		q = append(q, fmt.Sprintf("%q", n))
 	}
-	return strings.Join(names, ", ")
+	if len(names) > 8 {
+		return fmt.Sprintf("%s … (%d columns)", strings.Join(q, ", "), len(names))
+	}
+	return strings.Join(q, ", ")
 }
 
 // splitInputs separates saved sketch files (recognised by their magic bytes) from data inputs.

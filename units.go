@@ -210,11 +210,8 @@ func EvaluateMerged(ctx context.Context, plan *UnitPlan, sk *sketch.Sketch, pass
 	r.Timings = plan.Timings
 	r.Timings.Pass = pass.Seconds()
 	r.Timings.Criteria = crit
-	r.Files = plan.Input.Files
-	r.Ignored = plan.Input.Ignored
-	r.Tables = plan.Input.Tables
-	if r.Files == nil {
-		r.Files = []FileInfo{}
-	}
+	r.Files = orEmpty(plan.Input.Files)
+	r.Ignored = orEmpty(plan.Input.Ignored)
+	r.Tables = orEmpty(plan.Input.Tables)
 	return r, nil
 }

@@ -285,3 +285,23 @@ func TestSkippedFilesShown(t *testing.T) {
 		t.Error("the skipped file is not listed (escaped, with its reason)")
 	}
 }
+
+// TestPrintStylesheet: printed, the per-k tables are not clipped by their scrolling wrapper (a
+// print has no scroll bar), may break across pages between rows, and keep each row whole.
+func TestPrintStylesheet(t *testing.T) {
+	page := render(t)
+	i := strings.Index(page, "@media print {")
+	if i < 0 {
+		t.Fatal("the page has no print stylesheet")
+	}
+	end := strings.Index(page[i:], "\n}")
+	rules := page[i : i+end]
+	for _, want := range []string{".scroll { overflow: visible; }", "section#per-k { break-inside: auto; }", "tr { break-inside: avoid; }"} {
+		if !strings.Contains(rules, want) {
+			t.Errorf("the print stylesheet lacks %q", want)
+		}
+	}
+	if !strings.Contains(page, `<section id="per-k">`) || !strings.Contains(page, `<div class="scroll"><table id="per-k-fit">`) {
+		t.Error("the per-k tables are no longer where the print rules expect them")
+	}
+}

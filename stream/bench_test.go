@@ -20,7 +20,7 @@ type benchRow struct {
 	C0, C1, C2, C3, C4, C5, C6, C7, C8, C9, C10, C11, C12, C13, C14, C15 float64
 }
 
-func writeBenchFile(b *testing.B) string {
+func writeBenchFile(b *testing.B, opts ...parquet.WriterOption) string {
 	b.Helper()
 	p := filepath.Join(b.TempDir(), "bench.parquet")
 	fh, err := os.Create(p)
@@ -28,7 +28,7 @@ func writeBenchFile(b *testing.B) string {
 		b.Fatal(err)
 	}
 	defer fh.Close()
-	w := parquet.NewGenericWriter[benchRow](fh, parquet.MaxRowsPerRowGroup(128<<10))
+	w := parquet.NewGenericWriter[benchRow](fh, append([]parquet.WriterOption{parquet.MaxRowsPerRowGroup(128 << 10)}, opts...)...)
 	r := rand.New(rand.NewPCG(1, 2))
 	rows := make([]benchRow, 8192)
 	for done := 0; done < benchRows; done += len(rows) {
@@ -97,6 +97,50 @@ func BenchmarkParquetScan(b *testing.B) {
 	}
 	b.ReportMetric(float64(benchRows)*float64(b.N)/b.Elapsed().Seconds(), "rows/s")
 	_ = sum
+}
+
+// BenchmarkParquetScanCodec is BenchmarkParquetScan on the same rows compressed with each codec,
+// side by side: LZ4_RAW goes through kgauge's own page decoding (lz4raw.go), the others through
+// parquet-go's.
+func BenchmarkParquetScanCodec(b *testing.B) {
+	for _, c := range []struct {
+		name  string
+		codec parquet.WriterOption
+	}{
+		{"snappy", parquet.Compression(&parquet.Snappy)},
+		{"zstd", parquet.Compression(&parquet.Zstd)},
+		{"lz4raw", parquet.Compression(&parquet.Lz4Raw)},
+	} {
+		b.Run(c.name, func(b *testing.B) {
+			ds := openBench(b, writeBenchFile(b, c.codec))
+			buf := make([]float64, 4096*ds.Dims())
+			b.SetBytes(benchRows * 16 * 8)
+			b.ResetTimer()
+			for i := 0; i < b.N; i++ {
+				rows := 0
+				for _, u := range ds.Units {
+					r, err := ds.OpenUnit(u)
+					if err != nil {
+						b.Fatal(err)
+					}
+					for {
+						n, err := r.Read(buf)
+						rows += n
+						if err == io.EOF {
+							break
+						}
+						if err != nil {
+							b.Fatal(err)
+						}
+					}
+					r.Close()
+				}
+				if rows != benchRows {
+					b.Fatalf("read %d rows, want %d", rows, benchRows)
+				}
+			}
+		})
+	}
 }
 
 // BenchmarkParquetScanColumns reads every row through ReadColumns, at most 4096 rows per call.

@@ -149,7 +149,7 @@ func Open(files []File, opt Options) (ds *Dataset, err error) {
 				return nil, newError(f.Path, name, ErrMissingColumn)
 			}
 			if c.reason != "" {
-				return nil, newError(f.Path, name, fmt.Errorf("%w: %s (%s)", ErrNotNumeric, c.typ, c.reason))
+				return nil, newError(f.Path, name, notNumeric(c))
 			}
 			width := 0
 			if c.vector {
@@ -305,6 +305,16 @@ func find(cols []colInfo, name string) (colInfo, bool) {
 		}
 	}
 	return colInfo{}, false
+}
+
+// notNumeric is the error for naming column c, which cannot be a feature, in Columns: its type,
+// and the reason when the type does not say it ("column is not numeric: string", "column is not
+// numeric: list<double> (nested)").
+func notNumeric(c colInfo) error {
+	if c.reason == "" || c.reason == "not numeric" {
+		return fmt.Errorf("%w: its type is %s", ErrNotNumeric, c.typ)
+	}
+	return fmt.Errorf("%w: its type is %s (%s)", ErrNotNumeric, c.typ, c.reason)
 }
 
 // onlyNulls returns the numeric columns that hold only nulls in every file that has them (each

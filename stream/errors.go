@@ -42,12 +42,11 @@ type ReadError struct {
 	batchRow bool // Row counts from the start of record batch Unit
 }
 
-// Error returns one line: `stream: PATH: column "c": row N: cause`, leaving out
+// Error returns one line: `PATH: column "c": row N: cause`, leaving out
 // the parts that are unknown. For Arrow IPC file units the row reads
 // "batch U row N", because rows are counted within the record batch.
 func (e *ReadError) Error() string {
 	var b strings.Builder
-	b.WriteString("stream: ")
 	if e.File != "" {
 		b.WriteString(e.File)
 		b.WriteString(": ")

@@ -440,8 +440,8 @@ func checkReadError(t *testing.T, err error, sent error, file, column, msg strin
 		t.Fatalf("error %q does not wrap %q", err, sent)
 	}
 	s := err.Error()
-	if strings.Contains(s, "\n") || !strings.HasPrefix(s, "stream: ") {
-		t.Fatalf("error %q: want one line starting with \"stream: \"", s)
+	if strings.Contains(s, "\n") || strings.HasPrefix(s, "stream: ") {
+		t.Fatalf("error %q: want one line, in the user's terms (no package prefix)", s)
 	}
 	if file != "" && (re.File != file || !strings.Contains(s, file)) {
 		t.Fatalf("error %q: want file %s", s, file)

@@ -239,7 +239,7 @@ func TestBadInput(t *testing.T) {
 		{"wrong CRC", []string{"estimate", f.badCRC}, ExitInput, []string{"bad-crc.parquet", `"x"`, "checksum"}, false},
 		{"corrupt sketch file", []string{"estimate", f.badSketch}, ExitInput, []string{"bad.kgs", "corrupt"}, false},
 		{"zero rows", []string{"estimate", f.zeroRows}, ExitInput, []string{"no usable rows"}, false},
-		{"all-null column", []string{"estimate", f.allNull}, ExitInput, []string{"no usable rows", "300 skipped", `column "y"`}, false},
+		{"all-null column named", []string{"estimate", "--columns", "x,y", f.allNull}, ExitInput, []string{"all-null.parquet", `column "y"`, "only nulls", "--columns"}, false},
 		{"all-NaN column", []string{"estimate", f.allNaN}, ExitInput, []string{"no usable rows", "300 skipped", `column "y"`}, false},
 		{"+Inf", []string{"estimate", f.posInf}, ExitInput, []string{"pos-inf.parquet", `"y"`, "row 123", "infinite"}, false},
 		{"-Inf", []string{"estimate", f.negInf}, ExitInput, []string{"neg-inf.parquet", `"x"`, "row 7", "infinite"}, false},
@@ -338,6 +338,31 @@ func TestFullDisk(t *testing.T) {
 type fullDisk struct{}
 
 func (fullDisk) Write([]byte) (int, error) { return 0, syscall.ENOSPC }
+
+// TestAllNullColumnLeftOut: a numeric column that is null in every row (the Parquet footer's
+// statistics say so) is left out of the default features with the reason "always null", and the
+// other columns give a result; named in --columns it is an error (TestBadInput).
+func TestAllNullColumnLeftOut(t *testing.T) {
+	f := makeFixtures(t)
+	code, out, errs := run(t, append(append([]string{"estimate", "--json"}, quickFlags...), f.allNull)...)
+	if code != ExitOK {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	var res struct {
+		Rows    int      `json:"rows"`
+		Columns []string `json:"columns"`
+		Ignored []struct {
+			Name, Reason string
+		} `json:"ignored_columns"`
+	}
+	if err := json.Unmarshal([]byte(out), &res); err != nil {
+		t.Fatal(err)
+	}
+	if res.Rows != 300 || len(res.Columns) != 1 || res.Columns[0] != "x" || len(res.Ignored) != 1 ||
+		res.Ignored[0].Name != "y" || res.Ignored[0].Reason != "always null" {
+		t.Errorf("rows %d columns %v ignored %v; want 300 rows of x, y ignored as always null", res.Rows, res.Columns, res.Ignored)
+	}
+}
 
 // TestDegenerateData: inputs that are valid but hold little or no cluster structure give a
 // documented result, not a crash (README, "Bad input and degenerate data").

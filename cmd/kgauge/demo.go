@@ -30,6 +30,7 @@ type demoFlags struct {
 	workers  int
 	asJSON   bool
 	quiet    bool
+	wide     bool
 	report   string
 	keep     string
 	estimate estimateFlags
@@ -50,6 +51,7 @@ func (f *demoFlags) register(fs *flag.FlagSet) {
 	fs.IntVar(&f.workers, "workers", def.Workers, "goroutines reading and sketching")
 	fs.BoolVar(&f.asJSON, "json", false, "print the estimate as one JSON document instead of the table")
 	fs.BoolVar(&f.quiet, "quiet", false, "no progress bar")
+	fs.BoolVar(&f.wide, "wide", false, "the per-k table with the silhouette's 95% interval and the gap's s_k (wider than 120 columns)")
 	fs.StringVar(&f.report, "report", "", "also write a self-contained HTML report with plots to this file")
 	fs.StringVar(&f.keep, "keep", "", "write the synthetic partition under this directory and keep it (default: a temporary directory, removed)")
 }
@@ -120,7 +122,7 @@ func (c *DemoCommand) Run(ctx context.Context, args []string) error {
 	if res == nil {
 		return err
 	}
-	if perr := printResult(c.Stdout, res, f.asJSON); perr != nil {
+	if perr := printResult(c.Stdout, res, f.asJSON, f.wide); perr != nil {
 		return perr
 	}
 	if !f.asJSON {

@@ -32,6 +32,7 @@ type estimateFlags struct {
 	cliflags.Data
 	asJSON     bool
 	quiet      bool
+	wide       bool
 	out        string
 	saveSketch string
 	report     string
@@ -51,6 +52,7 @@ const (
 	withOut = 1 << iota
 	withSaveSketch
 	withReport
+	withWide // --wide: the table with intervals (estimate and demo print the table)
 )
 
 func (f *estimateFlags) registerOutputs(fs *flag.FlagSet, which int) {
@@ -59,6 +61,9 @@ func (f *estimateFlags) registerOutputs(fs *flag.FlagSet, which int) {
 	}
 	if which&withSaveSketch != 0 {
 		fs.StringVar(&f.saveSketch, "save-sketch", "", "write the merged sketch to this file (atomically)")
+	}
+	if which&withWide != 0 {
+		fs.BoolVar(&f.wide, "wide", false, "the per-k table with the silhouette's 95% interval and the gap's s_k (wider than 120 columns)")
 	}
 	if which&withReport != 0 {
 		fs.StringVar(&f.report, "report", "", "also write a self-contained HTML report with plots to this file (atomically)")
@@ -82,7 +87,7 @@ func (c *EstimateCommand) Run(ctx context.Context, args []string) error {
 	fs := flag.NewFlagSet("estimate", flag.ContinueOnError)
 	var f estimateFlags
 	f.register(fs)
-	f.registerOutputs(fs, withOut|withSaveSketch|withReport)
+	f.registerOutputs(fs, withOut|withSaveSketch|withReport|withWide)
 	fs.Usage = func() {
 		fmt.Fprintln(fs.Output(), "Usage: kgauge estimate [flags] PATH...\n\nScore every k in range from one pass over PATH and give a verdict.\n\nFlags:")
 		printFlags(fs)
@@ -103,7 +108,7 @@ func (c *EstimateCommand) Run(ctx context.Context, args []string) error {
 	}
 	// The outputs are independent: the result is printed even when a file could not be written,
 	// and err then names every output that failed (exit code 4).
-	if perr := printResult(c.Stdout, res, f.asJSON); perr != nil && err == nil {
+	if perr := printResult(c.Stdout, res, f.asJSON, f.wide); perr != nil && err == nil {
 		err = perr
 	}
 	return err

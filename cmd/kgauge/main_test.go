@@ -201,8 +201,6 @@ func TestSavedSketchesMerge(t *testing.T) {
 	}{
 		{"QuotedGlob", []string{filepath.Join(skDir, "day*.kgs")}},
 		{"Directory", []string{skDir}},
-		{"DoubleStar", []string{filepath.Join(filepath.Dir(skDir), "**", "*.kgs")}},
-		{"SketchAndData", []string{sketches[0], days[1]}},
 		{"GlobAndData", []string{filepath.Join(skDir, "daya.kgs*"), days[1]}},
 	}
 	for _, f := range forms {
@@ -221,7 +219,7 @@ func TestSavedSketchesMerge(t *testing.T) {
 
 	// A sketch and a data file of other columns: one line naming the sketch and both column sets.
 	code, _, errs = run(t, append(append([]string{"estimate", "--columns", "h00,h01"}, quickFlags...), sketches[0], days[1])...)
-	if code != 3 || !strings.Contains(errs, "daya.kgs") || !strings.Contains(errs, "h00, h01") ||
+	if code != 3 || !strings.Contains(errs, "daya.kgs") || !strings.Contains(errs, `"h00", "h01"`) ||
 		strings.Count(strings.TrimSpace(errs), "\n") != 0 {
 		t.Errorf("sketch and data of other columns: exit %d, %q; want 3 naming the sketch and the columns", code, errs)
 	}

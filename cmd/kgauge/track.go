@@ -181,7 +181,7 @@ func recordLine(r ledger.Record) string {
 		fmt.Fprintf(&b, "%s  %s  %s", inert(r.Partition), strings.ToUpper(r.Status), inert(r.Error))
 		return b.String()
 	}
-	fmt.Fprintf(&b, "%s  k %d  agreement %.2f", inert(r.Partition), r.K, r.Agreement)
+	fmt.Fprintf(&b, "%s  k %d  agreement %s", inert(r.Partition), r.K, share(r.Agreement))
 	if r.Table != nil {
 		fmt.Fprintf(&b, "  %s %s", r.Table.Format, r.Table)
 		if r.Table.DeletedRows > 0 {
@@ -195,7 +195,7 @@ func recordLine(r ledger.Record) string {
 	if r.Status == ledger.StatusIncomplete {
 		b.WriteString("INCOMPLETE ")
 		if len(r.SkippedFiles) > 0 {
-			fmt.Fprintf(&b, "(%d file(s) skipped, the first %s: %s) ", len(r.SkippedFiles),
+			fmt.Fprintf(&b, "(%s skipped, the first %s: %s) ", plural(len(r.SkippedFiles), "file", "files"),
 				inert(r.SkippedFiles[0].Path), inert(r.SkippedFiles[0].Reason))
 		}
 		if r.Error != "" {
