@@ -24,6 +24,10 @@ func pick(per []Scores, lo int, maximise bool, f func(Scores) float64) (k int, v
 	return k, v, ok
 }
 
+// edgeRange reports whether a range minK..maxK is wide enough (at least three k) for a best value
+// at maxK to mean "still improving" rather than a choice between two or three k.
+func edgeRange(minK, maxK int) bool { return maxK-minK >= 2 }
+
 // votes turns the per-k scores into one vote per criterion (CriterionNames order).
 func votes(per []Scores, wardK int, opt Options) []Vote {
 	var out []Vote
@@ -33,6 +37,11 @@ func votes(per []Scores, wardK int, opt Options) []Vote {
 				note = "no valid k"
 			}
 			out = append(out, Vote{Criterion: name, Abstain: true, Note: note})
+			return
+		}
+		if edgeRange(opt.MinK, opt.MaxK) && k == opt.MaxK {
+			out = append(out, Vote{Criterion: name, Abstain: true, StillImproving: true,
+				Note: fmt.Sprintf("%s: still improving at max-k = %d, no optimum inside the range (the best k may be larger)", note, k)})
 			return
 		}
 		if k == opt.MaxK && opt.MaxK > opt.MinK {
