@@ -145,3 +145,42 @@ func TestStillImprovingAbstains(t *testing.T) {
 		t.Errorf("edge verdict k=%d at_max_k=%v agree %v; want 20, true, the three still improving", v.K, v.AtMaxK, v.Agree)
 	}
 }
+
+// TestKneeInFirstThird: the elbow votes only for a knee in the first third of the range (see
+// KneeInFirstThird for the measurement behind it).
+func TestKneeInFirstThird(t *testing.T) {
+	for _, tc := range []struct {
+		k, minK, maxK int
+		want          bool
+	}{
+		{2, 1, 6, true}, {3, 1, 6, false}, {4, 1, 12, true}, {5, 1, 12, false},
+		{6, 1, 20, true}, {7, 1, 20, false}, {4, 2, 10, true}, {5, 2, 10, false},
+	} {
+		if got := KneeInFirstThird(tc.k, tc.minK, tc.maxK); got != tc.want {
+			t.Errorf("KneeInFirstThird(%d, %d, %d) = %v, want %v", tc.k, tc.minK, tc.maxK, got, tc.want)
+		}
+	}
+	// WCSS of three well-separated groups: a knee at 3, which max-k 6 cannot place and max-k 12 can.
+	per := func(maxK int) []Scores {
+		var out []Scores
+		for k := 1; k <= maxK; k++ {
+			w := []float64{100, 60}[min(k, 2)-1]
+			if k >= 3 {
+				w = 12 - 0.5*float64(k-3)
+			}
+			out = append(out, Scores{K: k, Valid: true, WCSS: w})
+		}
+		return out
+	}
+	for _, tc := range []struct {
+		maxK    int
+		abstain bool
+	}{{6, true}, {12, false}} {
+		opt := DefaultOptions()
+		opt.MaxK = tc.maxK
+		vs := votes(per(tc.maxK), 0, opt)
+		if v := vs[0]; v.Criterion != NameElbow || v.Abstain != tc.abstain || (!v.Abstain && v.K != 3) {
+			t.Errorf("max-k %d: elbow vote %+v, want abstain=%v (else k = 3)", tc.maxK, v, tc.abstain)
+		}
+	}
+}
