@@ -46,7 +46,8 @@ func (r GridRun) Decide(w criteria.Weights) criteria.Verdict {
 func logit(p float64) float64 { return math.Log(p / (1 - p)) }
 
 // DeriveWeights derives the vote weights and the calibration table from the primary runs outside
-// the held-out half (see criteria.Weights for the formulas; p is smoothed as (right+1)/(n+2)).
+// the held-out half (see criteria.Weights for the formulas; p is smoothed as (right+1)/(n+2)),
+// each weight divided by its design factor among voters that share its errors.
 func DeriveWeights(runs []GridRun, source string) criteria.Weights {
 	w := criteria.Weights{Source: source, Structure: map[string]float64{}, Choice: map[string]float64{}}
 	var train []GridRun
@@ -80,7 +81,7 @@ func DeriveWeights(runs []GridRun, source string) criteria.Weights {
 				right++
 			}
 		}
-		w.Structure[c] = round(max(0, logit((float64(right)+1)/(float64(n)+2))))
+		w.Structure[c] = max(0, logit((float64(right)+1)/(float64(n)+2)))
 	}
 	for _, c := range criteria.CriterionNames() {
 		right, n := 0, 0
@@ -93,7 +94,33 @@ func DeriveWeights(runs []GridRun, source string) criteria.Weights {
 				right++
 			}
 		}
-		w.Choice[c] = round(max(0, logit((float64(right)+1)/(float64(n)+2))+math.Log(candidates-1)))
+		w.Choice[c] = max(0, logit((float64(right)+1)/(float64(n)+2))+math.Log(candidates-1))
+	}
+	// Voters that make the same mistakes are not independent: divide each weight by its design
+	// factor √(1 + Σ ρ) over the voters it shares errors with (ρ: sharedChoiceErrors or
+	// sharedStructureErrors at least sharedErrorFloor); Kish's design effect 1 + (m-1)ρ for m
+	// correlated voters and its square root, the ratio of standard errors (common practice).
+	// Dividing by the design effect itself was measured too (DEVELOPERS.md, issue 12): it helped
+	// Tibshirani scenario (d) at max-k 6 more but made A1 wrong at seed 1 and S4 name 3 at seed 6.
+	for _, stage := range []struct {
+		w      map[string]float64
+		shared func(a, b string) float64
+	}{
+		{w.Structure, func(a, b string) float64 { return sharedStructureErrors(train, a, b) }},
+		{w.Choice, func(a, b string) float64 { return sharedChoiceErrors(train, a, b) }},
+	} {
+		deff := map[string]float64{}
+		for a := range stage.w {
+			deff[a] = 1
+			for b := range stage.w {
+				if r := stage.shared(a, b); a != b && r >= sharedErrorFloor {
+					deff[a] += r
+				}
+			}
+		}
+		for a := range stage.w {
+			stage.w[a] = round(stage.w[a] / math.Sqrt(deff[a]))
+		}
 	}
 	// Calibration: support of each training verdict (weights above, no table yet) against
 	// whether it was right, in bins of equal count, made monotone by pool-adjacent-violators.
@@ -159,6 +186,67 @@ func DeriveWeights(runs []GridRun, source string) criteria.Weights {
 		w.Calibration = append(w.Calibration, criteria.CalPoint{Support: lo, Right: round(float64(b.right) / float64(b.all)), Runs: b.all})
 	}
 	return w
+}
+
+// sharedErrorFloor: two voters count as sharing their errors when, of the training runs in which
+// either is wrong, both make the same mistake in at least this share. Measured on the grid
+// (bench/report/CALIBRATION.md, "Shared errors"): silhouette, simplified silhouette and
+// Davies-Bouldin share 50-62% of their wrong k, split agreement and the one-mode check 43% of
+// their wrong "one group" calls; every other pair at most 29%.
+const sharedErrorFloor = 0.4
+
+// sharedChoiceErrors is the share of the multi-cluster runs in which a or b names a wrong k >= 2
+// where both name the same wrong k.
+func sharedChoiceErrors(runs []GridRun, a, b string) float64 {
+	both, either := 0, 0
+	for _, r := range runs {
+		if r.K < 2 {
+			continue
+		}
+		ka, kb := r.Votes[a], r.Votes[b]
+		wa, wb := ka >= 2 && ka != r.K, kb >= 2 && kb != r.K
+		if wa || wb {
+			either++
+		}
+		if wa && wb && ka == kb {
+			both++
+		}
+	}
+	if either == 0 {
+		return 0
+	}
+	return float64(both) / float64(either)
+}
+
+// severalSays returns whether stage-1 voter c says "several groups" in run r (ok false if it
+// abstains).
+func (r GridRun) severalSays(c string) (several, ok bool) {
+	if c == criteria.NameOneMode {
+		return r.Modes.Modes, r.Modes.N > 0
+	}
+	k := r.Votes[c]
+	return k >= 2, k > 0
+}
+
+// sharedStructureErrors is the share of the runs in which a or b is wrong about "one group or
+// several" where both are.
+func sharedStructureErrors(runs []GridRun, a, b string) float64 {
+	both, either := 0, 0
+	for _, r := range runs {
+		sa, oka := r.severalSays(a)
+		sb, okb := r.severalSays(b)
+		wa, wb := oka && sa != (r.K >= 2), okb && sb != (r.K >= 2)
+		if wa || wb {
+			either++
+		}
+		if wa && wb {
+			both++
+		}
+	}
+	if either == 0 {
+		return 0
+	}
+	return float64(both) / float64(either)
 }
 
 // canSayOne mirrors criteria's stage-1 voters.
@@ -255,6 +343,37 @@ func CalibrationMarkdown(runs []GridRun, w criteria.Weights, command string) str
 			return fmt.Sprintf("%.3f", v)
 		}
 		fmt.Fprintf(&b, "| `%s` | %s | %s |\n", c, f(s1, ok1), f(s2, ok2))
+	}
+	b.WriteString("\n## Shared errors (training half)\n\nVoters that make the same mistakes are not independent " +
+		"witnesses: each weight above is the voter's log-odds divided by the square root of 1 + the shares below that reach " +
+		fmt.Sprintf("%.1f (its design factor). Pairs sharing at least 20%%:\n\n", sharedErrorFloor) +
+		"| stage | voters | share of their errors in common | counted |\n| --- | --- | --- | --- |\n")
+	var train []GridRun
+	for _, r := range runs {
+		if r.primary() && !r.heldOut() {
+			train = append(train, r)
+		}
+	}
+	for _, st := range []struct {
+		name   string
+		voters []string
+		shared func(a, b string) float64
+	}{
+		{"1", append(slices.DeleteFunc(criteria.CriterionNames(), func(c string) bool { return !canSayOne(c) }), criteria.NameOneMode),
+			func(a, b string) float64 { return sharedStructureErrors(train, a, b) }},
+		{"2", criteria.CriterionNames(), func(a, b string) float64 { return sharedChoiceErrors(train, a, b) }},
+	} {
+		for i, a := range st.voters {
+			for _, c := range st.voters[i+1:] {
+				if r := st.shared(a, c); r >= 0.2 {
+					counted := "no"
+					if r >= sharedErrorFloor {
+						counted = "yes"
+					}
+					fmt.Fprintf(&b, "| %s | `%s`, `%s` | %.2f | %s |\n", st.name, a, c, r, counted)
+				}
+			}
+		}
 	}
 	b.WriteString("\n## Calibration table (training half)\n\n| support from | share right | runs |\n| --- | --- | --- |\n")
 	for _, p := range w.Calibration {

@@ -276,6 +276,9 @@ func RunGrid(ctx context.Context, cfg GridConfig, log io.Writer) ([]GridRun, err
 			Votes: map[string]int{}, Modes: r.Modes, Seconds: time.Since(t0).Seconds()}
 		for _, v := range r.Votes {
 			run.Votes[v.Criterion] = v.K
+			if v.StillImproving {
+				run.Votes[v.Criterion] = j.c.maxK // recorded as max-k; Decide reads it as "still improving"
+			}
 		}
 		runs[i] = run
 		if log != nil {

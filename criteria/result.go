@@ -42,12 +42,15 @@ type Result struct {
 }
 
 // Vote is one criterion's choice of k. Abstain is true (and K 0) when the criterion could not
-// decide; Note says why or how.
+// decide; Note says why or how. A criterion whose best value lies at the top of a range of at
+// least three k has found no optimum inside it: it abstains with StillImproving set (K 0), and
+// Decide counts it only as evidence that the best k may be larger than max-k.
 type Vote struct {
-	Criterion string `json:"criterion"`
-	K         int    `json:"k"`
-	Abstain   bool   `json:"abstain,omitempty"`
-	Note      string `json:"note,omitempty"`
+	Criterion      string `json:"criterion"`
+	K              int    `json:"k"`
+	Abstain        bool   `json:"abstain,omitempty"`
+	StillImproving bool   `json:"still_improving_at_max_k,omitempty"`
+	Note           string `json:"note,omitempty"`
 }
 
 // Verdict is the combined choice of k, made by Decide: a weighted two-stage vote (one group or

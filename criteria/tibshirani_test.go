@@ -105,14 +105,18 @@ func TestGapTibshiraniScenarios(t *testing.T) {
 		name           byte
 		boxMin, boxMax int
 		pcaMin         int
+		verdictMin     int
 	}{
 		// "Most" is read as at least 60% (30 of 50); the PC box in the 4-cluster scenarios only
 		// has to reach 50%; in (e) the uniform box may succeed in at most a quarter.
-		{'a', 30, reps, 30},
-		{'b', 30, reps, 30},
-		{'c', 30, reps, 25},
-		{'d', 30, reps, 25},
-		{'e', 0, reps / 4, 40},
+		// verdictMin guards the measured verdict (DEVELOPERS.md, issue 12: 50, 50, 46, 40, 50 with
+		// max-k 6) two realizations below it; issue 12 asks for 48 in every scenario, which (c)
+		// and (d) do not reach yet.
+		{'a', 30, reps, 30, 48},
+		{'b', 30, reps, 30, 48},
+		{'c', 30, reps, 25, 44},
+		{'d', 30, reps, 25, 38},
+		{'e', 0, reps / 4, 40, 48},
 	}
 	for _, tc := range tests {
 		t.Run(string(tc.name), func(t *testing.T) {
@@ -143,6 +147,9 @@ func TestGapTibshiraniScenarios(t *testing.T) {
 				tc.name, box, reps, pca, reps, verdict, reps)
 			if box < tc.boxMin || box > tc.boxMax {
 				t.Errorf("(%c): gap_box found the true k %d/%d times, want %d..%d", tc.name, box, reps, tc.boxMin, tc.boxMax)
+			}
+			if verdict < tc.verdictMin {
+				t.Errorf("(%c): the verdict found the true k %d/%d times, want >= %d", tc.name, verdict, reps, tc.verdictMin)
 			}
 			if pca < tc.pcaMin {
 				t.Errorf("(%c): gap_pca found the true k %d/%d times, want >= %d", tc.name, pca, reps, tc.pcaMin)

@@ -24,6 +24,18 @@ func pick(per []Scores, lo int, maximise bool, f func(Scores) float64) (k int, v
 	return k, v, ok
 }
 
+// KneeInFirstThird reports whether a knee at k lies in the first third of the range minK..maxK,
+// where the elbow votes. Kneedle normalises the curve over the range, so a knee near the end of the
+// range moves with it: on the Tibshirani, Walther & Hastie (2001) scenarios (50 realizations each,
+// WCSS of k = 1..20, Kneedle over 1..M) the knee is the true k in 2, 47 and 50 of 50 for three
+// clusters at M = 6, 8 and 9, and for four clusters (scenarios c and d) in 3 and 7 at M = 6,
+// 35 and 44 at M = 12, 47 and 48 at M = 16 (DEVELOPERS.md, issue 12).
+func KneeInFirstThird(k, minK, maxK int) bool { return 3*(k-minK+1) <= maxK-minK+1 }
+
+// edgeRange reports whether a range minK..maxK is wide enough (at least three k) for a best value
+// at maxK to mean "still improving" rather than a choice between two or three k.
+func edgeRange(minK, maxK int) bool { return maxK-minK >= 2 }
+
 // votes turns the per-k scores into one vote per criterion (CriterionNames order).
 func votes(per []Scores, wardK int, opt Options) []Vote {
 	var out []Vote
@@ -33,6 +45,11 @@ func votes(per []Scores, wardK int, opt Options) []Vote {
 				note = "no valid k"
 			}
 			out = append(out, Vote{Criterion: name, Abstain: true, Note: note})
+			return
+		}
+		if edgeRange(opt.MinK, opt.MaxK) && k == opt.MaxK {
+			out = append(out, Vote{Criterion: name, Abstain: true, StillImproving: true,
+				Note: fmt.Sprintf("%s: still improving at max-k = %d, no optimum inside the range (the best k may be larger)", note, k)})
 			return
 		}
 		if k == opt.MaxK && opt.MaxK > opt.MinK {
@@ -50,7 +67,11 @@ func votes(per []Scores, wardK int, opt Options) []Vote {
 		}
 	}
 	diff := make([]float64, len(ys))
-	if i, ok := Kneedle(xs, ys, 1, diff); ok {
+	if i, ok := Kneedle(xs, ys, 1, diff); ok && !KneeInFirstThird(ks[i], opt.MinK, opt.MaxK) {
+		out = append(out, Vote{Criterion: NameElbow, Abstain: true, Note: fmt.Sprintf("Kneedle knee of WCSS(k) at k = %d, "+
+			"too close to max-k = %d to be placed (the knee moves with the end of the range unless it lies in "+
+			"the range's first third)", ks[i], opt.MaxK)})
+	} else if ok {
 		add(NameElbow, ks[i], true, "Kneedle knee of WCSS(k), S=1")
 	} else {
 		add(NameElbow, 0, false, "no knee in WCSS(k)")

@@ -110,3 +110,77 @@ func TestParseWeights(t *testing.T) {
 		})
 	}
 }
+
+// TestStillImprovingAbstains: a criterion whose best value is at max-k found no optimum in the
+// range; it abstains (StillImproving), counts as "several" in stage 1 and as edge weight in stage
+// 2 exactly as an unmarked vote at max-k does, and is left out of the agreement of a verdict
+// inside the range.
+func TestStillImprovingAbstains(t *testing.T) {
+	w := equalWeights()
+	split := ModeCheck{N: 500, PValue: 0.001, Modes: true}
+	plain := map[string]int{NameGapBox: 5, NameGapPCA: 5, NameBICGMM: 20, NameAICGMM: 20, NameSilhouette: 5,
+		NameBICKMeans: 1, NameWard: 4}
+	marked := votesOf(plain)
+	for i := range marked {
+		if marked[i].K == 20 {
+			marked[i] = Vote{Criterion: marked[i].Criterion, Abstain: true, StillImproving: true}
+		}
+	}
+	a, b := Decide(votesOf(plain), split, 1, 20, w), Decide(marked, split, 1, 20, w)
+	if a.K != 5 || b.K != 5 || a.Support != b.Support || a.RunnerUp != b.RunnerUp {
+		t.Fatalf("unmarked k=%d support %v runner-up %d; marked k=%d support %v runner-up %d; want both k = 5 and equal",
+			a.K, a.Support, a.RunnerUp, b.K, b.Support, b.RunnerUp)
+	}
+	// Voting inside the range: gap_box, gap_pca, silhouette (5), bic_kmeans (1), ward (4).
+	if want := 3.0 / 5; b.Agreement != want || slices.Contains(b.Disagree, NameBICGMM) {
+		t.Errorf("agreement %v (disagree %v), want %v without the criteria still improving", b.Agreement, b.Disagree, want)
+	}
+	// When the edge outweighs every k inside, the verdict is max-k and they agree with it.
+	edge := votesOf(map[string]int{NameGapBox: 3, NameSplitAgreement: 3})
+	for _, c := range []string{NameBICGMM, NameAICGMM, NameBICKMeans} {
+		edge[slices.IndexFunc(edge, func(v Vote) bool { return v.Criterion == c })] = Vote{Criterion: c, Abstain: true, StillImproving: true}
+	}
+	v := Decide(edge, split, 1, 20, w)
+	if v.K != 20 || !v.AtMaxK || len(v.Agree) != 3 {
+		t.Errorf("edge verdict k=%d at_max_k=%v agree %v; want 20, true, the three still improving", v.K, v.AtMaxK, v.Agree)
+	}
+}
+
+// TestKneeInFirstThird: the elbow votes only for a knee in the first third of the range (see
+// KneeInFirstThird for the measurement behind it).
+func TestKneeInFirstThird(t *testing.T) {
+	for _, tc := range []struct {
+		k, minK, maxK int
+		want          bool
+	}{
+		{2, 1, 6, true}, {3, 1, 6, false}, {4, 1, 12, true}, {5, 1, 12, false},
+		{6, 1, 20, true}, {7, 1, 20, false}, {4, 2, 10, true}, {5, 2, 10, false},
+	} {
+		if got := KneeInFirstThird(tc.k, tc.minK, tc.maxK); got != tc.want {
+			t.Errorf("KneeInFirstThird(%d, %d, %d) = %v, want %v", tc.k, tc.minK, tc.maxK, got, tc.want)
+		}
+	}
+	// WCSS of three well-separated groups: a knee at 3, which max-k 6 cannot place and max-k 12 can.
+	per := func(maxK int) []Scores {
+		var out []Scores
+		for k := 1; k <= maxK; k++ {
+			w := []float64{100, 60}[min(k, 2)-1]
+			if k >= 3 {
+				w = 12 - 0.5*float64(k-3)
+			}
+			out = append(out, Scores{K: k, Valid: true, WCSS: w})
+		}
+		return out
+	}
+	for _, tc := range []struct {
+		maxK    int
+		abstain bool
+	}{{6, true}, {12, false}} {
+		opt := DefaultOptions()
+		opt.MaxK = tc.maxK
+		vs := votes(per(tc.maxK), 0, opt)
+		if v := vs[0]; v.Criterion != NameElbow || v.Abstain != tc.abstain || (!v.Abstain && v.K != 3) {
+			t.Errorf("max-k %d: elbow vote %+v, want abstain=%v (else k = 3)", tc.maxK, v, tc.abstain)
+		}
+	}
+}

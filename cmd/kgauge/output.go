@@ -228,7 +228,9 @@ func writeTable(w io.Writer, res *kgauge.Result, wide bool) error {
 	}
 	var other []string
 	for _, v := range res.VoteList {
-		if v.Abstain {
+		if v.StillImproving {
+			other = append(other, v.Criterion+" (still improving at max-k, no optimum in the range)")
+		} else if v.Abstain {
 			other = append(other, v.Criterion+" (abstains)")
 		} else if v.K != res.K {
 			other = append(other, fmt.Sprintf("%s (k = %d)", v.Criterion, v.K))
