@@ -23,9 +23,11 @@ import (
 var pageText string
 
 var page = template.Must(template.New("page").Funcs(template.FuncMap{
-	"num":     num,
-	"fixed":   fixed,
-	"pct":     func(v float64) string { return fmt.Sprintf("%.0f%%", 100*v) },
+	"num":   num,
+	"fixed": fixed,
+	"pct":   func(v float64) string { return fmt.Sprintf("%.0f%%", 100*v) },
+	// share prints agreement and confidence as the text output and track do: a share to two places.
+	"share":   func(v float64) string { return fmt.Sprintf("%.2f", v) },
 	"bytes":   bytesText,
 	"bytesf":  func(v float64) string { return bytesText(int64(v)) },
 	"seconds": func(v float64) string { return fmt.Sprintf("%.3f", v) },

@@ -5,6 +5,7 @@ import (
 	"context"
 	"encoding/base64"
 	"encoding/json"
+	"fmt"
 	"html"
 	"math/rand/v2"
 	"os"
@@ -303,5 +304,19 @@ func TestPrintStylesheet(t *testing.T) {
 	}
 	if !strings.Contains(page, `<section id="per-k">`) || !strings.Contains(page, `<div class="scroll"><table id="per-k-fit">`) {
 		t.Error("the per-k tables are no longer where the print rules expect them")
+	}
+}
+
+// TestAgreementAsShare: the page gives agreement and confidence as the text output and track do,
+// a share to two places (issue 17 item 6), never a percentage.
+func TestAgreementAsShare(t *testing.T) {
+	page := render(t)
+	res := fixture(t)
+	want := fmt.Sprintf("agreement %.2f (share of the voting criteria)", res.Agreement)
+	if !strings.Contains(page, want) {
+		t.Errorf("page lacks %q", want)
+	}
+	if want := fmt.Sprintf("Confidence %.2f:", res.Confidence); !strings.Contains(page, want) {
+		t.Errorf("page lacks %q", want)
 	}
 }
