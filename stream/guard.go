@@ -255,7 +255,8 @@ type chunkShape struct {
 	maxDef byte // 0 for a required column, 1 for an optional one, up to 3 for a vector column
 	maxRep byte // 1 for a vector (list) column, else 0
 	// listLen is a vector column's list length: a page holds at most rows × listLen levels. 0 for a
-	// scalar column (at most rows values); -1 while the length is not known yet.
+	// scalar column (at most rows values); -1 for no bound but the absolute one (maxPageValues),
+	// used for vector columns, whose lists may be ragged.
 	listLen int64
 }
 

@@ -52,7 +52,7 @@ type fixtures struct {
 	good, goodFile                                            string
 	notParquet, empty, random, truncFooter, truncPage, noData string
 	badPage, badCRC, zeroRows, allNull, allNaN, posInf        string
-	negInf, strs, nested, schemaA, schemaB, schemaC           string
+	negInf, strs, nested, ragged, schemaA, schemaB, schemaC   string
 	unreadable, badSketch                                     string
 }
 
@@ -158,7 +158,7 @@ func makeFixtures(t *testing.T) *fixtures {
 	f.nested = filepath.Join(dir, "nested.parquet")
 	nestedSchema := arrow.NewSchema([]arrow.Field{
 		{Name: "x", Type: arrow.PrimitiveTypes.Float64}, {Name: "y", Type: arrow.PrimitiveTypes.Float64},
-		{Name: "readings", Type: arrow.ListOf(arrow.PrimitiveTypes.Float64)},
+		{Name: "readings", Type: arrow.ListOf(arrow.PrimitiveTypes.Int64)}, // a list of floats would be a vector column
 		{Name: "tags", Type: arrow.MapOf(arrow.BinaryTypes.String, arrow.PrimitiveTypes.Float64)}}, nil)
 	i := 0
 	writeParquet(t, f.nested, nestedSchema, func(b *array.RecordBuilder) {
@@ -166,11 +166,26 @@ func makeFixtures(t *testing.T) *fixtures {
 		b.Field(1).(*array.Float64Builder).Append(float64(i%3)*10 + float64(i%5)/10)
 		lb := b.Field(2).(*array.ListBuilder)
 		lb.Append(true)
-		lb.ValueBuilder().(*array.Float64Builder).Append(float64(i))
+		lb.ValueBuilder().(*array.Int64Builder).Append(int64(i))
 		mb := b.Field(3).(*array.MapBuilder)
 		mb.Append(true)
 		mb.KeyBuilder().(*array.StringBuilder).Append("k")
 		mb.ItemBuilder().(*array.Float64Builder).Append(1)
+		i++
+	}, 300)
+
+	// A vector column whose row 100 holds three values where the others hold two.
+	f.ragged = filepath.Join(dir, "ragged.parquet")
+	raggedSchema := arrow.NewSchema([]arrow.Field{{Name: "emb", Type: arrow.ListOf(arrow.PrimitiveTypes.Float64)}}, nil)
+	i = 0
+	writeParquet(t, f.ragged, raggedSchema, func(b *array.RecordBuilder) {
+		lb := b.Field(0).(*array.ListBuilder)
+		lb.Append(true)
+		vb := lb.ValueBuilder().(*array.Float64Builder)
+		vb.AppendValues([]float64{float64(i % 3), float64(i % 5)}, nil)
+		if i == 100 {
+			vb.Append(1)
+		}
 		i++
 	}, 300)
 
@@ -246,6 +261,7 @@ func TestBadInput(t *testing.T) {
 		{"strings only", []string{"estimate", f.strs}, ExitInput, []string{"strings.parquet", "no numeric columns"}, false},
 		{"nested column named", []string{"estimate", "--columns", "x,readings", f.nested}, ExitInput, []string{"readings", "nested"}, false},
 		{"map column named", []string{"estimate", "--columns", "tags", f.nested}, ExitInput, []string{"tags", "nested"}, false},
+		{"vector lists of unequal length", []string{"estimate", "--columns", "emb", f.ragged}, ExitInput, []string{"ragged.parquet", `column "emb"`, "row 100", "a list of 3 values"}, false},
 		{"column missing from a file", []string{"estimate", filepath.Dir(f.schemaA)}, ExitInput, []string{"b.parquet", `"y"`, "missing"}, false},
 		{"column type differs across files", []string{"estimate", "--columns", "x,y", f.schemaA, f.schemaC}, ExitInput, []string{"c.parquet", `"y"`, "not numeric"}, false},
 		{"unknown column", []string{"estimate", "--columns", "h00,watts", good}, ExitInput, []string{"watts"}, false},
