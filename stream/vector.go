@@ -334,7 +334,14 @@ func (d *Dataset) parquetVectorWidth(i int, plan pqColumn) (width int, err error
 
 // vectorWidth returns the list length of vector column c in file i: from the schema for an Arrow
 // fixed-size list, else from the first non-null, non-empty list in the file.
-func (d *Dataset) vectorWidth(i int, c colInfo) (int, error) {
+func (d *Dataset) vectorWidth(i int, c colInfo) (width int, err error) {
+	// The peek decodes pages and record batches: a decoder panic, or the bounded allocator's
+	// refusal of an absurd buffer, is recovered as in openFile.
+	defer func() {
+		if p := recover(); p != nil {
+			width, err = 0, panicError("reading the first lists", p)
+		}
+	}()
 	if d.Files[i].Format == Parquet {
 		return d.parquetVectorWidth(i, c.pq)
 	}
