@@ -254,19 +254,14 @@ type chunkShape struct {
 	codec  format.CompressionCodec
 	maxDef byte // 0 for a required column, 1 for an optional one, up to 3 for a vector column
 	maxRep byte // 1 for a vector (list) column, else 0
-	// listLen is a vector column's list length: a page holds at most rows × listLen levels. 0 for a
-	// scalar column (at most rows values); -1 for no bound but the absolute one (maxPageValues),
-	// used for vector columns, whose lists may be ragged.
-	listLen int64
 }
 
-// valueBound is the most values (levels) a data page of a chunk of rows rows may claim.
+// valueBound is the most values (levels) a data page of a chunk of rows rows may claim: rows for a
+// scalar column; for a list column only the absolute bound, because a ragged list column may hold
+// more than rows × its length, and the reader then names the row whose list is too long.
 func (c chunkShape) valueBound(rows int64) int64 {
-	switch {
-	case c.listLen < 0:
+	if c.maxRep > 0 {
 		return maxPageValues
-	case c.listLen > 0:
-		return max(rows, 0) * c.listLen
 	}
 	return max(rows, 0)
 }

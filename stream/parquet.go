@@ -396,11 +396,6 @@ func (d *Dataset) openParquetUnit(of *openFile, u Unit, fh Handle) (*pqSource, e
 			start = cm.DictionaryPageOffset
 		}
 		shape := chunkShape{codec: cm.Codec, maxDef: plan.maxDef, maxRep: plan.maxRep}
-		if plan.width > 0 {
-			// Only the absolute bound: a page of a ragged list column may hold more than rows ×
-			// width values, and the reader then names the row whose list is too long.
-			shape.listLen = -1
-		}
 		if err := checkColumnChunk(fh, start, cm.TotalCompressedSize, min(of.footerAt, size), rg.NumRows(), shape); err != nil {
 			return nil, &ReadError{File: d.Files[u.File].Path, Unit: u.Index, Row: -1, Column: plan.name,
 				Err: fmt.Errorf("row group %d: %w", u.Index, err)}

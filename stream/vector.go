@@ -296,7 +296,7 @@ func (d *Dataset) parquetVectorWidth(i int, plan pqColumn) (width int, err error
 			start = cm.DictionaryPageOffset
 		}
 		if err := checkColumnChunk(fh, start, cm.TotalCompressedSize, min(of.footerAt, size), rg.NumRows(),
-			chunkShape{codec: cm.Codec, maxDef: plan.maxDef, maxRep: plan.maxRep, listLen: -1}); err != nil {
+			chunkShape{codec: cm.Codec, maxDef: plan.maxDef, maxRep: plan.maxRep}); err != nil {
 			return 0, fmt.Errorf("row group %d: %w", g, err)
 		}
 		fc, ok := rg.ColumnChunks()[plan.leaf].(*parquet.FileColumnChunk)
