@@ -105,7 +105,7 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 		workers = runtime.GOMAXPROCS(0)
 	}
 	nk := opt.MaxK - opt.MinK + 1
-	res := &Result{PerK: make([]Scores, nk), Fits: make([]kmeans.Result, nk), Options: opt}
+	res := &Result{PerK: make([]Scores, nk), Fits: make([]Fit, nk), Options: opt}
 	core := s.Coreset
 	W := core.TotalWeight()
 	scale := s.N / W
@@ -130,7 +130,7 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 	gapData := gapSide(s, opt.GapSample, rngFor(opt.Seed, 0, streamGapSample))
 	nref := gapData.Len()
 	boxRefs := BoxReference(s.Min, s.Max, nref, opt.GapRefs, rngFor(opt.Seed, 0, streamBoxRefs))
-	var pcaRefs []kmeans.Data
+	var pcaRefs []Points
 	if _, lo, hi, err := PCABox(s.Cov, s.Mean, s.Sample, s.Coreset); err == nil {
 		pcaRefs = PCAReference(lo, hi, nref, opt.GapRefs, rngFor(opt.Seed, 0, streamPCARefs))
 	}
@@ -163,7 +163,7 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 	var dataW []float64
 	boxW := make([][]float64, len(boxRefs))
 	pcaW := make([][]float64, len(pcaRefs))
-	gapPath := func(p kmeans.Data, init bool, rng func(k int) *rand.Rand) []float64 {
+	gapPath := func(p Points, init bool, rng func(k int) *rand.Rand) []float64 {
 		po := pathOptions{Restarts: opt.GapRestarts, Lloyd: kmeans.LloydOptions{Tol: gapTol}, Rand: rng, Stop: stop}
 		if init {
 			po.Init = func(k int) [][]float64 { return [][]float64{fits[k-opt.MinK].Centres} }
@@ -233,7 +233,7 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 
 // mainFits returns Evaluate's k-means fit of every k on the coreset (opt with defaults applied):
 // fitPath with opt.Restarts k-means++ seedings plus the Summary's seed centres for k.
-func mainFits(s Summary, opt Options, workers int, stop func() bool) []kmeans.Result {
+func mainFits(s Summary, opt Options, workers int, stop func() bool) []Fit {
 	return fitPath(s.Coreset, opt.MinK, opt.MaxK, pathOptions{
 		Restarts: opt.Restarts,
 		Cheap:    cheapWork,
@@ -300,7 +300,7 @@ func runJobs(jobs []func(), workers int, stop func() bool) {
 }
 
 // scoreK computes the per-k scores of Evaluate (all but the gap and Ward columns) from the fit.
-func scoreK(core kmeans.Data, fit kmeans.Result, k int, s Summary, opt Options, scale, reg float64, stop func() bool) Scores {
+func scoreK(core Points, fit Fit, k int, s Summary, opt Options, scale, reg float64, stop func() bool) Scores {
 	sc := nanScores(k)
 	sc.WCSS = fit.Cost * scale
 	// A fit with zero cost and no empty cluster (k equal to the number of distinct points) is a
@@ -340,18 +340,18 @@ func scoreK(core kmeans.Data, fit kmeans.Result, k int, s Summary, opt Options, 
 // gapSide returns the data side of the gap statistic: min(n, sample size) points of the sample
 // (a seeded subsample without replacement when the sample is larger), or, without a sample,
 // min(n, coreset size) points drawn from the coreset with probability proportional to weight.
-func gapSide(s Summary, n int, rng *rand.Rand) kmeans.Data {
+func gapSide(s Summary, n int, rng *rand.Rand) Points {
 	d := s.D
 	if m := s.Sample.Len(); m > 0 {
 		if m <= n {
-			return kmeans.Data{X: s.Sample.X, D: d}
+			return Points{X: s.Sample.X, D: d}
 		}
 		perm := rng.Perm(m)[:n]
 		x := make([]float64, 0, n*d)
 		for _, i := range perm {
 			x = append(x, s.Sample.Point(i)...)
 		}
-		return kmeans.Data{X: x, D: d}
+		return Points{X: x, D: d}
 	}
 	c := s.Coreset
 	if c.Len() < n {
@@ -377,17 +377,17 @@ func gapSide(s Summary, n int, rng *rand.Rand) kmeans.Data {
 		}
 		x = append(x, c.Point(lo)...)
 	}
-	return kmeans.Data{X: x, D: d}
+	return Points{X: x, D: d}
 }
 
 // wardLeaves runs the Ward linkage of Evaluate and returns the report part and all merges
 // (costs scaled to N rows).
-func wardLeaves(core kmeans.Data, opt Options, scale float64) (Ward, []Merge) {
+func wardLeaves(core Points, opt Options, scale float64) (Ward, []Merge) {
 	leaves := core
 	w := Ward{Source: "coreset"}
 	if kf := WardLeaves(core.Len(), opt.MaxK); kf < core.Len() {
 		fit := kmeans.Fit(core, kf, kmeans.FitOptions{Restarts: 1, Rand: rngFor(opt.Seed, kf, streamWard)})
-		leaves = kmeans.Data{X: fit.Centres, W: fit.Sizes, D: core.D}
+		leaves = Points{X: fit.Centres, W: fit.Sizes, D: core.D}
 		w.Source = fmt.Sprintf("k-means centroids (k=%d)", kf)
 		w.Base = fit.Cost * scale
 	}

@@ -29,7 +29,7 @@ const farRule = "distance to the nearest centre > median + 5 MAD of the distance
 // FarShare returns the weighted share of the points of p whose distance to their centre (labels,
 // centres of k clusters) is beyond the median plus farMADs median absolute deviations of their
 // cluster's distances (weighted median and MAD, gonum stat.Quantile).
-func FarShare(p kmeans.Data, labels []int32, centres []float64, k int) float64 {
+func FarShare(p Points, labels []int32, centres []float64, k int) float64 {
 	n := p.Len()
 	dist := make([][]float64, k)
 	wts := make([][]float64, k)
@@ -86,7 +86,7 @@ func weightedMedian(v, w []float64) float64 {
 }
 
 // farRows measures FarShare on the coreset fit at the verdict's k.
-func farRows(core kmeans.Data, res *Result) FarRows {
+func farRows(core Points, res *Result) FarRows {
 	out := FarRows{K: res.Verdict.K, Rule: farRule}
 	i := res.Verdict.K - res.Options.MinK
 	if i < 0 || i >= len(res.Fits) || len(res.Fits[i].Labels) != core.Len() {

@@ -37,7 +37,7 @@ const (
 )
 
 // restartsFor returns the k-means++ seedings of fitPath at k (see cheapWork).
-func restartsFor(p kmeans.Data, k, base int, cheap float64) int {
+func restartsFor(p Points, k, base int, cheap float64) int {
 	if cheap <= 0 {
 		return base
 	}
@@ -61,9 +61,9 @@ func restartsFor(p kmeans.Data, k, base int, cheap float64) int {
 // The sweeps carry a good solution at one k to its neighbours, where independent restarts often
 // land in a local optimum (two centres in one cluster, one centre across two). The result does not
 // depend on opt.Workers.
-func fitPath(p kmeans.Data, lo, hi int, opt pathOptions) []kmeans.Result {
+func fitPath(p Points, lo, hi int, opt pathOptions) []Fit {
 	n := hi - lo + 1
-	fits := make([]kmeans.Result, n)
+	fits := make([]Fit, n)
 	stop := func() bool { return opt.Stop != nil && opt.Stop() }
 	one := func(k int) {
 		var init [][]float64
@@ -100,7 +100,7 @@ func fitPath(p kmeans.Data, lo, hi int, opt pathOptions) []kmeans.Result {
 	if stop() {
 		return fits
 	}
-	keep := func(k int, r kmeans.Result) bool {
+	keep := func(k int, r Fit) bool {
 		if r.Cost < fits[k-lo].Cost*(1-1e-9) {
 			fits[k-lo] = r
 			return true
@@ -134,7 +134,7 @@ func fitPath(p kmeans.Data, lo, hi int, opt pathOptions) []kmeans.Result {
 
 // addCentre returns the centres of f plus one point of p chosen by the greedy k-means++ step, or
 // false when every point coincides with a centre.
-func addCentre(p kmeans.Data, f kmeans.Result, rng *rand.Rand) ([]float64, bool) {
+func addCentre(p Points, f Fit, rng *rand.Rand) ([]float64, bool) {
 	d, m := p.D, p.Len()
 	if len(f.Labels) != m || f.Cost <= 0 {
 		return nil, false
@@ -189,7 +189,7 @@ func addCentre(p kmeans.Data, f kmeans.Result, rng *rand.Rand) ([]float64, bool)
 // mergeCheapest returns, for each of the (at most) m pairs of f's centres with the smallest
 // Ward merge cost, the k-1 centres after merging that pair into its weighted mean; nil when f has
 // fewer than two centres.
-func mergeCheapest(f kmeans.Result, d, m int) [][]float64 {
+func mergeCheapest(f Fit, d, m int) [][]float64 {
 	k := f.K
 	if k < 2 || len(f.Sizes) != k {
 		return nil

@@ -28,7 +28,7 @@ type GapStat struct {
 // with the same restarts and Lloyd settings (relative tolerance 1e-5) (k-means++ seeds from rng). The data and references
 // should have the same number of points (the statistic compares W at equal n). Gap and S are NaN
 // when W_k or some W*_kb is 0 (fewer distinct points than k) or there are no references.
-func GapAt(data kmeans.Data, refs []kmeans.Data, k, restarts int, rng *rand.Rand) GapStat {
+func GapAt(data Points, refs []Points, k, restarts int, rng *rand.Rand) GapStat {
 	nan := math.NaN()
 	out := GapStat{Gap: nan, S: nan, LogW: nan, RefLogW: nan}
 	if data.Len() < k || len(refs) == 0 {
@@ -74,9 +74,9 @@ func GapRule(gap, s []float64) int {
 // BoxReference draws B sets of n points uniform in the box [min, max] (the "uniform" reference of
 // Tibshirani, Walther & Hastie 2001, over each feature's observed range). A zero-width side
 // gives a constant coordinate.
-func BoxReference(min, max []float64, n, B int, rng *rand.Rand) []kmeans.Data {
+func BoxReference(min, max []float64, n, B int, rng *rand.Rand) []Points {
 	d := len(min)
-	refs := make([]kmeans.Data, B)
+	refs := make([]Points, B)
 	for b := range refs {
 		x := make([]float64, n*d)
 		for i := 0; i < n; i++ {
@@ -84,7 +84,7 @@ func BoxReference(min, max []float64, n, B int, rng *rand.Rand) []kmeans.Data {
 				x[i*d+t] = min[t] + rng.Float64()*(max[t]-min[t])
 			}
 		}
-		refs[b] = kmeans.Data{X: x, D: d}
+		refs[b] = Points{X: x, D: d}
 	}
 	return refs
 }
@@ -95,7 +95,7 @@ func BoxReference(min, max []float64, n, B int, rng *rand.Rand) []kmeans.Data {
 // the "pc" reference of Tibshirani, Walther & Hastie 2001, who take the ranges from the data's SVD
 // X = U D V^T; here V comes from the (exact) covariance and the ranges from the summary's points,
 // so extreme rows not in them are missed.
-func PCABox(cov, mean []float64, sets ...kmeans.Data) (V *mat.Dense, lo, hi []float64, err error) {
+func PCABox(cov, mean []float64, sets ...Points) (V *mat.Dense, lo, hi []float64, err error) {
 	d := len(mean)
 	var es mat.EigenSym
 	if !es.Factorize(mat.NewSymDense(d, append([]float64(nil), cov...)), true) {
@@ -134,6 +134,6 @@ func PCABox(cov, mean []float64, sets ...kmeans.Data) (V *mat.Dense, lo, hi []fl
 // PCAReference draws B sets of n points uniform in the principal-component box (PCABox). The
 // points are returned in principal-component coordinates: back-transforming z = mean + V z' is a
 // rotation plus a shift, which leaves every k-means cost unchanged, so it is skipped.
-func PCAReference(lo, hi []float64, n, B int, rng *rand.Rand) []kmeans.Data {
+func PCAReference(lo, hi []float64, n, B int, rng *rand.Rand) []Points {
 	return BoxReference(lo, hi, n, B, rng)
 }

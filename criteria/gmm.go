@@ -2,8 +2,6 @@ package criteria
 
 import (
 	"math"
-
-	"github.com/kgauge/kgauge/internal/kmeans"
 )
 
 // GMM is a Gaussian mixture with diagonal covariances. Evaluate uses the full-covariance GMMFull;
@@ -28,7 +26,7 @@ type GMMOptions struct {
 
 // LogLik returns the weighted log-likelihood sum_i w_i ln sum_j pi_j N(x_i | mu_j, diag(var_j)),
 // computed with the log-sum-exp trick. resp, if not nil (len n*K), receives the responsibilities.
-func (g GMM) LogLik(p kmeans.Data, resp []float64) float64 {
+func (g GMM) LogLik(p Points, resp []float64) float64 {
 	k, d := g.K, g.D
 	logc := make([]float64, k) // ln pi_j - 0.5 sum_t ln(2 pi var_jt)
 	inv := make([]float64, k*d)
@@ -81,7 +79,7 @@ func (g GMM) LogLik(p kmeans.Data, resp []float64) float64 {
 // uses weighted responsibilities w_i r_ij; a component whose weight falls below 1e-12 of the total
 // keeps its previous mean and variances. It returns the model, its weighted log-likelihood on p
 // and the number of EM iterations.
-func GMMFit(p kmeans.Data, init kmeans.Result, opt GMMOptions) (GMM, float64, int) {
+func GMMFit(p Points, init Fit, opt GMMOptions) (GMM, float64, int) {
 	if opt.MaxIter <= 0 {
 		opt.MaxIter = 100
 	}

@@ -107,7 +107,7 @@ func (c *fullComp) mahalanobis(x, mu, z []float64) float64 {
 // from the Euclidean distance and the largest eigenvalue of its covariance, or exactly) gets
 // responsibility 0 there without its Mahalanobis distance being computed. It fails when a
 // covariance is not positive definite.
-func (g GMMFull) LogLik(p kmeans.Data, resp []float64) (float64, error) {
+func (g GMMFull) LogLik(p Points, resp []float64) (float64, error) {
 	comps, err := g.prepare(0)
 	if err != nil {
 		return 0, err
@@ -115,7 +115,7 @@ func (g GMMFull) LogLik(p kmeans.Data, resp []float64) (float64, error) {
 	return g.logLik(p, comps, resp), nil
 }
 
-func (g GMMFull) logLik(p kmeans.Data, comps []fullComp, resp []float64) float64 {
+func (g GMMFull) logLik(p Points, comps []fullComp, resp []float64) float64 {
 	k, d := g.K, g.D
 	lr := make([]float64, k)
 	ub := make([]float64, k)
@@ -177,7 +177,7 @@ func (g GMMFull) logLik(p kmeans.Data, comps []fullComp, resp []float64) float64
 // changes by <= opt.Tol or after opt.MaxIter iterations. It returns the model, its weighted
 // log-likelihood on p and the number of EM iterations, or an error when a covariance cannot be
 // factored.
-func GMMFullFit(p kmeans.Data, init kmeans.Result, opt GMMOptions) (GMMFull, float64, int, error) {
+func GMMFullFit(p Points, init Fit, opt GMMOptions) (GMMFull, float64, int, error) {
 	if opt.MaxIter <= 0 {
 		opt.MaxIter = 100
 	}

@@ -8,7 +8,7 @@ import (
 
 // clusterMeans returns the weighted centroid of each cluster, its weight and the weighted total
 // and within sums of squares.
-func clusterMeans(p kmeans.Data, labels []int32, k int) (cent, size []float64, tss, wcss float64) {
+func clusterMeans(p Points, labels []int32, k int) (cent, size []float64, tss, wcss float64) {
 	d := p.D
 	cent = make([]float64, k*d)
 	size = make([]float64, k)
@@ -52,7 +52,7 @@ func clusterMeans(p kmeans.Data, labels []int32, k int) (cent, size []float64, t
 //
 // with N the total weight, centroids the weighted cluster means of the labels and k the number of
 // non-empty clusters. Larger is better. NaN when k < 2, N <= k or WCSS = 0.
-func CalinskiHarabasz(p kmeans.Data, labels []int32, k int) float64 {
+func CalinskiHarabasz(p Points, labels []int32, k int) float64 {
 	if len(labels) != p.Len() {
 		panic("criteria: CalinskiHarabasz: len(labels) != number of points")
 	}
@@ -78,7 +78,7 @@ func CalinskiHarabasz(p kmeans.Data, labels []int32, k int) float64 {
 // with c_i the weighted cluster mean and S_i the weighted mean Euclidean distance of cluster i's
 // points to c_i, over the k non-empty clusters. Smaller is better. Pairs of coincident centroids
 // are skipped; NaN when k < 2, every S_i is 0 or every centroid coincides.
-func DaviesBouldin(p kmeans.Data, labels []int32, k int) float64 {
+func DaviesBouldin(p Points, labels []int32, k int) float64 {
 	if len(labels) != p.Len() {
 		panic("criteria: DaviesBouldin: len(labels) != number of points")
 	}

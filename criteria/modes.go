@@ -152,26 +152,26 @@ type ModeCheck struct {
 // then tests each of the eight projections for one mode (ModeDip), Bonferroni-corrected. The lines
 // of the 3-means fit find a split that 2-means cuts across (elongated clusters). Fitting the direction on one half and testing on the other keeps the test
 // honest: a direction chosen to split the tested points would make any sample look split.
-func modeCheck(pts kmeans.Data, rng *rand.Rand) (ModeCheck, bool) {
+func modeCheck(pts Points, rng *rand.Rand) (ModeCheck, bool) {
 	n := pts.Len()
 	if n < 40 {
 		return ModeCheck{}, false
 	}
 	perm := rng.Perm(n)
 	h := n / 2
-	half := func(idx []int) kmeans.Data {
+	half := func(idx []int) Points {
 		x := make([]float64, 0, len(idx)*pts.D)
 		for _, i := range idx {
 			x = append(x, pts.Point(i)...)
 		}
-		return kmeans.Data{X: x, D: pts.D}
+		return Points{X: x, D: pts.D}
 	}
 	a, b := half(perm[:h]), half(perm[h:2*h])
 	out := ModeCheck{N: h, PValue: 1}
 	tests := 0
 	minP := 1.0
 	d := pts.D
-	for _, pr := range [][2]kmeans.Data{{a, b}, {b, a}} {
+	for _, pr := range [][2]Points{{a, b}, {b, a}} {
 		for _, k := range []int{2, 3} {
 			fit := kmeans.Fit(pr[0], k, kmeans.FitOptions{Restarts: 3, Rand: rng})
 			for u := 0; u < k; u++ {

@@ -3,8 +3,6 @@ package criteria
 import (
 	"encoding/json"
 	"math"
-
-	"github.com/kgauge/kgauge/internal/kmeans"
 )
 
 // Criterion names, in the fixed order of Result.Votes. They are stable JSON keys.
@@ -31,14 +29,14 @@ func CriterionNames() []string {
 
 // Result is the outcome of Evaluate.
 type Result struct {
-	PerK    []Scores        `json:"per_k"` // one per k in MinK..MaxK
-	Votes   []Vote          `json:"votes"` // one per criterion, in CriterionNames order
-	Verdict Verdict         `json:"verdict"`
-	Ward    Ward            `json:"ward"`
-	Fits    []kmeans.Result `json:"-"`       // the chosen coreset fit per k, parallel to PerK
-	Options Options         `json:"options"` // the options used, defaults filled in
-	Modes   ModeCheck       `json:"one_mode_check"`
-	Far     FarRows         `json:"far_rows"` // rows far from every centre of the verdict's fit
+	PerK    []Scores  `json:"per_k"` // one per k in MinK..MaxK
+	Votes   []Vote    `json:"votes"` // one per criterion, in CriterionNames order
+	Verdict Verdict   `json:"verdict"`
+	Ward    Ward      `json:"ward"`
+	Fits    []Fit     `json:"-"`       // the chosen coreset fit per k, parallel to PerK
+	Options Options   `json:"options"` // the options used, defaults filled in
+	Modes   ModeCheck `json:"one_mode_check"`
+	Far     FarRows   `json:"far_rows"` // rows far from every centre of the verdict's fit
 }
 
 // Vote is one criterion's choice of k. Abstain is true (and K 0) when the criterion could not

@@ -20,7 +20,7 @@ type silGroups struct {
 	centre []float64 // weighted mean per cluster, k*d
 }
 
-func newSilGroups(p kmeans.Data, labels []int32, k int) *silGroups {
+func newSilGroups(p Points, labels []int32, k int) *silGroups {
 	n, d := p.Len(), p.D
 	g := &silGroups{d: d, start: make([]int, k+1), total: make([]float64, k)}
 	for i := 0; i < n; i++ {
@@ -86,7 +86,7 @@ const silBlock = 4
 // result is that of measuring every cluster (the sums are formed in the same order). Anchors
 // are taken silBlock at a time, each point of a measured cluster loaded once per block; an
 // anchor's distance to itself is 0 and adds nothing to its cluster's sum.
-func (g *silGroups) silhouettes(p kmeans.Data, labels []int32, anchors []int, out []float64) {
+func (g *silGroups) silhouettes(p Points, labels []int32, anchors []int, out []float64) {
 	d, k := g.d, len(g.total)
 	sums := make([]float64, silBlock*k)
 	lb := make([]float64, silBlock*k)
@@ -201,7 +201,7 @@ func (g *silGroups) finish(sum []float64, own int32, row int, b float64) float64
 // cluster analysis", J. Comput. Appl. Math. 20:53-65), with s(i) as documented on
 // SilhouetteAnchors. With unit weights it is the usual mean silhouette (O(n^2 d)). labels must be in
 // 0..k-1. It returns NaN when fewer than 2 clusters are non-empty. It panics if len(labels) != p.Len().
-func SilhouetteExact(p kmeans.Data, labels []int32, k int) float64 {
+func SilhouetteExact(p Points, labels []int32, k int) float64 {
 	if len(labels) != p.Len() {
 		panic("criteria: SilhouetteExact: len(labels) != number of points")
 	}
@@ -252,7 +252,7 @@ const minAnchorsPerCluster = 5
 //
 // (stratified sampling; var_c with divisor m_c - 1, 0 for exact strata), and the interval is
 // S ± 1.96 sqrt(Var). Cost O(m n d). The result is NaN when fewer than 2 clusters are non-empty.
-func SilhouetteAnchors(p kmeans.Data, labels []int32, k, m int, rng *rand.Rand) SilhouetteEstimate {
+func SilhouetteAnchors(p Points, labels []int32, k, m int, rng *rand.Rand) SilhouetteEstimate {
 	nan := math.NaN()
 	out := SilhouetteEstimate{Mean: nan, Lo: nan, Hi: nan, SE: nan}
 	if len(labels) != p.Len() {
@@ -360,7 +360,7 @@ func SilhouetteAnchors(p kmeans.Data, labels []int32, k, m int, rng *rand.Rand) 
 //
 // with l(i) the given label (normally the nearest centre) and s'(i) = 0 when a' = b' = 0. Centres
 // of clusters with no weight are skipped as "other" centres. Cost O(n k d). NaN for k < 2.
-func SimplifiedSilhouette(p kmeans.Data, labels []int32, centres []float64) float64 {
+func SimplifiedSilhouette(p Points, labels []int32, centres []float64) float64 {
 	d := p.D
 	k := len(centres) / d
 	if len(labels) != p.Len() {

@@ -55,16 +55,16 @@ func PredictionStrength(test, train []int32, k int) float64 {
 }
 
 // splitHalves returns two disjoint seeded halves of at most splitHalfMax points each from pts.
-func splitHalves(pts kmeans.Data, rng *rand.Rand) (a, b kmeans.Data) {
+func splitHalves(pts Points, rng *rand.Rand) (a, b Points) {
 	n := pts.Len()
 	perm := rng.Perm(n)
 	h := min(n/2, splitHalfMax)
-	take := func(idx []int) kmeans.Data {
+	take := func(idx []int) Points {
 		x := make([]float64, 0, len(idx)*pts.D)
 		for _, i := range idx {
 			x = append(x, pts.Point(i)...)
 		}
-		return kmeans.Data{X: x, D: pts.D}
+		return Points{X: x, D: pts.D}
 	}
 	return take(perm[:h]), take(perm[h : 2*h])
 }
@@ -72,7 +72,7 @@ func splitHalves(pts kmeans.Data, rng *rand.Rand) (a, b kmeans.Data) {
 // splitAgreement returns the prediction strength of k for the halves a and b, averaged over both
 // roles (a trains and b is tested, then the reverse), with restarts k-means++ seedings per fit.
 // It is NaN when a half has fewer than 2k points.
-func splitAgreement(a, b kmeans.Data, k, restarts int, rng *rand.Rand) float64 {
+func splitAgreement(a, b Points, k, restarts int, rng *rand.Rand) float64 {
 	if k == 1 {
 		return 1
 	}
@@ -81,7 +81,7 @@ func splitAgreement(a, b kmeans.Data, k, restarts int, rng *rand.Rand) float64 {
 	}
 	fa := kmeans.Fit(a, k, kmeans.FitOptions{Restarts: restarts, Rand: rng})
 	fb := kmeans.Fit(b, k, kmeans.FitOptions{Restarts: restarts, Rand: rng})
-	one := func(test kmeans.Data, testFit, trainFit kmeans.Result) float64 {
+	one := func(test Points, testFit, trainFit Fit) float64 {
 		lab := make([]int32, test.Len())
 		dist := make([]float64, test.Len())
 		kmeans.Assign(test.X, test.D, trainFit.Centres, lab, dist)
@@ -107,7 +107,7 @@ func splitVote(per []Scores) (int, bool) {
 // direction. A single correlated cluster becomes a round one, whose halves no longer agree on
 // any split; separate clusters stay separate (the map is linear and invertible). It returns p
 // itself when the covariance cannot be decomposed.
-func whiten(p kmeans.Data, cov []float64) kmeans.Data {
+func whiten(p Points, cov []float64) Points {
 	d := p.D
 	var es mat.EigenSym
 	if len(cov) != d*d || !es.Factorize(mat.NewSymDense(d, slices.Clone(cov)), true) {
@@ -134,7 +134,7 @@ func whiten(p kmeans.Data, cov []float64) kmeans.Data {
 			m.Set(a, b, s)
 		}
 	}
-	out := kmeans.Data{X: make([]float64, len(p.X)), D: d}
+	out := Points{X: make([]float64, len(p.X)), D: d}
 	for i := range p.Len() {
 		x := p.Point(i)
 		for a := range d {

@@ -2,8 +2,6 @@ package criteria
 
 import (
 	"math"
-
-	"github.com/kgauge/kgauge/internal/kmeans"
 )
 
 // Summary is what the criteria need from the one-pass sketch. All values live in the same
@@ -14,19 +12,19 @@ type Summary struct {
 	Mean     []float64         // exact column means
 	Cov      []float64         // D*D covariance, divisor N
 	Min, Max []float64         // exact bounding box
-	Coreset  kmeans.Data       // weighted coreset, weights sum to about N
-	Sample   kmeans.Data       // uniform reservoir sample, W nil
+	Coreset  Points            // weighted coreset, weights sum to about N
+	Sample   Points            // uniform reservoir sample, W nil
 	Seeds    map[int][]float64 // optional centres per k from the pass's mini-batch k-means (k*D each)
 }
 
 // ExactSummary returns the Summary of an in-memory point set: exact moments and box, the points
 // themselves (with their weights) as the coreset and, unweighted, as the sample. N is the total
 // weight. It is meant for tests and small inputs; weights of the sample are dropped.
-func ExactSummary(p kmeans.Data) Summary {
+func ExactSummary(p Points) Summary {
 	d, n := p.D, p.Len()
 	s := Summary{D: d, Mean: make([]float64, d), Cov: make([]float64, d*d),
 		Min: make([]float64, d), Max: make([]float64, d), Coreset: p,
-		Sample: kmeans.Data{X: p.X, D: d}}
+		Sample: Points{X: p.X, D: d}}
 	for j := 0; j < d; j++ {
 		s.Min[j], s.Max[j] = math.Inf(1), math.Inf(-1)
 	}

@@ -37,7 +37,7 @@ type Ward struct {
 // SciPy's linkage(method="ward") reports heights sqrt(2 Delta) for the same merges. Ties are broken
 // by the lowest (row, column) pair. Zero-weight points are left out. It returns m-1 merges for m
 // positive-weight points, in merge order; O(m^2) memory and O(m^3) time.
-func WardLinkage(p kmeans.Data) []Merge {
+func WardLinkage(p Points) []Merge {
 	var idx []int
 	for i := 0; i < p.Len(); i++ {
 		if p.Weight(i) > 0 {
