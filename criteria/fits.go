@@ -100,9 +100,19 @@ func fitPath(p Points, lo, hi int, opt pathOptions) []Fit {
 	if stop() {
 		return fits
 	}
+	// ver[i] counts the changes of fits[i]; upFrom[i] and downFrom[i] hold the version of the
+	// neighbour that k = lo + i was last swept from. A sweep start depends only on that neighbour's
+	// fit and on opt.Rand(k), which restarts each round, so a sweep from an unchanged neighbour
+	// would repeat Lloyd runs whose results fits[i] already beats: it is skipped.
+	ver := make([]int, n)
+	upFrom, downFrom := make([]int, n), make([]int, n)
+	for i := range upFrom {
+		upFrom[i], downFrom[i] = -1, -1
+	}
 	keep := func(k int, r Fit) bool {
 		if r.Cost < fits[k-lo].Cost*(1-1e-9) {
 			fits[k-lo] = r
+			ver[k-lo]++
 			return true
 		}
 		return false
@@ -110,9 +120,10 @@ func fitPath(p Points, lo, hi int, opt pathOptions) []Fit {
 	for round := 0; round < sweepRounds; round++ {
 		improved := false
 		for k := max(lo, 2); k <= hi && !stop(); k++ {
-			if k-1 < lo {
+			if k-1 < lo || upFrom[k-lo] == ver[k-1-lo] {
 				continue
 			}
+			upFrom[k-lo] = ver[k-1-lo]
 			rng := opt.Rand(k)
 			for t := 0; t < sweepTries; t++ {
 				if init, ok := addCentre(p, fits[k-1-lo], rng); ok {
@@ -121,6 +132,10 @@ func fitPath(p Points, lo, hi int, opt pathOptions) []Fit {
 			}
 		}
 		for k := hi - 1; k >= lo && !stop(); k-- {
+			if downFrom[k-lo] == ver[k+1-lo] {
+				continue
+			}
+			downFrom[k-lo] = ver[k+1-lo]
 			for _, init := range mergeCheapest(fits[k+1-lo], p.D, sweepTries) {
 				improved = keep(k, kmeans.Lloyd(p, init, opt.Lloyd)) || improved
 			}
