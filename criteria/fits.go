@@ -19,6 +19,8 @@ type pathOptions struct {
 	Rand     func(k int) *rand.Rand  // random stream per k
 	Workers  int                     // goroutines for the per-k restarts (<= 1: sequential)
 	Stop     func() bool             // reports cancellation (may be nil)
+	Pool     *pool                   // when set, every running restart and the sweeps hold one of its slots
+	Report   func(units float64)     // when set, receives the expected cost of each finished step (restarts and first sweeps per k)
 }
 
 // Sweep settings of fitPath: starts tried per k and direction, and the most rounds of both
@@ -65,13 +67,23 @@ func fitPath(p Points, lo, hi int, opt pathOptions) []Fit {
 	n := hi - lo + 1
 	fits := make([]Fit, n)
 	stop := func() bool { return opt.Stop != nil && opt.Stop() }
+	report := func(units float64) {
+		if opt.Report != nil {
+			opt.Report(units)
+		}
+	}
 	one := func(k int) {
 		var init [][]float64
 		if opt.Init != nil {
 			init = opt.Init(k)
 		}
-		fits[k-lo] = kmeans.Fit(p, k, kmeans.FitOptions{Restarts: restartsFor(p, k, opt.Restarts, opt.Cheap), Init: init,
-			Lloyd: opt.Lloyd, Rand: opt.Rand(k)})
+		r := restartsFor(p, k, opt.Restarts, opt.Cheap)
+		if opt.Pool != nil {
+			opt.Pool.acquire()
+			defer opt.Pool.release()
+		}
+		fits[k-lo] = kmeans.Fit(p, k, kmeans.FitOptions{Restarts: r, Init: init, Lloyd: opt.Lloyd, Rand: opt.Rand(k)})
+		report(restartCost(p.Len(), k, p.D, r+len(init)))
 	}
 	if opt.Workers <= 1 {
 		for k := hi; k >= lo && !stop(); k-- {
@@ -99,6 +111,10 @@ func fitPath(p Points, lo, hi int, opt pathOptions) []Fit {
 	}
 	if stop() {
 		return fits
+	}
+	if opt.Pool != nil {
+		opt.Pool.acquire()
+		defer opt.Pool.release()
 	}
 	// ver[i] counts the changes of fits[i]; upFrom[i] and downFrom[i] hold the version of the
 	// neighbour that k = lo + i was last swept from. A sweep start depends only on that neighbour's
@@ -130,8 +146,14 @@ func fitPath(p Points, lo, hi int, opt pathOptions) []Fit {
 					improved = keep(k, kmeans.Lloyd(p, init, opt.Lloyd)) || improved
 				}
 			}
+			if round == 0 {
+				report(sweepCost(p.Len(), k, p.D) / 2)
+			}
 		}
 		for k := hi - 1; k >= lo && !stop(); k-- {
+			if round == 0 {
+				report(sweepCost(p.Len(), k, p.D) / 2)
+			}
 			if downFrom[k-lo] == ver[k+1-lo] {
 				continue
 			}
@@ -248,4 +270,18 @@ func mergeCheapest(f Fit, d, m int) [][]float64 {
 		out = append(out, c)
 	}
 	return out
+}
+
+// pathCost is the expected cost of fitPath(p, lo, hi, opt): the restarts of every k (with
+// opt.Init's starts) and one round of both sweeps.
+func pathCost(p Points, lo, hi int, opt pathOptions) float64 {
+	c := 0.0
+	for k := lo; k <= hi; k++ {
+		r := restartsFor(p, k, opt.Restarts, opt.Cheap)
+		if opt.Init != nil {
+			r += len(opt.Init(k))
+		}
+		c += restartCost(p.Len(), k, p.D, r) + sweepCost(p.Len(), k, p.D)
+	}
+	return c
 }
