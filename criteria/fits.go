@@ -15,6 +15,7 @@ type pathOptions struct {
 	Restarts int                     // k-means++ seedings per k (at least one when init gives none)
 	Cheap    float64                 // more seedings where cheap (restartsFor); 0: opt.Restarts only
 	Lloyd    kmeans.LloydOptions     // Lloyd settings of every fit
+	Race     kmeans.LloydOptions     // when Tol is set: the sweeps' starts run with these settings first, and only the best runs on (see fitPath)
 	Init     func(k int) [][]float64 // extra initial centres per k (may be nil)
 	Rand     func(k int) *rand.Rand  // random stream per k
 	Workers  int                     // goroutines for the per-k restarts (<= 1: sequential)
@@ -57,7 +58,10 @@ func restartsFor(p Points, k, base int, cheap float64) int {
 //     pairs whose merge raises the cost least (Ward's cost w_a w_b / (w_a + w_b) ||c_a - c_b||^2)
 //     merged into their weighted mean.
 //
-// Both sweeps run again (at most sweepRounds times) while they improve some k. With opt.Cheap
+// Both sweeps run again (at most sweepRounds times) while they improve some k. With opt.Race.Tol
+// set, the (up to sweepTries) starts of one sweep at one k are first run with opt.Race's looser
+// settings and only the cheapest is run on with opt.Lloyd's (a race), instead of running every
+// start to opt.Lloyd's tolerance. With opt.Cheap
 // set, k gets more restarts where its Lloyd iterations are cheap (restartsFor).
 //
 // The sweeps carry a good solution at one k to its neighbours, where independent restarts often
@@ -133,6 +137,26 @@ func fitPath(p Points, lo, hi int, opt pathOptions) []Fit {
 		}
 		return false
 	}
+	// try runs Lloyd from each start and keeps the best result at k. With opt.Race set, every
+	// start first runs with opt.Race's (looser) settings and only the cheapest is run on to
+	// opt.Lloyd's.
+	try := func(k int, inits [][]float64) bool {
+		if opt.Race.Tol == 0 || len(inits) < 2 {
+			kept := false
+			for _, init := range inits {
+				kept = keep(k, kmeans.Lloyd(p, init, opt.Lloyd)) || kept
+			}
+			return kept
+		}
+		var best Fit
+		for i, init := range inits {
+			r := kmeans.Lloyd(p, init, opt.Race)
+			if i == 0 || r.Cost < best.Cost {
+				best = r
+			}
+		}
+		return keep(k, kmeans.Lloyd(p, best.Centres, opt.Lloyd))
+	}
 	for round := 0; round < sweepRounds; round++ {
 		improved := false
 		for k := max(lo, 2); k <= hi && !stop(); k++ {
@@ -141,11 +165,13 @@ func fitPath(p Points, lo, hi int, opt pathOptions) []Fit {
 			}
 			upFrom[k-lo] = ver[k-1-lo]
 			rng := opt.Rand(k)
+			var inits [][]float64
 			for t := 0; t < sweepTries; t++ {
 				if init, ok := addCentre(p, fits[k-1-lo], rng); ok {
-					improved = keep(k, kmeans.Lloyd(p, init, opt.Lloyd)) || improved
+					inits = append(inits, init)
 				}
 			}
+			improved = try(k, inits) || improved
 			if round == 0 {
 				report(sweepCost(p.Len(), k, p.D) / 2)
 			}
@@ -158,9 +184,7 @@ func fitPath(p Points, lo, hi int, opt pathOptions) []Fit {
 				continue
 			}
 			downFrom[k-lo] = ver[k+1-lo]
-			for _, init := range mergeCheapest(fits[k+1-lo], p.D, sweepTries) {
-				improved = keep(k, kmeans.Lloyd(p, init, opt.Lloyd)) || improved
-			}
+			improved = try(k, mergeCheapest(fits[k+1-lo], p.D, sweepTries)) || improved
 		}
 		if !improved {
 			break
