@@ -226,7 +226,10 @@ func GMMFullFit(p Points, init Fit, opt GMMOptions) (GMMFull, float64, int, erro
 	resp := make([]float64, n*k)
 	nk := make([]float64, k)
 	sums, sq := make([]float64, k*d), make([]float64, k*dd)
-	e := make([]float64, d)
+	var blk mBlock
+	for c := range blk.e {
+		blk.e[c] = make([]float64, d)
+	}
 	prev := math.Inf(-1)
 	ll := 0.0
 	iters := 0
@@ -246,31 +249,8 @@ func GMMFullFit(p Points, init Fit, opt GMMOptions) (GMMFull, float64, int, erro
 		clear(nk)
 		clear(sums)
 		clear(sq)
-		for i := 0; i < n; i++ {
-			w := p.Weight(i)
-			x := p.Point(i)
-			r := resp[i*k : i*k+k]
-			for j := 0; j < k; j++ {
-				wr := w * r[j]
-				if wr == 0 {
-					continue
-				}
-				nk[j] += wr
-				s := sums[j*d : j*d+d]
-				m0 := g.Means[j*d : j*d+d]
-				for t, v := range x {
-					e[t] = v - m0[t]
-					s[t] += wr * e[t]
-				}
-				q := sq[j*dd : j*dd+dd]
-				for a := 0; a < d; a++ {
-					ea := wr * e[a]
-					row := q[a*d+a : a*d+d]
-					for b, eb := range e[a:] {
-						row[b] += ea * eb
-					}
-				}
-			}
+		for j := 0; j < k; j++ {
+			mStep(p, resp, j, k, g.Means[j*d:j*d+d], &nk[j], sums[j*d:j*d+d], sq[j*dd:j*dd+dd], &blk)
 		}
 		for j := 0; j < k; j++ {
 			g.Weights[j] = nk[j] / W
@@ -297,4 +277,62 @@ func GMMFullFit(p Points, init Fit, opt GMMOptions) (GMMFull, float64, int, erro
 		}
 	}
 	return g, ll, iters, nil
+}
+
+// mBlock is mStep's scratch: up to four centred points and their weights.
+type mBlock struct {
+	e [4][]float64
+	w [4]float64
+}
+
+// mStep accumulates component j's M-step sums over p: *nk += sum_i w_i r_ij, s += sum_i w_i r_ij
+// e_i and the upper triangle of q += sum_i w_i r_ij e_i e_i^T, with e_i = x_i - m0 (m0 the
+// previous mean). Points with a zero weighted responsibility are skipped; the others go through
+// the outer product four at a time (each row of q loaded once per four points).
+func mStep(p Points, resp []float64, j, k int, m0 []float64, nk *float64, s, q []float64, blk *mBlock) {
+	d := p.D
+	n := p.Len()
+	c := 0
+	for i := 0; i < n; i++ {
+		wr := p.Weight(i) * resp[i*k+j]
+		if wr == 0 {
+			continue
+		}
+		*nk += wr
+		e := blk.e[c][:d]
+		for t, v := range p.Point(i)[:d] {
+			e[t] = v - m0[t]
+			s[t] += wr * e[t]
+		}
+		blk.w[c] = wr
+		c++
+		if c == 4 {
+			outer4(q, d, blk)
+			c = 0
+		}
+	}
+	for b := 0; b < c; b++ {
+		e, wr := blk.e[b][:d], blk.w[b]
+		for a := 0; a < d; a++ {
+			ea := wr * e[a]
+			row := q[a*d+a : a*d+d]
+			for t, eb := range e[a:] {
+				row[t] += ea * eb
+			}
+		}
+	}
+}
+
+// outer4 adds the weighted outer products of the four points in blk to the upper triangle of q.
+func outer4(q []float64, d int, blk *mBlock) {
+	e0, e1, e2, e3 := blk.e[0][:d], blk.e[1][:d], blk.e[2][:d], blk.e[3][:d]
+	for a := 0; a < d; a++ {
+		a0, a1, a2, a3 := blk.w[0]*e0[a], blk.w[1]*e1[a], blk.w[2]*e2[a], blk.w[3]*e3[a]
+		row := q[a*d+a : a*d+d]
+		f0, f1, f2, f3 := e0[a:], e1[a:], e2[a:], e3[a:]
+		f0, f1, f2, f3 = f0[:len(row)], f1[:len(row)], f2[:len(row)], f3[:len(row)]
+		for t := range row {
+			row[t] += a0*f0[t] + a1*f1[t] + a2*f2[t] + a3*f3[t]
+		}
+	}
 }
