@@ -101,6 +101,29 @@ func (c *fullComp) mahalanobis(x, mu, z []float64) float64 {
 	return q
 }
 
+// mahalanobis2 returns the squared Mahalanobis distances of x to (mu, c) and (mu2, c2), each
+// summed in mahalanobis' order; z and z2 are scratch of length D.
+func mahalanobis2(c, c2 *fullComp, x, mu, mu2, z, z2 []float64) (float64, float64) {
+	d := len(x)
+	z, z2 = z[:d], z2[:d]
+	q, q2 := 0.0, 0.0
+	for a := 0; a < d; a++ {
+		row, row2 := c.l[a*d:a*d+a], c2.l[a*d:a*d+a]
+		row2 = row2[:len(row)]
+		s, s2 := x[a]-mu[a], x[a]-mu2[a]
+		for b, v := range row {
+			s -= v * z[b]
+			s2 -= row2[b] * z2[b]
+		}
+		s *= c.invDia[a]
+		s2 *= c2.invDia[a]
+		z[a], z2[a] = s, s2
+		q += s * s
+		q2 += s2 * s2
+	}
+	return q, q2
+}
+
 // LogLik returns the weighted log-likelihood sum_i w_i ln sum_j pi_j N(x_i | mu_j, Sigma_j),
 // computed with the log-sum-exp trick. resp, if not nil (len n*K), receives the
 // responsibilities; a component more than e^40 less likely than another at a point (by a bound
@@ -120,7 +143,7 @@ func (g GMMFull) logLik(p Points, comps []fullComp, resp []float64) float64 {
 	lr := make([]float64, k)
 	ub := make([]float64, k)
 	exact := make([]bool, k)
-	z := make([]float64, d)
+	z, z2 := make([]float64, d), make([]float64, d)
 	ll := 0.0
 	for i := 0; i < p.Len(); i++ {
 		x := p.Point(i)
@@ -137,15 +160,27 @@ func (g GMMFull) logLik(p Points, comps []fullComp, resp []float64) float64 {
 		lr[top] = comps[top].logc - 0.5*comps[top].mahalanobis(x, g.Means[top*d:top*d+d], z)
 		exact[top] = true
 		mx := lr[top]
+		// The components left within the pruning margin go two at a time (two independent
+		// dependency chains); the pair is chosen with mx as it stood before either.
+		pend := -1
 		for j := 0; j < k; j++ {
 			if j == top || ub[j] < mx-pruneGap {
 				continue
 			}
-			lr[j] = comps[j].logc - 0.5*comps[j].mahalanobis(x, g.Means[j*d:j*d+d], z)
-			exact[j] = true
-			if lr[j] > mx {
-				mx = lr[j]
+			if pend < 0 {
+				pend = j
+				continue
 			}
+			qa, qb := mahalanobis2(&comps[pend], &comps[j], x, g.Means[pend*d:pend*d+d], g.Means[j*d:j*d+d], z, z2)
+			lr[pend], lr[j] = comps[pend].logc-0.5*qa, comps[j].logc-0.5*qb
+			exact[pend], exact[j] = true, true
+			mx = max(mx, lr[pend], lr[j])
+			pend = -1
+		}
+		if pend >= 0 {
+			lr[pend] = comps[pend].logc - 0.5*comps[pend].mahalanobis(x, g.Means[pend*d:pend*d+d], z)
+			exact[pend] = true
+			mx = max(mx, lr[pend])
 		}
 		s := 0.0
 		for j := 0; j < k; j++ {
