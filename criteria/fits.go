@@ -59,9 +59,10 @@ func restartsFor(p Points, k, base int, cheap float64) int {
 //     merged into their weighted mean.
 //
 // Both sweeps run again (at most sweepRounds times) while they improve some k. With opt.Race.Tol
-// set, the (up to sweepTries) starts of one sweep at one k are first run with opt.Race's looser
-// settings and only the cheapest is run on with opt.Lloyd's (a race), instead of running every
-// start to opt.Lloyd's tolerance. With opt.Cheap
+// set, the starts of one step at one k (its restarts and opt.Init's starts, when more than one;
+// the up to sweepTries starts of one sweep) are first run with opt.Race's looser settings and
+// only the cheapest is run on with opt.Lloyd's (a race), instead of running every start to
+// opt.Lloyd's tolerance. With opt.Cheap
 // set, k gets more restarts where its Lloyd iterations are cheap (restartsFor).
 //
 // The sweeps carry a good solution at one k to its neighbours, where independent restarts often
@@ -86,7 +87,12 @@ func fitPath(p Points, lo, hi int, opt pathOptions) []Fit {
 			opt.Pool.acquire()
 			defer opt.Pool.release()
 		}
-		fits[k-lo] = kmeans.Fit(p, k, kmeans.FitOptions{Restarts: r, Init: init, Lloyd: opt.Lloyd, Rand: opt.Rand(k)})
+		if opt.Race.Tol > 0 && r+len(init) > 1 {
+			best := kmeans.Fit(p, k, kmeans.FitOptions{Restarts: r, Init: init, Lloyd: opt.Race, Rand: opt.Rand(k)})
+			fits[k-lo] = kmeans.Lloyd(p, best.Centres, opt.Lloyd)
+		} else {
+			fits[k-lo] = kmeans.Fit(p, k, kmeans.FitOptions{Restarts: r, Init: init, Lloyd: opt.Lloyd, Rand: opt.Rand(k)})
+		}
 		report(restartCost(p.Len(), k, p.D, r+len(init)))
 	}
 	if opt.Workers <= 1 {
