@@ -86,10 +86,10 @@ type Timings struct {
 }
 
 // ErrInternal marks a failure no input or option should cause (a recovered panic): a bug.
-var ErrInternal = errors.New("internal error")
+var ErrInternal = errors.New("kgauge: internal error")
 
 // ErrNoRows is returned when the inputs hold no usable row.
-var ErrNoRows = errors.New("no usable rows")
+var ErrNoRows = errors.New("kgauge: no usable rows")
 
 // Build discovers and opens the data files named by paths (files, directories, globs), probes them,
 // and reads every row once into a sketch. The returned Input describes the files and columns. A
@@ -108,7 +108,7 @@ func build(ctx context.Context, paths []string, opt Options, avoid map[string]st
 	}
 	opt = opt.withDefaults()
 	start := time.Now()
-	opt.Progress.stage("open")
+	opt.Progress.setStage(StageOpen)
 	var ids []string
 	op, err := open(paths, opt, found, func(files []stream.File) (err error) {
 		ids, err = contentIDs(files, avoid)
@@ -127,7 +127,7 @@ func build(ctx context.Context, paths []string, opt Options, avoid map[string]st
 	tm.Open = time.Since(start).Seconds()
 
 	start = time.Now()
-	opt.Progress.stage("probe")
+	opt.Progress.setStage(StageProbe)
 	units := stream.Shuffle(ds.Units, opt.Seed)
 	unitID := make(map[stream.Unit]int, len(ds.Units))
 	for i, u := range ds.Units {
@@ -140,7 +140,7 @@ func build(ctx context.Context, paths []string, opt Options, avoid map[string]st
 	tm.Probe = time.Since(start).Seconds()
 
 	start = time.Now()
-	opt.Progress.stage("pass")
+	opt.Progress.setStage(StagePass)
 	cfg := opt.Sketch
 	cfg.Columns = ds.Columns
 	cfg.ExpectedRows = expectedRows(ds)
