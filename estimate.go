@@ -149,7 +149,7 @@ func Evaluate(ctx context.Context, sk *sketch.Sketch, opt Options) (*Result, err
 }
 
 // ErrTooFewRows is returned when there are fewer usable rows than the largest k.
-var ErrTooFewRows = errors.New("too few rows")
+var ErrTooFewRows = errors.New("kgauge: too few rows")
 
 // Estimate runs the whole job on inputs: data files, directories and globs (read in one pass) and
 // saved sketch files (merged without reading their data). It returns the result and the merged
@@ -209,7 +209,7 @@ func Estimate(ctx context.Context, inputs []string, opt Options) (*Result, *sket
 	if len(dataPaths) > 0 && opt.AfterPass != nil {
 		opt.AfterPass()
 	}
-	opt.Progress.stage("criteria")
+	opt.Progress.setStage(StageCriteria)
 	r, err := Evaluate(ctx, total, opt)
 	if err != nil {
 		return nil, nil, err
@@ -224,7 +224,7 @@ func Estimate(ctx context.Context, inputs []string, opt Options) (*Result, *sket
 		r.SkippedFiles = orEmpty(in.Skipped)
 		r.Tables = orEmpty(in.Tables)
 	}
-	opt.Progress.stage("done")
+	opt.Progress.setStage(StageDone)
 	return r, total, nil
 }
 
@@ -239,7 +239,7 @@ func orEmpty[T any](s []T) []T {
 
 // ErrColumnsDiffer means a saved sketch and the other inputs hold different feature columns, so
 // they cannot be merged.
-var ErrColumnsDiffer = errors.New("the inputs hold different columns")
+var ErrColumnsDiffer = errors.New("kgauge: the inputs hold different columns")
 
 // sameColumns checks that the sketch o holds the feature columns of total, in the same order.
 // fromData says total holds data files read in this run.

@@ -11,7 +11,7 @@ import (
 
 // ErrUnrepresentable is returned with --scale none (Raw) when a column's values cannot be
 // clustered in their own units: squared distances would overflow or underflow float64.
-var ErrUnrepresentable = errors.New("values out of range for unscaled clustering")
+var ErrUnrepresentable = errors.New("kgauge: values out of range for unscaled clustering")
 
 // RawLimit bounds the columns a Raw (unscaled) run accepts: every value's magnitude at most
 // RawLimit and a nonzero range at least 1/RawLimit. Squares of 1e140 summed over 1e28 values stay
@@ -71,4 +71,4 @@ func checkRawSketch(sk *sketch.Sketch) error {
 const MaxColumns = 1000
 
 // ErrTooWide is returned for an input with more than MaxColumns feature columns.
-var ErrTooWide = errors.New("too many columns (choose at most 1000 with --columns)")
+var ErrTooWide = errors.New("kgauge: too many columns (choose at most 1000 with --columns)")

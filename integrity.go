@@ -20,7 +20,7 @@ type SkippedFile struct {
 // ErrSameData means the inputs name the same data twice in a way that cannot be deduplicated: a
 // saved sketch together with a data file it was built from, or two sketches built from
 // overlapping data. The command line maps it to a usage error.
-var ErrSameData = errors.New("the same data is named twice")
+var ErrSameData = errors.New("kgauge: the same data is named twice")
 
 // SameDataError says which two inputs hold the same data.
 type SameDataError struct {

@@ -12,7 +12,7 @@ import (
 )
 
 // ErrMemoryLimit is returned when Options.Memory cannot hold even the smallest sizes.
-var ErrMemoryLimit = errors.New("memory limit")
+var ErrMemoryLimit = errors.New("kgauge: memory limit")
 
 // PeakMemory is the predicted peak memory of Estimate with o on the opened dataset ds: the one
 // memory model (cost.PredictMemory) that plan prints and --memory is checked against.

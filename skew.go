@@ -25,7 +25,7 @@ type SkewedColumn struct {
 }
 
 // ErrNonPositive is wrapped by Evaluate's error when --scale log meets a column with a value <= 0.
-var ErrNonPositive = errors.New("non-positive value")
+var ErrNonPositive = errors.New("kgauge: non-positive value")
 
 // skewedColumns returns the columns of sk whose uniform-sample skewness exceeds skewLimit.
 func skewedColumns(sk *sketch.Sketch, method Scale) []SkewedColumn {

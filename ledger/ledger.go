@@ -53,7 +53,7 @@ func (e *LineError) Error() string {
 func (e *LineError) Unwrap() error { return e.Err }
 
 // ErrCorrupt is the cause in a LineError whose line is not a record of a known schema.
-var ErrCorrupt = errors.New("not a valid ledger record")
+var ErrCorrupt = errors.New("ledger: not a valid ledger record")
 
 // Open reads the ledger at path. A missing file is an empty ledger. Any line other than an
 // incomplete last one that is not a valid record is a *LineError.

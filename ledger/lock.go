@@ -9,7 +9,7 @@ import (
 )
 
 // ErrLocked is the cause of a LockError: another run holds the lock.
-var ErrLocked = errors.New("locked by another run")
+var ErrLocked = errors.New("ledger: locked by another run")
 
 // LockError is a lock that could not be taken in time.
 type LockError struct {

@@ -9,11 +9,11 @@ import (
 	"os"
 	"path/filepath"
 	"sort"
-	"strings"
 	"time"
 
 	"github.com/kgauge/kgauge"
 	"github.com/kgauge/kgauge/internal/atomicfile"
+	"github.com/kgauge/kgauge/internal/errtext"
 	"github.com/kgauge/kgauge/stream"
 )
 
@@ -255,7 +255,8 @@ func isInputFailure(err error) bool {
 		errors.Is(err, kgauge.ErrTooFewRows) || errors.Is(err, fs.ErrNotExist) || errors.Is(err, fs.ErrPermission)
 }
 
-func oneLine(err error) string { return strings.Join(strings.Fields(err.Error()), " ") }
+// oneLine is the failure reason a ledger record keeps: the message on one line, in the user's terms.
+func oneLine(err error) string { return errtext.Of(err) }
 
 func toSet(names []string) map[string]bool {
 	set := map[string]bool{}

@@ -15,6 +15,8 @@ import (
 	"strings"
 
 	"github.com/RoaringBitmap/roaring/v2/roaring64"
+
+	"github.com/kgauge/kgauge/internal/errtext"
 )
 
 // KeyValue is one hive-style path segment key=value, such as year=2024.
@@ -49,7 +51,7 @@ var errDamaged = errors.New("not a Parquet or Arrow IPC file (magic bytes): trun
 // starts like a Parquet or Arrow IPC file, or carries such an extension, but is truncated or
 // damaged (its magic bytes or footer do not hold). [DiscoverOptions].SkipUnreadable skips such
 // files instead.
-var ErrUnreadableFile = errors.New("data file cannot be read")
+var ErrUnreadableFile = errors.New("stream: data file cannot be read")
 
 // DiscoverOptions configures [DiscoverWith].
 type DiscoverOptions struct {
@@ -218,7 +220,8 @@ func exists(p string) bool {
 }
 
 // oneLine joins the fields of s with single spaces.
-func oneLine(s string) string { return strings.Join(strings.Fields(s), " ") }
+// oneLine is a skipped file's reason: the message on one line, in the user's terms.
+func oneLine(s string) string { return errtext.Line(s) }
 
 // dataExtensions are the file name extensions of the supported formats.
 var dataExtensions = []string{".parquet", ".pq", ".arrow", ".arrows", ".feather", ".ipc"}

@@ -9,7 +9,7 @@ import (
 
 // ErrDuplicateColumn means a file holds two top-level columns of the same name, one of which
 // would be a feature: which one a name means is ambiguous, so it is an error, never a guess.
-var ErrDuplicateColumn = errors.New("duplicate column name")
+var ErrDuplicateColumn = errors.New("stream: duplicate column name")
 
 // checkDuplicateNames fails when the file at path has two columns of one name and that name is
 // named in columns, or, with no columns named, when one of them is numeric (a feature by

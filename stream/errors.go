@@ -10,21 +10,21 @@ import (
 // column they concern; test for them with errors.Is.
 var (
 	// ErrNoDataFiles means a directory or glob pattern matched no data file.
-	ErrNoDataFiles = errors.New("no Parquet or Arrow IPC data files")
+	ErrNoDataFiles = errors.New("stream: no Parquet or Arrow IPC data files")
 	// ErrNoNumericColumns means no feature column could be selected.
-	ErrNoNumericColumns = errors.New("no numeric columns")
+	ErrNoNumericColumns = errors.New("stream: no numeric columns")
 	// ErrInfinite means a selected column holds +Inf or -Inf.
-	ErrInfinite = errors.New("infinite value")
+	ErrInfinite = errors.New("stream: infinite value")
 	// ErrUnknownColumn means a column named in Options.Columns is in no file.
-	ErrUnknownColumn = errors.New("unknown column")
+	ErrUnknownColumn = errors.New("stream: unknown column")
 	// ErrNotNumeric means a column named in Options.Columns is not numeric
 	// (string, binary, boolean, temporal or nested).
-	ErrNotNumeric = errors.New("column is not numeric")
+	ErrNotNumeric = errors.New("stream: column is not numeric")
 	// ErrMissingColumn means a selected column is absent from one file.
-	ErrMissingColumn = errors.New("column missing from file")
+	ErrMissingColumn = errors.New("stream: column missing from file")
 	// ErrOnlyNulls means a column named in Options.Columns holds only nulls in every file, as the
 	// Parquet footers' statistics say.
-	ErrOnlyNulls = errors.New("column holds only nulls")
+	ErrOnlyNulls = errors.New("stream: column holds only nulls")
 )
 
 // ReadError says where reading failed. File is the path, Unit the row group or

@@ -26,7 +26,7 @@ import (
 
 // ErrCorruptFile means a file's framing claims more bytes, items or values
 // than the file holds or the memory bound allows.
-var ErrCorruptFile = errors.New("corrupt file")
+var ErrCorruptFile = errors.New("stream: corrupt file")
 
 const (
 	// maxThriftDepth bounds the nesting of Thrift structures in a footer or

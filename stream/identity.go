@@ -103,7 +103,7 @@ func Screen(files []File) (ok []File, bad []Skipped) {
 	for i, f := range files {
 		if _, err := d.openFile(i, f); err != nil {
 			var re *ReadError
-			reason := err.Error()
+			reason := oneLine(err.Error())
 			if errors.As(err, &re) && re.Err != nil {
 				reason = oneLine(re.Err.Error())
 			}

@@ -77,7 +77,7 @@ func openPath(path string) (Handle, error) {
 
 // ErrNotRegular is returned for an input that is neither a regular file nor a directory (a FIFO,
 // a socket, a device), which could block the run or never end.
-var ErrNotRegular = errors.New("not a regular file")
+var ErrNotRegular = errors.New("stream: not a regular file")
 
 // remote takes the data objects a URL names. Their partitions come from the key=value segments of
 // their keys; an object named exactly that is no data file is an error, as for a local file.

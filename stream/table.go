@@ -52,7 +52,7 @@ func DiscoverTables(patterns []string, opt DiscoverOptions) ([]File, []*Table, e
 var Tables TableReader
 
 // ErrNoMatch means that no file's partition matched the --where filter.
-var ErrNoMatch = errors.New("no data file's partition matches the filter")
+var ErrNoMatch = errors.New("stream: no data file's partition matches the filter")
 
 // table reads p as a lake table when it is one. It reports whether it did.
 func (d *discoverer) table(p string) (bool, error) {

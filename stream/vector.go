@@ -20,7 +20,7 @@ import (
 // another length is a *ReadError wrapping ErrVectorLength that names the file, column and row.
 
 // ErrVectorLength is wrapped by the error for a row whose list does not have the column's length.
-var ErrVectorLength = errors.New("list length differs from the column's")
+var ErrVectorLength = errors.New("stream: list length differs from the column's")
 
 // maxVectorWidth bounds the length of one vector column (the sketch bounds the total width).
 const maxVectorWidth = 1 << 16

@@ -5,6 +5,7 @@ import (
 	"encoding/json"
 	"fmt"
 	"io"
+	"math"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -62,7 +63,7 @@ const rowGroupRows = 1 << 20
 func find(ms []Measurement, label string, rows, dims, maxK, workers int) *Measurement {
 	for i := range ms {
 		m := &ms[i]
-		if m.Label == label && m.Rows == rows && m.Dims == dims && (maxK == 0 || m.MaxK == maxK) && m.Workers == workers {
+		if m.Section != "targets" && m.Label == label && m.Rows == rows && m.Dims == dims && (maxK == 0 || m.MaxK == maxK) && m.Workers == workers {
 			return m
 		}
 	}
@@ -90,7 +91,7 @@ func writeReport(cfg Config, ms []Measurement) error {
 	b.WriteString("## Rows ladder (16 columns, k = 1..20)\n\n| rows | workers | bare scan s | kgauge s | kgauge pass s | criteria s | peak RSS MiB | other load |\n|---:|---:|---:|---:|---:|---:|---:|---:|\n")
 	var rowsSeen []int
 	for _, m := range ms {
-		if m.Label == "kgauge" && m.Dims == 16 && m.MaxK == 20 {
+		if m.Section == "rows" && m.Label == "kgauge" && m.Dims == 16 && m.MaxK == 20 {
 			s := find(ms, "bare-scan", m.Rows, 16, 0, m.Workers)
 			scan := 0.0
 			if s != nil {
@@ -151,7 +152,7 @@ func writeReport(cfg Config, ms []Measurement) error {
 		for _, m := range ms {
 			if strings.HasPrefix(m.Label, "kgauge") {
 				maxRSS = max(maxRSS, m.PeakRSS)
-				if m.MaxK == 20 && m.Dims == 16 {
+				if m.MaxK == 20 && m.Dims == 16 && m.Section == "rows" {
 					maxCrit = max(maxCrit, m.CritSecs)
 				}
 			}
@@ -161,7 +162,7 @@ func writeReport(cfg Config, ms []Measurement) error {
 	}
 	b.WriteString("\n## Columns and k range (2 workers)\n\n| rows | columns | max k | bare scan s | kgauge s | pass s | criteria s | peak RSS MiB |\n|---:|---:|---:|---:|---:|---:|---:|---:|\n")
 	for _, m := range ms {
-		if m.Label == "kgauge" && m.Workers == 2 && (m.Dims != 16 || m.MaxK != 20) {
+		if m.Section == "columns" && m.Label == "kgauge" && m.Workers == 2 && (m.Dims != 16 || m.MaxK != 20) {
 			scan := "–"
 			if s := find(ms, "bare-scan", m.Rows, m.Dims, 0, 2); s != nil {
 				scan = fmt.Sprintf("%.3f", s.Seconds)
@@ -173,6 +174,7 @@ func writeReport(cfg Config, ms []Measurement) error {
 		fmt.Fprintf(&b, "\n## Against a reference library\n\nscikit-learn's MiniBatchKMeans (Debian python3-sklearn; batch 4096, one epoch, no early stop, 2 threads) fitted for k = 2..20 on %d × 16 rows already in memory (loading not timed), against kgauge's whole estimate (every criterion) reading the same rows from Parquet.\n\n| | seconds | peak RSS MiB |\n|---|---:|---:|\n| scikit-learn fits alone | %.2f | %.0f |\n| kgauge whole estimate | %.2f | %.0f |\n| ratio | **%.1f×** (goal ≥ 10×) | |\n",
 			sk.Rows, sk.PassSecs, float64(sk.PeakRSS)/(1<<20), kg.Seconds, float64(kg.PeakRSS)/(1<<20), sk.PassSecs/kg.Seconds)
 	}
+	writeTargets(&b, ms)
 	if err := plotThroughput(cfg.Out, ms); err != nil {
 		return fmt.Errorf("plot: %w", err)
 	}
@@ -187,4 +189,87 @@ func findLabel(ms []Measurement, label string) *Measurement {
 		}
 	}
 	return nil
+}
+
+// targetGoal is one of issue 15's goals: a limit on a measured figure of a target's run.
+type targetGoal struct {
+	target, what string
+	limit        float64
+	value        func(k, scan *Measurement) float64
+	text         string
+	k            int // the verdict the run must give, 0 for any
+}
+
+var targetGoals = []targetGoal{
+	{"criteria-16", "criteria stage, 16 columns, k = 1..20", 1.0, critSecs, "≤ 1.0 s", 0},
+	{"criteria-64", "criteria stage, 64 columns, k = 1..20", 3.0, critSecs, "≤ 3 s", 0},
+	{"maxk-50", "criteria stage, 16 columns, k = 1..50", 5.0, critSecs, "≤ 5 s", 0},
+	{"criteria-512", "criteria stage, 512 columns (reduced), k = 1..20", 10.0, critSecs, "≤ 10 s", 0},
+	{"vector-768", "criteria stage, a vector column of 768 floats (reduced), k = 1..20", 0, critSecs, "reported", 0},
+	{"birch1", "whole run, Birch1, k = 1..110, verdict 100", 60, wallSecs, "< 60 s and k = 100", 100},
+	{"birch2", "whole run, Birch2, k = 1..110, verdict 100", 60, wallSecs, "< 60 s and k = 100", 100},
+	{"birch3", "whole run, Birch3, k = 1..110, verdict 100", 60, wallSecs, "< 60 s and k = 100", 100},
+	{"whole-20M", "whole run / bare scan, 20M rows × 16 columns", 5, func(k, s *Measurement) float64 {
+		if s == nil || s.Seconds <= 0 {
+			return math.NaN()
+		}
+		return k.Seconds / s.Seconds
+	}, "< 5×", 0},
+}
+
+func critSecs(k, _ *Measurement) float64 { return k.CritSecs }
+func wallSecs(k, _ *Measurement) float64 { return k.Seconds }
+
+// writeTargets writes the table of issue 15's targets and the probe's share of the pass.
+func writeTargets(b *strings.Builder, ms []Measurement) {
+	byTarget := func(target, label string) *Measurement {
+		for i := range ms {
+			if ms[i].Section == "targets" && ms[i].Target == target && ms[i].Label == label {
+				return &ms[i]
+			}
+		}
+		return nil
+	}
+	var rows []string
+	for _, g := range targetGoals {
+		k, s := byTarget(g.target, "kgauge"), byTarget(g.target, "bare-scan")
+		if s == nil && g.target == "maxk-50" {
+			s = byTarget("criteria-16", "bare-scan")
+		}
+		if k == nil {
+			continue
+		}
+		in := fmt.Sprintf("%d × %d", k.Rows, k.Dims)
+		if k.Input != "" {
+			in = k.Input
+		}
+		scan := "–"
+		if s != nil {
+			scan = fmt.Sprintf("%.3f", s.Seconds)
+		}
+		v := g.value(k, s)
+		met := "no"
+		switch {
+		case g.limit == 0:
+			met = "–"
+		case v <= g.limit && (g.k == 0 || k.K == g.k):
+			met = "**yes**"
+		}
+		rows = append(rows, fmt.Sprintf("| %s | %s | %s | %.3f | %.3f | %.3f | %.3f | %d | %.3g | %s | %s | %.2f |",
+			g.what, in, scan, k.Seconds, k.ProbeSecs, k.PassSecs, k.CritSecs, k.K, v, g.text, met, k.OtherLoad))
+	}
+	if len(rows) == 0 {
+		return
+	}
+	b.WriteString("\n## Issue 15 targets (2 workers)\n\nEach row is `kgauge estimate --json` on the input named, beside the bare scan of the same file, " +
+		"made by `go run ./cmd/kgauge-speed run --sections targets`; *value* is the figure the goal is set on.\n\n" +
+		"| target | input | bare scan s | kgauge s | probe s | pass s | criteria s | k | value | goal | met | other load |\n" +
+		"|---|---|---:|---:|---:|---:|---:|---:|---:|---|---|---:|\n")
+	b.WriteString(strings.Join(rows, "\n") + "\n")
+	b.WriteString("\nThe probe against the pass (goal: at most 10% on files of 1M rows or more):\n\n| input | probe s | pass s | probe / pass |\n|---|---:|---:|---:|\n")
+	for _, m := range ms {
+		if m.Label == "kgauge" && m.Rows >= 1_000_000 && m.PassSecs > 0 && (m.Section == "targets" || m.Section == "rows") && m.ProbeSecs > 0 {
+			fmt.Fprintf(b, "| %s, %d × %d, %d worker(s) | %.3f | %.3f | %.1f%% |\n", m.Section, m.Rows, m.Dims, m.Workers, m.ProbeSecs, m.PassSecs, 100*m.ProbeSecs/m.PassSecs)
+		}
+	}
 }

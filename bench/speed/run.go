@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"context"
 	"encoding/json"
+	"errors"
 	"flag"
 	"fmt"
 	"io"
@@ -27,6 +28,24 @@ type Config struct {
 	Python   string // python3 with scikit-learn, or "" to skip the reference library
 	SkRows   int    // rows of the scikit-learn comparison
 	KeepData bool
+	Points   string // directory of the published point sets (birch1.txt…) for the targets
+	Sections string // comma-separated: rows, columns, sklearn, targets; "all" (default) for every one
+}
+
+// sections are the parts of a run, in order.
+var sections = []string{"rows", "columns", "sklearn", "targets"}
+
+// wants reports whether the run measures section s.
+func (c Config) wants(s string) bool {
+	if c.Sections == "" || c.Sections == "all" {
+		return true
+	}
+	for _, x := range strings.Split(c.Sections, ",") {
+		if strings.TrimSpace(x) == s {
+			return true
+		}
+	}
+	return false
 }
 
 // Register binds the flags of "kgauge-speed run".
@@ -38,11 +57,18 @@ func (c *Config) Register(fs *flag.FlagSet) {
 	fs.StringVar(&c.Python, "python", "/usr/bin/python3", "python3 with scikit-learn for the reference fits (empty: skip)")
 	fs.IntVar(&c.SkRows, "sklearn-rows", 10_000_000, "rows of the scikit-learn comparison")
 	fs.BoolVar(&c.KeepData, "keep", false, "keep the generated files")
+	fs.StringVar(&c.Points, "points", "../shared/data", "directory holding birch1.txt, birch2.txt, birch3.txt (Fränti's Birch sets)")
+	fs.StringVar(&c.Sections, "sections", "all", "what to measure: all, or some of "+strings.Join(sections, ",")+
+		" (the other sections' figures are kept from DIR/speed.json)")
 }
 
 // Measurement is one timed child process.
 type Measurement struct {
 	Label     string    `json:"label"`
+	Section   string    `json:"section"`       // rows, columns, sklearn or targets
+	Target    string    `json:"target"`        // the issue-15 target a targets measurement is for
+	Input     string    `json:"input"`         // what was read, when not a generated mixture
+	ProbeSecs float64   `json:"probe_seconds"` // kgauge's own probe timing (median)
 	Rows      int       `json:"rows"`
 	Dims      int       `json:"dims"`
 	MaxK      int       `json:"max_k"`
@@ -110,7 +136,7 @@ func median(v []float64) float64 {
 
 // measure repeats a child run and keeps medians.
 func measure(ctx context.Context, cfg Config, m Measurement, parse func([]byte, *Measurement), name string, args ...string) (Measurement, error) {
-	var walls, cpus, others, passes, crits []float64
+	var walls, cpus, others, passes, crits, probes []float64
 	for range cfg.Repeats {
 		wall, cpu, other, rss, out, err := child(ctx, name, args...)
 		if err != nil {
@@ -124,10 +150,11 @@ func measure(ctx context.Context, cfg Config, m Measurement, parse func([]byte, 
 			parse(out, &m)
 			passes = append(passes, m.PassSecs)
 			crits = append(crits, m.CritSecs)
+			probes = append(probes, m.ProbeSecs)
 		}
 	}
 	m.Seconds, m.OwnCPU, m.OtherLoad = median(walls), median(cpus), median(others)
-	m.PassSecs, m.CritSecs = median(passes), median(crits)
+	m.PassSecs, m.CritSecs, m.ProbeSecs = median(passes), median(crits), median(probes)
 	m.All = walls
 	return m, nil
 }
@@ -136,12 +163,13 @@ func parseEstimate(out []byte, m *Measurement) {
 	var r struct {
 		K       int `json:"k"`
 		Timings struct {
+			Probe    float64 `json:"probe_seconds"`
 			Pass     float64 `json:"pass_seconds"`
 			Criteria float64 `json:"criteria_seconds"`
 		} `json:"timings"`
 	}
 	if json.Unmarshal(out, &r) == nil {
-		m.K, m.PassSecs, m.CritSecs = r.K, r.Timings.Pass, r.Timings.Criteria
+		m.K, m.PassSecs, m.CritSecs, m.ProbeSecs = r.K, r.Timings.Pass, r.Timings.Criteria, r.Timings.Probe
 	}
 }
 
@@ -193,68 +221,210 @@ func Run(ctx context.Context, cfg Config, log io.Writer) error {
 		ms = append(ms, m)
 		return nil
 	}
-	est := func(path string, rows, dims, maxK, workers int) error {
-		m := Measurement{Label: "kgauge", Rows: rows, Dims: dims, MaxK: maxK, Workers: workers}
-		return add(measure(ctx, cfg, m, parseEstimate, kg, "estimate", "--json", "--quiet",
-			"--max-k", fmt.Sprint(maxK), "--workers", fmt.Sprint(workers), path))
+	section, target, input, repeats := "", "", "", cfg.Repeats
+	est := func(path string, rows, dims, maxK, workers int, extra ...string) error {
+		m := Measurement{Label: "kgauge", Section: section, Target: target, Input: input, Rows: rows, Dims: dims, MaxK: maxK, Workers: workers}
+		args := append([]string{"estimate", "--json", "--quiet", "--max-k", fmt.Sprint(maxK), "--workers", fmt.Sprint(workers)}, extra...)
+		return add(measure(ctx, Config{Repeats: repeats}, m, parseEstimate, kg, append(args, path)...))
 	}
 	scan := func(path string, rows, dims, workers int) error {
-		m := Measurement{Label: "bare-scan", Rows: rows, Dims: dims, Workers: workers}
-		return add(measure(ctx, cfg, m, nil, sp, "scan", "--workers", fmt.Sprint(workers), path))
+		m := Measurement{Label: "bare-scan", Section: section, Target: target, Input: input, Rows: rows, Dims: dims, Workers: workers}
+		return add(measure(ctx, Config{Repeats: repeats}, m, nil, sp, "scan", "--workers", fmt.Sprint(workers), path))
 	}
-	// Rows ladder, 16 columns, k = 1..20, 1 and 2 workers, beside the bare scan.
-	for _, rows := range rowsLadder {
-		p, err := file(rows, 16)
-		if err != nil {
-			return err
+	gen := func(path string, args ...string) error {
+		if _, err := os.Stat(path); err == nil {
+			return nil
 		}
-		for _, w := range []int{1, 2} {
-			if err := scan(p, rows, 16, w); err != nil {
+		fmt.Fprintf(log, "speed: writing %s\n", path)
+		cmd := exec.CommandContext(ctx, sp, append(args, "--out", path)...)
+		cmd.Stderr = log
+		return cmd.Run()
+	}
+	if cfg.wants("rows") {
+		// Rows ladder, 16 columns, k = 1..20, 1 and 2 workers, beside the bare scan.
+		section = "rows"
+		for _, rows := range rowsLadder {
+			p, err := file(rows, 16)
+			if err != nil {
 				return err
 			}
-			if err := est(p, rows, 16, 20, w); err != nil {
-				return err
+			for _, w := range []int{1, 2} {
+				if err := scan(p, rows, 16, w); err != nil {
+					return err
+				}
+				if err := est(p, rows, 16, 20, w); err != nil {
+					return err
+				}
+			}
+			if rows > mid && !cfg.KeepData {
+				os.Remove(p)
 			}
 		}
-		if rows > mid && !cfg.KeepData {
+	}
+	if cfg.wants("columns") {
+		// Columns ladder and k ladder at the middle size, 2 workers.
+		section = "columns"
+		for _, d := range dimsLadder {
+			if d == 16 {
+				continue
+			}
+			p, err := file(mid, d)
+			if err != nil {
+				return err
+			}
+			if err := scan(p, mid, d, 2); err != nil {
+				return err
+			}
+			if err := est(p, mid, d, 20, 2); err != nil {
+				return err
+			}
 			os.Remove(p)
 		}
-	}
-	// Columns ladder and k ladder at the middle size, 2 workers.
-	for _, d := range dimsLadder {
-		if d == 16 {
-			continue
-		}
-		p, err := file(mid, d)
+		p, err := file(mid, 16)
 		if err != nil {
 			return err
 		}
-		if err := scan(p, mid, d, 2); err != nil {
-			return err
+		for _, k := range kLadder {
+			if k == 20 {
+				continue
+			}
+			if err := est(p, mid, 16, k, 2); err != nil {
+				return err
+			}
 		}
-		if err := est(p, mid, d, 20, 2); err != nil {
-			return err
-		}
-		os.Remove(p)
 	}
-	p, err := file(mid, 16)
+	if cfg.wants("sklearn") {
+		sk, err := sklearn(ctx, cfg, work, sp, kg, log)
+		if err != nil {
+			fmt.Fprintf(log, "speed: scikit-learn comparison skipped: %v\n", err)
+		}
+		for i := range sk {
+			sk[i].Section = "sklearn"
+		}
+		ms = append(ms, sk...)
+	}
+	if cfg.wants("targets") {
+		// Issue 15's targets, each beside the bare scan of its file, 2 workers.
+		section = "targets"
+		big, wide, vec := 1_000_000, 100_000, 100_000
+		if cfg.Quick {
+			big, wide, vec = 200_000, 20_000, 20_000
+		}
+		type job struct {
+			target, input string
+			run           func() error
+		}
+		var jobs []job
+		p16 := filepath.Join(work, fmt.Sprintf("t-%d-16.parquet", big))
+		jobs = append(jobs,
+			job{"criteria-16", "", func() error {
+				if err := gen(p16, "gen", "--rows", fmt.Sprint(big), "--dims", "16"); err != nil {
+					return err
+				}
+				return errors.Join(scan(p16, big, 16, 2), est(p16, big, 16, 20, 2))
+			}},
+			job{"maxk-50", "", func() error { return est(p16, big, 16, 50, 2) }},
+			job{"criteria-64", "", func() error {
+				p := filepath.Join(work, fmt.Sprintf("t-%d-64.parquet", big))
+				if err := gen(p, "gen", "--rows", fmt.Sprint(big), "--dims", "64", "--k", "16"); err != nil {
+					return err
+				}
+				defer os.Remove(p)
+				return errors.Join(scan(p, big, 64, 2), est(p, big, 64, 20, 2))
+			}},
+			job{"criteria-512", "", func() error {
+				p := filepath.Join(work, fmt.Sprintf("t-%d-512.parquet", wide))
+				if err := gen(p, "gen", "--rows", fmt.Sprint(wide), "--dims", "512", "--k", "16"); err != nil {
+					return err
+				}
+				defer os.Remove(p)
+				return errors.Join(scan(p, wide, 512, 2), est(p, wide, 512, 20, 2))
+			}},
+			job{"vector-768", "one list<float32> column of 768 values", func() error {
+				p := filepath.Join(work, fmt.Sprintf("t-%d-vec768.parquet", vec))
+				if err := gen(p, "gen", "--rows", fmt.Sprint(vec), "--dims", "768", "--k", "16", "--vector", "emb"); err != nil {
+					return err
+				}
+				defer os.Remove(p)
+				return errors.Join(scan(p, vec, 768, 2), est(p, vec, 768, 20, 2, "--columns", "emb"))
+			}})
+		for _, name := range []string{"birch1", "birch2", "birch3"} {
+			src := filepath.Join(cfg.Points, name+".txt")
+			if _, err := os.Stat(src); err != nil || cfg.Quick {
+				fmt.Fprintf(log, "speed: %s skipped (%s not found, or --quick)\n", name, src)
+				continue
+			}
+			jobs = append(jobs, job{name, "Fränti & Sieranoja's " + name + " (100 clusters), --max-k 110", func() error {
+				p := filepath.Join(work, name+".parquet")
+				if err := gen(p, "gen-points", "--in", src); err != nil {
+					return err
+				}
+				defer os.Remove(p)
+				repeats = 1 // a whole run at max-k 110 is long; one run each
+				defer func() { repeats = cfg.Repeats }()
+				return errors.Join(scan(p, 100_000, 2, 2), est(p, 100_000, 2, 110, 2))
+			}})
+		}
+		if !cfg.Quick {
+			jobs = append(jobs, job{"whole-20M", "", func() error {
+				p := filepath.Join(work, "t-20000000-16.parquet")
+				if err := gen(p, "gen", "--rows", "20000000", "--dims", "16"); err != nil {
+					return err
+				}
+				defer os.Remove(p)
+				return errors.Join(scan(p, 20_000_000, 16, 2), est(p, 20_000_000, 16, 20, 2))
+			}})
+		}
+		for _, j := range jobs {
+			target, input = j.target, j.input
+			if err := j.run(); err != nil {
+				return fmt.Errorf("target %s: %w", j.target, err)
+			}
+		}
+		target, input = "", ""
+	}
+	if cfg.Sections != "" && cfg.Sections != "all" {
+		// Keep the figures of the sections not measured now.
+		kept, err := readMeasurements(filepath.Join(cfg.Out, "speed.json"))
+		if err != nil {
+			return fmt.Errorf("--sections %s keeps the other figures from %s: %w", cfg.Sections, cfg.Out, err)
+		}
+		var old []Measurement
+		for _, m := range kept {
+			if !cfg.wants(m.Section) {
+				old = append(old, m)
+			}
+		}
+		ms = append(old, ms...)
+	}
+	return writeReport(cfg, ms)
+}
+
+// readMeasurements reads a speed.json; measurements written before sections existed get theirs
+// from their shape.
+func readMeasurements(path string) ([]Measurement, error) {
+	b, err := os.ReadFile(path)
 	if err != nil {
-		return err
+		return nil, err
 	}
-	for _, k := range kLadder {
-		if k == 20 {
+	var ms []Measurement
+	if err := json.Unmarshal(b, &ms); err != nil {
+		return nil, fmt.Errorf("%s: %w", path, err)
+	}
+	for i, m := range ms {
+		if m.Section != "" {
 			continue
 		}
-		if err := est(p, mid, 16, k, 2); err != nil {
-			return err
+		switch {
+		case strings.Contains(m.Label, "sklearn"):
+			ms[i].Section = "sklearn"
+		case m.Dims != 16 || m.Label == "kgauge" && m.MaxK != 20:
+			ms[i].Section = "columns"
+		default:
+			ms[i].Section = "rows"
 		}
 	}
-	sk, err := sklearn(ctx, cfg, work, sp, kg, log)
-	if err != nil {
-		fmt.Fprintf(log, "speed: scikit-learn comparison skipped: %v\n", err)
-	}
-	ms = append(ms, sk...)
-	return writeReport(cfg, ms)
+	return ms, nil
 }
 
 func machine() string {

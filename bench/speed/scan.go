@@ -18,7 +18,7 @@ type ScanResult struct {
 	Sum    float64 `json:"sum"`
 }
 
-// Scan reads every DOUBLE column of the Parquet file at path page by page with parquet-go, using the
+// Scan reads every DOUBLE and FLOAT column (list leaves included) of the Parquet file at path page by page with parquet-go, using the
 // zero-copy typed view of each decoded page, and sums the values: the cheapest way this library can
 // decode the file, and so the floor kgauge's pass is compared with. Row groups are split over
 // workers goroutines.
@@ -54,7 +54,7 @@ func Scan(path string, workers int) (ScanResult, error) {
 				parts[w].Rows += rgs[i].NumRows()
 				for _, cc := range rgs[i].ColumnChunks() {
 					fc, ok := cc.(*parquet.FileColumnChunk)
-					if !ok || cc.Type().Kind() != parquet.Double {
+					if !ok || (cc.Type().Kind() != parquet.Double && cc.Type().Kind() != parquet.Float) {
 						continue
 					}
 					pages := fc.PagesFrom(fh)
@@ -69,6 +69,17 @@ func Scan(path string, workers int) (ScanResult, error) {
 							return
 						}
 						data := p.Data()
+						if cc.Type().Kind() == parquet.Float {
+							var s0 float32
+							f := data.Float()
+							for _, x := range f {
+								s0 += x
+							}
+							parts[w].Sum += float64(s0)
+							parts[w].Values += int64(len(f))
+							parquet.Release(p)
+							continue
+						}
 						v := data.Double()
 						var s0, s1, s2, s3 float64
 						j := 0

@@ -247,6 +247,7 @@ type MixtureOptions struct {
 	Order         Order       // Shuffled, or Sorted (rows grouped by cluster)
 	Nullable      bool        // write OPTIONAL (nullable) columns; default REQUIRED
 	NullShare     float64     // with Nullable: share of values that are null (NaN in memory)
+	Vector        string      // when set, each row's Dims values are one list<float32> column of this name
 }
 
 // DefaultMixtureOptions returns a benchmark-sized workload: 1,000,000 rows, 16 columns,
@@ -283,6 +284,8 @@ func (o MixtureOptions) Validate() error {
 		return fmt.Errorf("synth: null-share must be in [0, 1], got %v", o.NullShare)
 	case o.NullShare > 0 && !o.Nullable:
 		return fmt.Errorf("synth: null-share %v needs nullable columns", o.NullShare)
+	case o.Vector != "" && (o.Nullable || o.Dims > 1<<16):
+		return fmt.Errorf("synth: a vector column has no nulls and at most 65536 values a row")
 	case o.K > 1 && o.K > o.Rows:
 		return fmt.Errorf("synth: k (%d) must not exceed rows (%d)", o.K, o.Rows)
 	}

@@ -282,8 +282,12 @@ func (c *loadChunk) appendTo(b *array.RecordBuilder, day int32) {
 }
 
 // MixtureSchema returns the Arrow schema of the files [WriteMixture] writes for opt:
-// float64 columns x00..x<Dims-1>, nullable when opt.Nullable.
+// float64 columns x00..x<Dims-1>, nullable when opt.Nullable, or one list<float32> column
+// named opt.Vector.
 func MixtureSchema(opt MixtureOptions) *arrow.Schema {
+	if opt.Vector != "" {
+		return arrow.NewSchema([]arrow.Field{{Name: opt.Vector, Type: arrow.ListOf(arrow.PrimitiveTypes.Float32)}}, nil)
+	}
 	fields := make([]arrow.Field, opt.Dims)
 	for j := range fields {
 		fields[j] = arrow.Field{Name: columnName(j, opt.Dims), Type: arrow.PrimitiveTypes.Float64, Nullable: opt.Nullable}
@@ -294,7 +298,8 @@ func MixtureSchema(opt MixtureOptions) *arrow.Schema {
 // WriteMixture writes the mixture described by opt to path (its directory must exist),
 // streaming one row group (Arrow record batch) at a time, so memory stays at a few row
 // groups whatever Rows is. The rows are those of [Mixture](opt), with NaN written as
-// null. Parquet files use PLAIN encoding, no dictionary, 1 MiB data pages and no
+// null; with opt.Vector set, each row is one list of Dims float32 values (a Parquet LIST,
+// an Arrow list) instead of Dims float64 columns. Parquet files use PLAIN encoding, no dictionary, 1 MiB data pages and no
 // column statistics.
 func WriteMixture(path string, opt MixtureOptions) error {
 	g, err := newMixGen(opt)
@@ -331,6 +336,17 @@ func WriteMixture(path string, opt MixtureOptions) error {
 		}
 	}
 	add := func(b *array.RecordBuilder, p piece, c *mixChunk) {
+		if opt.Vector != "" {
+			lb := b.Field(0).(*array.ListBuilder)
+			vb := lb.ValueBuilder().(*array.Float32Builder)
+			for i := range c.n {
+				lb.Append(true)
+				for j := range d {
+					vb.Append(float32(c.cols[j][i]))
+				}
+			}
+			return
+		}
 		for j := range d {
 			fb := b.Field(j).(*array.Float64Builder)
 			if c.anyNull[j] {
@@ -352,4 +368,29 @@ type mixChunk struct {
 	anyNull []bool
 	row     []float64 // scratch
 	n       int
+}
+
+// WritePoints writes n row-major points of d values (x holds n*d values) to path as a Parquet
+// file of d float64 columns x00..x<d-1> (snappy, one row group per 1 Mi rows): a published point
+// set in the form kgauge reads.
+func WritePoints(path string, x []float64, d int) error {
+	if d < 1 || len(x)%d != 0 || len(x) == 0 {
+		return fmt.Errorf("synth: %d values are not rows of %d", len(x), d)
+	}
+	n := len(x) / d
+	cfg := fileConfig{format: Parquet, compression: Snappy, rowGroup: min(DefaultRowGroup, n)}
+	type chunk struct{ r0, n int }
+	schema := MixtureSchema(MixtureOptions{Dims: d})
+	return writeAtomic(path, func(w *bufio.Writer, f *os.File) error {
+		return writeRecords(w, f, schema, cfg, n, func() *chunk { return &chunk{} },
+			func(p piece, c *chunk) { c.r0, c.n = p.r0, p.n },
+			func(b *array.RecordBuilder, p piece, c *chunk) {
+				for j := range d {
+					fb := b.Field(j).(*array.Float64Builder)
+					for i := c.r0; i < c.r0+c.n; i++ {
+						fb.Append(x[i*d+j])
+					}
+				}
+			})
+	})
 }

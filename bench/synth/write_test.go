@@ -306,3 +306,67 @@ func TestWriteReleasesMemory(t *testing.T) {
 		}
 	}
 }
+
+// TestWritePointsRoundTrip: the points come back in order, column by column, as float64.
+func TestWritePointsRoundTrip(t *testing.T) {
+	x := []float64{1, -2, 3.5, 4e10, -5e-300, 6, 7, 8}
+	path := filepath.Join(t.TempDir(), "points.parquet")
+	if err := WritePoints(path, x, 2); err != nil {
+		t.Fatal(err)
+	}
+	var got []float64
+	schema := forEachRecord(t, path, Parquet, func(rec arrow.Record) {
+		cols := make([][]float64, rec.NumCols())
+		for j := range cols {
+			cols[j] = float64Column(nil, rec.Column(j))
+		}
+		for i := range int(rec.NumRows()) {
+			for j := range cols {
+				got = append(got, cols[j][i])
+			}
+		}
+	})
+	if schema.NumFields() != 2 || sameFloats(got, x) != -1 {
+		t.Errorf("schema %v, rows %v; want 2 columns holding %v", schema, got, x)
+	}
+	if err := WritePoints(path, x[:3], 2); err == nil {
+		t.Error("3 values as rows of 2: no error")
+	}
+}
+
+// TestWriteMixtureVector: with Vector set, each row is one list of Dims float32 values equal to
+// the mixture's row.
+func TestWriteMixtureVector(t *testing.T) {
+	opt := DefaultMixtureOptions()
+	opt.Rows, opt.Dims, opt.RowGroup, opt.Vector = 300, 8, 128, "emb"
+	path := filepath.Join(t.TempDir(), "vec.parquet")
+	if err := WriteMixture(path, opt); err != nil {
+		t.Fatal(err)
+	}
+	want, _ := Mixture(opt)
+	var got []float64
+	schema := forEachRecord(t, path, Parquet, func(rec arrow.Record) {
+		l := rec.Column(0).(*array.List)
+		v := l.ListValues().(*array.Float32)
+		for i := range l.Len() {
+			lo, hi := l.ValueOffsets(i)
+			if hi-lo != int64(opt.Dims) {
+				t.Fatalf("row %d holds %d values, want %d", i, hi-lo, opt.Dims)
+			}
+			for j := lo; j < hi; j++ {
+				got = append(got, float64(v.Value(int(j))))
+			}
+		}
+	})
+	if schema.NumFields() != 1 || schema.Field(0).Name != "emb" {
+		t.Fatalf("schema %v, want one column emb", schema)
+	}
+	if len(got) != len(want) {
+		t.Fatalf("%d values, want %d", len(got), len(want))
+	}
+	for i := range want {
+		if got[i] != float64(float32(want[i])) {
+			t.Fatalf("value %d = %v, want %v", i, got[i], float32(want[i]))
+		}
+	}
+}

@@ -25,14 +25,16 @@ import (
 	abeam "github.com/apache/beam/sdks/v2/go/pkg/beam"
 	"github.com/apache/beam/sdks/v2/go/pkg/beam/runners"
 	_ "github.com/apache/beam/sdks/v2/go/pkg/beam/x/beamx" // registers every runner and file system
+	_ "gocloud.dev/blob/azureblob"                         // azblob:// inputs; this binary links the big SDKs anyway
+	_ "gocloud.dev/blob/gcsblob"                           // gs:// inputs
+
 	"github.com/kgauge/kgauge"
 	kbeam "github.com/kgauge/kgauge/beam"
 	"github.com/kgauge/kgauge/internal/cliflags"
+	"github.com/kgauge/kgauge/internal/errtext"
 	"github.com/kgauge/kgauge/internal/exitcode"
 	"github.com/kgauge/kgauge/stream/objstore"
 	_ "github.com/kgauge/kgauge/stream/objstore/s3" // s3:// inputs and --out
-	_ "gocloud.dev/blob/azureblob"                  // azblob:// inputs; this binary links the big SDKs anyway
-	_ "gocloud.dev/blob/gcsblob"                    // gs:// inputs
 )
 
 // Exit codes: those of kgauge (internal/exitcode).
@@ -136,7 +138,7 @@ func report(err error, stderr io.Writer) int {
 		return exitOK
 	}
 	code := exitcode.Of(err)
-	msg := strings.ReplaceAll(err.Error(), "\n", "; ")
+	msg := errtext.Line(strings.ReplaceAll(err.Error(), "\n", "; "))
 	if !strings.HasPrefix(msg, "kgauge") {
 		msg = "kgauge-beam: " + msg
 	}

@@ -2,6 +2,7 @@
 // same file and with a reference library; see DEVELOPERS.md. Subcommands:
 //
 //	kgauge-speed gen --rows N --dims D --out FILE    write a Gaussian-mixture Parquet file
+//	kgauge-speed gen-points --in TXT --out FILE      write a published point set as Parquet
 //	kgauge-speed scan --workers W FILE               bare parquet-go page scan (the floor)
 //	kgauge-speed run --out DIR                       the whole benchmark, report written to DIR
 //	kgauge-speed render --out DIR                    rewrite DIR/SPEED.md from DIR/speed.json
@@ -23,6 +24,7 @@ import (
 
 	"github.com/kgauge/kgauge/bench/speed"
 	"github.com/kgauge/kgauge/bench/synth"
+	"github.com/kgauge/kgauge/internal/refsets"
 )
 
 func main() {
@@ -49,6 +51,7 @@ func run(ctx context.Context, args []string, stdout, stderr io.Writer) error {
 		fs.Float64Var(&o.Separation, "separation", 6, "distance between centres in cluster sds")
 		fs.IntVar(&o.RowGroup, "row-group", 1<<20, "rows per row group")
 		fs.Uint64Var(&o.Seed, "seed", 1, "seed")
+		fs.StringVar(&o.Vector, "vector", "", "write each row as one list<float32> column of this name")
 		comp := fs.String("compression", "none", "snappy, zstd or none")
 		out := fs.String("out", "", "output file")
 		npy := fs.String("npy", "", "also write the rows as a NumPy .npy file (for the reference library)")
@@ -80,6 +83,17 @@ func run(ctx context.Context, args []string, stdout, stderr io.Writer) error {
 		}
 		return json.NewEncoder(stdout).Encode(map[string]any{"rows": r.Rows, "values": r.Values,
 			"sum": r.Sum, "seconds": time.Since(start).Seconds()})
+	case "gen-points":
+		in := fs.String("in", "", "point set (text, one point a line)")
+		out := fs.String("out", "", "output Parquet file")
+		if err := fs.Parse(args[1:]); err != nil {
+			return err
+		}
+		x, d, err := refsets.Read(*in)
+		if err != nil {
+			return err
+		}
+		return synth.WritePoints(*out, x, d)
 	case "render":
 		var cfg speed.Config
 		cfg.Register(fs)

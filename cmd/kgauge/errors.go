@@ -5,12 +5,12 @@ import (
 	"flag"
 	"fmt"
 	"io"
-	"os"
 	"regexp"
 	"strings"
 
 	"github.com/kgauge/kgauge"
 	"github.com/kgauge/kgauge/internal/cliflags"
+	"github.com/kgauge/kgauge/internal/errtext"
 	"github.com/kgauge/kgauge/internal/exitcode"
 	"github.com/kgauge/kgauge/stream"
 )
@@ -57,7 +57,7 @@ func report(err error, stderr io.Writer) int {
 	if err == nil || code == ExitOK {
 		return code
 	}
-	msg := inert(userTerms(strings.ReplaceAll(err.Error(), "\n", "; ")))
+	msg := inert(errtext.Line(strings.ReplaceAll(err.Error(), "\n", "; ")))
 	if errors.Is(err, stream.ErrUnreadableFile) {
 		msg += " (--skip-unreadable skips such files and lists them)"
 	}
@@ -79,33 +79,6 @@ func report(err error, stderr io.Writer) int {
 }
 
 func versionString() string { return kgauge.Version }
-
-// packagePrefix matches the name of one of kgauge's packages at the start of an error's part
-// ("sketch: ", "criteria: "), which says where in the code it arose, not what the user named.
-var packagePrefix = regexp.MustCompile(`(^|: |; )(?:stream|criteria|sketch|ledger|lake|objstore|model|beam|kgauge): `)
-
-// userTerms removes package prefixes from an error message, so that it speaks of files, columns
-// and flags only.
-func userTerms(msg string) string {
-	for {
-		out := packagePrefix.ReplaceAllStringFunc(msg, func(m string) string {
-			sep, word := "", m
-			for _, p := range []string{": ", "; "} {
-				if strings.HasPrefix(m, p) {
-					sep, word = p, m[len(p):]
-				}
-			}
-			if _, err := os.Lstat(strings.TrimSuffix(word, ": ")); err == nil {
-				return m // a file of that name: the user's own term
-			}
-			return sep
-		})
-		if out == msg {
-			return out
-		}
-		msg = out
-	}
-}
 
 // parseArgs parses args into fs in the GNU style: flags may come before and after the PATHs
 // (fs.Args() returns the PATHs in order), "--" ends the flags, and -h or --help prints the

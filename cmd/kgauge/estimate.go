@@ -11,14 +11,15 @@ import (
 	"strings"
 	"time"
 
+	"github.com/schollz/progressbar/v3"
+	"golang.org/x/term"
+
 	"github.com/kgauge/kgauge"
 	"github.com/kgauge/kgauge/capacity"
 	"github.com/kgauge/kgauge/cost"
 	"github.com/kgauge/kgauge/internal/atomicfile"
 	"github.com/kgauge/kgauge/internal/cliflags"
 	htmlreport "github.com/kgauge/kgauge/report"
-	"github.com/schollz/progressbar/v3"
-	"golang.org/x/term"
 )
 
 // EstimateCommand runs "kgauge estimate".
@@ -201,9 +202,10 @@ func isTerminal(w io.Writer) bool {
 	return ok && f.Fd() != ^uintptr(0) && term.IsTerminal(int(f.Fd()))
 }
 
-// showProgress draws a bar of rows read on w until the returned function is called. Its ETA starts
-// from the model's predicted terms (zero when unknown) and moves to the rate
-// measured on the rows read so far as the pass advances.
+// showProgress draws the run's progress on w until the returned function is called: while the
+// files are probed and read, a bar of rows read with the bytes, the rate and the time left; while
+// k is scored, a bar of the criteria stage's share of work done. The time left starts from the
+// model's predicted terms (zero when unknown) and moves to what is measured as a stage advances.
 func showProgress(p *kgauge.Progress, w io.Writer, pred cost.Terms) func() {
 	done := make(chan struct{})
 	finished := make(chan struct{})
@@ -211,7 +213,8 @@ func showProgress(p *kgauge.Progress, w io.Writer, pred cost.Terms) func() {
 	go func() {
 		defer close(finished)
 		var bar *progressbar.ProgressBar
-		lastStage, stageStart := "", time.Now()
+		scoring := false
+		lastStage, stageStart := kgauge.Stage(""), time.Now()
 		tick := time.NewTicker(150 * time.Millisecond)
 		defer tick.Stop()
 		for {
@@ -224,10 +227,27 @@ func showProgress(p *kgauge.Progress, w io.Writer, pred cost.Terms) func() {
 			case <-tick.C:
 			}
 			total := p.TotalRows.Load()
+			stage := p.Stage()
+			if stage != lastStage {
+				lastStage, stageStart = stage, time.Now()
+			}
+			if stage == kgauge.StageCriteria && !scoring {
+				// The rows are all read: the bar now counts the criteria's work.
+				if bar != nil {
+					bar.Finish()
+				}
+				scoring = true
+				bar = progressbar.NewOptions64(1000,
+					progressbar.OptionSetWriter(w),
+					progressbar.OptionSetDescription("scoring k"),
+					progressbar.OptionThrottle(100*time.Millisecond),
+					progressbar.OptionClearOnFinish(),
+					progressbar.OptionSetPredictTime(false))
+			}
 			if bar == nil && total > 0 {
 				bar = progressbar.NewOptions64(total,
 					progressbar.OptionSetWriter(w),
-					progressbar.OptionSetDescription("reading"),
+					progressbar.OptionSetDescription("opening"),
 					progressbar.OptionShowCount(),
 					progressbar.OptionShowIts(),
 					progressbar.OptionSetItsString("rows"),
@@ -238,17 +258,25 @@ func showProgress(p *kgauge.Progress, w io.Writer, pred cost.Terms) func() {
 			if bar == nil {
 				continue
 			}
-			rows := p.Rows.Load()
-			stage, _ := p.Stage.Load().(string)
-			if stage != lastStage {
-				lastStage, stageStart = stage, time.Now()
-			}
-			bar.Set64(rows)
-			label := "reading"
-			if stage == "criteria" {
+			now := progressNow{stage: stage, elapsed: time.Since(start).Seconds(), inStage: time.Since(stageStart).Seconds(),
+				rows: p.Rows.Load(), total: total, scored: p.CriteriaShare()}
+			var label string
+			switch {
+			case scoring:
+				bar.Set64(int64(1000 * now.scored))
 				label = "scoring k"
+			case stage == kgauge.StagePass:
+				bar.Set64(now.rows)
+				label = "reading"
+				if b := p.Bytes.Load(); b > 0 && now.inStage > 0 {
+					label += fmt.Sprintf(" %s at %s/s", bytesText(b), bytesText(int64(float64(b)/now.inStage)))
+				}
+			case stage == kgauge.StageProbe:
+				label = "probing the first rows"
+			default:
+				label = "opening"
 			}
-			if eta := progressETA(pred, time.Since(start).Seconds(), stage, stageStart, rows, total); eta >= 0 {
+			if eta := progressETA(pred, now); eta >= 0 {
 				label += fmt.Sprintf(" · about %s left", secondsText(eta))
 			}
 			bar.Describe(label)
@@ -260,32 +288,49 @@ func showProgress(p *kgauge.Progress, w io.Writer, pred cost.Terms) func() {
 	}
 }
 
+// progressNow is what the progress bar knows at one moment of a run.
+type progressNow struct {
+	stage            kgauge.Stage
+	elapsed, inStage float64 // seconds since the run and the stage started
+	rows, total      int64   // rows read by the pass, rows expected
+	scored           float64 // share of the criteria stage's work done
+}
+
 // progressETA is the remaining seconds of the run, or -1 when nothing is known. Before the pass it is
-// the model's prediction less the time elapsed. During the pass, at a share f of the rows read, the
-// pass's remaining time is (1−f)·(model's) + f·(measured rate's), so the model leads at the start and
-// the measurement at the end; the model's criteria time follows. While scoring k it is the model's
-// criteria time less the time spent on them.
-func progressETA(pred cost.Terms, elapsed float64, stage string, stageStart time.Time, rows, total int64) float64 {
+// the model's prediction less the time elapsed. Within the pass and the criteria stage, at a share
+// f of the stage's work done, the stage's remaining time is (1−f)·(model's remaining) + f·(measured
+// pace's remaining), so the model leads at the start and the measurement at the end; the model's
+// criteria time follows the pass. When the model's time for a stage is used up and nothing is
+// measured yet, the time left is unknown (-1), never "0 s left" while work remains.
+func progressETA(pred cost.Terms, now progressNow) float64 {
 	total0 := pred.Open + pred.Probe + pred.Pass + pred.Criteria
-	inStage := time.Since(stageStart).Seconds()
-	switch {
-	case stage == "criteria":
-		if total0 <= 0 {
-			return -1
+	blend := func(model, f float64) float64 {
+		if f <= 0 {
+			if total0 <= 0 || model-now.inStage <= 0 {
+				return -1
+			}
+			return model - now.inStage
 		}
-		return max(pred.Criteria-inStage, 0)
-	case stage == "pass" && total > 0 && rows > 0:
-		f := min(float64(rows)/float64(total), 1)
-		measured := inStage * (1 - f) / f
+		measured := now.inStage * (1 - f) / f
 		if total0 <= 0 {
 			return measured
 		}
-		return (1-f)*max(pred.Pass-inStage, 0) + f*measured + pred.Criteria
+		return (1-f)*max(model-now.inStage, 0) + f*measured
 	}
-	if total0 <= 0 {
+	switch {
+	case now.stage == kgauge.StageCriteria:
+		return blend(pred.Criteria, min(now.scored, 1))
+	case now.stage == kgauge.StagePass && now.total > 0 && now.rows > 0:
+		eta := blend(pred.Pass, min(float64(now.rows)/float64(now.total), 1))
+		if total0 <= 0 {
+			return eta
+		}
+		return eta + pred.Criteria
+	}
+	if total0 <= 0 || total0-now.elapsed <= 0 {
 		return -1
 	}
-	return max(total0-elapsed, 0)
+	return total0 - now.elapsed
 }
 
 func writeJSON(w io.Writer, res *kgauge.Result) error {

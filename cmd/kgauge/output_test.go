@@ -151,25 +151,6 @@ func TestInputsNamed(t *testing.T) {
 	}
 }
 
-// TestUserTerms: package names are removed from messages, a file of such a name is kept.
-func TestUserTerms(t *testing.T) {
-	dir := t.TempDir()
-	t.Chdir(dir)
-	os.WriteFile("model", nil, 0o644)
-	cases := []struct{ in, want string }{
-		{"sketch: cannot merge sketches of different columns", "cannot merge sketches of different columns"},
-		{"a.kgs: sketch: corrupt sketch file: crc", "a.kgs: corrupt sketch file: crc"},
-		{"criteria: max-k 9 is more than the rows; stream: x.parquet: bad", "max-k 9 is more than the rows; x.parquet: bad"},
-		{"model: not a Parquet or Arrow IPC file", "model: not a Parquet or Arrow IPC file"},
-		{"lake/stream: x", "lake/stream: x"},
-	}
-	for _, tc := range cases {
-		if got := userTerms(tc.in); got != tc.want {
-			t.Errorf("userTerms(%q) = %q, want %q", tc.in, got, tc.want)
-		}
-	}
-}
-
 // TestMessagesInUserTerms: errors a user meets name the file, the column or the flag in one line,
 // without package prefixes or repeated words.
 func TestMessagesInUserTerms(t *testing.T) {

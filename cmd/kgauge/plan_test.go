@@ -6,8 +6,8 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
-	"time"
 
+	"github.com/kgauge/kgauge"
 	"github.com/kgauge/kgauge/cost"
 )
 
@@ -173,30 +173,34 @@ func TestEstimateReportAndProjection(t *testing.T) {
 	}
 }
 
+// TestProgressETA: the time left follows the model at the start of a stage and the measured pace
+// at its end, and is unknown rather than zero once the model's time is used up.
 func TestProgressETA(t *testing.T) {
 	pred := modelTerms(2, 6, 2) // probe+open 2 s, pass 6 s, criteria 2 s
-	now := time.Now()
 	for _, tc := range []struct {
-		name        string
-		elapsed     float64
-		stage       string
-		since       time.Duration
-		rows, total int64
-		want        float64
+		name string
+		now  progressNow
+		want float64
 	}{
-		{"before the pass: the model", 1, "probe", 0, 0, 100, 9},
-		{"start of pass: the model leads", 2, "pass", 0, 1, 1000, 0.999*6 + 0.001*0 + 2},
-		{"half way, on the model's pace", 5, "pass", 3 * time.Second, 50, 100, 0.5*3 + 0.5*3 + 2},
-		{"half way, twice as slow", 8, "pass", 6 * time.Second, 50, 100, 0.5*0 + 0.5*6 + 2},
-		{"scoring", 9, "criteria", time.Second, 100, 100, 1},
+		{"before the pass: the model", progressNow{stage: kgauge.StageProbe, elapsed: 1, total: 100}, 9},
+		{"start of pass: the model leads", progressNow{stage: kgauge.StagePass, elapsed: 2, rows: 1, total: 1000}, 0.999*6 + 0.001*0 + 2},
+		{"half way, on the model's pace", progressNow{stage: kgauge.StagePass, elapsed: 5, inStage: 3, rows: 50, total: 100}, 0.5*3 + 0.5*3 + 2},
+		{"half way, twice as slow", progressNow{stage: kgauge.StagePass, elapsed: 8, inStage: 6, rows: 50, total: 100}, 0.5*0 + 0.5*6 + 2},
+		{"scoring, nothing measured", progressNow{stage: kgauge.StageCriteria, elapsed: 9, inStage: 1, rows: 100, total: 100}, 1},
+		{"scoring, a quarter done in 3 s", progressNow{stage: kgauge.StageCriteria, elapsed: 11, inStage: 3, rows: 100, total: 100, scored: 0.25}, 0.25 * 9},
+		{"scoring, model used up, nothing measured", progressNow{stage: kgauge.StageCriteria, elapsed: 15, inStage: 5, rows: 100, total: 100}, -1},
+		{"past the model before the pass", progressNow{stage: kgauge.StageProbe, elapsed: 30, total: 100}, -1},
 	} {
-		got := progressETA(pred, tc.elapsed, tc.stage, now.Add(-tc.since), tc.rows, tc.total)
+		got := progressETA(pred, tc.now)
 		if d := got - tc.want; d > 0.05 || d < -0.05 {
 			t.Errorf("%s: ETA %v, want %v", tc.name, got, tc.want)
 		}
 	}
-	if got := progressETA(modelTerms(0, 0, 0), 1, "probe", now, 0, 0); got != -1 {
+	if got := progressETA(modelTerms(0, 0, 0), progressNow{stage: kgauge.StageProbe, elapsed: 1}); got != -1 {
 		t.Errorf("no model, no rows: ETA %v, want -1", got)
+	}
+	if got := progressETA(modelTerms(0, 0, 0), progressNow{stage: kgauge.StageCriteria, inStage: 2, scored: 0.5}); got != 2 {
+		t.Errorf("no model, half scored in 2 s: ETA %v, want 2", got)
 	}
 }
 

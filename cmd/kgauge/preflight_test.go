@@ -5,7 +5,6 @@ import (
 	"math"
 	"path/filepath"
 	"testing"
-	"time"
 
 	"github.com/kgauge/kgauge"
 	"github.com/kgauge/kgauge/bench/synth"
@@ -33,7 +32,7 @@ func TestPreflightFiguresAgree(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		eta := progressETA(pred.Terms, 0, "open", time.Now(), 0, 0)
+		eta := progressETA(pred.Terms, progressNow{stage: kgauge.StageOpen})
 		for _, c := range []struct {
 			name      string
 			got, want float64

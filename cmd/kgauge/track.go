@@ -10,6 +10,7 @@ import (
 	"strings"
 	"time"
 
+	"github.com/kgauge/kgauge/internal/errtext"
 	"github.com/kgauge/kgauge/ledger"
 )
 
@@ -80,7 +81,7 @@ func runTrack(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 		fmt.Fprintln(stderr, "kgauge: "+ue.Error())
 		return ExitInput
 	case errors.As(err, &le), errors.As(err, &line), errors.As(err, &pe):
-		fmt.Fprintln(stderr, "kgauge: track: "+inert(strings.ReplaceAll(err.Error(), "\n", "; ")))
+		fmt.Fprintln(stderr, "kgauge: track: "+inert(errtext.Line(strings.ReplaceAll(err.Error(), "\n", "; "))))
 		return ExitInput
 	case errors.As(err, &use):
 		err = &usageError{msg: err.Error()}

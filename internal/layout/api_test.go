@@ -145,3 +145,45 @@ func TestExportedAPINamesNoInternalType(t *testing.T) {
 		}
 	}
 }
+
+// TestSentinelsNamePackage (issue 16): every exported sentinel error of a library package
+// (var ErrX = errors.New("...")) starts its message with its package's name, as Go packages do
+// ("bufio: buffer full"), so a program using the library can tell where it arose. The binaries
+// remove these prefixes from what a person reads (internal/errtext).
+func TestSentinelsNamePackage(t *testing.T) {
+	n := 0
+	for dir, files := range libraryPackages(t) {
+		for _, f := range files {
+			for _, decl := range f.Decls {
+				d, ok := decl.(*ast.GenDecl)
+				if !ok || d.Tok != token.VAR {
+					continue
+				}
+				for _, spec := range d.Specs {
+					s := spec.(*ast.ValueSpec)
+					for i, name := range s.Names {
+						if !name.IsExported() || !strings.HasPrefix(name.Name, "Err") || i >= len(s.Values) {
+							continue
+						}
+						call, ok := s.Values[i].(*ast.CallExpr)
+						if !ok || len(call.Args) != 1 {
+							continue
+						}
+						lit, ok := call.Args[0].(*ast.BasicLit)
+						if !ok {
+							continue
+						}
+						msg, _ := strconv.Unquote(lit.Value)
+						n++
+						if !strings.HasPrefix(msg, f.Name.Name+": ") {
+							t.Errorf("%s: %s = %q does not start with %q", dir, name.Name, msg, f.Name.Name+": ")
+						}
+					}
+				}
+			}
+		}
+	}
+	if n < 20 {
+		t.Errorf("found %d sentinels; the scan is broken", n)
+	}
+}
