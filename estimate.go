@@ -57,8 +57,8 @@ type Result struct {
 	// empty when none.
 	SkippedFiles []SkippedFile `json:"skipped_files"`
 	Scaling      Scaling       `json:"scaling"`
-	// Reduction is set when the criteria ran in fewer dimensions than the feature columns: a
-	// seeded random projection of the summary (sketch/reduce); null otherwise.
+	// Reduction is set when the criteria ran in fewer dimensions than the feature columns: the
+	// summary mapped onto its leading principal components (sketch/reduce); null otherwise.
 	Reduction  *reduce.Info `json:"reduction"`
 	Sketch     SketchInfo   `json:"sketch"`
 	MinK       int          `json:"min_k"`
