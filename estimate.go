@@ -111,7 +111,11 @@ func Evaluate(ctx context.Context, sk *sketch.Sketch, opt Options) (*Result, err
 	start := time.Now()
 	sum, sc := Summarize(sk, opt.Scale)
 	sum, red := ReduceWide(sum, opt)
-	cr, err := criteria.Evaluate(ctx, sum, opt.Criteria)
+	copt := opt.Criteria
+	if p := opt.Progress; p != nil {
+		copt.Progress = p.scoredShare
+	}
+	cr, err := criteria.Evaluate(ctx, sum, copt)
 	if err != nil {
 		return nil, err
 	}

@@ -42,6 +42,22 @@ func rngFor(seed uint64, k, purpose int) *rand.Rand {
 // relative tolerance of 1e-5 changes ln W by about 1e-5, far below the simulation error s_k.
 const gapTol = 1e-5
 
+// gapRaceTol is the Lloyd tolerance at which the sweep starts of every gap fit race before the
+// best runs on to gapTol (fitPath's Race). On the ten reference sets of
+// BenchmarkCriteriaStage/d=16 it cut their paths' time by about 35% and moved mean_b ln W*_kb
+// by at most 0.001 at any k (0.0001 between neighbouring k), against s_k of about 0.004
+// (DEVELOPERS.md, "Criteria stage, round 2").
+const gapRaceTol = 1e-3
+
+// mainRaceTol is the Lloyd tolerance at which the starts of every main fit (the k-means++
+// restarts with the seed centres, and each sweep's starts) race before the best runs on to
+// Lloyd's default 1e-7 (fitPath's Race). On BenchmarkCriteriaStage/d=16 it cut the criteria
+// stage's CPU time by about 18% with the same votes; against scikit-learn's best of 10
+// (TestFitsAgainstSklearnCommitted) the worst excess went from +0.000% to +0.027% (S4), and the
+// WCSS spread over seeds 1..10 on S4 from 0.32% to 0.56% (DEVELOPERS.md, "Criteria stage,
+// round 2"). 0 turns the race off.
+const mainRaceTol = 1e-3
+
 // gmmMaxIter and gmmTol bound the EM of the full-covariance mixture at each k (EM starts from the
 // k-means fit): at most 20 iterations, stopping when the log-likelihood per unit weight moves by
 // <= 1e-3 (scikit-learn GaussianMixture's tol; its max_iter is 100). On the demo lake (200,000 rows,
@@ -62,7 +78,8 @@ const wardDirectMax = 400
 // For each k it fits weighted k-means on the coreset (fitPath: the Summary's seed centres for k,
 // if any, plus opt.Restarts k-means++ seedings, more where a Lloyd iteration is cheap, then
 // sweeps that start k from the k-1 solution plus a k-means++ point and from the k+1 solution with
-// its cheapest pair merged; the lowest cost kept) and computes from that fit the WCSS (scaled to
+// its cheapest pair merged; the lowest cost kept; the starts of each step race at Lloyd tolerance
+// 1e-3 and the best runs on to 1e-7) and computes from that fit the WCSS (scaled to
 // N rows), the silhouette (SilhouetteAnchors, opt.Anchors anchors), the simplified silhouette,
 // Calinski–Harabasz and Davies–Bouldin (on the weighted coreset), a full-covariance GMM fitted by
 // EM from the k-means fit (GMMFullFit; 1e-6 times the mean per-dimension variance added to every
@@ -76,8 +93,8 @@ const wardDirectMax = 400
 // on the weighted coreset itself when it has at most 400 points, and otherwise on the weighted
 // centroids of a finer fit with max(3 MaxK, 50) centres.
 //
-// The gap fits are fitPaths too (opt.GapRestarts k-means++ seedings and the sweeps, Lloyd
-// tolerance 1e-5), the data side also started from the main fit's centres at each k and every
+// The gap fits are fitPaths too (opt.GapRestarts k-means++ seedings and the sweeps, whose starts
+// race at Lloyd tolerance 1e-3 before the best runs on to 1e-5), the data side also started from the main fit's centres at each k and every
 // reference set on a path of its own. Each criterion then votes (Result.Votes, CriterionNames order): elbow = Kneedle on WCSS(k)
 // over the valid k; silhouette, simplified_silhouette and calinski_harabasz = argmax over k >= 2;
 // davies_bouldin = argmin over k >= 2; gap_box and gap_pca = GapRule; bic_gmm, aic_gmm and
@@ -123,6 +140,7 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 		}
 		res.Verdict = Verdict{K: 1, Structure: false, Disagree: []string{}, Agree: []string{},
 			Rule: "all points identical (zero spread): k = 1, no cluster structure"}
+		newProgress(opt.Progress, 1).finish()
 		return res, nil
 	}
 
@@ -145,26 +163,36 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 
 	checks := gapSide(s, checkPoints, rngFor(opt.Seed, 0, streamChecks))
 	splitA, splitB := splitHalves(whiten(checks, s.Cov), rngFor(opt.Seed, 0, streamSplit))
-	res.Modes, _ = modeCheck(checks, rngFor(opt.Seed, 0, streamModes))
 
 	stop := func() bool { return ctx.Err() != nil }
 
-	// Stage 1: the k-means fit of every k on the coreset (fitPath: restarts per k in parallel,
-	// then the sweeps from the neighbouring k).
-	fits := mainFits(s, opt, workers, stop)
-	if err := ctx.Err(); err != nil {
-		return nil, fmt.Errorf("criteria: evaluate: %w", err)
-	}
-	copy(res.Fits, fits)
-
-	// Stage 2, in parallel: the Ward linkage, the gap paths (data side started from the main
-	// fits, each reference set a path of its own) and the per-k scores.
+	// The work, with its expected cost (schedule.go): the main fit path (stage 1: restarts per
+	// k in parallel, then the sweeps), and jobs on a pool. Jobs that do not need the main fits
+	// (the one-mode check, Ward, the gap's reference paths) start at once beside stage 1; the
+	// per-k scores and the gap's data side follow it. The pool runs the most expensive queued
+	// job first and bounds the running work to workers slots.
+	n, d := core.Len(), s.D
+	mainOpt := mainPathOptions(s, opt, workers, stop)
+	mainCost := pathCost(core, opt.MinK, opt.MaxK, mainOpt)
 	gapHi := min(opt.MaxK, nref)
+	refCost := gapPathCost(nref, opt.MinK, gapHi, d)
+	var jobs []job
+	jobs = append(jobs, job{cost: restartCost(checkPoints, 3, d, 12), run: func() {
+		res.Modes, _ = modeCheck(checks, rngFor(opt.Seed, 0, streamModes))
+	}})
+	var ward []Merge
+	if !opt.SkipWard {
+		kf := WardLeaves(n, opt.MaxK)
+		jobs = append(jobs, job{cost: restartCost(n, kf, d, 1) + float64(kf*kf*kf), run: func() {
+			res.Ward, ward = wardLeaves(core, opt, scale)
+		}})
+	}
 	var dataW []float64
 	boxW := make([][]float64, len(boxRefs))
 	pcaW := make([][]float64, len(pcaRefs))
-	gapPath := func(p Points, init bool, rng func(k int) *rand.Rand) []float64 {
-		po := pathOptions{Restarts: opt.GapRestarts, Lloyd: kmeans.LloydOptions{Tol: gapTol}, Rand: rng, Stop: stop}
+	gapPath := func(p Points, init bool, rng func(k int) *rand.Rand, fits []Fit) []float64 {
+		po := pathOptions{Restarts: opt.GapRestarts, Lloyd: kmeans.LloydOptions{Tol: gapTol}, Race: kmeans.LloydOptions{Tol: gapRaceTol},
+			Rand: rng, Stop: stop}
 		if init {
 			po.Init = func(k int) [][]float64 { return [][]float64{fits[k-opt.MinK].Centres} }
 		}
@@ -175,39 +203,67 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 		}
 		return w
 	}
-	var jobs []func()
-	var ward []Merge
-	if !opt.SkipWard {
-		jobs = append(jobs, func() { res.Ward, ward = wardLeaves(core, opt, scale) })
-	}
 	if gapHi >= opt.MinK {
-		jobs = append(jobs, func() {
-			dataW = gapPath(gapData, true, func(k int) *rand.Rand { return rngFor(opt.Seed, k, streamGapData) })
-		})
 		for b := range boxRefs {
-			jobs = append(jobs, func() {
-				boxW[b] = gapPath(boxRefs[b], false, func(k int) *rand.Rand { return rngFor(opt.Seed, refStream(k, b), streamGapBox) })
-			})
+			jobs = append(jobs, job{cost: refCost, run: func() {
+				boxW[b] = gapPath(boxRefs[b], false, func(k int) *rand.Rand { return rngFor(opt.Seed, refStream(k, b), streamGapBox) }, nil)
+			}})
 		}
 		for b := range pcaRefs {
-			jobs = append(jobs, func() {
-				pcaW[b] = gapPath(pcaRefs[b], false, func(k int) *rand.Rand { return rngFor(opt.Seed, refStream(k, b), streamGapPCA) })
-			})
+			jobs = append(jobs, job{cost: refCost, run: func() {
+				pcaW[b] = gapPath(pcaRefs[b], false, func(k int) *rand.Rand { return rngFor(opt.Seed, refStream(k, b), streamGapPCA) }, nil)
+			}})
 		}
 	}
+	var later []job
+	var fits []Fit
+	if gapHi >= opt.MinK {
+		later = append(later, job{cost: refCost / 2, run: func() {
+			dataW = gapPath(gapData, true, func(k int) *rand.Rand { return rngFor(opt.Seed, k, streamGapData) }, fits)
+		}})
+	}
 	for k := opt.MaxK; k >= opt.MinK; k-- {
-		jobs = append(jobs, func() {
+		later = append(later, job{cost: scoreCost(n, k, d, opt.Anchors, splitA.Len()), run: func() {
 			sc := scoreK(core, fits[k-opt.MinK], k, s, opt, scale, reg, stop)
 			if sc.Valid && !stop() {
 				sc.SplitAgreement = splitAgreement(splitA, splitB, k, 2, rngFor(opt.Seed, k, streamSplit))
 			}
 			res.PerK[k-opt.MinK] = sc
-		})
+		}})
 	}
-	runJobs(jobs, workers, stop)
+	total := mainCost
+	for _, j := range append(jobs, later...) {
+		total += j.cost
+	}
+	prog := newProgress(opt.Progress, total)
+	pl := newPool(workers, stop, prog)
+	pl.add(jobs...)
+
+	// Stage 1: the k-means fit of every k on the coreset.
+	reported := 0.0
+	var mu sync.Mutex
+	mainOpt.Pool = pl
+	mainOpt.Report = func(units float64) { // the restarts report from several goroutines
+		mu.Lock()
+		reported += units
+		mu.Unlock()
+		prog.add(units)
+	}
+	fits = fitPath(core, opt.MinK, opt.MaxK, mainOpt)
+	prog.add(mainCost - reported)
+	if err := ctx.Err(); err != nil {
+		pl.wait()
+		return nil, fmt.Errorf("criteria: evaluate: %w", err)
+	}
+	copy(res.Fits, fits)
+
+	// Stage 2: the per-k scores and the gap's data side (started from the main fits at each k).
+	pl.add(later...)
+	pl.wait()
 	if err := ctx.Err(); err != nil {
 		return nil, fmt.Errorf("criteria: evaluate: %w", err)
 	}
+	prog.finish()
 	for i := range dataW {
 		sc := &res.PerK[i]
 		if !(dataW[i] > 0) {
@@ -234,7 +290,12 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 // mainFits returns Evaluate's k-means fit of every k on the coreset (opt with defaults applied):
 // fitPath with opt.Restarts k-means++ seedings plus the Summary's seed centres for k.
 func mainFits(s Summary, opt Options, workers int, stop func() bool) []Fit {
-	return fitPath(s.Coreset, opt.MinK, opt.MaxK, pathOptions{
+	return fitPath(s.Coreset, opt.MinK, opt.MaxK, mainPathOptions(s, opt, workers, stop))
+}
+
+// mainPathOptions returns the fitPath options of mainFits.
+func mainPathOptions(s Summary, opt Options, workers int, stop func() bool) pathOptions {
+	return pathOptions{
 		Restarts: opt.Restarts,
 		Cheap:    cheapWork,
 		Init: func(k int) [][]float64 {
@@ -243,10 +304,11 @@ func mainFits(s Summary, opt Options, workers int, stop func() bool) []Fit {
 			}
 			return nil
 		},
+		Race:    kmeans.LloydOptions{Tol: mainRaceTol},
 		Rand:    func(k int) *rand.Rand { return rngFor(opt.Seed, k, streamFit) },
 		Workers: workers,
 		Stop:    stop,
-	})
+	}
 }
 
 // refLogW returns mean_b ln W*_kb and s_k (see GapStat) from the reference costs w[b][i] at
@@ -275,29 +337,6 @@ func refLogW(w [][]float64, i int) (mean, sk float64, ok bool) {
 // refStream folds the reference set number b into the k argument of rngFor, so every (k, set)
 // pair has a stream of its own.
 func refStream(k, b int) int { return k | (b+1)<<16 }
-
-// runJobs runs the jobs on the given number of goroutines, in order of submission; jobs
-// submitted after stop() reports true are skipped.
-func runJobs(jobs []func(), workers int, stop func() bool) {
-	ch := make(chan func())
-	var wg sync.WaitGroup
-	for w := 0; w < max(workers, 1); w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for f := range ch {
-				if !stop() {
-					f()
-				}
-			}
-		}()
-	}
-	for _, f := range jobs {
-		ch <- f
-	}
-	close(ch)
-	wg.Wait()
-}
 
 // scoreK computes the per-k scores of Evaluate (all but the gap and Ward columns) from the fit.
 func scoreK(core Points, fit Fit, k int, s Summary, opt Options, scale, reg float64, stop func() bool) Scores {

@@ -15,10 +15,13 @@ type pathOptions struct {
 	Restarts int                     // k-means++ seedings per k (at least one when init gives none)
 	Cheap    float64                 // more seedings where cheap (restartsFor); 0: opt.Restarts only
 	Lloyd    kmeans.LloydOptions     // Lloyd settings of every fit
+	Race     kmeans.LloydOptions     // when Tol is set: the sweeps' starts run with these settings first, and only the best runs on (see fitPath)
 	Init     func(k int) [][]float64 // extra initial centres per k (may be nil)
 	Rand     func(k int) *rand.Rand  // random stream per k
 	Workers  int                     // goroutines for the per-k restarts (<= 1: sequential)
 	Stop     func() bool             // reports cancellation (may be nil)
+	Pool     *pool                   // when set, every running restart and the sweeps hold one of its slots
+	Report   func(units float64)     // when set, receives the expected cost of each finished step (restarts and first sweeps per k)
 }
 
 // Sweep settings of fitPath: starts tried per k and direction, and the most rounds of both
@@ -55,7 +58,11 @@ func restartsFor(p Points, k, base int, cheap float64) int {
 //     pairs whose merge raises the cost least (Ward's cost w_a w_b / (w_a + w_b) ||c_a - c_b||^2)
 //     merged into their weighted mean.
 //
-// Both sweeps run again (at most sweepRounds times) while they improve some k. With opt.Cheap
+// Both sweeps run again (at most sweepRounds times) while they improve some k. With opt.Race.Tol
+// set, the starts of one step at one k (its restarts and opt.Init's starts, when more than one;
+// the up to sweepTries starts of one sweep) are first run with opt.Race's looser settings and
+// only the cheapest is run on with opt.Lloyd's (a race), instead of running every start to
+// opt.Lloyd's tolerance. With opt.Cheap
 // set, k gets more restarts where its Lloyd iterations are cheap (restartsFor).
 //
 // The sweeps carry a good solution at one k to its neighbours, where independent restarts often
@@ -65,13 +72,28 @@ func fitPath(p Points, lo, hi int, opt pathOptions) []Fit {
 	n := hi - lo + 1
 	fits := make([]Fit, n)
 	stop := func() bool { return opt.Stop != nil && opt.Stop() }
+	report := func(units float64) {
+		if opt.Report != nil {
+			opt.Report(units)
+		}
+	}
 	one := func(k int) {
 		var init [][]float64
 		if opt.Init != nil {
 			init = opt.Init(k)
 		}
-		fits[k-lo] = kmeans.Fit(p, k, kmeans.FitOptions{Restarts: restartsFor(p, k, opt.Restarts, opt.Cheap), Init: init,
-			Lloyd: opt.Lloyd, Rand: opt.Rand(k)})
+		r := restartsFor(p, k, opt.Restarts, opt.Cheap)
+		if opt.Pool != nil {
+			opt.Pool.acquire()
+			defer opt.Pool.release()
+		}
+		if opt.Race.Tol > 0 && r+len(init) > 1 {
+			best := kmeans.Fit(p, k, kmeans.FitOptions{Restarts: r, Init: init, Lloyd: opt.Race, Rand: opt.Rand(k)})
+			fits[k-lo] = kmeans.Lloyd(p, best.Centres, opt.Lloyd)
+		} else {
+			fits[k-lo] = kmeans.Fit(p, k, kmeans.FitOptions{Restarts: r, Init: init, Lloyd: opt.Lloyd, Rand: opt.Rand(k)})
+		}
+		report(restartCost(p.Len(), k, p.D, r+len(init)))
 	}
 	if opt.Workers <= 1 {
 		for k := hi; k >= lo && !stop(); k-- {
@@ -100,30 +122,75 @@ func fitPath(p Points, lo, hi int, opt pathOptions) []Fit {
 	if stop() {
 		return fits
 	}
+	if opt.Pool != nil {
+		opt.Pool.acquire()
+		defer opt.Pool.release()
+	}
+	// ver[i] counts the changes of fits[i]; upFrom[i] and downFrom[i] hold the version of the
+	// neighbour that k = lo + i was last swept from. A sweep start depends only on that neighbour's
+	// fit and on opt.Rand(k), which restarts each round, so a sweep from an unchanged neighbour
+	// would repeat Lloyd runs whose results fits[i] already beats: it is skipped.
+	ver := make([]int, n)
+	upFrom, downFrom := make([]int, n), make([]int, n)
+	for i := range upFrom {
+		upFrom[i], downFrom[i] = -1, -1
+	}
 	keep := func(k int, r Fit) bool {
 		if r.Cost < fits[k-lo].Cost*(1-1e-9) {
 			fits[k-lo] = r
+			ver[k-lo]++
 			return true
 		}
 		return false
 	}
+	// try runs Lloyd from each start and keeps the best result at k. With opt.Race set, every
+	// start first runs with opt.Race's (looser) settings and only the cheapest is run on to
+	// opt.Lloyd's.
+	try := func(k int, inits [][]float64) bool {
+		if opt.Race.Tol == 0 || len(inits) < 2 {
+			kept := false
+			for _, init := range inits {
+				kept = keep(k, kmeans.Lloyd(p, init, opt.Lloyd)) || kept
+			}
+			return kept
+		}
+		var best Fit
+		for i, init := range inits {
+			r := kmeans.Lloyd(p, init, opt.Race)
+			if i == 0 || r.Cost < best.Cost {
+				best = r
+			}
+		}
+		return keep(k, kmeans.Lloyd(p, best.Centres, opt.Lloyd))
+	}
 	for round := 0; round < sweepRounds; round++ {
 		improved := false
 		for k := max(lo, 2); k <= hi && !stop(); k++ {
-			if k-1 < lo {
+			if k-1 < lo || upFrom[k-lo] == ver[k-1-lo] {
 				continue
 			}
+			upFrom[k-lo] = ver[k-1-lo]
 			rng := opt.Rand(k)
+			var inits [][]float64
 			for t := 0; t < sweepTries; t++ {
 				if init, ok := addCentre(p, fits[k-1-lo], rng); ok {
-					improved = keep(k, kmeans.Lloyd(p, init, opt.Lloyd)) || improved
+					inits = append(inits, init)
 				}
+			}
+			improved = try(k, inits) || improved
+			if round == 0 {
+				report(sweepCost(p.Len(), k, p.D) / 2)
 			}
 		}
 		for k := hi - 1; k >= lo && !stop(); k-- {
-			for _, init := range mergeCheapest(fits[k+1-lo], p.D, sweepTries) {
-				improved = keep(k, kmeans.Lloyd(p, init, opt.Lloyd)) || improved
+			if round == 0 {
+				report(sweepCost(p.Len(), k, p.D) / 2)
 			}
+			if downFrom[k-lo] == ver[k+1-lo] {
+				continue
+			}
+			downFrom[k-lo] = ver[k+1-lo]
+			improved = try(k, mergeCheapest(fits[k+1-lo], p.D, sweepTries)) || improved
 		}
 		if !improved {
 			break
@@ -233,4 +300,18 @@ func mergeCheapest(f Fit, d, m int) [][]float64 {
 		out = append(out, c)
 	}
 	return out
+}
+
+// pathCost is the expected cost of fitPath(p, lo, hi, opt): the restarts of every k (with
+// opt.Init's starts) and one round of both sweeps.
+func pathCost(p Points, lo, hi int, opt pathOptions) float64 {
+	c := 0.0
+	for k := lo; k <= hi; k++ {
+		r := restartsFor(p, k, opt.Restarts, opt.Cheap)
+		if opt.Init != nil {
+			r += len(opt.Init(k))
+		}
+		c += restartCost(p.Len(), k, p.D, r) + sweepCost(p.Len(), k, p.D)
+	}
+	return c
 }

@@ -101,6 +101,29 @@ func (c *fullComp) mahalanobis(x, mu, z []float64) float64 {
 	return q
 }
 
+// mahalanobis2 returns the squared Mahalanobis distances of x to (mu, c) and (mu2, c2), each
+// summed in mahalanobis' order; z and z2 are scratch of length D.
+func mahalanobis2(c, c2 *fullComp, x, mu, mu2, z, z2 []float64) (float64, float64) {
+	d := len(x)
+	z, z2 = z[:d], z2[:d]
+	q, q2 := 0.0, 0.0
+	for a := 0; a < d; a++ {
+		row, row2 := c.l[a*d:a*d+a], c2.l[a*d:a*d+a]
+		row2 = row2[:len(row)]
+		s, s2 := x[a]-mu[a], x[a]-mu2[a]
+		for b, v := range row {
+			s -= v * z[b]
+			s2 -= row2[b] * z2[b]
+		}
+		s *= c.invDia[a]
+		s2 *= c2.invDia[a]
+		z[a], z2[a] = s, s2
+		q += s * s
+		q2 += s2 * s2
+	}
+	return q, q2
+}
+
 // LogLik returns the weighted log-likelihood sum_i w_i ln sum_j pi_j N(x_i | mu_j, Sigma_j),
 // computed with the log-sum-exp trick. resp, if not nil (len n*K), receives the
 // responsibilities; a component more than e^40 less likely than another at a point (by a bound
@@ -120,7 +143,7 @@ func (g GMMFull) logLik(p Points, comps []fullComp, resp []float64) float64 {
 	lr := make([]float64, k)
 	ub := make([]float64, k)
 	exact := make([]bool, k)
-	z := make([]float64, d)
+	z, z2 := make([]float64, d), make([]float64, d)
 	ll := 0.0
 	for i := 0; i < p.Len(); i++ {
 		x := p.Point(i)
@@ -137,15 +160,27 @@ func (g GMMFull) logLik(p Points, comps []fullComp, resp []float64) float64 {
 		lr[top] = comps[top].logc - 0.5*comps[top].mahalanobis(x, g.Means[top*d:top*d+d], z)
 		exact[top] = true
 		mx := lr[top]
+		// The components left within the pruning margin go two at a time (two independent
+		// dependency chains); the pair is chosen with mx as it stood before either.
+		pend := -1
 		for j := 0; j < k; j++ {
 			if j == top || ub[j] < mx-pruneGap {
 				continue
 			}
-			lr[j] = comps[j].logc - 0.5*comps[j].mahalanobis(x, g.Means[j*d:j*d+d], z)
-			exact[j] = true
-			if lr[j] > mx {
-				mx = lr[j]
+			if pend < 0 {
+				pend = j
+				continue
 			}
+			qa, qb := mahalanobis2(&comps[pend], &comps[j], x, g.Means[pend*d:pend*d+d], g.Means[j*d:j*d+d], z, z2)
+			lr[pend], lr[j] = comps[pend].logc-0.5*qa, comps[j].logc-0.5*qb
+			exact[pend], exact[j] = true, true
+			mx = max(mx, lr[pend], lr[j])
+			pend = -1
+		}
+		if pend >= 0 {
+			lr[pend] = comps[pend].logc - 0.5*comps[pend].mahalanobis(x, g.Means[pend*d:pend*d+d], z)
+			exact[pend] = true
+			mx = max(mx, lr[pend])
 		}
 		s := 0.0
 		for j := 0; j < k; j++ {
@@ -226,7 +261,10 @@ func GMMFullFit(p Points, init Fit, opt GMMOptions) (GMMFull, float64, int, erro
 	resp := make([]float64, n*k)
 	nk := make([]float64, k)
 	sums, sq := make([]float64, k*d), make([]float64, k*dd)
-	e := make([]float64, d)
+	var blk mBlock
+	for c := range blk.e {
+		blk.e[c] = make([]float64, d)
+	}
 	prev := math.Inf(-1)
 	ll := 0.0
 	iters := 0
@@ -246,31 +284,8 @@ func GMMFullFit(p Points, init Fit, opt GMMOptions) (GMMFull, float64, int, erro
 		clear(nk)
 		clear(sums)
 		clear(sq)
-		for i := 0; i < n; i++ {
-			w := p.Weight(i)
-			x := p.Point(i)
-			r := resp[i*k : i*k+k]
-			for j := 0; j < k; j++ {
-				wr := w * r[j]
-				if wr == 0 {
-					continue
-				}
-				nk[j] += wr
-				s := sums[j*d : j*d+d]
-				m0 := g.Means[j*d : j*d+d]
-				for t, v := range x {
-					e[t] = v - m0[t]
-					s[t] += wr * e[t]
-				}
-				q := sq[j*dd : j*dd+dd]
-				for a := 0; a < d; a++ {
-					ea := wr * e[a]
-					row := q[a*d+a : a*d+d]
-					for b, eb := range e[a:] {
-						row[b] += ea * eb
-					}
-				}
-			}
+		for j := 0; j < k; j++ {
+			mStep(p, resp, j, k, g.Means[j*d:j*d+d], &nk[j], sums[j*d:j*d+d], sq[j*dd:j*dd+dd], &blk)
 		}
 		for j := 0; j < k; j++ {
 			g.Weights[j] = nk[j] / W
@@ -297,4 +312,62 @@ func GMMFullFit(p Points, init Fit, opt GMMOptions) (GMMFull, float64, int, erro
 		}
 	}
 	return g, ll, iters, nil
+}
+
+// mBlock is mStep's scratch: up to four centred points and their weights.
+type mBlock struct {
+	e [4][]float64
+	w [4]float64
+}
+
+// mStep accumulates component j's M-step sums over p: *nk += sum_i w_i r_ij, s += sum_i w_i r_ij
+// e_i and the upper triangle of q += sum_i w_i r_ij e_i e_i^T, with e_i = x_i - m0 (m0 the
+// previous mean). Points with a zero weighted responsibility are skipped; the others go through
+// the outer product four at a time (each row of q loaded once per four points).
+func mStep(p Points, resp []float64, j, k int, m0 []float64, nk *float64, s, q []float64, blk *mBlock) {
+	d := p.D
+	n := p.Len()
+	c := 0
+	for i := 0; i < n; i++ {
+		wr := p.Weight(i) * resp[i*k+j]
+		if wr == 0 {
+			continue
+		}
+		*nk += wr
+		e := blk.e[c][:d]
+		for t, v := range p.Point(i)[:d] {
+			e[t] = v - m0[t]
+			s[t] += wr * e[t]
+		}
+		blk.w[c] = wr
+		c++
+		if c == 4 {
+			outer4(q, d, blk)
+			c = 0
+		}
+	}
+	for b := 0; b < c; b++ {
+		e, wr := blk.e[b][:d], blk.w[b]
+		for a := 0; a < d; a++ {
+			ea := wr * e[a]
+			row := q[a*d+a : a*d+d]
+			for t, eb := range e[a:] {
+				row[t] += ea * eb
+			}
+		}
+	}
+}
+
+// outer4 adds the weighted outer products of the four points in blk to the upper triangle of q.
+func outer4(q []float64, d int, blk *mBlock) {
+	e0, e1, e2, e3 := blk.e[0][:d], blk.e[1][:d], blk.e[2][:d], blk.e[3][:d]
+	for a := 0; a < d; a++ {
+		a0, a1, a2, a3 := blk.w[0]*e0[a], blk.w[1]*e1[a], blk.w[2]*e2[a], blk.w[3]*e3[a]
+		row := q[a*d+a : a*d+d]
+		f0, f1, f2, f3 := e0[a:], e1[a:], e2[a:], e3[a:]
+		f0, f1, f2, f3 = f0[:len(row)], f1[:len(row)], f2[:len(row)], f3[:len(row)]
+		for t := range row {
+			row[t] += a0*f0[t] + a1*f1[t] + a2*f2[t] + a3*f3[t]
+		}
+	}
 }

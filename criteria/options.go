@@ -17,6 +17,14 @@ type Options struct {
 	Workers     int    `json:"-"`            // goroutines across k; 0 = GOMAXPROCS. Results do not depend on it
 	SkipWard    bool   `json:"-"`            // skip the Ward linkage (its vote abstains); for timing the per-k work alone
 	Seed        uint64 `json:"seed"`         // seed of every random stream (DefaultOptions: 1; 0 is a valid seed)
+	// Progress, when not nil, is called by Evaluate as its units of work finish (the restarts
+	// and sweeps of each k's fit, each gap reference path, each k's scores), with done and total
+	// in units of expected work (weighted by each unit's expected cost, so done/total grows
+	// about evenly with time). Calls never overlap (they come from Evaluate's goroutines one at a
+	// time), done never decreases and never exceeds total, total stays the same, and a
+	// successful Evaluate makes a last call with done == total. It must return quickly and must
+	// not call Evaluate. It does not change the result.
+	Progress func(done, total float64) `json:"-"`
 }
 
 // DefaultOptions returns MinK 1, MaxK 20, Restarts 3, Anchors 1000, GapRefs 5, GapSample 2000,
