@@ -57,8 +57,8 @@ type Result struct {
 	// empty when none.
 	SkippedFiles []SkippedFile `json:"skipped_files"`
 	Scaling      Scaling       `json:"scaling"`
-	// Reduction is set when the criteria ran in fewer dimensions than the feature columns: a
-	// seeded random projection of the summary (sketch/reduce); null otherwise.
+	// Reduction is set when the criteria ran in fewer dimensions than the feature columns: the
+	// summary mapped onto its leading principal components (sketch/reduce); null otherwise.
 	Reduction  *reduce.Info `json:"reduction"`
 	Sketch     SketchInfo   `json:"sketch"`
 	MinK       int          `json:"min_k"`
@@ -111,7 +111,11 @@ func Evaluate(ctx context.Context, sk *sketch.Sketch, opt Options) (*Result, err
 	start := time.Now()
 	sum, sc := Summarize(sk, opt.Scale)
 	sum, red := ReduceWide(sum, opt)
-	cr, err := criteria.Evaluate(ctx, sum, opt.Criteria)
+	copt := opt.Criteria
+	if p := opt.Progress; p != nil {
+		copt.Progress = p.scoredShare
+	}
+	cr, err := criteria.Evaluate(ctx, sum, copt)
 	if err != nil {
 		return nil, err
 	}

@@ -48,7 +48,8 @@ func writePoints(t testing.TB, path string, x []float64, d int) {
 // (1024 points, 16 well-separated clusters, published k = 16; testdata/refsets and, for 128 to
 // 512 dimensions, /work/shared/data, see their READMEs). It prints the table committed in
 // DEVELOPERS.md and fails if the reduced verdict misses the published k where the full one finds
-// it. It runs only with KGAUGE_REDUCE_ACCURACY=1 (minutes at 512 columns without the reduction).
+// it. It runs only with KGAUGE_REDUCE_ACCURACY=1 (minutes at 512 columns without the reduction),
+// or =quick to leave out the runs without it.
 func TestReductionAccuracy(t *testing.T) {
 	if os.Getenv("KGAUGE_REDUCE_ACCURACY") == "" {
 		t.Skip("set KGAUGE_REDUCE_ACCURACY=1 to measure the reduction's accuracy")
@@ -79,7 +80,7 @@ func TestReductionAccuracy(t *testing.T) {
 			name   string
 			reduce int
 		}{{"auto", 0}, {"32", 32}, {"off", -1}} {
-			if mode.reduce == 0 && d <= 64 {
+			if mode.reduce == 0 && d <= 64 || mode.reduce < 0 && os.Getenv("KGAUGE_REDUCE_ACCURACY") == "quick" {
 				continue
 			}
 			o := kgauge.DefaultOptions()
@@ -90,12 +91,12 @@ func TestReductionAccuracy(t *testing.T) {
 			if err != nil {
 				t.Fatalf("%s --reduce %s: %v", s.name, mode.name, err)
 			}
-			dims := d
+			dims, method := d, ""
 			if r.Reduction != nil {
-				dims = r.Reduction.To
+				dims, method = r.Reduction.To, " ("+r.Reduction.Method+")"
 			}
 			ks[mode.name] = r.K
-			fmt.Printf("| %s | %d | %s | %d | %d | %.2f | %.1f |\n", s.name, d, mode.name, dims, r.K, r.Agreement, r.Timings.Criteria)
+			fmt.Printf("| %s | %d | %s | %d%s | %d | %.2f | %.1f |\n", s.name, d, mode.name, dims, method, r.K, r.Agreement, r.Timings.Criteria)
 		}
 		if ks["off"] == 16 && d > 64 && ks["auto"] != 16 {
 			t.Errorf("%s: the reduced verdict is %d, the full one the published 16", s.name, ks["auto"])

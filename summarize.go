@@ -123,8 +123,10 @@ func Summarize(sk *sketch.Sketch, method Scale) (criteria.Summary, Scaling) {
 	return s, sc
 }
 
-// ReduceWide projects the summary of an input wider than the reduction threshold to fewer
-// dimensions (sketch/reduce), as opt.Reduce says, and reports what it did (nil when nothing).
+// ReduceWide maps the summary of an input wider than the reduction threshold onto its leading
+// principal components (sketch/reduce), as opt.Reduce says, and reports what it did (nil when
+// nothing). Should the covariance's eigen decomposition fail, it falls back to the seeded random
+// projection and says so.
 func ReduceWide(s criteria.Summary, opt Options) (criteria.Summary, *reduce.Info) {
 	m, eps := opt.Reduce, 0.0
 	switch {
@@ -134,12 +136,15 @@ func ReduceWide(s criteria.Summary, opt Options) (criteria.Summary, *reduce.Info
 		if s.D <= reduce.Above {
 			return s, nil
 		}
-		m, eps = reduce.Dims(s.D, opt.Criteria.MaxK), reduce.Epsilon
+		m, eps = reduce.PrincipalDims(s.D, opt.Criteria.MaxK), reduce.PrincipalEpsilon
 	}
 	if m >= s.D {
 		return s, nil
 	}
-	return reduce.Project(s, m, opt.Seed), &reduce.Info{Method: "random_projection", From: s.D, To: m, Seed: opt.Seed, Epsilon: eps}
+	if out, err := reduce.Principal(s, m); err == nil {
+		return out, &reduce.Info{Method: reduce.MethodPrincipal, From: s.D, To: m, Epsilon: eps}
+	}
+	return reduce.Project(s, m, opt.Seed), &reduce.Info{Method: reduce.MethodRandom, From: s.D, To: m, Seed: opt.Seed}
 }
 
 // reconcile pools the parts' mini-batch centres for one k into k centres in the scaled space.

@@ -10,6 +10,7 @@ import (
 
 	"github.com/kgauge/kgauge"
 	"github.com/kgauge/kgauge/criteria"
+	"github.com/kgauge/kgauge/sketch/reduce"
 )
 
 // printResult writes res as JSON or as the readable table.
@@ -160,7 +161,11 @@ func writeTable(w io.Writer, res *kgauge.Result, wide bool) error {
 		b.WriteString(tableLine(t))
 	}
 	if r := res.Reduction; r != nil {
-		fmt.Fprintf(&b, "reduced: the criteria ran in %d dimensions, a seeded random projection of the %d columns (--reduce)\n", r.To, r.From)
+		how := "the leading principal components"
+		if r.Method == reduce.MethodRandom {
+			how = "a seeded random projection"
+		}
+		fmt.Fprintf(&b, "reduced: the criteria ran in %d dimensions, %s of the %d columns (--reduce)\n", r.To, how, r.From)
 	}
 	if len(res.Ignored) > 0 {
 		names := make([]string, len(res.Ignored))

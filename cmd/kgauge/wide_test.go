@@ -7,22 +7,22 @@ import (
 	"testing"
 )
 
-// TestWideInputReduced checks that an input of more than 64 columns is estimated on a random
-// projection and says so, in the text and in the JSON, with the dimension sketch/reduce's rule
-// gives (⌈ln(4/0.35)/0.35²⌉ = 20 at --max-k 4); that --reduce off and --reduce N are obeyed and
+// TestWideInputReduced checks that an input of more than 64 columns is estimated on its leading
+// principal components and says so, in the text and in the JSON, with the dimension
+// sketch/reduce's rule gives (⌈4/0.5⌉ = 8 at --max-k 4); that --reduce off and --reduce N are obeyed and
 // give the same result on every run; and that a bad --reduce is a usage error naming the flag.
 func TestWideInputReduced(t *testing.T) {
 	path := filepath.Join(t.TempDir(), "wide.parquet")
 	wideParquet(t, path, 100, 300)
 	base := []string{"estimate", "--quiet", "--max-k", "4", "--coreset", "200", "--gap-refs", "2", "--gap-sample", "100", "--anchors", "50", "--workers", "1", path}
 	code, out, errs := run(t, base...)
-	if code != ExitOK || !strings.Contains(out, "reduced: the criteria ran in 20 dimensions, a seeded random projection of the 100 columns") {
+	if code != ExitOK || !strings.Contains(out, "reduced: the criteria ran in 8 dimensions, the leading principal components of the 100 columns") {
 		t.Fatalf("text: exit %d, %s\n%s", code, errs, out)
 	}
 	for _, c := range []struct {
 		reduce string
 		to     int // 0: no reduction
-	}{{"auto", 20}, {"12", 12}, {"off", 0}, {"500", 0}} {
+	}{{"auto", 8}, {"12", 12}, {"off", 0}, {"500", 0}} {
 		var res struct {
 			K         int `json:"k"`
 			Reduction *struct {
@@ -44,7 +44,7 @@ func TestWideInputReduced(t *testing.T) {
 		switch {
 		case c.to == 0 && res.Reduction != nil:
 			t.Errorf("--reduce %s: reduction %+v, want none", c.reduce, res.Reduction)
-		case c.to > 0 && (res.Reduction == nil || res.Reduction.To != c.to || res.Reduction.From != 100 || res.Reduction.Method != "random_projection"):
+		case c.to > 0 && (res.Reduction == nil || res.Reduction.To != c.to || res.Reduction.From != 100 || res.Reduction.Method != "principal_components"):
 			t.Errorf("--reduce %s: reduction %+v, want 100 columns to %d dimensions", c.reduce, res.Reduction, c.to)
 		}
 		a, b := stripTimings(t, outs[0]), stripTimings(t, outs[1])

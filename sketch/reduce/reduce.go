@@ -1,34 +1,48 @@
-// Package reduce maps a wide summary to fewer dimensions before the criteria run, by a seeded
-// Gaussian random projection.
+// Package reduce maps a wide summary to fewer dimensions before the criteria run.
 //
-// The map is y = x·R with R a d×m matrix of independent N(0, 1/m) entries drawn from the seed.
-// Makarychev, Makarychev and Razenshteyn (2019, "Performance of Johnson–Lindenstrauss transform
-// for k-means and k-medians clustering", STOC) show that such a map to m = O(log(k/ε)/ε²)
-// dimensions keeps the k-means cost of every partition into k clusters within a factor 1 ± ε with
-// high probability, so the criteria that compare partitions by their cost see the same ranking up
-// to that factor. Their bound holds up to a constant the paper does not fix; [Dims] takes the
-// constant as 1, and what the reduction gives up on real and generated sets is measured, not
-// derived (bench/report/ACCURACY.md).
+// The default map is onto the summary's top principal components: y = x·V with V the d×m matrix
+// of the m leading eigenvectors of the summary's covariance. Cohen, Elder, Musco, Musco and Persu
+// (2015, "Dimensionality reduction for k-means clustering and low rank approximation", STOC) show
+// that projecting onto the top ⌈k/ε⌉ principal components is a projection-cost-preserving sketch:
+// for every partition into k clusters, the k-means cost after the map plus one constant (the
+// variance left out) is within 1 ± ε of the cost before. The constant is the same for every
+// partition and every k, so the criteria, which compare partitions and k by their costs, see the
+// differences that matter. [PrincipalDims] takes m = ⌈maxK/ε⌉ with ε = [PrincipalEpsilon].
 //
-// Every part of the summary is mapped by the same R: the coreset, the uniform sample, the
-// mini-batch seed centres and the mean exactly (the map is linear), the covariance as RᵀCR
-// (exact for the projected rows), and the bounding box as the box of the projected coreset and
-// sample (the projected rows' own box is not in the sketch; the gap statistic's reference box is
-// therefore that of the points the criteria see). The cost is O((n + d)·d·m) for n coreset and
-// sample rows; no d×d eigen decomposition is made.
+// The alternative, [Project], is a seeded Gaussian random projection, y = x·R with R of
+// independent N(0, 1/m) entries. Makarychev, Makarychev and Razenshteyn (2019, "Performance of
+// Johnson–Lindenstrauss transform for k-means and k-medians clustering", STOC) show it keeps every
+// partition's cost within 1 ± ε at m = O(log(k/ε)/ε²) ([Dims]). That is a relative bound on the
+// whole cost, noise included: on clusters a few standard deviations apart in hundreds of columns,
+// the between-cluster part of the cost is a few percent of the whole and the projection's noise
+// (each output coordinate sums d input coordinates' noise) hides it; the principal components keep
+// it (measured in DEVELOPERS.md, "Wide inputs").
+//
+// Every part of the summary is mapped by the same matrix: the coreset, the uniform sample, the
+// mini-batch seed centres and the mean exactly (the map is linear), the covariance as MᵀCM (exact
+// for the mapped rows), and the bounding box as the box of the mapped coreset and sample (the
+// mapped rows' own box is not in the sketch; the gap statistic's reference box is therefore that
+// of the points the criteria see). The cost is one d×d symmetric eigen decomposition (gonum) for
+// the principal components, and O((n + d)·d·m) for n coreset and sample rows.
 package reduce
 
 import (
+	"errors"
 	"math"
 	"math/rand/v2"
+	"slices"
 
 	"github.com/kgauge/kgauge/criteria"
 	"github.com/kgauge/kgauge/internal/kmeans"
 	"gonum.org/v1/gonum/mat"
 )
 
-// Epsilon is the cost distortion the default dimension is chosen for.
+// Epsilon is the cost distortion the random projection's dimension ([Dims]) is chosen for.
 const Epsilon = 0.35
+
+// PrincipalEpsilon is the cost distortion the principal components' dimension ([PrincipalDims])
+// is chosen for.
+const PrincipalEpsilon = 0.5
 
 // Above is the width from which the estimate reduces by default: at 64 columns and fewer the
 // criteria run in the data's own space.
@@ -42,15 +56,27 @@ func Dims(d, maxK int) int {
 	return min(m, d)
 }
 
+// PrincipalDims returns the number of principal components kept for candidates up to maxK:
+// ⌈maxK/ε⌉ with ε = [PrincipalEpsilon] (Cohen et al.'s bound), never more than d.
+func PrincipalDims(d, maxK int) int {
+	return min(d, int(math.Ceil(float64(max(maxK, 2))/PrincipalEpsilon)))
+}
+
+// The methods an Info names.
+const (
+	MethodPrincipal = "principal_components"
+	MethodRandom    = "random_projection"
+)
+
 // Info says what a reduction did; it is reported with the result.
 type Info struct {
-	Method string `json:"method"` // "random_projection"
+	Method string `json:"method"` // MethodPrincipal or MethodRandom
 	From   int    `json:"from"`   // the feature columns
 	To     int    `json:"to"`     // the dimensions the criteria ran in
-	Seed   uint64 `json:"seed"`
-	// Epsilon is the cost distortion the dimension was chosen for by Dims (0 when the dimension
+	Seed   uint64 `json:"seed"`   // the random projection's seed (0 for principal components)
+	// Epsilon is the cost distortion the dimension was chosen for by PrincipalDims (0 when the dimension
 	// was given).
-	Epsilon float64 `json:"epsilon,omitempty"`
+	Epsilon float64 `json:"epsilon"`
 }
 
 // Matrix returns the d×m projection matrix of seed, row-major: entry (j, l) is N(0, 1/m).
@@ -64,13 +90,57 @@ func Matrix(d, m int, seed uint64) []float64 {
 	return r
 }
 
-// Project maps s to m dimensions with the projection of seed. It returns s itself when m ≥ s.D.
+// Project maps s to m dimensions with the random projection of seed. It returns s itself when
+// m ≥ s.D.
 func Project(s criteria.Summary, m int, seed uint64) criteria.Summary {
-	d := s.D
-	if m >= d || m < 1 {
+	if m >= s.D || m < 1 {
 		return s
 	}
-	r := mat.NewDense(d, m, Matrix(d, m, seed))
+	return apply(s, mat.NewDense(s.D, m, Matrix(s.D, m, seed)))
+}
+
+// Components returns the d×m matrix whose columns are the m leading eigenvectors of the d×d
+// covariance cov (row-major), largest eigenvalue first, each with its largest entry positive so
+// the result does not depend on the solver's choice of sign.
+func Components(cov []float64, d, m int) (*mat.Dense, error) {
+	var eig mat.EigenSym
+	if !eig.Factorize(mat.NewSymDense(d, slices.Clone(cov)), true) {
+		return nil, errors.New("reduce: the covariance's eigen decomposition did not converge")
+	}
+	var vecs mat.Dense
+	eig.VectorsTo(&vecs)
+	v := mat.NewDense(d, m, nil)
+	for l := range m {
+		c := d - 1 - l // the eigenvalues come in ascending order
+		big, sign := 0.0, 1.0
+		for j := range d {
+			if a := math.Abs(vecs.At(j, c)); a > big {
+				big, sign = a, math.Copysign(1, vecs.At(j, c))
+			}
+		}
+		for j := range d {
+			v.Set(j, l, sign*vecs.At(j, c))
+		}
+	}
+	return v, nil
+}
+
+// Principal maps s onto its m leading principal components (the eigenvectors of s.Cov). It
+// returns s itself when m ≥ s.D.
+func Principal(s criteria.Summary, m int) (criteria.Summary, error) {
+	if m >= s.D || m < 1 {
+		return s, nil
+	}
+	v, err := Components(s.Cov, s.D, m)
+	if err != nil {
+		return s, err
+	}
+	return apply(s, v), nil
+}
+
+// apply maps every part of s by the d×m matrix r.
+func apply(s criteria.Summary, r *mat.Dense) criteria.Summary {
+	d, m := r.Dims()
 	rows := func(x []float64) []float64 {
 		n := len(x) / d
 		if n == 0 {

@@ -133,3 +133,122 @@ func TestProjectKeepsClusteringCost(t *testing.T) {
 		}
 	}
 }
+
+// weakBlobs are invented points for a property test: k Gaussian blobs of unit variance in d
+// dimensions, n points each, whose centres lie sep apart on average (not per coordinate), the
+// shape of clusters that differ in a few directions of a wide table.
+func weakBlobs(k, n, d int, sep float64, seed uint64) (kmeans.Data, []int) {
+	rng := rand.New(rand.NewPCG(seed, 2))
+	centres := make([]float64, k*d)
+	for i := range centres {
+		centres[i] = rng.NormFloat64() * sep / math.Sqrt(2*float64(d))
+	}
+	p := kmeans.Data{D: d}
+	var labels []int
+	for c := range k {
+		for range n {
+			for j := range d {
+				p.X = append(p.X, centres[c*d+j]+rng.NormFloat64())
+			}
+			labels = append(labels, c)
+		}
+	}
+	return p, labels
+}
+
+// TestPrincipalIsExactOnTheSummary checks that the mapped summary is the summary of the mapped
+// points, and that the components are orthonormal and ordered by variance.
+func TestPrincipalIsExactOnTheSummary(t *testing.T) {
+	p, _ := blobs(4, 50, 120, 3)
+	m := 17
+	s := criteria.ExactSummary(p)
+	got, err := Principal(s, m)
+	if err != nil {
+		t.Fatal(err)
+	}
+	v, err := Components(s.Cov, p.D, m)
+	if err != nil {
+		t.Fatal(err)
+	}
+	q := kmeans.Data{D: m, W: p.W}
+	for i := range p.Len() {
+		x := p.Point(i)
+		for l := range m {
+			var y float64
+			for j := range p.D {
+				y += x[j] * v.At(j, l)
+			}
+			q.X = append(q.X, y)
+		}
+	}
+	want := criteria.ExactSummary(q)
+	for i, a := range got.Cov {
+		if math.Abs(a-want.Cov[i]) > 1e-9*(1+math.Abs(want.Cov[i])) {
+			t.Fatalf("covariance[%d] = %v, the mapped points give %v", i, a, want.Cov[i])
+		}
+	}
+	for i, a := range got.Coreset.X {
+		if math.Abs(a-q.X[i]) > 1e-9*(1+math.Abs(q.X[i])) {
+			t.Fatalf("coreset[%d] = %v, want %v", i, a, q.X[i])
+		}
+	}
+	// Orthonormal columns; the mapped covariance is diagonal with decreasing variances.
+	for a := range m {
+		for b := range m {
+			var dot float64
+			for j := range p.D {
+				dot += v.At(j, a) * v.At(j, b)
+			}
+			if want := map[bool]float64{true: 1}[a == b]; math.Abs(dot-want) > 1e-9 {
+				t.Fatalf("components %d and %d: dot product %v, want %v", a, b, dot, want)
+			}
+			if a != b && math.Abs(got.Cov[a*m+b]) > 1e-9*got.Cov[0] {
+				t.Fatalf("mapped covariance (%d, %d) = %v, want 0", a, b, got.Cov[a*m+b])
+			}
+		}
+		if a > 0 && got.Cov[a*m+a] > got.Cov[(a-1)*m+a-1]*(1+1e-12) {
+			t.Fatalf("variance of component %d (%v) above that of %d (%v)", a, got.Cov[a*m+a], a-1, got.Cov[(a-1)*m+a-1])
+		}
+	}
+	if same, _ := Principal(s, p.D); same.D != p.D {
+		t.Errorf("a map to the input's own width changed it to %d dimensions", same.D)
+	}
+}
+
+// TestPrincipalKeepsCostDifferences checks the property the default reduction rests on (Cohen et
+// al. 2015): after the map onto PrincipalDims components, the cost of a partition less the cost
+// of the true partition keeps its value within 1 ± ε, for clusters that differ in a few directions
+// of 512 columns. The random projection at its own dimension (Dims) keeps each cost within 1 ± ε,
+// but on these clusters that relative error is larger than the difference itself: the test also
+// checks that the principal components keep the difference closer than the random projection
+// does, on average over seeds (the reason for the default, DEVELOPERS.md "Wide inputs").
+func TestPrincipalKeepsCostDifferences(t *testing.T) {
+	const k, d = 8, 512
+	p, labels := weakBlobs(k, 400, d, 8, 5)
+	merged := make([]int, len(labels))
+	for i, l := range labels {
+		merged[i] = min(l, k-2)
+	}
+	gap := cost(p, merged, k-1) - cost(p, labels, k)
+	s := criteria.ExactSummary(p)
+	m := PrincipalDims(d, 20)
+	pc, err := Principal(s, m)
+	if err != nil {
+		t.Fatal(err)
+	}
+	pgap := cost(pc.Coreset, merged, k-1) - cost(pc.Coreset, labels, k)
+	if r := pgap / gap; r < 1-PrincipalEpsilon || r > 1+PrincipalEpsilon {
+		t.Errorf("merging two clusters costs %.4g after the principal components, %.4g before (ratio %.3f)", pgap, gap, r)
+	}
+	var rpErr float64
+	for seed := range uint64(5) {
+		rp := Project(s, Dims(d, 20), seed)
+		rgap := cost(rp.Coreset, merged, k-1) - cost(rp.Coreset, labels, k)
+		rpErr += math.Abs(rgap/gap-1) / 5
+	}
+	if pcErr := math.Abs(pgap/gap - 1); !(pcErr < rpErr) {
+		t.Errorf("relative error of the merge cost: principal components %.3f, random projection %.3f on average", pcErr, rpErr)
+	}
+	t.Logf("merge cost kept within %.3f by %d principal components, %.3f on average by a %d-dimensional random projection",
+		math.Abs(pgap/gap-1), m, rpErr, Dims(d, 20))
+}
