@@ -149,14 +149,13 @@ func fitPath(p Points, lo, hi int, opt pathOptions) []Fit {
 	try := func(k int, inits [][]float64) bool {
 		if opt.Race.Tol == 0 || len(inits) < 2 {
 			kept := false
-			for _, init := range inits {
-				kept = keep(k, kmeans.Lloyd(p, init, opt.Lloyd)) || kept
+			for _, r := range lloydAll(p, inits, opt.Lloyd, opt.Pool) {
+				kept = keep(k, r) || kept
 			}
 			return kept
 		}
 		var best Fit
-		for i, init := range inits {
-			r := kmeans.Lloyd(p, init, opt.Race)
+		for i, r := range lloydAll(p, inits, opt.Race, opt.Pool) {
 			if i == 0 || r.Cost < best.Cost {
 				best = r
 			}
@@ -314,4 +313,32 @@ func pathCost(p Points, lo, hi int, opt pathOptions) float64 {
 		c += restartCost(p.Len(), k, p.D, r) + sweepCost(p.Len(), k, p.D)
 	}
 	return c
+}
+
+// lloydAll returns Lloyd's result from each start, in order. Starts after the first run on
+// goroutines of their own when pool has a free slot at that moment (never waiting for one), the
+// rest on the caller's goroutine, so the results do not depend on how many ran in parallel.
+func lloydAll(p Points, inits [][]float64, o kmeans.LloydOptions, pool *pool) []Fit {
+	out := make([]Fit, len(inits))
+	inline := make([]bool, len(inits))
+	var wg sync.WaitGroup
+	for i := range inits {
+		if i == 0 || pool == nil || !pool.tryAcquire() {
+			inline[i] = true
+			continue
+		}
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			defer pool.release()
+			out[i] = kmeans.Lloyd(p, inits[i], o)
+		}()
+	}
+	for i, in := range inline {
+		if in {
+			out[i] = kmeans.Lloyd(p, inits[i], o)
+		}
+	}
+	wg.Wait()
+	return out
 }

@@ -124,6 +124,17 @@ func newPool(workers int, stop func() bool, prog *progress) *pool {
 
 // acquire takes a slot (blocking until one is free); release gives it back.
 func (p *pool) acquire() { p.slots <- struct{}{} }
+
+// tryAcquire takes a slot if one is free now and reports whether it did.
+func (p *pool) tryAcquire() bool {
+	select {
+	case p.slots <- struct{}{}:
+		return true
+	default:
+		return false
+	}
+}
+
 func (p *pool) release() { <-p.slots }
 
 // add queues jobs.
