@@ -49,15 +49,6 @@ const gapTol = 1e-5
 // (DEVELOPERS.md, "Criteria stage, round 2").
 const gapRaceTol = 1e-3
 
-// mainRaceTol is the Lloyd tolerance at which the starts of every main fit (the k-means++
-// restarts with the seed centres, and each sweep's starts) race before the best runs on to
-// Lloyd's default 1e-7 (fitPath's Race). On BenchmarkCriteriaStage/d=16 it cut the criteria
-// stage's CPU time by about 18% with the same votes; against scikit-learn's best of 10
-// (TestFitsAgainstSklearnCommitted) the worst excess went from +0.000% to +0.027% (S4), and the
-// WCSS spread over seeds 1..10 on S4 from 0.32% to 0.56% (DEVELOPERS.md, "Criteria stage,
-// round 2"). 0 turns the race off.
-const mainRaceTol = 1e-3
-
 // gmmMaxIter and gmmTol bound the EM of the full-covariance mixture at each k (EM starts from the
 // k-means fit): at most 20 iterations, stopping when the log-likelihood per unit weight moves by
 // <= 1e-3 (scikit-learn GaussianMixture's tol; its max_iter is 100). On the demo lake (200,000 rows,
@@ -78,8 +69,7 @@ const wardDirectMax = 400
 // For each k it fits weighted k-means on the coreset (fitPath: the Summary's seed centres for k,
 // if any, plus opt.Restarts k-means++ seedings, more where a Lloyd iteration is cheap, then
 // sweeps that start k from the k-1 solution plus a k-means++ point and from the k+1 solution with
-// its cheapest pair merged; the lowest cost kept; the starts of each step race at Lloyd tolerance
-// 1e-3 and the best runs on to 1e-7) and computes from that fit the WCSS (scaled to
+// its cheapest pair merged; the lowest cost kept) and computes from that fit the WCSS (scaled to
 // N rows), the silhouette (SilhouetteAnchors, opt.Anchors anchors), the simplified silhouette,
 // Calinski–Harabasz and Davies–Bouldin (on the weighted coreset), a full-covariance GMM fitted by
 // EM from the k-means fit (GMMFullFit; 1e-6 times the mean per-dimension variance added to every
@@ -304,7 +294,6 @@ func mainPathOptions(s Summary, opt Options, workers int, stop func() bool) path
 			}
 			return nil
 		},
-		Race:    kmeans.LloydOptions{Tol: mainRaceTol},
 		Rand:    func(k int) *rand.Rand { return rngFor(opt.Seed, k, streamFit) },
 		Workers: workers,
 		Stop:    stop,
