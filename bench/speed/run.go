@@ -314,40 +314,30 @@ func Run(ctx context.Context, cfg Config, log io.Writer) error {
 			target, input string
 			run           func() error
 		}
-		var jobs []job
-		p16 := filepath.Join(work, fmt.Sprintf("t-%d-16.parquet", big))
-		jobs = append(jobs,
-			job{"criteria-16", "", func() error {
-				if err := gen(p16, "gen", "--rows", fmt.Sprint(big), "--dims", "16"); err != nil {
+		// measured generates a file with "kgauge-speed gen" args, then measures the bare scan and
+		// the estimate (with extra flags) on it; keep leaves the file for a later job.
+		measured := func(name string, rows, dims, maxK int, keep bool, genArgs []string, extra ...string) func() error {
+			return func() error {
+				p := filepath.Join(work, name+".parquet")
+				args := append([]string{"gen", "--rows", fmt.Sprint(rows), "--dims", fmt.Sprint(dims)}, genArgs...)
+				if err := gen(p, args...); err != nil {
 					return err
 				}
-				return errors.Join(scan(p16, big, 16, 2), est(p16, big, 16, 20, 2))
-			}},
-			job{"maxk-50", "", func() error { return est(p16, big, 16, 50, 2) }},
-			job{"criteria-64", "", func() error {
-				p := filepath.Join(work, fmt.Sprintf("t-%d-64.parquet", big))
-				if err := gen(p, "gen", "--rows", fmt.Sprint(big), "--dims", "64", "--k", "16"); err != nil {
-					return err
+				if !keep {
+					defer os.Remove(p)
 				}
-				defer os.Remove(p)
-				return errors.Join(scan(p, big, 64, 2), est(p, big, 64, 20, 2))
-			}},
-			job{"criteria-512", "", func() error {
-				p := filepath.Join(work, fmt.Sprintf("t-%d-512.parquet", wide))
-				if err := gen(p, "gen", "--rows", fmt.Sprint(wide), "--dims", "512", "--k", "16"); err != nil {
-					return err
-				}
-				defer os.Remove(p)
-				return errors.Join(scan(p, wide, 512, 2), est(p, wide, 512, 20, 2))
-			}},
-			job{"vector-768", "one list<float32> column of 768 values", func() error {
-				p := filepath.Join(work, fmt.Sprintf("t-%d-vec768.parquet", vec))
-				if err := gen(p, "gen", "--rows", fmt.Sprint(vec), "--dims", "768", "--k", "16", "--vector", "emb"); err != nil {
-					return err
-				}
-				defer os.Remove(p)
-				return errors.Join(scan(p, vec, 768, 2), est(p, vec, 768, 20, 2, "--columns", "emb"))
-			}})
+				return errors.Join(scan(p, rows, dims, 2), est(p, rows, dims, maxK, 2, extra...))
+			}
+		}
+		name16 := fmt.Sprintf("t-%d-16", big)
+		jobs := []job{
+			{"criteria-16", "", measured(name16, big, 16, 20, true, nil)},
+			{"maxk-50", "", func() error { return est(filepath.Join(work, name16+".parquet"), big, 16, 50, 2) }},
+			{"criteria-64", "", measured(fmt.Sprintf("t-%d-64", big), big, 64, 20, false, []string{"--k", "16"})},
+			{"criteria-512", "", measured(fmt.Sprintf("t-%d-512", wide), wide, 512, 20, false, []string{"--k", "16"})},
+			{"vector-768", "one list<float32> column of 768 values", measured(fmt.Sprintf("t-%d-vec768", vec), vec, 768, 20, false,
+				[]string{"--k", "16", "--vector", "emb"}, "--columns", "emb")},
+		}
 		for _, name := range []string{"birch1", "birch2", "birch3"} {
 			src := filepath.Join(cfg.Points, name+".txt")
 			if _, err := os.Stat(src); err != nil || cfg.Quick {
@@ -366,14 +356,7 @@ func Run(ctx context.Context, cfg Config, log io.Writer) error {
 			}})
 		}
 		if !cfg.Quick {
-			jobs = append(jobs, job{"whole-20M", "", func() error {
-				p := filepath.Join(work, "t-20000000-16.parquet")
-				if err := gen(p, "gen", "--rows", "20000000", "--dims", "16"); err != nil {
-					return err
-				}
-				defer os.Remove(p)
-				return errors.Join(scan(p, 20_000_000, 16, 2), est(p, 20_000_000, 16, 20, 2))
-			}})
+			jobs = append(jobs, job{"whole-20M", "", measured("t-20000000-16", 20_000_000, 16, 20, false, nil)})
 		}
 		for _, j := range jobs {
 			target, input = j.target, j.input

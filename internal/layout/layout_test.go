@@ -5,7 +5,10 @@ package layout
 import (
 	"bufio"
 	"bytes"
+	"io"
+	"os"
 	"os/exec"
+	"path/filepath"
 	"strings"
 	"testing"
 )
@@ -98,5 +101,40 @@ func TestLibraryLinksNoCloudSDK(t *testing.T) {
 		if strings.Contains(p, "apache/beam") {
 			t.Errorf("cmd/kgauge depends on %s", p)
 		}
+	}
+}
+
+// TestNoBuildOutputsTracked (issue 16): no file git tracks is a compiled program (an ELF, Mach-O
+// or PE header), so a binary built at the root by "go build ./cmd/..." and added by mistake fails
+// the tests instead of landing.
+func TestNoBuildOutputsTracked(t *testing.T) {
+	cmd := exec.Command("git", "ls-files", "-z")
+	cmd.Dir = "../.."
+	out, err := cmd.Output()
+	if err != nil {
+		t.Skipf("not a git checkout (%v)", err)
+	}
+	magics := [][]byte{{0x7f, 'E', 'L', 'F'}, {0xcf, 0xfa, 0xed, 0xfe}, {0xfe, 0xed, 0xfa, 0xcf}, {'M', 'Z'}}
+	n := 0
+	for _, name := range bytes.Split(out, []byte{0}) {
+		if len(name) == 0 {
+			continue
+		}
+		n++
+		f, err := os.Open(filepath.Join("../..", string(name)))
+		if err != nil {
+			continue // deleted in the working tree
+		}
+		head := make([]byte, 4)
+		k, _ := io.ReadFull(f, head)
+		f.Close()
+		for _, m := range magics {
+			if k >= len(m) && bytes.Equal(head[:len(m)], m) {
+				t.Errorf("%s is tracked and is a compiled program; build outputs belong in .gitignore", name)
+			}
+		}
+	}
+	if n < 50 {
+		t.Errorf("git lists %d files; the check is broken", n)
 	}
 }

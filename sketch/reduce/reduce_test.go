@@ -12,10 +12,15 @@ import (
 // blobs are invented points for a property test: k Gaussian blobs in d dimensions, n points each,
 // centres 6 standard deviations apart on average, and the label of each point.
 func blobs(k, n, d int, seed uint64) (kmeans.Data, []int) {
-	rng := rand.New(rand.NewPCG(seed, 1))
+	return gaussBlobs(k, n, d, 6/math.Sqrt2, rand.New(rand.NewPCG(seed, 1)))
+}
+
+// gaussBlobs draws k centres with coordinates N(0, spread²), then n unit-variance points around
+// each, with weight 1, and returns them with their labels.
+func gaussBlobs(k, n, d int, spread float64, rng *rand.Rand) (kmeans.Data, []int) {
 	centres := make([]float64, k*d)
 	for i := range centres {
-		centres[i] = rng.NormFloat64() * 6 / math.Sqrt2
+		centres[i] = rng.NormFloat64() * spread
 	}
 	p := kmeans.Data{D: d}
 	var labels []int
@@ -135,25 +140,10 @@ func TestProjectKeepsClusteringCost(t *testing.T) {
 }
 
 // weakBlobs are invented points for a property test: k Gaussian blobs of unit variance in d
-// dimensions, n points each, whose centres lie sep apart on average (not per coordinate), the
-// shape of clusters that differ in a few directions of a wide table.
+// dimensions, n points each, whose centres lie about sep apart (not per coordinate, as in blobs),
+// the shape of clusters that differ in a few directions of a wide table.
 func weakBlobs(k, n, d int, sep float64, seed uint64) (kmeans.Data, []int) {
-	rng := rand.New(rand.NewPCG(seed, 2))
-	centres := make([]float64, k*d)
-	for i := range centres {
-		centres[i] = rng.NormFloat64() * sep / math.Sqrt(2*float64(d))
-	}
-	p := kmeans.Data{D: d}
-	var labels []int
-	for c := range k {
-		for range n {
-			for j := range d {
-				p.X = append(p.X, centres[c*d+j]+rng.NormFloat64())
-			}
-			labels = append(labels, c)
-		}
-	}
-	return p, labels
+	return gaussBlobs(k, n, d, sep/math.Sqrt(2*float64(d)), rand.New(rand.NewPCG(seed, 2)))
 }
 
 // TestPrincipalIsExactOnTheSummary checks that the mapped summary is the summary of the mapped
