@@ -36,6 +36,23 @@ func gaussBlobs(k, n, d int, spread float64, rng *rand.Rand) (kmeans.Data, []int
 	return p, labels
 }
 
+// mapPoints returns the points of p multiplied by the d×m matrix whose entry (j, l) is at(j, l),
+// computed point by point from the definition.
+func mapPoints(p kmeans.Data, m int, at func(j, l int) float64) kmeans.Data {
+	q := kmeans.Data{D: m, W: p.W}
+	for i := range p.Len() {
+		x := p.Point(i)
+		for l := range m {
+			var y float64
+			for j := range p.D {
+				y += x[j] * at(j, l)
+			}
+			q.X = append(q.X, y)
+		}
+	}
+	return q
+}
+
 // cost is the k-means cost of the partition labels of p (sum of squared distances to the means).
 func cost(p kmeans.Data, labels []int, k int) float64 {
 	d := p.D
@@ -70,17 +87,7 @@ func TestProjectIsExactOnTheSummary(t *testing.T) {
 	m := 17
 	got := Project(criteria.ExactSummary(p), m, 9)
 	r := Matrix(p.D, m, 9)
-	q := kmeans.Data{D: m, W: p.W}
-	for i := range p.Len() {
-		x := p.Point(i)
-		for l := range m {
-			var v float64
-			for j := range p.D {
-				v += x[j] * r[j*m+l]
-			}
-			q.X = append(q.X, v)
-		}
-	}
+	q := mapPoints(p, m, func(j, l int) float64 { return r[j*m+l] })
 	want := criteria.ExactSummary(q)
 	if got.D != m || got.N != want.N || got.Coreset.Len() != p.Len() || got.Sample.Len() != p.Len() {
 		t.Fatalf("projected summary: D %d, N %v, %d coreset and %d sample rows", got.D, got.N, got.Coreset.Len(), got.Sample.Len())
@@ -160,17 +167,7 @@ func TestPrincipalIsExactOnTheSummary(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	q := kmeans.Data{D: m, W: p.W}
-	for i := range p.Len() {
-		x := p.Point(i)
-		for l := range m {
-			var y float64
-			for j := range p.D {
-				y += x[j] * v.At(j, l)
-			}
-			q.X = append(q.X, y)
-		}
-	}
+	q := mapPoints(p, m, v.At)
 	want := criteria.ExactSummary(q)
 	for i, a := range got.Cov {
 		if math.Abs(a-want.Cov[i]) > 1e-9*(1+math.Abs(want.Cov[i])) {
