@@ -73,7 +73,7 @@ func (d *Data) Register(fs *flag.FlagSet) {
 	fs.IntVar(&o.Criteria.GapSample, "gap-sample", o.Criteria.GapSample, "points per gap reference set and on the data side")
 	fs.IntVar(&o.ProbeRows, "probe-rows", o.ProbeRows, "rows read before the pass to fix the scale")
 	fs.IntVar(&o.BatchRows, "batch-rows", o.BatchRows, "rows per read batch")
-	fs.StringVar(&d.reduce, "reduce", "auto", "dimensions the criteria run in for wide inputs: auto (a seeded random projection above 64 columns), off, or a number of dimensions (2 to 1000)")
+	fs.StringVar(&d.reduce, "reduce", "auto", "dimensions the criteria run in for wide inputs: auto (the leading principal components above 64 columns), off, or a number of dimensions (2 to 1000)")
 	fs.StringVar(&d.memory, "memory", "", "memory limit such as 512MiB or 2GiB: sizes shrink to fit the estimate (default: no limit)")
 	fs.BoolVar(&d.asFiles, "as-files", false, "read a Delta Lake or Iceberg table's folder as plain files, removed ones included")
 	fs.StringVar(&d.tableVersion, "table-version", "", "Delta Lake table version to read (default: the latest)")
