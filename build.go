@@ -282,9 +282,9 @@ func probe(ctx context.Context, ds *stream.Dataset, units []stream.Unit, opt Opt
 // ProbeFromRows derives the pass's scale and starting centres from the probe's rows (row-major, raw
 // units; not modified): each column's mean and spread, the mean squared scaled norm, and for every
 // k the first k centres of one k-means++ seeding for MaxK on the first probeInitRows scaled rows
-// (k-means++ is sequential, so they are a k-means++ seeding for k). The estimate's probe and the capacity planner's timed probe both use
-// it, so the planner times the sketch and the criteria from the centres the estimate would start
-// from.
+// (k-means++ is sequential, so they are a k-means++ seeding for k). The estimate's probe and the
+// capacity planner's timed probe both use it, so the planner times the sketch and the criteria from
+// the centres the estimate would start from.
 func ProbeFromRows(rows []float64, cols []string, opt Options) (sketch.Probe, error) {
 	d := len(cols)
 	n := len(rows) / d

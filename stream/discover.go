@@ -219,7 +219,6 @@ func exists(p string) bool {
 	return err == nil
 }
 
-// oneLine joins the fields of s with single spaces.
 // oneLine is a skipped file's reason: the message on one line, in the user's terms.
 func oneLine(s string) string { return errtext.Line(s) }
 

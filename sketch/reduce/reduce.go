@@ -74,8 +74,8 @@ type Info struct {
 	From   int    `json:"from"`   // the feature columns
 	To     int    `json:"to"`     // the dimensions the criteria ran in
 	Seed   uint64 `json:"seed"`   // the random projection's seed (0 for principal components)
-	// Epsilon is the cost distortion the dimension was chosen for by PrincipalDims (0 when the dimension
-	// was given).
+	// Epsilon is the cost distortion the dimension was chosen for (PrincipalDims; 0 when the
+	// dimension was given).
 	Epsilon float64 `json:"epsilon"`
 }
 
