@@ -27,6 +27,7 @@ type GridConfig struct {
 	SeedSets  []string // reference sets run with every seed
 	Refs      []string // reference sets run once (seed 1)
 	Mixtures  bool     // the generated mixture grid
+	MixReps   int      // realizations of each generated mixture design
 	Shapes    bool     // the one-cluster shapes
 	Rows      int      // rows of each generated data set
 	Coreset   int      // coreset size of every run (the sample keeps its default)
@@ -41,7 +42,7 @@ func FullGrid() GridConfig {
 	return GridConfig{DataDirs: []string{"../testdata/refsets", "../../shared/data"}, Reps: 10, Seeds: 10,
 		SeedSets: []string{"S4", "A1", "Unbalance"},
 		Refs:     []string{"S1", "S2", "S3", "DIM032", "DIM064", "Ruspini"},
-		Mixtures: true, Shapes: true, Rows: 3000, Coreset: 2000, Workers: 2, Seed: 12, MaxK: 20}
+		Mixtures: true, MixReps: 2, Shapes: true, Rows: 3000, Coreset: 2000, Workers: 2, Seed: 12, MaxK: 20}
 }
 
 // QuickGrid is a grid small enough for `go test ./bench/`: the machinery, not the numbers.
@@ -61,6 +62,34 @@ type GridRun struct {
 	Votes   map[string]int     `json:"votes"` // 0 = abstained
 	Modes   criteria.ModeCheck `json:"one_mode_check"`
 	Seconds float64            `json:"seconds"`
+	Rows    float64            `json:"rows"` // rows summarised (Summary.N)
+	Dims    int                `json:"dims"` // columns (Summary.D)
+	// PerK holds every criterion's score at each k of the run, so the grid can be voted again when
+	// a voting rule changes (Revote) without running it again.
+	PerK []criteria.Scores `json:"per_k,omitempty"`
+}
+
+// Revote recasts the run's votes from its stored per-k scores with the current voting rules
+// (criteria.VotesOf; Ward's k is the one stored). Runs without scores keep their votes.
+func (r *GridRun) Revote() {
+	if len(r.PerK) == 0 {
+		return
+	}
+	opt := criteria.DefaultOptions()
+	opt.MinK, opt.MaxK = r.PerK[0].K, r.PerK[len(r.PerK)-1].K
+	r.setVotes(criteria.VotesOf(r.PerK, r.Votes[criteria.NameWard], r.Rows, r.Dims, opt))
+}
+
+// setVotes stores vs in r.Votes: a criterion still improving at max-k is recorded as max-k (Decide
+// reads it as "still improving"), an abstention as 0.
+func (r *GridRun) setVotes(vs []criteria.Vote) {
+	r.Votes = map[string]int{}
+	for _, v := range vs {
+		r.Votes[v.Criterion] = v.K
+		if v.StillImproving {
+			r.Votes[v.Criterion] = r.MaxK
+		}
+	}
 }
 
 // gridCase is a data set to run.
@@ -138,17 +167,29 @@ func gridCases(cfg GridConfig) ([]gridCase, error) {
 		cs = append(cs, gridCase{name: name, family: "reference", k: w.K, maxK: maxK(w.K), seeds: []uint64{1}, w: w})
 	}
 	if cfg.Mixtures {
+		// Two realizations of every design (MixReps), so that no weight rests on one draw.
 		i := 0
 		for _, k := range []int{3, 6} {
 			for _, d := range []int{2, 10} {
 				for _, sep := range []float64{4, 7} {
-					for _, el := range []float64{1, 4} {
+					for _, el := range []float64{1, 2, 4} {
 						i++
-						o := synth.MixtureOptions{Rows: cfg.Rows, Dims: d, K: k, Separation: sep, Elongation: el, Seed: seedOf(7, uint64(i))}
-						x, _ := synth.Mixture(o)
-						name := fmt.Sprintf("mix k=%d d=%d sep=%g elong=%g", k, d, sep, el)
-						w := (&Workload{Name: name, Kind: "mixture", K: k, D: d, X: x}).finish(o.Seed)
-						cs = append(cs, gridCase{name: name, family: "mixture", k: k, maxK: maxK(k), seeds: []uint64{1}, w: w})
+						for r := range cfg.MixReps {
+							o := synth.MixtureOptions{Rows: cfg.Rows, Dims: d, K: k, Separation: sep, Elongation: el, Seed: seedOf(7+10*uint64(r), uint64(i))}
+							cs = append(cs, mixtureCase(fmt.Sprintf("mix k=%d d=%d sep=%g elong=%g #%d", k, d, sep, el, r+1), o, "", maxK(k)))
+						}
+					}
+				}
+			}
+		}
+		// Many clusters (issue 12: weak many-cluster structure lost in stage 1), 300 rows each.
+		for _, k := range []int{10, 16} {
+			for _, d := range []int{10, 32} {
+				for _, sep := range []float64{4, 6} {
+					i++
+					for r := range cfg.MixReps {
+						o := synth.MixtureOptions{Rows: max(cfg.Rows, 300*k), Dims: d, K: k, Separation: sep, Elongation: 1, Seed: seedOf(7+10*uint64(r), uint64(i))}
+						cs = append(cs, mixtureCase(fmt.Sprintf("mix k=%d d=%d sep=%g #%d", k, d, sep, r+1), o, "", maxK(k)))
 					}
 				}
 			}
@@ -165,12 +206,11 @@ func gridCases(cfg GridConfig) ([]gridCase, error) {
 			{"mix k=3 d=4 log-normal", synth.MixtureOptions{Dims: 4, K: 3, Separation: 6, Elongation: 1}, "exp"},
 		}
 		for j, e := range extra {
-			o := e.o
-			o.Rows, o.Seed = cfg.Rows, seedOf(8, uint64(j))
-			x, _ := synth.Mixture(o)
-			tails(x, o.Dims, e.tail, rand.New(rand.NewPCG(o.Seed, 3)))
-			w := (&Workload{Name: e.name, Kind: "mixture", K: o.K, D: o.Dims, X: x}).finish(o.Seed)
-			cs = append(cs, gridCase{name: e.name, family: "mixture", k: o.K, maxK: maxK(o.K), seeds: []uint64{1}, w: w})
+			for r := range cfg.MixReps {
+				o := e.o
+				o.Rows, o.Seed = cfg.Rows, seedOf(8+10*uint64(r), uint64(j))
+				cs = append(cs, mixtureCase(fmt.Sprintf("%s #%d", e.name, r+1), o, e.tail, maxK(o.K)))
+			}
 		}
 	}
 	if cfg.Shapes {
@@ -190,6 +230,14 @@ func gridCases(cfg GridConfig) ([]gridCase, error) {
 		}
 	}
 	return cs, nil
+}
+
+// mixtureCase is the grid case of a generated mixture, reshaped by tails.
+func mixtureCase(name string, o synth.MixtureOptions, tail string, maxK int) gridCase {
+	x, _ := synth.Mixture(o)
+	tails(x, o.Dims, tail, rand.New(rand.NewPCG(o.Seed, 3)))
+	w := (&Workload{Name: name, Kind: "mixture", K: o.K, D: o.Dims, X: x}).finish(o.Seed)
+	return gridCase{name: name, family: "mixture", k: o.K, maxK: maxK, seeds: []uint64{1}, w: w}
 }
 
 // tails reshapes a mixture in place: "outliers" replaces 2% of rows by points uniform in a box
@@ -273,13 +321,8 @@ func RunGrid(ctx context.Context, cfg GridConfig, log io.Writer) ([]GridRun, err
 			return
 		}
 		run := GridRun{Case: j.c.name, Family: j.c.family, Stable: j.c.stable, K: j.c.k, MaxK: j.c.maxK, Seed: j.seed,
-			Votes: map[string]int{}, Modes: r.Modes, Seconds: time.Since(t0).Seconds()}
-		for _, v := range r.Votes {
-			run.Votes[v.Criterion] = v.K
-			if v.StillImproving {
-				run.Votes[v.Criterion] = j.c.maxK // recorded as max-k; Decide reads it as "still improving"
-			}
-		}
+			Modes: r.Modes, Seconds: time.Since(t0).Seconds(), Rows: s.N, Dims: s.D, PerK: r.PerK}
+		run.setVotes(r.Votes)
 		runs[i] = run
 		if log != nil {
 			fmt.Fprintf(log, "grid: %s seed %d: verdict %d (true %d), %.1fs\n", j.c.name, j.seed, r.Verdict.K, j.c.k, run.Seconds)
@@ -296,16 +339,26 @@ func RunGrid(ctx context.Context, cfg GridConfig, log io.Writer) ([]GridRun, err
 	return runs, nil
 }
 
-// SaveGrid writes the runs as indented JSON.
+// SaveGrid writes the runs as a JSON array, one run per line.
 func SaveGrid(path string, runs []GridRun) error {
-	b, err := json.MarshalIndent(runs, "", " ")
-	if err != nil {
-		return err
+	var b []byte
+	b = append(b, "[\n"...)
+	for i, r := range runs {
+		line, err := json.Marshal(r)
+		if err != nil {
+			return err
+		}
+		b = append(b, line...)
+		if i < len(runs)-1 {
+			b = append(b, ',')
+		}
+		b = append(b, '\n')
 	}
-	return os.WriteFile(path, append(b, '\n'), 0o644)
+	b = append(b, "]\n"...)
+	return os.WriteFile(path, b, 0o644)
 }
 
-// LoadGrid reads runs written by SaveGrid.
+// LoadGrid reads runs written by SaveGrid and votes them again with the current rules (Revote).
 func LoadGrid(path string) ([]GridRun, error) {
 	b, err := os.ReadFile(path)
 	if err != nil {
@@ -314,6 +367,9 @@ func LoadGrid(path string) ([]GridRun, error) {
 	var runs []GridRun
 	if err := json.Unmarshal(b, &runs); err != nil {
 		return nil, fmt.Errorf("bench: %s: %w", path, err)
+	}
+	for i := range runs {
+		runs[i].Revote()
 	}
 	return runs, nil
 }

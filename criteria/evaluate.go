@@ -116,6 +116,7 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 	core := s.Coreset
 	W := core.TotalWeight()
 	scale := s.N / W
+	excess := fitExcess(core, s.N)
 	_, _, tss, _ := clusterMeans(core, make([]int32, core.Len()), 1)
 
 	if !(tss > 0) {
@@ -214,7 +215,7 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 	}
 	for k := opt.MaxK; k >= opt.MinK; k-- {
 		later = append(later, job{cost: scoreCost(n, k, d, opt.Anchors, splitA.Len()), run: func() {
-			sc := scoreK(core, fits[k-opt.MinK], k, s, opt, scale, reg, stop)
+			sc := scoreK(core, fits[k-opt.MinK], k, s, opt, scale, excess, reg, stop)
 			if sc.Valid && !stop() {
 				sc.SplitAgreement = splitAgreement(splitA, splitB, k, 2, rngFor(opt.Seed, k, streamSplit))
 			}
@@ -271,7 +272,7 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 	for i := range res.PerK {
 		res.PerK[i].WardHeight, res.PerK[i].WardJump = h[i], j[i]
 	}
-	res.Votes = votes(res.PerK, best, opt)
+	res.Votes = votes(res.PerK, best, s.N, s.D, opt)
 	res.Verdict = verdict(res, opt)
 	res.Far = farRows(core, res)
 	return res, nil
@@ -327,8 +328,31 @@ func refLogW(w [][]float64, i int) (mean, sk float64, ok bool) {
 // pair has a stream of its own.
 func refStream(k, b int) int { return k | (b+1)<<16 }
 
+// fitExcess is the share by which a fit to the coreset flatters the likelihoods scaled to n rows:
+// n/n_eff - 1, floored at 0, with n_eff = (Σw)²/Σw² the coreset's effective size (Kish). A model
+// with p parameters fitted to n_eff points gains about p/2 in log-likelihood on those points over
+// unseen ones (the optimism behind AIC, Akaike 1974); scaled by n/n_eff to n rows that is
+// p/2 · n/n_eff, against the p/2 a fit to all n rows would gain. Left uncorrected, the excess
+// p/2 · (n/n_eff - 1) outgrows BIC's p/2 · ln n once n > n_eff · ln n (about 230,000 rows at the
+// default coreset), and the likelihood criteria then improve up to max-k on any large input.
+// An exact summary (unit weights, n_eff = n) has no excess.
+func fitExcess(core Points, n float64) float64 {
+	sw, sw2 := 0.0, 0.0
+	for i := range core.Len() {
+		w := core.Weight(i)
+		sw += w
+		sw2 += w * w
+	}
+	if !(sw2 > 0) {
+		return 0
+	}
+	return max(0, n/(sw*sw/sw2)-1)
+}
+
 // scoreK computes the per-k scores of Evaluate (all but the gap and Ward columns) from the fit.
-func scoreK(core Points, fit Fit, k int, s Summary, opt Options, scale, reg float64, stop func() bool) Scores {
+// The likelihood criteria (bic_gmm, aic_gmm, bic_kmeans) are corrected for the coreset fit's
+// optimism: p · excess is added to each, p their parameter count (fitExcess).
+func scoreK(core Points, fit Fit, k int, s Summary, opt Options, scale, excess, reg float64, stop func() bool) Scores {
 	sc := nanScores(k)
 	sc.WCSS = fit.Cost * scale
 	// A fit with zero cost and no empty cluster (k equal to the number of distinct points) is a
@@ -353,15 +377,15 @@ func scoreK(core Points, fit Fit, k int, s Summary, opt Options, scale, reg floa
 		return sc
 	}
 	if _, ll, _, err := GMMFullFit(core, fit, GMMOptions{Reg: reg, MaxIter: gmmMaxIter, Tol: gmmTol}); err == nil {
-		ll *= scale
 		p := GMMFullParams(k, s.D)
+		ll = ll*scale - float64(p)/2*excess
 		sc.LogLikGMM, sc.BICGMM, sc.AICGMM = ll, BIC(ll, p, s.N), AIC(ll, p)
 	}
 	sizes := make([]float64, k)
 	for j, z := range fit.Sizes {
 		sizes[j] = z * scale
 	}
-	sc.BICKMeans = BICKMeans(sizes, fit.Cost*scale, s.D)
+	sc.BICKMeans = BICKMeans(sizes, fit.Cost*scale, s.D) + float64(BICKMeansParams(k, s.D))*excess
 	return sc
 }
 

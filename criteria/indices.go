@@ -125,6 +125,10 @@ func DaviesBouldin(p Points, labels []int32, k int) float64 {
 	return tot / float64(len(idx))
 }
 
+// BICKMeansParams is the parameter count of BICKMeans' model: k-1 mixing shares, k·dim centre
+// coordinates and one shared variance.
+func BICKMeansParams(k, dim int) int { return k - 1 + k*dim + 1 }
+
 // BICKMeans returns the dimension-consistent spherical k-means BIC, in the "lower is better" sign
 // convention (-2 l + p ln R). It follows X-means (Pelleg & Moore 2000, "X-means: extending
 // K-means with efficient estimation of the number of clusters", ICML) with one pooled variance per
@@ -155,6 +159,5 @@ func BICKMeans(sizes []float64, wcss float64, dim int) float64 {
 	}
 	sig2 := wcss / (M * (R - float64(K)))
 	l += -(R*M/2)*math.Log(2*math.Pi*sig2) - M*(R-float64(K))/2
-	p := float64(K-1) + M*float64(K) + 1
-	return -2*l + p*math.Log(R)
+	return -2*l + float64(BICKMeansParams(K, dim))*math.Log(R)
 }

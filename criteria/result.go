@@ -121,6 +121,17 @@ func nanScores(k int) Scores {
 		SplitAgreement: n}
 }
 
+// UnmarshalJSON reads s as MarshalJSON writes it: null becomes NaN.
+func (s *Scores) UnmarshalJSON(b []byte) error {
+	type plain Scores // the same fields and tags, without this method
+	p := plain(nanScores(0))
+	if err := json.Unmarshal(b, &p); err != nil {
+		return err
+	}
+	*s = Scores(p)
+	return nil
+}
+
 // jsonFloat marshals NaN and ±Inf as null.
 type jsonFloat float64
 

@@ -12,6 +12,35 @@ import (
 // NameOneMode is the one-mode check's key in Weights.Structure (it is not a per-k criterion).
 const NameOneMode = "one_mode"
 
+// NameSharedK is the key in Weights.Structure of the stage-1 voter that reads the criteria's own
+// choices (SharedK).
+const NameSharedK = "shared_k"
+
+// SharedKMin is how many criteria must name one k >= 3 for SharedK to say "several groups".
+const SharedKMin = 4
+
+// SharedK reports whether at least SharedKMin criteria name one and the same k >= 3 inside the
+// range minK..maxK (a criterion still improving at max-k does not count). On a single cloud the
+// ratio criteria (silhouette, Calinski-Harabasz, Davies-Bouldin) mostly name 2, the smallest k
+// they can (common practice), and the others scatter; several of them meeting on one larger k is
+// evidence of groups that the criteria able to say "one group" can miss: on many weak clusters in
+// many dimensions gap's first-step rule and a full-covariance mixture with few rows per parameter
+// both say one (bench/report/CALIBRATION.md).
+func SharedK(vs []Vote, minK, maxK int) bool {
+	edge := edgeRange(minK, maxK)
+	count := map[int]int{}
+	for _, v := range vs {
+		if v.Abstain || v.StillImproving || v.K < 3 || (edge && v.K == maxK) {
+			continue
+		}
+		count[v.K]++
+		if count[v.K] >= SharedKMin {
+			return true
+		}
+	}
+	return false
+}
+
 // unstableRatio: a verdict is unstable when another k holds at least this share of its vote
 // weight. Chosen on the benchmark grid (bench/report/CALIBRATION.md): below it, seeds 1..10 gave
 // the same verdict in at least 9 of 10 runs on every reference set and scenario measured.
@@ -43,7 +72,7 @@ type Weights struct {
 // CalPoint is one step of the calibration table.
 type CalPoint struct {
 	Support float64 `json:"support"` // lower end of the support bin
-	Right   float64 `json:"right"`   // share right (monotone by pool-adjacent-violators)
+	Right   float64 `json:"right"`   // share right, smoothed (right+1)/(runs+2), monotone (pool-adjacent-violators)
 	Runs    int     `json:"runs"`    // grid runs behind it
 }
 
@@ -67,7 +96,7 @@ func ParseWeights(b []byte) (Weights, error) {
 			return Weights{}, fmt.Errorf("criteria: weights: no %s weights", m.what)
 		}
 		for name, v := range m.m {
-			if !slices.Contains(known, name) && !(m.what == "structure" && name == NameOneMode) {
+			if !slices.Contains(known, name) && !(m.what == "structure" && (name == NameOneMode || name == NameSharedK)) {
 				return Weights{}, fmt.Errorf("criteria: weights: unknown %s voter %q", m.what, name)
 			}
 			if !(v >= 0) || math.IsInf(v, 0) {
@@ -236,6 +265,14 @@ func Decide(vs []Vote, modes ModeCheck, minK, maxK int, w Weights) Verdict {
 				several += w.Structure[NameOneMode]
 			} else {
 				one += w.Structure[NameOneMode]
+			}
+		}
+		if wt, ok := w.Structure[NameSharedK]; ok {
+			if SharedK(vs, minK, maxK) {
+				several += wt
+				severalBy = append(severalBy, NameSharedK)
+			} else {
+				one += wt
 			}
 		}
 		if one+several > 0 {

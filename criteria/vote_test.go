@@ -178,7 +178,7 @@ func TestKneeInFirstThird(t *testing.T) {
 	}{{6, true}, {12, false}} {
 		opt := DefaultOptions()
 		opt.MaxK = tc.maxK
-		vs := votes(per(tc.maxK), 0, opt)
+		vs := votes(per(tc.maxK), 0, 1e6, 2, opt)
 		if v := vs[0]; v.Criterion != NameElbow || v.Abstain != tc.abstain || (!v.Abstain && v.K != 3) {
 			t.Errorf("max-k %d: elbow vote %+v, want abstain=%v (else k = 3)", tc.maxK, v, tc.abstain)
 		}
