@@ -184,3 +184,59 @@ func TestKneeInFirstThird(t *testing.T) {
 		}
 	}
 }
+
+func TestSharedK(t *testing.T) {
+	for _, tc := range []struct {
+		name  string
+		votes map[string]int
+		want  bool
+	}{
+		{"four on 5", map[string]int{NameElbow: 5, NameWard: 5, NameSilhouette: 5, NameDaviesBouldin: 5, NameGapBox: 1}, true},
+		{"three on 5", map[string]int{NameElbow: 5, NameWard: 5, NameSilhouette: 5, NameDaviesBouldin: 6}, false},
+		{"four on 2", map[string]int{NameElbow: 2, NameWard: 2, NameSilhouette: 2, NameDaviesBouldin: 2}, false},
+		{"four at max-k", map[string]int{NameBICGMM: 20, NameAICGMM: 20, NameBICKMeans: 20, NameCalinskiHarabasz: 20}, false},
+		{"scattered", map[string]int{NameElbow: 3, NameWard: 4, NameSilhouette: 5, NameDaviesBouldin: 6, NameGapBox: 7}, false},
+	} {
+		if got := SharedK(votesOf(tc.votes), 1, 20); got != tc.want {
+			t.Errorf("%s: SharedK = %v, want %v", tc.name, got, tc.want)
+		}
+	}
+	// shared_k's weight moves stage 1: the same votes give one group without it and several with it.
+	w := equalWeights()
+	vs := votesOf(map[string]int{NameGapBox: 1, NameGapPCA: 1, NameSplitAgreement: 1, NameBICKMeans: 10,
+		NameSilhouette: 10, NameWard: 10, NameDaviesBouldin: 10})
+	if v := Decide(vs, ModeCheck{}, 1, 20, w); v.K != 1 {
+		t.Fatalf("without shared_k: k = %d, want 1", v.K)
+	}
+	w.Structure[NameSharedK] = 2.5
+	if v := Decide(vs, ModeCheck{}, 1, 20, w); v.K != 10 {
+		t.Errorf("with shared_k: k = %d, want 10", v.K)
+	}
+}
+
+// TestBICOneNeedsRows: bic_gmm's k = 1 has no say with fewer than rowsPerParam rows per parameter
+// of a two-component full mixture (GMMFullParams(2, 32) = 1121, so 11,210 rows); its k >= 2 always counts.
+func TestBICOneNeedsRows(t *testing.T) {
+	per := func(best int) []Scores {
+		var out []Scores
+		for k := 1; k <= 6; k++ {
+			s := nanScores(k)
+			s.Valid, s.WCSS, s.BICGMM = true, 100/float64(k), math.Abs(float64(k-best))
+			out = append(out, s)
+		}
+		return out
+	}
+	opt := DefaultOptions()
+	opt.MaxK = 6
+	for _, tc := range []struct {
+		best    int
+		rows    float64
+		abstain bool
+	}{{1, 11209, true}, {1, 11210, false}, {3, 500, false}} {
+		vs := votes(per(tc.best), 0, tc.rows, 32, opt)
+		i := slices.IndexFunc(vs, func(v Vote) bool { return v.Criterion == NameBICGMM })
+		if v := vs[i]; v.Abstain != tc.abstain || (!v.Abstain && v.K != tc.best) {
+			t.Errorf("best %d, %v rows: bic_gmm vote %+v, want abstain=%v", tc.best, tc.rows, v, tc.abstain)
+		}
+	}
+}
