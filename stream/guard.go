@@ -200,26 +200,9 @@ func checkColumnChunk(fh io.ReaderAt, start, total, footerAt, rows int64, shape 
 	var body pageBody
 	for pos := start; pos < end; {
 		var h format.PageHeader
-		var n int
-		for window := int64(256); ; window *= 16 {
-			w := min(window, end-pos)
-			if int64(cap(buf)) < w {
-				buf = make([]byte, w)
-			}
-			b := buf[:w]
-			if _, err := fh.ReadAt(b, pos); err != nil && !(err == io.EOF && len(b) > 0) {
-				return err
-			}
-			var err error
-			if n, err = checkThrift(b); err == nil {
-				if err = thrift.Unmarshal(new(thrift.CompactProtocol), b[:n], &h); err != nil {
-					return corruptf("page header at %d: %v", pos, err)
-				}
-				break
-			}
-			if w == end-pos || w >= maxPageHeader || !(errors.Is(err, io.EOF) || errors.Is(err, io.ErrUnexpectedEOF)) {
-				return fmt.Errorf("page header at %d: %w", pos, thriftCause(err))
-			}
+		n, err := readPageHeader(fh, pos, end, &buf, &h)
+		if err != nil {
+			return err
 		}
 		comp, unc := int64(h.CompressedPageSize), int64(h.UncompressedPageSize)
 		left := end - pos - int64(n)
@@ -247,6 +230,32 @@ func checkColumnChunk(fh io.ReaderAt, start, total, footerAt, rows int64, shape 
 		pos += int64(n) + comp
 	}
 	return nil
+}
+
+// readPageHeader decodes the page header at pos (a column chunk ends at end) into h and returns
+// its length. It reads a window of 256 bytes and grows it 16-fold while the header runs past it,
+// up to maxPageHeader; buf is reused between calls. A header that does not decode is ErrCorruptFile.
+func readPageHeader(fh io.ReaderAt, pos, end int64, buf *[]byte, h *format.PageHeader) (int, error) {
+	for window := int64(256); ; window *= 16 {
+		w := min(window, end-pos)
+		if int64(cap(*buf)) < w {
+			*buf = make([]byte, w)
+		}
+		b := (*buf)[:w]
+		if _, err := fh.ReadAt(b, pos); err != nil && !(err == io.EOF && len(b) > 0) {
+			return 0, err
+		}
+		n, err := checkThrift(b)
+		if err == nil {
+			if err = thrift.Unmarshal(new(thrift.CompactProtocol), b[:n], h); err != nil {
+				return 0, corruptf("page header at %d: %v", pos, err)
+			}
+			return n, nil
+		}
+		if w == end-pos || w >= maxPageHeader || !(errors.Is(err, io.EOF) || errors.Is(err, io.ErrUnexpectedEOF)) {
+			return 0, fmt.Errorf("page header at %d: %w", pos, thriftCause(err))
+		}
+	}
 }
 
 // chunkShape is what checkColumnChunk needs to know of a column chunk to walk its pages' runs.

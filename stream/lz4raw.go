@@ -65,26 +65,9 @@ func openLZ4Chunk(pf *parquet.File, fh io.ReaderAt, rg, leaf int) (*parquet.File
 	buf := make([]byte, 256)
 	for pos, end := start, start+cm.TotalCompressedSize; pos < end; {
 		var h format.PageHeader
-		var n int
-		for window := int64(256); ; window *= 16 {
-			w := min(window, end-pos)
-			if int64(cap(buf)) < w {
-				buf = make([]byte, w)
-			}
-			b := buf[:w]
-			if _, err := fh.ReadAt(b, pos); err != nil && !(err == io.EOF && len(b) > 0) {
-				return nil, err
-			}
-			var err error
-			if n, err = checkThrift(b); err == nil {
-				if err = thrift.Unmarshal(new(thrift.CompactProtocol), b[:n], &h); err != nil {
-					return nil, corruptf("page header at %d: %v", pos, err)
-				}
-				break
-			}
-			if w == end-pos || w >= maxPageHeader {
-				return nil, fmt.Errorf("page header at %d: %w", pos, thriftCause(err))
-			}
+		n, err := readPageHeader(fh, pos, end, &buf, &h)
+		if err != nil {
+			return nil, err
 		}
 		comp, size := int64(h.CompressedPageSize), int64(h.UncompressedPageSize)
 		body := lz4Segment{src: pos + int64(n), comp: comp, size: size}
