@@ -74,7 +74,8 @@ const wardDirectMax = 400
 // Calinski–Harabasz and Davies–Bouldin (on the weighted coreset), a full-covariance GMM fitted by
 // EM from the k-means fit (GMMFullFit; 1e-6 times the mean per-dimension variance added to every
 // covariance's diagonal; at most 100 iterations, tolerance 1e-3 per unit weight; log-likelihood
-// scaled by N / coreset weight, BIC/AIC with the real N and p = GMMFullParams), and BICKMeans.
+// scaled by N / coreset weight less the coreset fit's optimism (fitExcess), BIC/AIC with the real N
+// and p = GMMFullParams), and BICKMeans (corrected alike).
 // The gap statistic uses n = min(opt.GapSample, sample size) points of the uniform sample (a
 // seeded subsample without replacement; if the Summary has no sample, n points drawn from the
 // coreset in proportion to weight) against opt.GapRefs reference sets of n points in the
