@@ -54,11 +54,11 @@ type ProbeTiming struct {
 	Bytes           int64   `json:"bytes"`          // unit bytes read
 	ReadSeconds     float64 `json:"read_seconds"`   // reading them
 	OpenSeconds     float64 `json:"open_seconds"`   // opening them
-	SketchSeconds   float64 `json:"sketch_seconds"` // sketch.Add, steady state and with full feed
+	SketchSeconds   float64 `json:"sketch_seconds"` // timing the sketch, steady state and with full feed
 	CriteriaSeconds float64 `json:"criteria_seconds"`
 
 	// Criteria is what the full-size criteria runs on a sketch of the probe rows measured; with it,
-	// Predict prices the criteria stage from these runs instead of from work units.
+	// Predict prices the criteria stage from these runs instead of from the calibration's.
 	Criteria *CriteriaProbe `json:"criteria,omitempty"`
 }
 
