@@ -128,16 +128,7 @@ func Summarize(sk *sketch.Sketch, method Scale) (criteria.Summary, Scaling) {
 // nothing). Should the covariance's eigen decomposition fail, it falls back to the seeded random
 // projection and says so.
 func ReduceWide(s criteria.Summary, opt Options) (criteria.Summary, *reduce.Info) {
-	m, eps := opt.Reduce, 0.0
-	switch {
-	case m < 0:
-		return s, nil
-	case m == 0:
-		if s.D <= reduce.Above {
-			return s, nil
-		}
-		m, eps = reduce.PrincipalDims(s.D, opt.Criteria.MaxK), reduce.PrincipalEpsilon
-	}
+	m, eps := reducedDims(s.D, opt)
 	if m >= s.D {
 		return s, nil
 	}
@@ -145,6 +136,19 @@ func ReduceWide(s criteria.Summary, opt Options) (criteria.Summary, *reduce.Info
 		return out, &reduce.Info{Method: reduce.MethodPrincipal, From: s.D, To: m, Epsilon: eps}
 	}
 	return reduce.Project(s, m, opt.Seed), &reduce.Info{Method: reduce.MethodRandom, From: s.D, To: m, Seed: opt.Seed}
+}
+
+// reducedDims is the width ReduceWide gives the criteria of a d-column input under opt (d when
+// it does not reduce), and the reduction's ε when it chose the width itself.
+func reducedDims(d int, opt Options) (int, float64) {
+	switch m := opt.Reduce; {
+	case m < 0 || (m == 0 && d <= reduce.Above):
+		return d, 0
+	case m == 0:
+		return reduce.PrincipalDims(d, opt.Criteria.MaxK), reduce.PrincipalEpsilon
+	default:
+		return min(m, d), 0
+	}
 }
 
 // reconcile pools the parts' mini-batch centres for one k into k centres in the scaled space.

@@ -63,6 +63,7 @@ func WorkloadOf(ds *stream.Dataset, opt Options) cost.Workload {
 		}
 		return v
 	}
+	critDims, _ := reducedDims(ds.Dims(), opt)
 	return cost.Workload{Files: len(ds.Files), Units: len(ds.Units), Rows: ds.Rows, Bytes: ds.Bytes,
 		Dims: ds.Dims(), Workers: opt.Workers, Cores: runtime.GOMAXPROCS(0), MinK: c.MinK, MaxK: c.MaxK,
 		Coreset: cs, Sample: ss, MiniBatchRows: mb, BatchRows: opt.BatchRows, ProbeRows: opt.ProbeRows,
@@ -70,5 +71,5 @@ func WorkloadOf(ds *stream.Dataset, opt Options) cost.Workload {
 		GapRefs: pick(c.GapRefs, dc.GapRefs), GapSample: pick(c.GapSample, dc.GapSample),
 		GapRestarts:   pick(c.GapRestarts, dc.GapRestarts),
 		WardLeaves:    criteria.WardLeaves(int(min(int64(cs), max(ds.Rows, 1))), c.MaxK),
-		MiniBatchSize: s.MiniBatchSize, CriteriaWorkers: c.Workers}
+		MiniBatchSize: s.MiniBatchSize, CriteriaWorkers: c.Workers, CriteriaDims: critDims}
 }

@@ -94,55 +94,9 @@ const (
 // with ds (defaults filled in, fitted to the input).
 func TimedProbe(ctx context.Context, ds *stream.Dataset, opt kgauge.Options, cal cost.Calibration) (cost.Calibration, error) {
 	d := ds.Dims()
-	units := stream.Shuffle(ds.Units, opt.Seed)
-	budget := ds.Rows / probeShare
-	pt := &cost.ProbeTiming{}
-	var rows []float64
-	buf := make([]float64, opt.BatchRows*d)
-	for _, u := range units {
-		if pt.Units >= probeMaxUnits || (pt.Units >= 1 && (u.Rows < 0 || pt.Rows+u.Rows > budget)) {
-			break
-		}
-		if err := ctx.Err(); err != nil {
-			return cal, err
-		}
-		t0 := time.Now()
-		r, err := ds.OpenUnit(u)
-		if err != nil {
-			return cal, err
-		}
-		t1 := time.Now()
-		var got int64
-		for {
-			n, err := r.Read(buf)
-			if len(rows) < probeKeepRows*d {
-				rows = append(rows, buf[:min(n*d, probeKeepRows*d-len(rows))]...)
-			}
-			got += int64(n)
-			if err == io.EOF {
-				break
-			}
-			if err != nil {
-				r.Close()
-				return cal, err
-			}
-			if u.Rows < 0 && got >= probeKeepRows {
-				break // an Arrow batch or stream of unknown length: a part is enough
-			}
-		}
-		pt.ReadSeconds += time.Since(t1).Seconds()
-		r.Close()
-		pt.OpenSeconds += t1.Sub(t0).Seconds()
-		pt.Rows += got
-		if u.Rows >= 0 {
-			pt.Bytes += u.Bytes
-		} else {
-			pt.Bytes += got * int64(d) * 8 // the values decoded; Arrow IPC holds them uncompressed
-		}
-		pt.Units++
-	}
-	if pt.Units == 0 {
-		return cal, nil
+	rows, pt, err := readProbe(ctx, ds, stream.Shuffle(ds.Units, opt.Seed), opt.BatchRows, probeMaxUnits, ds.Rows/probeShare)
+	if err != nil || pt.Units == 0 {
+		return cal, err
 	}
 	cal.Source = "probe of the input; ratios from " + cal.Source
 	cal.Probe = pt
@@ -160,15 +114,123 @@ func TimedProbe(ctx context.Context, ds *stream.Dataset, opt kgauge.Options, cal
 	}
 	pt.SketchSeconds = time.Since(t0).Seconds()
 	t0 = time.Now()
-	if err := timeCriteria(ctx, &cal, rows, ds.Columns, opt, kgauge.WorkloadOf(ds, opt)); err != nil {
+	cp, err := runCriteria(ctx, rows, ds.Columns, opt, probeRuns(opt.Criteria.MinK, opt.Criteria.MaxK))
+	if err != nil {
 		return cal, err
 	}
+	pt.Criteria = cp
 	pt.CriteriaSeconds = time.Since(t0).Seconds()
 	return cal, nil
 }
 
-// timeSketch sets cal's sketch.Add cost per value (steady state, once the coreset and sample are
-// full) and its mini-batch kernel rate (a fresh sketch feeding every row, less one feeding none).
+// readProbe reads whole units of ds in the order given (at most maxUnits and, beyond the first,
+// no more than budget rows in all; of a unit of unknown length, an Arrow batch or stream, at most
+// probeKeepRows rows), keeps the first probeKeepRows rows (row-major) and times the reader's calls
+// only, not the keeping: the rows are allocated once (growing them inside the timed loop had cost
+// four times the read). The first read of a process pays a one-time set-up (46 ms against 5–7 ms
+// for every later read of an 8 MB row group, the same one included), which the estimate's pass
+// does not, its probe stage having read first: one batch of the first unit is read before the
+// clock starts.
+func readProbe(ctx context.Context, ds *stream.Dataset, units []stream.Unit, batchRows, maxUnits int, budget int64) ([]float64, *cost.ProbeTiming, error) {
+	d := ds.Dims()
+	pt := &cost.ProbeTiming{}
+	keep := int64(probeKeepRows)
+	if ds.Rows > 0 {
+		keep = min(keep, ds.Rows)
+	}
+	rows := make([]float64, 0, keep*int64(d))
+	buf := make([]float64, max(1, batchRows)*d)
+	if len(units) > 0 {
+		r, err := ds.OpenUnit(units[0])
+		if err != nil {
+			return nil, pt, err
+		}
+		_, err = r.Read(buf)
+		r.Close()
+		if err != nil && err != io.EOF {
+			return nil, pt, err
+		}
+	}
+	for _, u := range units {
+		if pt.Units >= maxUnits || (pt.Units >= 1 && (u.Rows < 0 || pt.Rows+u.Rows > budget)) {
+			break
+		}
+		if err := ctx.Err(); err != nil {
+			return nil, pt, err
+		}
+		t0 := time.Now()
+		r, err := ds.OpenUnit(u)
+		if err != nil {
+			return nil, pt, err
+		}
+		t1 := time.Now()
+		var got int64
+		var read float64
+		for {
+			t2 := time.Now()
+			n, err := r.Read(buf)
+			read += time.Since(t2).Seconds()
+			if len(rows) < probeKeepRows*d {
+				rows = append(rows, buf[:min(n*d, probeKeepRows*d-len(rows))]...)
+			}
+			got += int64(n)
+			if err == io.EOF {
+				break
+			}
+			if err != nil {
+				r.Close()
+				return nil, pt, err
+			}
+			if u.Rows < 0 && got >= probeKeepRows {
+				break // an Arrow batch or stream of unknown length: a part is enough
+			}
+		}
+		pt.ReadSeconds += read
+		r.Close()
+		pt.OpenSeconds += t1.Sub(t0).Seconds()
+		pt.Rows += got
+		if u.Rows >= 0 {
+			pt.Bytes += u.Bytes
+		} else {
+			pt.Bytes += got * int64(d) * 8 // the values decoded; Arrow IPC holds them uncompressed
+		}
+		pt.Units++
+	}
+	return rows, pt, nil
+}
+
+// CriteriaRuns times the criteria at opt's sizes on a sketch of the first rows of the data files
+// named by paths (at most probeKeepRows, read in file order), as a plan's timed probe times its own
+// (runCriteria): k = 1 with and without the Ward linkage and each k of ks without it. It is how
+// kgauge-calibrate measures the criteria runs that price the stage without a probe.
+func CriteriaRuns(ctx context.Context, paths []string, opt kgauge.Options, ks []int) (*cost.CriteriaProbe, error) {
+	op, err := kgauge.Open(paths, opt)
+	if err != nil {
+		return nil, err
+	}
+	ds := op.Dataset
+	defer ds.Close()
+	opt = op.Options
+	rows, _, err := readProbe(ctx, ds, ds.Units, opt.BatchRows, len(ds.Units), probeKeepRows)
+	if err != nil {
+		return nil, err
+	}
+	if len(rows)/ds.Dims() < max(2*opt.Criteria.MaxK, 64) {
+		return nil, fmt.Errorf("plan: %d rows are too few to time the criteria", len(rows)/ds.Dims())
+	}
+	runs := []cost.CriteriaRun{{K: 1, Ward: true}, {K: 1}}
+	for _, k := range ks {
+		if k >= 2 {
+			runs = append(runs, cost.CriteriaRun{K: k})
+		}
+	}
+	// The most expensive first, as probeRuns orders them, so the side-by-side runs end together.
+	slices.SortStableFunc(runs, func(a, b cost.CriteriaRun) int { return b.K - a.K })
+	return runCriteria(ctx, rows, ds.Columns, opt, runs)
+}
+
+// timeSketch sets cal's sketch.AddColumns cost per value (steady state, once the coreset and sample
+// are full) and its mini-batch kernel rate (a fresh sketch feeding every row, less one feeding none).
 func timeSketch(cal *cost.Calibration, rows []float64, cols []string, opt kgauge.Options) error {
 	d := len(cols)
 	n := len(rows) / d
@@ -193,15 +255,34 @@ func timeSketch(cal *cost.Calibration, rows []float64, cols []string, opt kgauge
 	for base.Rows() < warm {
 		base.Add(rows)
 	}
+	// The pass hands sketch.AddColumns the decoded columns (readUnit), so that is what is timed: the
+	// rows are turned into columns a chunk at a time outside the clock (sketch.Add's own transpose
+	// had made up a third of its cost).
+	chunk := min(n, addColumnRows)
+	colBuf := make([]float64, chunk*d)
+	colViews := make([][]float64, d)
 	var per []float64
 	for range addRuns {
 		var added int64
-		t0 = time.Now()
-		for added < int64(n) || time.Since(t0).Seconds() < probeMinTiming {
-			base.Add(rows)
+		var spent float64
+		for added < int64(n) || spent < probeMinTiming {
+			for start := 0; start < n; start += chunk {
+				m := min(chunk, n-start)
+				for j := range colViews {
+					colViews[j] = colBuf[j*chunk : j*chunk+m]
+				}
+				for i := range m {
+					for j, v := range rows[(start+i)*d : (start+i+1)*d] {
+						colViews[j][i] = v
+					}
+				}
+				t0 = time.Now()
+				base.AddColumns(colViews)
+				spent += time.Since(t0).Seconds()
+			}
 			added += int64(n)
 		}
-		per = append(per, time.Since(t0).Seconds()/float64(added*int64(d)))
+		per = append(per, spent/float64(added*int64(d)))
 	}
 	slices.Sort(per)
 	if v := per[len(per)/2]; v > 0 {
@@ -224,8 +305,12 @@ func timeSketch(cal *cost.Calibration, rows []float64, cols []string, opt kgauge
 	return nil
 }
 
-// addRuns is the number of timed repetitions of the probe's steady-state sketch.Add measurement.
-const addRuns = 3
+// addRuns is the number of timed repetitions of the probe's steady-state sketch.AddColumns
+// measurement, and addColumnRows the rows handed to it at a time.
+const (
+	addRuns       = 3
+	addColumnRows = 4096
+)
 
 // probeRuns returns the probe's criteria runs, the most expensive first (the order they start in):
 // without the Ward linkage the largest k, the middle of the range from the smallest k >= 2 and that
@@ -245,14 +330,13 @@ func probeRuns(minK, maxK int) []cost.CriteriaRun {
 	return append(runs, cost.CriteriaRun{K: 1, Ward: true}, cost.CriteriaRun{K: 1})
 }
 
-// timeCriteria times the criteria at the estimate's option sizes on a sketch of the probe rows (of
-// the estimate's coreset and sample sizes as far as the rows go; cost.CriteriaFromRuns scales a
-// smaller coreset up), for the few k of probeRuns only:
-// one criteria.Evaluate per run on one worker, as many side by side as the estimate's criteria run
-// (one per CPU), without the Ward linkage but in one run, and records the runs in
-// cal.Probe.Criteria for cost.CriteriaFromRuns. It also sets cal's criteria work rate to what those
-// runs imply for w, for the record.
-func timeCriteria(ctx context.Context, cal *cost.Calibration, rows []float64, cols []string, opt kgauge.Options, w cost.Workload) error {
+// runCriteria times the criteria at the estimate's option sizes on a sketch of rows (of the
+// estimate's coreset and sample sizes as far as the rows go; cost.CriteriaFromRuns scales a
+// smaller coreset up), for the runs given (probeRuns, for a plan): one criteria.Evaluate per run
+// on one worker, as many side by side as the estimate's criteria run (one per CPU), without the
+// Ward linkage but in one run, and returns them in ascending k for cost.CriteriaFromRuns, with the
+// width the criteria ran in (after a wide input's reduction).
+func runCriteria(ctx context.Context, rows []float64, cols []string, opt kgauge.Options, runs []cost.CriteriaRun) (*cost.CriteriaProbe, error) {
 	d := len(cols)
 	n := len(rows) / d
 	cfg := opt.Sketch
@@ -261,16 +345,15 @@ func timeCriteria(ctx context.Context, cal *cost.Calibration, rows []float64, co
 	cfg.MiniBatchRows = int64(min(n, probeFeedRows))
 	pr, err := kgauge.ProbeFromRows(rows, cols, opt)
 	if err != nil {
-		return err
+		return nil, err
 	}
 	sk, err := sketch.New(cfg, pr)
 	if err != nil {
-		return err
+		return nil, err
 	}
 	sk.Add(rows)
 	sum, _ := kgauge.Summarize(sk, opt.Scale)
 	sum, _ = kgauge.ReduceWide(sum, opt) // the criteria run where Evaluate runs them
-	runs := probeRuns(opt.Criteria.MinK, opt.Criteria.MaxK)
 	par := opt.Criteria.Workers
 	if par == 0 {
 		par = runtime.GOMAXPROCS(0)
@@ -304,19 +387,10 @@ func timeCriteria(ctx context.Context, cal *cost.Calibration, rows []float64, co
 	close(next)
 	wg.Wait()
 	if err := errors.Join(errs...); err != nil {
-		return fmt.Errorf("plan: probe criteria run: %w", err)
+		return nil, fmt.Errorf("plan: probe criteria run: %w", err)
 	}
 	slices.SortStableFunc(runs, func(a, b cost.CriteriaRun) int { return a.K - b.K })
-	cp := &cost.CriteriaProbe{Coreset: sum.Coreset.Len(), Parallel: par, Runs: runs}
-	cal.Probe.Criteria = cp
-	if s, ok := cost.CriteriaFromRuns(w, cp, w.Cores); ok && s > 0 {
-		m := min(w.Coreset, int(max(w.Rows, 1)))
-		g := min(w.GapSample, w.Sample, int(max(w.Rows, 1)))
-		work := cost.CriteriaWork(m, w.MinK, w.MaxK, w.Dims, w.Restarts, w.GapRefs, g, w.GapRestarts, min(w.Anchors, m))
-		cal.CriteriaWorkPerSec = work / s
-		cal.CriteriaScaleUp, cal.CriteriaFixed = 0, 0
-	}
-	return nil
+	return &cost.CriteriaProbe{Dims: sum.D, Coreset: sum.Coreset.Len(), Parallel: par, Runs: runs}, nil
 }
 
 // Project fills r.Throughput from its pass and r.Projection with the model's prediction for 1, 10
@@ -337,7 +411,7 @@ func Project(r *kgauge.Result, w cost.Workload) {
 // FitToRun rescales the constants of cal so that the model reproduces the measured stage times tm
 // of a run of w: the open, probe and criteria terms by their ratios, and the rows-proportional part
 // of the pass (unit opens, scan and sketch) so that the whole pass matches; when the fixed feed term
-// alone exceeds the measured pass, the pass overhead takes the whole ratio instead.
+// alone exceeds the measured pass, both pass overheads take the whole ratio instead.
 func FitToRun(cal cost.Calibration, w cost.Workload, tm kgauge.Timings) cost.Calibration {
 	p := cost.Predict(w, cal)
 	t := p.Terms
@@ -345,9 +419,17 @@ func FitToRun(cal cost.Calibration, w cost.Workload, tm kgauge.Timings) cost.Cal
 		cal.OpenFileSeconds *= tm.Open / t.Open
 	}
 	if tm.Criteria > 0 && t.Criteria > 0 {
+		// Every calibrated criteria run takes f times as long, and so does the stage priced from them.
 		f := tm.Criteria / t.Criteria
-		cal.CriteriaFixed *= f
-		cal.CriteriaWorkPerSec /= f
+		sets := make([]cost.CriteriaProbe, len(cal.Criteria))
+		for i, cp := range cal.Criteria {
+			cp.Runs = slices.Clone(cp.Runs)
+			for j := range cp.Runs {
+				cp.Runs[j].Seconds *= f
+			}
+			sets[i] = cp
+		}
+		cal.Criteria = sets
 	}
 	if tm.Pass > 0 && t.Pass > 0 {
 		linear := t.Scan + t.Sketch
@@ -358,7 +440,9 @@ func FitToRun(cal cost.Calibration, w cost.Workload, tm kgauge.Timings) cost.Cal
 			cal.AddSecPerValue *= f
 			cal.OpenUnitSeconds *= f
 		} else {
-			cal.PassOverhead = cost.Overhead(cal.PassOverhead) * tm.Pass / t.Pass
+			f := tm.Pass / t.Pass
+			cal.PassOverhead = cost.Overhead(cal.PassOverhead) * f
+			cal.FeedOverhead = cost.Overhead(cal.FeedOverhead) * f
 		}
 	}
 	// The probe shares the scan and kernel rates just refitted: fit it last.

@@ -25,13 +25,17 @@ type Calibration struct {
 	AddSecPerValue  float64 `json:"add_seconds_per_value"` // sketch.Add per row and column, steady state
 	KernelPKDPerSec float64 `json:"kernel_pkd_per_second"` // mini-batch points × k × d per second
 
-	// Without a probe, the criteria are priced from work units (CriteriaWork): the full-size criteria
-	// stage of the calibration run does CriteriaWorkPerSec·CriteriaScaleUp of them per second.
-	CriteriaWorkPerSec float64 `json:"criteria_work_per_second"`
-	CriteriaScaleUp    float64 `json:"criteria_scale_up,omitempty"` // legacy factor on the rate (0 means 1)
-	CriteriaFixed      float64 `json:"criteria_fixed_seconds"`      // summary, PCA box, Ward, votes
+	// Criteria are criteria runs timed at several column counts (Dims, ascending) on data of
+	// several cluster counts, each as a plan's timed probe times its own (CriteriaProbe): without a
+	// probe, the criteria stage is priced from them (CriteriaFromWidths).
+	Criteria []CriteriaProbe `json:"criteria_runs"`
 
-	PassOverhead     float64 `json:"pass_overhead"`     // measured pass ÷ pass priced from probe rates (0 means 1)
+	// PassOverhead is the measured pass ÷ the pass priced from the probe's rates, for the parts that
+	// grow with the data (unit opens, scan, sketch); FeedOverhead is the same for the part that does
+	// not (the mini-batch feed, capped at MiniBatchRows, and the final merge). Both are fitted from
+	// passes over two sizes of one shape (0 means 1).
+	PassOverhead     float64 `json:"pass_overhead"`
+	FeedOverhead     float64 `json:"feed_overhead,omitempty"`
 	ProbeOverhead    float64 `json:"probe_overhead"`    // the same for the estimate's own probe stage (0 means 1)
 	ParallelFraction float64 `json:"parallel_fraction"` // p of Amdahl's law for the pass
 	Cores            int     `json:"cores"`             // CPUs the constants were measured with
@@ -50,11 +54,11 @@ type ProbeTiming struct {
 	Bytes           int64   `json:"bytes"`          // unit bytes read
 	ReadSeconds     float64 `json:"read_seconds"`   // reading them
 	OpenSeconds     float64 `json:"open_seconds"`   // opening them
-	SketchSeconds   float64 `json:"sketch_seconds"` // sketch.Add, steady state and with full feed
+	SketchSeconds   float64 `json:"sketch_seconds"` // timing the sketch, steady state and with full feed
 	CriteriaSeconds float64 `json:"criteria_seconds"`
 
 	// Criteria is what the full-size criteria runs on a sketch of the probe rows measured; with it,
-	// Predict prices the criteria stage from these runs instead of from work units.
+	// Predict prices the criteria stage from these runs instead of from the calibration's.
 	Criteria *CriteriaProbe `json:"criteria,omitempty"`
 }
 
@@ -72,9 +76,11 @@ type CriteriaRun struct {
 // run pays: gap references, PCA box; k = 1 itself costs almost nothing), k = 1 with it, and without
 // it the smallest k >= 2 of the range, its middle and its largest k.
 type CriteriaProbe struct {
-	Coreset  int           `json:"coreset"`  // coreset points of the probe's sketch
-	Parallel int           `json:"parallel"` // runs timed side by side, as the estimate runs its k
-	Runs     []CriteriaRun `json:"runs"`     // ascending k
+	Dims     int           `json:"dims,omitempty"`     // columns the criteria ran in (after any reduction)
+	Clusters int           `json:"clusters,omitempty"` // clusters of the generated data (calibration runs only)
+	Coreset  int           `json:"coreset"`            // coreset points of the probe's sketch
+	Parallel int           `json:"parallel"`           // runs timed side by side, as the estimate runs its k
+	Runs     []CriteriaRun `json:"runs"`               // ascending k
 }
 
 //go:embed calibration.json
@@ -106,15 +112,25 @@ func (c Calibration) Validate() error {
 		name string
 		v    float64
 	}{{"scan_bytes_per_second", c.ScanBytesPerSec}, {"add_seconds_per_value", c.AddSecPerValue},
-		{"kernel_pkd_per_second", c.KernelPKDPerSec}, {"criteria_work_per_second", c.CriteriaWorkPerSec}} {
+		{"kernel_pkd_per_second", c.KernelPKDPerSec}} {
 		if !(f.v > 0) || math.IsInf(f.v, 0) {
 			return fmt.Errorf("cost: calibration %s must be a positive number, got %v", f.name, f.v)
 		}
 	}
+	if len(c.Criteria) == 0 {
+		return errors.New("cost: calibration criteria_runs is empty: the criteria cannot be priced without a probe")
+	}
+	for i, cp := range c.Criteria {
+		switch {
+		case cp.Dims < 1 || (i > 0 && cp.Dims < c.Criteria[i-1].Dims):
+			return fmt.Errorf("cost: calibration criteria_runs: dims must be positive and ascending, got %d after %d",
+				cp.Dims, c.Criteria[max(i-1, 0)].Dims)
+		case !cp.usable():
+			return fmt.Errorf("cost: calibration criteria_runs at %d dims: want k = 1 with and without the Ward linkage, with its leaves, and no negative time", cp.Dims)
+		}
+	}
 	switch {
-	case c.CriteriaScaleUp < 0 || math.IsInf(c.CriteriaScaleUp, 0):
-		return fmt.Errorf("cost: calibration criteria_scale_up must be finite and not negative, got %v", c.CriteriaScaleUp)
-	case c.OpenFileSeconds < 0 || c.OpenUnitSeconds < 0 || c.CriteriaFixed < 0 || c.PassOverhead < 0 || c.ProbeOverhead < 0:
+	case c.OpenFileSeconds < 0 || c.OpenUnitSeconds < 0 || c.PassOverhead < 0 || c.FeedOverhead < 0 || c.ProbeOverhead < 0:
 		return errors.New("cost: calibration times must not be negative")
 	case !(c.ParallelFraction >= 0 && c.ParallelFraction <= 1):
 		return fmt.Errorf("cost: calibration parallel_fraction must be in [0, 1], got %v", c.ParallelFraction)
@@ -155,6 +171,7 @@ type Workload struct {
 	GapSample     int
 	GapRestarts   int
 	WardLeaves    int // leaves of the criteria's Ward linkage (0: as the probe's run had)
+	CriteriaDims  int // columns the criteria run in, after a wide input's reduction (0: Dims)
 
 	// Sizes owned by other packages, filled in by whoever describes the run (kgauge.WorkloadOf):
 	// 0 takes the owner's default.
@@ -190,19 +207,6 @@ func (w Workload) Scaled(f float64) Workload {
 // SumK is Σk over the candidate range.
 func (w Workload) SumK() int64 {
 	return int64(w.MaxK+w.MinK) * int64(w.MaxK-w.MinK+1) / 2
-}
-
-// CriteriaWork counts the criteria's arithmetic in work units (one unit = one point × centre × column,
-// or one point × anchor × column): the coreset fits (restarts plus the mini-batch seed) and the mixture
-// fit, the gap statistic's data-side fit and 2B reference fits, and the silhouette anchors against
-// the coreset. Lloyd iterations are not counted; the calibrated rate absorbs them.
-func CriteriaWork(coreset, minK, maxK, d, restarts, gapRefs, gapSample, gapRestarts, anchors int) float64 {
-	nk := float64(maxK - minK + 1)
-	sumK := float64(maxK+minK) * nk / 2
-	m, g := float64(coreset), float64(gapSample)
-	fits := sumK * (float64(restarts+2)*m + float64(1+2*gapRefs)*float64(max(1, gapRestarts))*g)
-	sil := nk * float64(anchors) * m
-	return float64(d) * (fits + sil)
 }
 
 // Speedup is Amdahl's law: the speed-up of a job with parallel fraction p on n workers.
@@ -281,21 +285,15 @@ func Predict(w Workload, c Calibration) Prediction {
 	over := Overhead(c.PassOverhead)
 	t.Scan = (float64(w.Units)*c.OpenUnitSeconds + float64(w.Bytes)/c.ScanBytesPerSec) * over
 	t.Sketch = rows * d * c.AddSecPerValue * over
-	t.Feed = fed * float64(w.SumK()) * d / c.KernelPKDPerSec * over
+	t.Feed = fed * float64(w.SumK()) * d / c.KernelPKDPerSec * Overhead(c.FeedOverhead)
 	n := min(w.Workers, cores, max(w.Units, 1))
 	t.Speedup = Speedup(c.ParallelFraction, n)
 	t.Pass = (t.Scan + t.Sketch + t.Feed) / t.Speedup
 
-	m := min(w.Coreset, int(math.Max(rows, 1)))
-	g := min(w.GapSample, w.Sample, int(math.Max(rows, 1)))
 	if s, ok := CriteriaFromRuns(w, c.probeCriteria(), cores); ok {
 		t.Criteria = s
 	} else {
-		work := CriteriaWork(m, w.MinK, w.MaxK, w.Dims, w.Restarts, w.GapRefs, g, w.GapRestarts, min(w.Anchors, m))
-		// The rate was measured with the criteria spreading the k over all c.Cores; rescale to this machine.
-		cores0 := Speedup(c.ParallelFraction, c.Cores)
-		coresNow := Speedup(c.ParallelFraction, min(cores, w.MaxK-w.MinK+1))
-		t.Criteria = c.CriteriaFixed + work/(c.CriteriaWorkPerSec*Overhead(c.CriteriaScaleUp))*cores0/coresNow
+		t.Criteria, _ = CriteriaFromWidths(w, c.Criteria, cores)
 	}
 	p.Seconds = t.Open + t.Probe + t.Pass + t.Criteria
 
@@ -375,30 +373,21 @@ func (c Calibration) probeCriteria() *CriteriaProbe {
 // the setup plus the last finish of that schedule (Makespan). The setup is the k = 1 run without
 // the Ward linkage; a k's job is its run less the setup, and a k between two runs gets the linear
 // interpolation of theirs (a k's cost is flat while k is below the data's clusters and grows beyond
-// them, which the middle run catches); k = 1 costs nothing beyond the setup. The Ward job is the
-// k = 1 run with the linkage less the setup, × w.WardLeaves ÷ that run's leaves (the linkage's
-// k-means fit is linear in its centres). When the estimate's coreset is larger than the probe's,
-// every part grows in proportion (each criterion is linear in the coreset points it visits).
+// them, which the middle run catches); below the smallest run k ≥ 2 it is that run's, beyond the
+// largest it follows the line through the last two (never falling); k = 1 costs nothing beyond the
+// setup. The Ward job is the k = 1 run with the linkage less the setup, × w.WardLeaves ÷ that
+// run's leaves (the linkage's k-means fit is linear in its centres). When the estimate's coreset
+// is larger than the probe's, every part grows in proportion (each criterion is linear in the
+// coreset points it visits).
 func CriteriaFromRuns(w Workload, cp *CriteriaProbe, cores int) (float64, bool) {
-	if cp == nil {
+	if cp == nil || !cp.usable() {
 		return 0, false
 	}
-	var base, ward *CriteriaRun
+	base, ward := cp.find(1, false), cp.find(1, true)
 	var ks []int
 	var own []float64
-	for i, r := range cp.Runs {
-		switch {
-		case r.K == 1 && r.Ward:
-			ward = &cp.Runs[i]
-		case r.K == 1:
-			base = &cp.Runs[i]
-		}
-	}
-	if base == nil || ward == nil || ward.Leaves < 1 || !(base.Seconds >= 0) || !(ward.Seconds >= 0) {
-		return 0, false
-	}
 	for _, r := range cp.Runs {
-		if r.K >= 2 && !r.Ward && r.K >= w.MinK && r.K <= w.MaxK {
+		if r.K >= 2 && !r.Ward && (len(ks) == 0 || r.K > ks[len(ks)-1]) {
 			ks = append(ks, r.K)
 			own = append(own, math.Max(0, r.Seconds-base.Seconds))
 		}
@@ -416,7 +405,12 @@ func CriteriaFromRuns(w Workload, cp *CriteriaProbe, cores int) (float64, bool) 
 				return own[i-1] + f*(own[i]-own[i-1])
 			}
 		}
-		return own[len(own)-1]
+		last := len(ks) - 1
+		if last == 0 {
+			return own[0]
+		}
+		slope := math.Max(0, (own[last]-own[last-1])/float64(ks[last]-ks[last-1]))
+		return own[last] + slope*float64(k-ks[last])
 	}
 	scale := 1.0
 	if m := min(w.Coreset, int(math.Max(w.rowsOf(), 1))); cp.Coreset > 0 && m > 0 {
@@ -431,6 +425,91 @@ func CriteriaFromRuns(w Workload, cp *CriteriaProbe, cores int) (float64, bool) 
 		jobs = append(jobs, part(k)*scale)
 	}
 	return base.Seconds*scale + Makespan(jobs, max(cores, 1)), true
+}
+
+// usable reports whether the runs can price a criteria stage: they hold k = 1 with and without the
+// Ward linkage (the first with its leaves) and no negative or NaN time.
+func (cp *CriteriaProbe) usable() bool {
+	for _, r := range cp.Runs {
+		if !(r.Seconds >= 0) || math.IsInf(r.Seconds, 0) {
+			return false
+		}
+	}
+	ward := cp.find(1, true)
+	return cp.find(1, false) != nil && ward != nil && ward.Leaves >= 1
+}
+
+// find returns the first run of k with or without the Ward linkage, or nil.
+func (cp *CriteriaProbe) find(k int, ward bool) *CriteriaRun {
+	for i, r := range cp.Runs {
+		if r.K == k && r.Ward == ward {
+			return &cp.Runs[i]
+		}
+	}
+	return nil
+}
+
+// Width exponents of CriteriaFromWidths beyond the calibrated widths: the stage never gets cheaper
+// with more columns, and grows at most as d³ (its eigen decompositions; every other part is at
+// most d²).
+const (
+	minWidthExponent = 0
+	maxWidthExponent = 3
+)
+
+// CriteriaFromWidths prices the criteria stage of w from criteria runs timed at several column
+// counts (sets, ascending Dims; the calibration's): each set prices w as CriteriaFromRuns does,
+// the sets of one width (data of different cluster counts) give the mean of their prices, and the
+// stage at w's criteria width d (w.CriteriaDims, or w.Dims) is interpolated between the two widths
+// around d as a power of d, t = t₁·(d/d₁)^e with e = ln(t₂/t₁)/ln(d₂/d₁): the stage has parts
+// that do not grow with the columns and parts that grow as d or d², so neither a line through
+// zero nor one through the two points holds over a decade of widths. Beyond the widths measured
+// it follows the nearest two (e clamped to [0, 3]); with one width, t grows as d. It reports false
+// when no set can price the stage.
+//
+// The mean over cluster counts stands for data whose clusters are unknown: a k's cost is flat
+// while k is below the data's clusters and grows beyond them (five-fold from k = 8 to 12 at 64
+// columns on 8 clusters), which only a probe of the input can see.
+func CriteriaFromWidths(w Workload, sets []CriteriaProbe, cores int) (float64, bool) {
+	d := w.CriteriaDims
+	if d < 1 {
+		d = w.Dims
+	}
+	type point struct{ d, t float64 }
+	var pts []point
+	n := 0 // sets averaged into the last point
+	for i := range sets {
+		t, ok := CriteriaFromRuns(w, &sets[i], cores)
+		if !ok || sets[i].Dims < 1 || !(t > 0) {
+			continue
+		}
+		if last := len(pts) - 1; last >= 0 && pts[last].d == float64(sets[i].Dims) {
+			pts[last].t = (pts[last].t*float64(n) + t) / float64(n+1)
+			n++
+			continue
+		}
+		pts = append(pts, point{float64(sets[i].Dims), t})
+		n = 1
+	}
+	switch len(pts) {
+	case 0:
+		return 0, false
+	case 1:
+		return pts[0].t * float64(d) / pts[0].d, true
+	}
+	i := 0
+	for i < len(pts)-2 && float64(d) > pts[i+1].d {
+		i++
+	}
+	a, b := pts[i], pts[i+1]
+	e := math.Log(b.t/a.t) / math.Log(b.d/a.d)
+	switch {
+	case float64(d) > b.d:
+		a, e = b, math.Max(minWidthExponent, math.Min(maxWidthExponent, e)) // from the widest set on
+	case float64(d) < a.d:
+		e = math.Max(minWidthExponent, math.Min(maxWidthExponent, e))
+	}
+	return a.t * math.Pow(float64(d)/a.d, e), true
 }
 
 // Makespan is the time n workers take to run jobs of the given lengths in order, each worker taking

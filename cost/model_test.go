@@ -2,6 +2,7 @@ package cost
 
 import (
 	"math"
+	"slices"
 	"strings"
 	"testing"
 
@@ -9,12 +10,23 @@ import (
 	"github.com/kgauge/kgauge/sketch"
 )
 
-// testCal is a calibration with round numbers, so that terms can be checked by hand.
+// testCal is a calibration with round numbers, so that terms can be checked by hand: its criteria
+// runs at 32 columns take 9 times those at 8 (testWidths).
 func testCal() Calibration {
 	return Calibration{Source: "test", OpenFileSeconds: 0.01, OpenUnitSeconds: 0.001,
 		ScanBytesPerSec: 1e8, AddSecPerValue: 1e-9, KernelPKDPerSec: 1e9,
-		CriteriaWorkPerSec: 1e9, CriteriaScaleUp: 2, CriteriaFixed: 0.5, PassOverhead: 1,
+		Criteria: testWidths(9), PassOverhead: 1, FeedOverhead: 0.5,
 		ParallelFraction: 0.8, Cores: 2, PageBytes: 1 << 20, BaseBytes: 1 << 24}
+}
+
+// testWidths is the runs of testRuns at 8 columns and f times them at 32.
+func testWidths(f float64) []CriteriaProbe {
+	a, b := *testRuns(), *testRuns()
+	a.Dims, b.Dims = 8, 32
+	for i := range b.Runs {
+		b.Runs[i].Seconds *= f
+	}
+	return []CriteriaProbe{a, b}
 }
 
 func testWork() Workload {
@@ -41,10 +53,18 @@ func TestParseRejects(t *testing.T) {
 	if _, err := Parse(good); err != nil {
 		t.Fatalf("round trip: %v", err)
 	}
+	none := testCal()
+	none.Criteria = nil
+	if err := none.Validate(); err == nil || !strings.Contains(err.Error(), "criteria_runs") {
+		t.Errorf("a calibration without criteria runs: %v, want an error naming criteria_runs", err)
+	}
 	for _, tc := range []struct{ name, from, to, want string }{
 		{"zero scan rate", `"scan_bytes_per_second": 100000000`, `"scan_bytes_per_second": 0`, "scan_bytes_per_second"},
 		{"fraction above one", `"parallel_fraction": 0.8`, `"parallel_fraction": 1.5`, "parallel_fraction"},
 		{"no cores", `"cores": 2`, `"cores": 0`, "cores"},
+		{"widths not ascending", `"dims": 32`, `"dims": 4`, "ascending"},
+		{"no Ward run", `"ward": true`, `"ward": false`, "Ward"},
+		{"negative run", `"seconds": 0.5`, `"seconds": -0.5`, "negative"},
 		{"unknown field", `"cores": 2`, `"cores": 2, "speed": 3`, "unknown field"},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
@@ -86,11 +106,13 @@ func TestPredictTerms(t *testing.T) {
 	near("open", tm.Open, 2*0.01)
 	near("scan", tm.Scan, 20*0.001+128e6/1e8)
 	near("sketch", tm.Sketch, 1e6*16*1e-9)
-	near("feed", tm.Feed, float64(1<<18)*210*16/1e9)
+	near("feed", tm.Feed, float64(1<<18)*210*16/1e9*0.5) // the feed overhead, 0.5
 	near("speed-up", tm.Speedup, 1/(0.2+0.4))
 	near("pass", tm.Pass, (tm.Scan+tm.Sketch+tm.Feed)*0.6)
-	work := CriteriaWork(8192, 1, 20, 16, 3, 10, 2000, 1, 1000)
-	near("criteria", tm.Criteria, 0.5+work/2e9)
+	// Without a probe, the criteria at 16 columns are the geometric mean of the runs' price at 8 and
+	// at 32 columns (9 times that at 8): 3 times the price at 8.
+	at8, _ := CriteriaFromRuns(w, testRuns(), 2)
+	near("criteria", tm.Criteria, 3*at8)
 	near("total", p.Seconds, tm.Open+tm.Probe+tm.Pass+tm.Criteria)
 	m := p.Memory
 	live := max(m.Probe, m.Sketches+m.ReadBuffers+m.PageBuffers, m.Criteria)
@@ -247,7 +269,14 @@ func TestCriteriaFromRuns(t *testing.T) {
 	w4.Coreset = 4 * 8192
 	s4, _ := CriteriaFromRuns(w4, testRuns(), 1)
 	near("4× coreset", s4, 4*s)
-	// Without the k = 1 runs the runs cannot price the stage, and Predict prices work units.
+	// Beyond the largest run, the line through the last two: k = 21..29 each 1.0 + (k−20)·0.5/9
+	// (sum 9 + 2.5).
+	w29 := w
+	w29.MaxK = 29
+	s29, _ := CriteriaFromRuns(w29, testRuns(), 1)
+	near("k 1..29", s29, 0.1+0.6+4.5+7+11.5)
+	// Without the k = 1 runs the runs cannot price the stage, and Predict prices them from the
+	// calibration's.
 	cp := testRuns()
 	cp.Runs = cp.Runs[2:]
 	if _, ok := CriteriaFromRuns(w, cp, 1); ok {
@@ -256,18 +285,21 @@ func TestCriteriaFromRuns(t *testing.T) {
 }
 
 // TestPredictWithRuns: with the probe's criteria runs, Predict's criteria term is CriteriaFromRuns,
-// and without them the work-unit formula.
+// and without them CriteriaFromWidths on the calibration's runs.
 func TestPredictWithRuns(t *testing.T) {
 	c, w := testCal(), testWork()
 	plain := Predict(w, c).Terms.Criteria
+	if want, _ := CriteriaFromWidths(w, c.Criteria, w.Cores); plain != want {
+		t.Errorf("criteria without a probe %v, want the calibration's runs' price %v", plain, want)
+	}
 	c.Probe = &ProbeTiming{Criteria: testRuns()}
 	want, _ := CriteriaFromRuns(w, testRuns(), w.Cores)
 	if got := Predict(w, c).Terms.Criteria; got != want || got == plain {
-		t.Errorf("criteria %v, want the runs' price %v (the work-unit price is %v)", got, want, plain)
+		t.Errorf("criteria %v, want the runs' price %v (the calibration's price is %v)", got, want, plain)
 	}
 	c.Probe.Criteria.Runs = c.Probe.Criteria.Runs[2:]
 	if got := Predict(w, c).Terms.Criteria; got != plain {
-		t.Errorf("unusable runs: criteria %v, want the work-unit price %v", got, plain)
+		t.Errorf("unusable runs: criteria %v, want the calibration's price %v", got, plain)
 	}
 	// The criteria runs do not depend on the data size: 10× the rows leaves the term alone.
 	c.Probe.Criteria = testRuns()
@@ -276,21 +308,72 @@ func TestPredictWithRuns(t *testing.T) {
 	}
 }
 
-func TestParseCriteriaFactors(t *testing.T) {
-	c := testCal()
-	c.CriteriaScaleUp = -1
-	if err := c.Validate(); err == nil || !strings.Contains(err.Error(), "criteria_scale_up") {
-		t.Errorf("negative criteria scale-up: %v", err)
-	}
-	c = testCal()
-	c.CriteriaScaleUp = 0 // legacy factor absent: the rate is the full-size rate
-	if err := c.Validate(); err != nil {
-		t.Errorf("no criteria_scale_up: %v", err)
-	}
+// TestCriteriaFromWidths checks the pricing over column counts against the formula in its doc, by
+// hand: the runs at 32 columns take f times those at 8, so the exponent is ln f ÷ ln 4.
+func TestCriteriaFromWidths(t *testing.T) {
 	w := testWork()
-	work := CriteriaWork(8192, 1, 20, 16, 3, 10, 2000, 1, 1000)
-	if got := Predict(w, c).Terms.Criteria; math.Abs(got-(0.5+work/1e9)) > 1e-9 {
-		t.Errorf("criteria %v without the legacy factor, want %v", got, 0.5+work/1e9)
+	at8, ok := CriteriaFromRuns(w, testRuns(), 2)
+	if !ok || !(at8 > 0) {
+		t.Fatalf("runs not usable: %v", at8)
+	}
+	for _, tc := range []struct {
+		name      string
+		f         float64
+		dims, red int // Dims and CriteriaDims
+		sets      int // how many sets to keep (0: both)
+		want      float64
+	}{
+		{"at the narrow set", 9, 8, 0, 0, at8},
+		{"at the wide set", 9, 32, 0, 0, 9 * at8},
+		{"between: the geometric mean", 9, 16, 0, 0, 3 * at8},
+		{"beyond: the last exponent", 9, 64, 0, 0, 27 * at8},
+		{"below: the first exponent", 9, 4, 0, 0, at8 / 3},
+		{"the criteria's width, not the file's", 9, 1000, 16, 0, 3 * at8},
+		{"between: no clamp", 100, 16, 0, 0, 10 * at8},
+		{"beyond: exponent clamped to 3", 100, 64, 0, 0, 100 * 8 * at8},
+		{"beyond: never cheaper with more columns", 0.25, 64, 0, 0, 0.25 * at8},
+		{"one set: proportional to the columns", 9, 16, 0, 1, 2 * at8},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			v := w
+			v.Dims, v.CriteriaDims = tc.dims, tc.red
+			sets := testWidths(tc.f)
+			if tc.sets > 0 {
+				sets = sets[:tc.sets]
+			}
+			got, ok := CriteriaFromWidths(v, sets, 2)
+			if !ok || math.Abs(got-tc.want) > 1e-9*tc.want {
+				t.Errorf("CriteriaFromWidths = %v (ok %v), want %v", got, ok, tc.want)
+			}
+		})
+	}
+	// Sets of one width on data of different cluster counts: the mean of their prices. Two sets at
+	// 8 columns, one 1× and one 3× testRuns, give 2× at 8; with 18× at 32, the exponent is
+	// ln 9 ÷ ln 4 again.
+	two := testWidths(18)
+	third := *testRuns()
+	third.Dims = 8
+	third.Runs = slices.Clone(third.Runs)
+	for i := range third.Runs {
+		third.Runs[i].Seconds *= 3
+	}
+	two = []CriteriaProbe{two[0], third, two[1]}
+	for _, tc := range []struct {
+		dims int
+		want float64
+	}{{8, 2 * at8}, {16, 6 * at8}, {32, 18 * at8}} {
+		v := w
+		v.Dims = tc.dims
+		if got, _ := CriteriaFromWidths(v, two, 2); math.Abs(got-tc.want) > 1e-9*tc.want {
+			t.Errorf("two sets at 8 columns, priced at %d: %v, want %v", tc.dims, got, tc.want)
+		}
+	}
+	sets := testWidths(9)
+	for i := range sets {
+		sets[i].Runs = sets[i].Runs[2:] // no k = 1 runs: nothing can price the stage
+	}
+	if _, ok := CriteriaFromWidths(w, sets, 2); ok {
+		t.Error("sets without k = 1 priced the stage")
 	}
 }
 

@@ -60,14 +60,18 @@ type childOut struct {
 	K        int            `json:"k"`
 	MaxRSS   int64          `json:"max_rss_bytes"`
 	Workload cost.Workload  `json:"workload"`
+
+	Criteria *cost.CriteriaProbe `json:"criteria,omitempty"` // the criteria-runs mode's runs
 }
 
 // child runs "plan MAXK FILE", "plan-noprobe MAXK FILE" (the figures priced from the committed
-// calibration alone: the progress bar's first ETA, the report's planned column, --memory's check)
-// or "estimate WORKERS MAXK FILE" (MAXK 0: the default k range) and prints a childOut.
+// calibration alone: the progress bar's first ETA, the report's planned column, --memory's check),
+// "estimate WORKERS MAXK FILE" (MAXK 0: the default k range), "build WORKERS MAXK FILE" (open,
+// probe and pass only) or "criteria-runs K1,K2,… FILE" (capacity.CriteriaRuns with --max-k the
+// largest k) and prints a childOut.
 func child(args []string) error {
-	if len(args) < 3 || (args[0] == "estimate" && len(args) < 4) {
-		return errors.New("child: want plan MAXK FILE or estimate WORKERS MAXK FILE")
+	if len(args) < 3 || ((args[0] == "estimate" || args[0] == "build") && len(args) < 4) {
+		return errors.New("child: want plan MAXK FILE, estimate|build WORKERS MAXK FILE or criteria-runs KS FILE")
 	}
 	ctx := context.Background()
 	opt := kgauge.DefaultOptions()
@@ -84,7 +88,22 @@ func child(args []string) error {
 		}
 		out.Seconds = time.Since(start).Seconds()
 		out.Plan = p
-	case "estimate":
+	case "criteria-runs":
+		var ks []int
+		for _, f := range strings.Split(args[1], ",") {
+			var k int
+			if _, err := fmt.Sscan(f, &k); err != nil || k < 1 {
+				return fmt.Errorf("child: bad k %q", f)
+			}
+			ks = append(ks, k)
+		}
+		opt.Criteria.MaxK = slices.Max(ks)
+		cp, err := capacity.CriteriaRuns(ctx, args[2:], opt, ks)
+		if err != nil {
+			return err
+		}
+		out.Criteria = cp
+	case "estimate", "build":
 		if _, err := fmt.Sscan(args[1], &opt.Workers); err != nil {
 			return fmt.Errorf("child: bad workers %q", args[1])
 		}
@@ -95,13 +114,23 @@ func child(args []string) error {
 		if err != nil {
 			return err
 		}
+		out.Workload = w
 		start := time.Now()
+		if args[0] == "build" {
+			sk, _, tm, err := kgauge.Build(ctx, args[3:], opt)
+			if err != nil {
+				return err
+			}
+			out.Seconds = time.Since(start).Seconds()
+			out.Timings, out.Rows = tm, sk.Rows()
+			break
+		}
 		res, _, err := kgauge.Estimate(ctx, args[3:], opt)
 		if err != nil {
 			return err
 		}
 		out.Seconds = time.Since(start).Seconds()
-		out.Timings, out.Rows, out.K, out.Workload = res.Timings, res.Rows, res.K, w
+		out.Timings, out.Rows, out.K = res.Timings, res.Rows, res.K
 	default:
 		return fmt.Errorf("child: unknown mode %q", args[0])
 	}
@@ -160,12 +189,16 @@ type shape struct {
 	K        int
 	RowGroup int
 	Comp     synth.Compression
-	MaxK     int // the estimate's --max-k; 0 is the default
+	MaxK     int    // the estimate's --max-k; 0 is the default
+	Seed     uint64 // the generator's seed; 0 is the accuracy check's (7)
 }
 
 func (s shape) write(dir string) (string, error) {
 	o := synth.DefaultMixtureOptions()
 	o.Rows, o.Dims, o.K, o.RowGroup, o.Compression, o.Seed = s.Rows, s.Dims, s.K, s.RowGroup, s.Comp, 7
+	if s.Seed != 0 {
+		o.Seed = s.Seed
+	}
 	path := filepath.Join(dir, s.Name+".parquet")
 	if err := synth.WriteMixture(path, o); err != nil {
 		return "", err
@@ -240,27 +273,85 @@ func loadAverage() string {
 	return strings.Join(f[:3], " ")
 }
 
-// calibrate measures the constants on one generated file and writes calibration.json.
+// Calibration inputs. None is a file the accuracy check measures: another seed (11, not 7) and
+// other sizes; the pass files have 8 clusters (the accuracy files 5 to 16).
+const (
+	calSeed     = 11
+	calClusters = 8
+)
+
+// calWidths, calKs and calMixtures are the column counts, the k and the clusters of the data of
+// the criteria runs the calibration stores for pricing the criteria without a probe
+// (cost.CriteriaFromWidths), each on calCriteriaRows rows. A k's cost depends on how it compares
+// with the data's clusters, which nothing but a probe knows: the runs span 4 to 16 clusters, and
+// the model takes the mean of their prices.
+var (
+	calWidths       = []int{8, 16, 32, 64}
+	calKs           = []int{2, 4, 8, 12, 16, 20, 40}
+	calMixtures     = []int{4, 8, 16}
+	calCriteriaRows = 131072
+)
+
+// calibrate measures the constants on generated files and writes calibration.json: the probe's
+// rates (medians of plans on the smaller pass file), the pass's overheads and parallel fraction
+// (passes with one and two workers over two sizes of one shape), the open and probe stages and
+// the memory baseline (estimates with two workers on the smaller file) and the criteria runs at
+// several widths.
 func calibrate(dir, out string, repeats int, quick bool) error {
-	sh := shape{Name: "calibrate", Rows: 2_000_000, Dims: 16, K: 10, RowGroup: 65536}
+	small := shape{Name: "calibrate-small", Rows: 2_000_000, Dims: 16, K: calClusters, RowGroup: 65536, Seed: calSeed}
+	large := shape{Name: "calibrate-large", Rows: 8_000_000, Dims: 16, K: calClusters, RowGroup: 65536, Seed: calSeed}
+	widths, ks, mixtures, critRows := calWidths, calKs, calMixtures, calCriteriaRows
 	if quick {
-		sh.Rows = 200_000
-		sh.RowGroup = 8192
+		small.Rows, small.RowGroup = 200_000, 8192
+		large.Rows, large.RowGroup = 800_000, 8192
+		widths, ks, mixtures, critRows = []int{8, 16}, []int{2, 4, 8}, []int{4, 8}, 20_000
 	}
-	fmt.Fprintf(os.Stderr, "calibrate: writing %d × %d rows\n", sh.Rows, sh.Dims)
-	path, err := sh.write(dir)
-	if err != nil {
-		return err
+	cal := cost.Default()
+	cal.Cores = runtime.NumCPU()
+	cal.PassOverhead, cal.FeedOverhead, cal.ProbeOverhead = 1, 1, 1
+
+	// Criteria runs at several widths.
+	var sets []cost.CriteriaProbe
+	list := make([]string, len(ks))
+	for i, k := range ks {
+		list[i] = fmt.Sprint(k)
+	}
+	for _, d := range widths {
+		for _, clusters := range mixtures {
+			sh := shape{Name: fmt.Sprintf("criteria-d%d-k%d", d, clusters), Rows: critRows, Dims: d, K: clusters, RowGroup: 16384, Seed: calSeed}
+			fmt.Fprintf(os.Stderr, "calibrate: criteria runs at %d columns on %d clusters, k = %s\n", d, clusters, strings.Join(list, ", "))
+			path, err := sh.write(dir)
+			if err != nil {
+				return err
+			}
+			c, err := runChild("criteria-runs", strings.Join(list, ","), path)
+			os.Remove(path)
+			if err != nil {
+				return err
+			}
+			c.Criteria.Clusters = clusters
+			sets = append(sets, *c.Criteria)
+		}
+	}
+	cal.Criteria = sets
+
+	paths := map[string]string{}
+	for _, sh := range []shape{small, large} {
+		fmt.Fprintf(os.Stderr, "calibrate: writing %d × %d rows\n", sh.Rows, sh.Dims)
+		path, err := sh.write(dir)
+		if err != nil {
+			return err
+		}
+		paths[sh.Name] = path
 	}
 	var probes []cost.Calibration
 	for range repeats {
-		c, err := runChild("plan", "0", path)
+		c, err := runChild("plan", "0", paths[small.Name])
 		if err != nil {
 			return err
 		}
 		probes = append(probes, c.Plan.Calibration)
 	}
-	cal := cost.Default()
 	pick := func(f func(cost.Calibration) float64) float64 {
 		v := make([]float64, len(probes))
 		for i, c := range probes {
@@ -272,57 +363,65 @@ func calibrate(dir, out string, repeats int, quick bool) error {
 	cal.OpenUnitSeconds = pick(func(c cost.Calibration) float64 { return c.OpenUnitSeconds })
 	cal.AddSecPerValue = pick(func(c cost.Calibration) float64 { return c.AddSecPerValue })
 	cal.KernelPKDPerSec = pick(func(c cost.Calibration) float64 { return c.KernelPKDPerSec })
-	cal.Cores = runtime.NumCPU()
-	cal.PassOverhead, cal.ProbeOverhead, cal.CriteriaScaleUp, cal.CriteriaFixed = 1, 1, 0, 0
 
-	var pass1, pass2, crit, open, probe, rss []float64
-	var work cost.Workload
-	for _, workers := range []int{1, 2} {
-		for range repeats {
-			fmt.Fprintf(os.Stderr, "calibrate: estimate with %d worker(s)\n", workers)
-			c, err := runChild("estimate", fmt.Sprint(workers), "0", path)
-			if err != nil {
-				return err
+	// Passes: one and two workers over both sizes.
+	pass := map[string]map[int]float64{}
+	works := map[string]cost.Workload{}
+	for _, sh := range []shape{small, large} {
+		pass[sh.Name] = map[int]float64{}
+		for _, workers := range []int{1, 2} {
+			var v []float64
+			for range repeats {
+				fmt.Fprintf(os.Stderr, "calibrate: pass over %s with %d worker(s)\n", sh.Name, workers)
+				c, err := runChild("build", fmt.Sprint(workers), "0", paths[sh.Name])
+				if err != nil {
+					return err
+				}
+				v = append(v, c.Timings.Pass)
+				works[sh.Name] = c.Workload
 			}
-			if workers == 1 {
-				pass1 = append(pass1, c.Timings.Pass)
-			} else {
-				pass2 = append(pass2, c.Timings.Pass)
-				rss = append(rss, float64(c.MaxRSS))
-				work = c.Workload
-			}
-			crit = append(crit, c.Timings.Criteria)
-			open = append(open, c.Timings.Open)
-			probe = append(probe, c.Timings.Probe)
+			pass[sh.Name][workers] = median(v)
 		}
 	}
-	// Amdahl with n = 2: t2/t1 = (1−p) + p/2.
+	// Amdahl with n = 2 over both files: t2/t1 = (1−p) + p/2, and the overheads from the one-worker
+	// time of each size as the mean of its one-worker pass and its two-worker pass × the speed-up,
+	// so that all the passes measured count.
+	one := map[string]float64{}
+	speed := 1.0
 	if n := min(2, cal.Cores); n > 1 {
-		s := median(pass1) / median(pass2)
-		cal.ParallelFraction = math.Max(0, math.Min(1, (1-1/s)*float64(n)/float64(n-1)))
+		speed = (pass[small.Name][1] + pass[large.Name][1]) / (pass[small.Name][2] + pass[large.Name][2])
+		cal.ParallelFraction = math.Max(0, math.Min(1, (1-1/speed)*float64(n)/float64(n-1)))
+		speed = cost.Speedup(cal.ParallelFraction, n)
 	} else {
 		cal.ParallelFraction = 0
 	}
-	w1 := work
-	w1.Workers = 1
-	pred := cost.Predict(w1, cal)
-	linear := pred.Terms.Scan + pred.Terms.Sketch + pred.Terms.Feed
-	if linear > 0 {
-		cal.PassOverhead = median(pass1) / linear
+	for name, p := range pass {
+		one[name] = (p[1] + p[2]*speed) / 2
+		fmt.Fprintf(os.Stderr, "calibrate: %s pass %.3f s with 1 worker, %.3f s with 2\n", name, p[1], p[2])
 	}
-	// Without a probe, the criteria are priced from work units at the rate of the estimates' own
-	// criteria stage (a plan's probe prices them from its own criteria runs instead, with no constant).
-	cw := cost.CriteriaWork(work.Coreset, work.MinK, work.MaxK, work.Dims, work.Restarts, work.GapRefs,
-		min(work.GapSample, work.Sample), work.GapRestarts, work.Anchors)
-	cal.CriteriaWorkPerSec = cw / median(crit)
+	cal.PassOverhead, cal.FeedOverhead = fitPass(cal, works[small.Name], works[large.Name], one[small.Name], one[large.Name])
+
+	var open, probe, rss []float64
+	var work cost.Workload
+	for range repeats {
+		fmt.Fprintf(os.Stderr, "calibrate: estimate with 2 workers\n")
+		c, err := runChild("estimate", "2", "0", paths[small.Name])
+		if err != nil {
+			return err
+		}
+		rss = append(rss, float64(c.MaxRSS))
+		work = c.Workload
+		open = append(open, c.Timings.Open)
+		probe = append(probe, c.Timings.Probe)
+	}
 	cal.OpenFileSeconds = median(open)
-	pred = cost.Predict(work, cal)
+	pred := cost.Predict(work, cal)
 	if pred.Terms.Probe > 0 {
 		cal.ProbeOverhead = median(probe) / pred.Terms.Probe
 	}
 	cal.BaseBytes = max(0, int64(median(rss))-(pred.PeakBytes-cal.BaseBytes))
-	cal.Source = fmt.Sprintf("kgauge-calibrate on %d × %d Gaussian-mixture rows (snappy Parquet, %d-row groups), medians of %d runs, load average %s",
-		sh.Rows, sh.Dims, sh.RowGroup, repeats, loadAverage())
+	cal.Source = fmt.Sprintf("kgauge-calibrate on %d and %d × %d Gaussian-mixture rows (snappy Parquet, %d-row groups; criteria runs on %d rows at %s columns of %s clusters), medians of %d runs, load average %s",
+		small.Rows, large.Rows, small.Dims, small.RowGroup, critRows, strings.Trim(fmt.Sprint(widths), "[]"), strings.Trim(fmt.Sprint(mixtures), "[]"), repeats, loadAverage())
 	cal.Machine = machine()
 	cal.Command = "go run ./cmd/kgauge-calibrate"
 	cal.Probe = nil
@@ -340,6 +439,28 @@ func calibrate(dir, out string, repeats int, quick bool) error {
 	return nil
 }
 
+// fitPass returns the pass overheads of cost.Calibration that make the model reproduce the
+// one-worker passes p1 over w1 and p2 over w2 (one shape, two sizes): the part that grows with the
+// data (unit opens, scan, sketch: G₁ and G₂ priced with both overheads 1) takes (p2 − p1) ÷
+// (G₂ − G₁), and the feed (F, the same for both once their rows pass the mini-batch cap) the rest
+// of p1. When that leaves either negative (noise larger than the difference of the sizes), both
+// get the one ratio (p1 + p2) ÷ (G₁ + G₂ + 2F).
+func fitPass(cal cost.Calibration, w1, w2 cost.Workload, p1, p2 float64) (grow, fixed float64) {
+	cal.PassOverhead, cal.FeedOverhead = 1, 1
+	w1.Workers, w2.Workers = 1, 1
+	t1, t2 := cost.Predict(w1, cal).Terms, cost.Predict(w2, cal).Terms
+	g1, g2, f := t1.Scan+t1.Sketch, t2.Scan+t2.Sketch, t1.Feed
+	if g2 > g1 && f > 0 {
+		grow = (p2 - p1) / (g2 - g1)
+		fixed = (p1 - grow*g1) / f
+		if grow > 0 && fixed > 0 {
+			return grow, fixed
+		}
+	}
+	r := (p1 + p2) / (g1 + g2 + 2*f)
+	return r, r
+}
+
 // accuracyRow is one prediction beside its measurement.
 type accuracyRow struct {
 	Shape              shape
@@ -354,6 +475,7 @@ type accuracyRow struct {
 	PredPeak, MeasPeak int64
 	PlanSeconds        float64
 	Terms              cost.Terms
+	NoProbeTerms       cost.Terms
 	Timings            kgauge.Timings
 }
 
@@ -415,7 +537,7 @@ func checkAccuracy(dir, out string, repeats int, quick bool) error {
 			r.Ratio = float64(sh.Rows) / float64(pt.Rows)
 		}
 		r.Err = r.Predicted/r.Measured - 1
-		r.NoProbe = np.Plan.Seconds
+		r.NoProbe, r.NoProbeTerms = np.Plan.Seconds, np.Plan.Terms
 		r.NoProbeErr = r.NoProbe/r.Measured - 1
 		rows = append(rows, r)
 	}
@@ -450,19 +572,21 @@ func writeAccuracy(out string, rows []accuracyRow, repeats int, loadBefore strin
 			r.Predicted, r.Measured, 100*r.Err, r.NoProbe, 100*r.NoProbeErr, float64(r.PredPeak)/(1<<20), float64(r.MeasPeak)/(1<<20), r.PlanSeconds)
 		worst = math.Max(worst, math.Max(math.Abs(r.Err), math.Abs(r.NoProbeErr)))
 	}
-	b.WriteString("\nPer stage (predicted / measured seconds, last run):\n\n")
-	b.WriteString("| input | open | probe | pass | criteria | criteria error |\n|---|---|---|---|---|---|\n")
+	b.WriteString("\nPer stage (predicted with the probe / without it / measured seconds, last run):\n\n")
+	b.WriteString("| input | open | probe | pass | pass error | criteria | criteria error |\n|---|---|---|---|---|---|---|\n")
 	for _, r := range rows {
-		fmt.Fprintf(&b, "| %s | %.3f / %.3f | %.2f / %.2f | %.1f / %.1f | %.1f / %.1f | %+.0f%% |\n", r.Shape.Name,
-			r.Terms.Open, r.Timings.Open, r.Terms.Probe, r.Timings.Probe, r.Terms.Pass, r.Timings.Pass, r.Terms.Criteria, r.Timings.Criteria,
-			100*(r.Terms.Criteria/r.Timings.Criteria-1))
+		fmt.Fprintf(&b, "| %s | %.3f / %.3f / %.3f | %.2f / %.2f / %.2f | %.2f / %.2f / %.2f | %+.0f%% / %+.0f%% | %.1f / %.1f / %.1f | %+.0f%% / %+.0f%% |\n", r.Shape.Name,
+			r.Terms.Open, r.NoProbeTerms.Open, r.Timings.Open, r.Terms.Probe, r.NoProbeTerms.Probe, r.Timings.Probe,
+			r.Terms.Pass, r.NoProbeTerms.Pass, r.Timings.Pass, 100*(r.Terms.Pass/r.Timings.Pass-1), 100*(r.NoProbeTerms.Pass/r.Timings.Pass-1),
+			r.Terms.Criteria, r.NoProbeTerms.Criteria, r.Timings.Criteria,
+			100*(r.Terms.Criteria/r.Timings.Criteria-1), 100*(r.NoProbeTerms.Criteria/r.Timings.Criteria-1))
 	}
 	verdict := "within"
 	if worst > 0.25 {
 		verdict = "**outside**"
 	}
 	fmt.Fprintf(&b, "\nLargest time error (with or without the probe): %.0f%%, %s the ±25%% target.\n", 100*worst, verdict)
-	b.WriteString("\nThe criteria term is priced from the plan's criteria runs: the criteria at the estimate's option sizes on a sketch of the probe rows, for k = 1 (with and without the Ward linkage), the smallest k ≥ 2, the middle and the largest k of the range, one per CPU side by side, interpolated over the other k (bench/cost.CriteriaFromRuns).\n")
+	b.WriteString("\nWith the probe, the criteria term is priced from the plan's criteria runs: the criteria at the estimate's option sizes on a sketch of the probe rows, for k = 1 (with and without the Ward linkage), the smallest k ≥ 2, the middle and the largest k of the range, one per CPU side by side, interpolated over the other k (cost.CriteriaFromRuns). Without it, from the same kind of runs stored in the calibration at several widths and k (`criteria_runs`, measured by `kgauge-calibrate` on other files), interpolated over k and, as a power of the width, over the columns (cost.CriteriaFromWidths).\n")
 	b.WriteString("\nThese machines are shared: another session's load changes both the probe's rates and the run it predicts, and not always equally. Memory is predicted from the sizes the options fix plus a baseline measured by `kgauge-calibrate`; it is a planning figure, not a bound.\n")
 	return atomicfile.Write(out, 0o644, func(w io.Writer) error { _, err := io.WriteString(w, b.String()); return err })
 }

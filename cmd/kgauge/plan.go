@@ -104,9 +104,13 @@ func writePlan(out io.Writer, p *capacity.Plan) error {
 	fmt.Fprintf(&b, "input: %d file(s), %d unit(s), %d rows × %d columns, %s of column data\n",
 		w.Files, w.Units, w.Rows, w.Dims, bytesText(w.Bytes))
 	if pt := cal.Probe; pt != nil {
-		fmt.Fprintf(&b, "timed probe: %d unit(s), %d rows, %s read in %s (%s/s per worker); sketch %.2f ns/value, kernel %.2f G point·k·d/s, criteria %.2f G work/s\n",
+		runs := 0
+		if pt.Criteria != nil {
+			runs = len(pt.Criteria.Runs)
+		}
+		fmt.Fprintf(&b, "timed probe: %d unit(s), %d rows, %s read in %s (%s/s per worker); sketch %.2f ns/value, kernel %.2f G point·k·d/s, %d criteria runs in %s\n",
 			pt.Units, pt.Rows, bytesText(pt.Bytes), secondsText(pt.ReadSeconds), bytesText(int64(cal.ScanBytesPerSec)),
-			cal.AddSecPerValue*1e9, cal.KernelPKDPerSec/1e9, cal.CriteriaWorkPerSec/1e9)
+			cal.AddSecPerValue*1e9, cal.KernelPKDPerSec/1e9, runs, secondsText(pt.CriteriaSeconds))
 	} else {
 		fmt.Fprintf(&b, "no timed probe: constants from the committed calibration (%s)\n", cal.Source)
 	}
