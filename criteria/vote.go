@@ -55,7 +55,7 @@ const lowConfidence = 0.5
 type Weights struct {
 	Source string `json:"source"` // the command and grid that produced the weights
 	// Structure weighs the voters of stage 1 (one group or several): the criteria able to say
-	// k = 1 and the one-mode check. Each weight is the log-odds of the voter being right about
+	// k = 1, the one-mode check and shared_k (SharedK). Each weight is the log-odds of the voter being right about
 	// "one group or several" on the grid, floored at 0, divided by √(1 + the shares of errors it
 	// has in common with other voters) (those sharing at least 40%; bench/calibrate.go).
 	Structure map[string]float64 `json:"structure"`
@@ -167,9 +167,10 @@ var plain = map[string]string{
 // Decide combines the votes and the one-mode check into a verdict with the weights w.
 //
 // Stage 1 (only when minK <= 1): the voters able to say "one group" (gap_box, gap_pca, bic_gmm,
-// bic_kmeans, split_agreement and the one-mode check) each say "one" or "several"; if the weight
-// saying one is at least the weight saying several, K is 1 and Structure false (an exact tie goes to
-// "one": a false alarm costs more than a missed split, and the verdict is marked unstable).
+// bic_kmeans, split_agreement, the one-mode check and, when w weighs it, shared_k) each say "one" or
+// "several"; if the weight saying one is at least the weight saying several, K is 1 and Structure
+// false (an exact tie goes to "one": a false alarm costs more than a missed split, and the verdict
+// is marked unstable).
 //
 // Stage 2: every criterion naming a k >= 2 adds its Choice weight to that k; a criterion still
 // improving at maxK (Vote.StillImproving, or a vote at maxK, with at least three k in range) only
@@ -280,7 +281,7 @@ func Decide(vs []Vote, modes ModeCheck, minK, maxK int, w Weights) Verdict {
 		}
 		if one+several > 0 && one >= several {
 			out := build(1, false, "stage 1: the voters able to say 'one group' (gap_box, gap_pca, bic_gmm, bic_kmeans, "+
-				"split_agreement, the one-mode check) say one group by weight")
+				"split_agreement, the one-mode check, shared_k) say one group by weight")
 			out.Support = share1
 			out.Confidence = w.Confidence(out.Support)
 			if len(ranked) > 0 {
