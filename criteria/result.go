@@ -99,7 +99,7 @@ type Scores struct {
 	GapPCAS float64 `json:"gap_pca_s"`
 	LogW    float64 `json:"log_w"` // data-side ln W_k at the gap sample size
 
-	LogLikGMM float64 `json:"loglik_gmm"` // scaled to N rows
+	LogLikGMM float64 `json:"loglik_gmm"` // scaled to N rows, less the coreset fit's optimism (fitExcess)
 	BICGMM    float64 `json:"bic_gmm"`
 	AICGMM    float64 `json:"aic_gmm"`
 	BICKMeans float64 `json:"bic_kmeans"` // -2 l + p ln N, lower is better
