@@ -58,7 +58,7 @@ func DeriveWeights(runs []GridRun, source string) criteria.Weights {
 	}
 	round := func(v float64) float64 { return math.Round(v*1000) / 1000 }
 	voters := append(slices.DeleteFunc(criteria.CriterionNames(), func(c string) bool {
-		return !canSayOne(c)
+		return !criteria.CanSayOne(c)
 	}), criteria.NameOneMode, criteria.NameSharedK)
 	for _, c := range voters {
 		right, n := 0, 0
@@ -263,15 +263,6 @@ func sharedStructureErrors(runs []GridRun, a, b string) float64 {
 	return float64(both) / float64(either)
 }
 
-// canSayOne mirrors criteria's stage-1 voters.
-func canSayOne(c string) bool {
-	switch c {
-	case criteria.NameGapBox, criteria.NameGapPCA, criteria.NameBICGMM, criteria.NameBICKMeans, criteria.NameSplitAgreement:
-		return true
-	}
-	return false
-}
-
 // MarshalWeights renders weights as the criteria/weights.json format.
 func MarshalWeights(w criteria.Weights) ([]byte, error) {
 	b, err := json.MarshalIndent(w, "", " ")
@@ -379,7 +370,7 @@ func CalibrationMarkdown(runs []GridRun, w criteria.Weights, command string) str
 		voters []string
 		shared func(a, b string) float64
 	}{
-		{"1", append(slices.DeleteFunc(criteria.CriterionNames(), func(c string) bool { return !canSayOne(c) }), criteria.NameOneMode, criteria.NameSharedK),
+		{"1", append(slices.DeleteFunc(criteria.CriterionNames(), func(c string) bool { return !criteria.CanSayOne(c) }), criteria.NameOneMode, criteria.NameSharedK),
 			func(a, b string) float64 { return sharedStructureErrors(train, a, b) }},
 		{"2", criteria.CriterionNames(), func(a, b string) float64 { return sharedChoiceErrors(train, a, b) }},
 	} {

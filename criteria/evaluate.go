@@ -377,10 +377,11 @@ func scoreK(core Points, fit Fit, k int, s Summary, opt Options, scale, excess, 
 	if stop() {
 		return sc
 	}
-	if _, ll, _, err := GMMFullFit(core, fit, GMMOptions{Reg: reg, MaxIter: gmmMaxIter, Tol: gmmTol}); err == nil {
+	if _, ll, en, _, err := gmmFullFit(core, fit, GMMOptions{Reg: reg, MaxIter: gmmMaxIter, Tol: gmmTol}); err == nil {
 		p := GMMFullParams(k, s.D)
 		ll = ll*scale - float64(p)/2*excess
 		sc.LogLikGMM, sc.BICGMM, sc.AICGMM = ll, BIC(ll, p, s.N), AIC(ll, p)
+		sc.ICLGMM = sc.BICGMM + 2*en*scale
 	}
 	sizes := make([]float64, k)
 	for j, z := range fit.Sizes {

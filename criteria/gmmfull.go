@@ -138,6 +138,20 @@ func (g GMMFull) LogLik(p Points, resp []float64) (float64, error) {
 	return g.logLik(p, comps, resp), nil
 }
 
+// ClassEntropy returns the weighted entropy of the mixture's soft classification of p,
+// -sum_i w_i sum_j r_ij ln r_ij with r the responsibilities (0 ln 0 = 0): the term the integrated
+// completed likelihood adds twice to BIC (Biernacki, Celeux & Govaert 2000). It fails when a
+// covariance is not positive definite.
+func (g GMMFull) ClassEntropy(p Points) (float64, error) {
+	comps, err := g.prepare(0)
+	if err != nil {
+		return 0, err
+	}
+	resp := make([]float64, p.Len()*g.K)
+	g.logLik(p, comps, resp)
+	return classEntropy(p, resp, g.K), nil
+}
+
 func (g GMMFull) logLik(p Points, comps []fullComp, resp []float64) float64 {
 	k, d := g.K, g.D
 	lr := make([]float64, k)
@@ -213,6 +227,13 @@ func (g GMMFull) logLik(p Points, comps []fullComp, resp []float64) float64 {
 // log-likelihood on p and the number of EM iterations, or an error when a covariance cannot be
 // factored.
 func GMMFullFit(p Points, init Fit, opt GMMOptions) (GMMFull, float64, int, error) {
+	g, ll, _, iters, err := gmmFullFit(p, init, opt)
+	return g, ll, iters, err
+}
+
+// gmmFullFit is GMMFullFit that also returns the weighted entropy of the classification,
+// -sum_i w_i sum_j r_ij ln r_ij, with the responsibilities r of the returned log-likelihood's E step.
+func gmmFullFit(p Points, init Fit, opt GMMOptions) (GMMFull, float64, float64, int, error) {
 	if opt.MaxIter <= 0 {
 		opt.MaxIter = 100
 	}
@@ -271,7 +292,7 @@ func GMMFullFit(p Points, init Fit, opt GMMOptions) (GMMFull, float64, int, erro
 	for it := 1; it <= opt.MaxIter; it++ {
 		comps, err := g.prepare(opt.Reg)
 		if err != nil {
-			return g, math.NaN(), iters, err
+			return g, math.NaN(), math.NaN(), iters, err
 		}
 		ll = g.logLik(p, comps, resp)
 		iters = it
@@ -311,7 +332,22 @@ func GMMFullFit(p Points, init Fit, opt GMMOptions) (GMMFull, float64, int, erro
 			}
 		}
 	}
-	return g, ll, iters, nil
+	return g, ll, classEntropy(p, resp, k), iters, nil
+}
+
+// classEntropy returns -sum_i w_i sum_j r_ij ln r_ij over the n*k responsibilities resp.
+func classEntropy(p Points, resp []float64, k int) float64 {
+	e := 0.0
+	for i := 0; i < p.Len(); i++ {
+		s := 0.0
+		for _, r := range resp[i*k : i*k+k] {
+			if r > 0 {
+				s -= r * math.Log(r)
+			}
+		}
+		e += p.Weight(i) * s
+	}
+	return e
 }
 
 // mBlock is mStep's scratch: up to four centred points and their weights.

@@ -25,8 +25,8 @@ type refGMM struct {
 }
 
 type refGMMFull struct {
-	Weights, Means, Covs []float64
-	Loglik, BIC, AIC     float64
+	Weights, Means, Covs      []float64
+	Loglik, BIC, AIC, Entropy float64
 }
 
 type refK struct {
@@ -195,6 +195,16 @@ func checkFullGMM(t *testing.T, p kmeans.Data, k int, r refK, fit kmeans.Result)
 	}
 	if relErr(got, f.Loglik) > 1e-9 {
 		t.Errorf("k=%d: full GMM log-likelihood %.12g, sklearn %.12g", k, got, f.Loglik)
+	}
+	// The entropy of predict_proba(X) at sklearn's parameters, the term ICL adds to BIC
+	// (Biernacki, Celeux & Govaert 2000): to 1e-9 relative, or 1e-9 absolute when the
+	// components barely overlap (the entropy is then a sum of tiny terms).
+	en, err := g.ClassEntropy(p)
+	if err != nil {
+		t.Fatalf("k=%d: full GMM entropy: %v", k, err)
+	}
+	if math.Abs(en-f.Entropy) > 1e-9*max(1, math.Abs(f.Entropy)) {
+		t.Errorf("k=%d: full GMM classification entropy %.12g, sklearn %.12g", k, en, f.Entropy)
 	}
 	np := criteria.GMMFullParams(k, p.D)
 	n := float64(p.Len())

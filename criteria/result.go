@@ -15,6 +15,7 @@ const (
 	NameBICGMM               = "bic_gmm"
 	NameAICGMM               = "aic_gmm"
 	NameBICKMeans            = "bic_kmeans"
+	NameICLGMM               = "icl_gmm"
 	NameWard                 = "ward"
 	NameCalinskiHarabasz     = "calinski_harabasz"
 	NameDaviesBouldin        = "davies_bouldin"
@@ -24,7 +25,7 @@ const (
 // CriterionNames returns the criterion names in the order of Result.Votes.
 func CriterionNames() []string {
 	return []string{NameElbow, NameSilhouette, NameSimplifiedSilhouette, NameGapBox, NameGapPCA, NameBICGMM,
-		NameAICGMM, NameBICKMeans, NameWard, NameCalinskiHarabasz, NameDaviesBouldin, NameSplitAgreement}
+		NameAICGMM, NameBICKMeans, NameICLGMM, NameWard, NameCalinskiHarabasz, NameDaviesBouldin, NameSplitAgreement}
 }
 
 // Result is the outcome of Evaluate.
@@ -103,6 +104,11 @@ type Scores struct {
 	BICGMM    float64 `json:"bic_gmm"`
 	AICGMM    float64 `json:"aic_gmm"`
 	BICKMeans float64 `json:"bic_kmeans"` // -2 l + p ln N, lower is better
+	// ICLGMM is the integrated completed likelihood of the full-covariance mixture (Biernacki,
+	// Celeux & Govaert 2000): BICGMM + 2 EN, EN the entropy of the mixture's soft classification
+	// of the rows (scaled to N rows). Lower is better; it adds to BIC the price of clusters that
+	// overlap, so a cluster that is not bell-shaped is not paid for as several.
+	ICLGMM float64 `json:"icl_gmm"`
 
 	WardHeight float64 `json:"ward_height"` // cost of the Ward merge from k to k-1 clusters
 	WardJump   float64 `json:"ward_jump"`   // (H(k) - H(k+1)) / H(k+1)
@@ -117,7 +123,7 @@ func nanScores(k int) Scores {
 	n := math.NaN()
 	return Scores{K: k, WCSS: n, Kneedle: n, Silhouette: n, SilhouetteLo: n, SilhouetteHi: n,
 		SimplifiedSilhouette: n, GapBox: n, GapBoxS: n, GapPCA: n, GapPCAS: n, LogW: n, LogLikGMM: n,
-		BICGMM: n, AICGMM: n, BICKMeans: n, WardHeight: n, WardJump: n, CalinskiHarabasz: n, DaviesBouldin: n,
+		BICGMM: n, AICGMM: n, BICKMeans: n, ICLGMM: n, WardHeight: n, WardJump: n, CalinskiHarabasz: n, DaviesBouldin: n,
 		SplitAgreement: n}
 }
 
@@ -163,6 +169,7 @@ func (s Scores) MarshalJSON() ([]byte, error) {
 		BICGMM               jsonFloat `json:"bic_gmm"`
 		AICGMM               jsonFloat `json:"aic_gmm"`
 		BICKMeans            jsonFloat `json:"bic_kmeans"`
+		ICLGMM               jsonFloat `json:"icl_gmm"`
 		WardHeight           jsonFloat `json:"ward_height"`
 		WardJump             jsonFloat `json:"ward_jump"`
 		CalinskiHarabasz     jsonFloat `json:"calinski_harabasz"`
@@ -173,6 +180,6 @@ func (s Scores) MarshalJSON() ([]byte, error) {
 		jsonFloat(s.SilhouetteLo), jsonFloat(s.SilhouetteHi), jsonFloat(s.SimplifiedSilhouette),
 		jsonFloat(s.GapBox), jsonFloat(s.GapBoxS), jsonFloat(s.GapPCA), jsonFloat(s.GapPCAS), jsonFloat(s.LogW),
 		jsonFloat(s.LogLikGMM), jsonFloat(s.BICGMM), jsonFloat(s.AICGMM), jsonFloat(s.BICKMeans),
-		jsonFloat(s.WardHeight), jsonFloat(s.WardJump), jsonFloat(s.CalinskiHarabasz), jsonFloat(s.DaviesBouldin),
+		jsonFloat(s.ICLGMM), jsonFloat(s.WardHeight), jsonFloat(s.WardJump), jsonFloat(s.CalinskiHarabasz), jsonFloat(s.DaviesBouldin),
 		jsonFloat(s.SplitAgreement)})
 }

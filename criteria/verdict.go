@@ -149,6 +149,13 @@ func votes(per []Scores, wardK int, rows float64, dims int, opt Options) []Vote 
 	add(NameAICGMM, k, ok, "min AIC of a full-covariance Gaussian mixture")
 	k, _, ok = pick(per, 1, false, func(s Scores) float64 { return s.BICKMeans })
 	add(NameBICKMeans, k, ok, "min spherical k-means BIC (per-dimension variance)")
+	k, _, ok = pick(per, 1, false, func(s Scores) float64 { return s.ICLGMM })
+	if ok && k == 1 && bicOneUnsupported(rows, dims) {
+		add(NameICLGMM, 0, false, fmt.Sprintf("no say: min ICL at k = 1, but %.0f rows are fewer than %d per parameter of "+
+			"a two-component full-covariance mixture (%d parameters)", rows, rowsPerParam, GMMFullParams(2, dims)))
+	} else {
+		add(NameICLGMM, k, ok, "min ICL (BIC plus twice the classification entropy) of a full-covariance Gaussian mixture")
+	}
 	add(NameWard, wardK, wardK > 0, "largest relative jump of Ward merge cost")
 	k, _, ok = pick(per, 2, true, func(s Scores) float64 { return s.CalinskiHarabasz })
 	add(NameCalinskiHarabasz, k, ok, "max Calinski-Harabasz")

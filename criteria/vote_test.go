@@ -13,7 +13,7 @@ func equalWeights() Weights {
 		Calibration: []CalPoint{{0, 0.3, 10}, {0.5, 0.8, 10}}}
 	for _, c := range CriterionNames() {
 		w.Choice[c] = 1
-		if canSayOne(c) {
+		if CanSayOne(c) {
 			w.Structure[c] = 1
 		}
 	}

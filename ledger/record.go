@@ -115,6 +115,7 @@ type Scores struct {
 	BICGMM               Float `json:"bic_gmm"`
 	AICGMM               Float `json:"aic_gmm"`
 	BICKMeans            Float `json:"bic_kmeans"`
+	ICLGMM               Float `json:"icl_gmm"`
 	WardJump             Float `json:"ward_jump"`
 	CalinskiHarabasz     Float `json:"calinski_harabasz"`
 	DaviesBouldin        Float `json:"davies_bouldin"`
@@ -192,7 +193,7 @@ func NewRecord(p Partition, root string, res *kgauge.Result, sketch string, sket
 		r.PerK[i] = Scores{K: s.K, Valid: s.Valid, WCSS: Float(s.WCSS), Silhouette: Float(s.Silhouette),
 			SimplifiedSilhouette: Float(s.SimplifiedSilhouette), GapBox: Float(s.GapBox),
 			GapPCA: Float(s.GapPCA), BICGMM: Float(s.BICGMM), AICGMM: Float(s.AICGMM),
-			BICKMeans: Float(s.BICKMeans), WardJump: Float(s.WardJump),
+			BICKMeans: Float(s.BICKMeans), ICLGMM: Float(s.ICLGMM), WardJump: Float(s.WardJump),
 			CalinskiHarabasz: Float(s.CalinskiHarabasz), DaviesBouldin: Float(s.DaviesBouldin)}
 	}
 	if r.Columns == nil {

@@ -365,11 +365,12 @@ func figures(perK []criteria.Scores, votes []criteria.Vote, ward criteria.Ward) 
 	p = newPlot("Information criteria", "k (number of clusters)", "above the lowest value")
 	bic := relative(series(perK, func(s criteria.Scores) float64 { return s.BICGMM }))
 	aic := relative(series(perK, func(s criteria.Scores) float64 { return s.AICGMM }))
-	caption := "Gaussian mixtures fitted from each k-means solution, scored by BIC and AIC (lower is better), each shown as its distance above its lowest value."
-	if spansDecades(bic, aic) {
+	icl := relative(series(perK, func(s criteria.Scores) float64 { return s.ICLGMM }))
+	caption := "Gaussian mixtures fitted from each k-means solution, scored by BIC, AIC and ICL (BIC plus the price of overlapping groups; lower is better), each shown as its distance above its lowest value."
+	if spansDecades(bic, aic, icl) {
 		// Distances that span orders of magnitude squash the minimum into the axis: plot 1 + the
 		// distance on a log scale, so the best k sits at 1 and its neighbours stay apart.
-		for _, c := range []plotter.XYs{bic, aic} {
+		for _, c := range []plotter.XYs{bic, aic, icl} {
 			for i := range c {
 				c[i].Y++
 			}
@@ -385,12 +386,15 @@ func figures(perK []criteria.Scores, votes []criteria.Vote, ward criteria.Ward) 
 	if err := addLine(p, &leg, aic, amberColour, "AIC of the mixture", true); err != nil {
 		return nil, err
 	}
+	if err := addLine(p, &leg, icl, plumColour, "ICL of the mixture", true); err != nil {
+		return nil, err
+	}
 	if k := vote(votes, criteria.NameBICGMM); k > 0 {
 		if err := markK(p, &leg, bic, k, fmt.Sprintf("BIC lowest at k = %d", k)); err != nil {
 			return nil, err
 		}
 	}
-	if err := add("fig-ic", "BIC and AIC of Gaussian mixtures", caption, p, leg); err != nil {
+	if err := add("fig-ic", "BIC, AIC and ICL of Gaussian mixtures", caption, p, leg); err != nil {
 		return nil, err
 	}
 

@@ -53,6 +53,7 @@ var tableColumns = []tableColumn{
 	{head: [2]string{"bic", "gmm"}, crit: "bic_gmm", value: func(s criteria.Scores) float64 { return s.BICGMM }},
 	{head: [2]string{"aic", "gmm"}, crit: "aic_gmm", value: func(s criteria.Scores) float64 { return s.AICGMM }},
 	{head: [2]string{"bic", "k-means"}, crit: "bic_kmeans", value: func(s criteria.Scores) float64 { return s.BICKMeans }},
+	{head: [2]string{"icl", "gmm"}, crit: "icl_gmm", value: func(s criteria.Scores) float64 { return s.ICLGMM }},
 	{head: [2]string{"ward", "jump"}, crit: "ward", value: func(s criteria.Scores) float64 { return s.WardJump }},
 	{head: [2]string{"calinski-", "harabasz"}, crit: "calinski_harabasz", value: func(s criteria.Scores) float64 { return s.CalinskiHarabasz }},
 	{head: [2]string{"davies-", "bouldin"}, crit: "davies_bouldin", value: func(s criteria.Scores) float64 { return s.DaviesBouldin }},

@@ -16,7 +16,8 @@ For every point set and k it records:
     precisions_init = 1 / (within-cluster variance + 1e-6)): weights_, means_, covariances_,
     score_samples(X).sum(), bic(X), aic(X), n_iter_;
   * the same for GaussianMixture(covariance_type="full") from the same start (covariances =
-    within-cluster covariances + 1e-6 I): weights_, means_, covariances_, loglik, bic, aic;
+    within-cluster covariances + 1e-6 I): weights_, means_, covariances_, loglik, bic, aic, and
+    the entropy of predict_proba(X) (the term ICL adds to BIC);
   * scipy.cluster.hierarchy.linkage(X, method="ward") merge heights (column 2).
 """
 import argparse
@@ -125,6 +126,9 @@ def main():
                 "bic": float(gf.bic(x)),
                 "aic": float(gf.aic(x)),
                 "n_iter": int(gf.n_iter_),
+                # Entropy of the soft classification, -sum_i sum_j t_ij ln t_ij (0 ln 0 = 0), the
+                # term ICL adds to BIC twice (Biernacki, Celeux & Govaert 2000).
+                "entropy": float(-sum(t * np.log(t) for t in gf.predict_proba(x).ravel() if t > 0)),
             }
             rec["per_k"][str(k)] = r
         rec["ward_heights"] = linkage(x, method="ward")[:, 2].tolist()
