@@ -82,7 +82,7 @@ type CriteriaProbe struct {
 	Parallel int           `json:"parallel"`           // runs timed side by side, as the estimate runs its k
 	Runs     []CriteriaRun `json:"runs"`               // ascending k
 
-	// Stages are whole criteria stages timed on the same rows (calibration runs only; ascending
+	// Stages are whole criteria stages timed on the same file (calibration runs only; ascending
 	// MaxK): what the runs miss, CriteriaFromWidths takes from them (StageFactor).
 	Stages []CriteriaStage `json:"stages,omitempty"`
 }
