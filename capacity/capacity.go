@@ -201,9 +201,11 @@ func readProbe(ctx context.Context, ds *stream.Dataset, units []stream.Unit, bat
 
 // CriteriaRuns times the criteria at opt's sizes on a sketch of the first rows of the data files
 // named by paths (at most probeKeepRows, read in file order), as a plan's timed probe times its own
-// (runCriteria): k = 1 with and without the Ward linkage and each k of ks without it. It is how
-// kgauge-calibrate measures the criteria runs that price the stage without a probe.
-func CriteriaRuns(ctx context.Context, paths []string, opt kgauge.Options, ks []int) (*cost.CriteriaProbe, error) {
+// (runCriteria): k = 1 with and without the Ward linkage and each k of ks without it; then the
+// whole stage of an estimate of the same files for opt's smallest k to each of stages (timeStage,
+// in cp.Stages). It is how kgauge-calibrate measures the criteria runs that price the stage
+// without a probe.
+func CriteriaRuns(ctx context.Context, paths []string, opt kgauge.Options, ks, stages []int) (*cost.CriteriaProbe, error) {
 	op, err := kgauge.Open(paths, opt)
 	if err != nil {
 		return nil, err
@@ -226,7 +228,57 @@ func CriteriaRuns(ctx context.Context, paths []string, opt kgauge.Options, ks []
 	}
 	// The most expensive first, as probeRuns orders them, so the side-by-side runs end together.
 	slices.SortStableFunc(runs, func(a, b cost.CriteriaRun) int { return b.K - a.K })
-	return runCriteria(ctx, rows, ds.Columns, opt, runs)
+	cp, err := runCriteria(ctx, rows, ds.Columns, opt, runs)
+	if err != nil {
+		return nil, err
+	}
+	for _, maxK := range slices.Sorted(slices.Values(stages)) {
+		st, err := timeStage(ctx, paths, opt, maxK)
+		if err != nil {
+			return nil, err
+		}
+		cp.Stages = append(cp.Stages, st)
+	}
+	return cp, nil
+}
+
+// timeStage runs an estimate of the files named by paths for opt's smallest k to maxK and returns
+// its criteria stage (Timings.Criteria: the summary, any reduction and the criteria, the Ward
+// linkage included, on opt's criteria workers), timed on the sketch the estimate's own pass built.
+// A sketch of the rows built as the probe builds its own (probeSketch, a quarter of the mini-batch
+// feed) had made the stage 8 to 10% dearer, timed back to back at 8 and 16 columns on 4 clusters.
+func timeStage(ctx context.Context, paths []string, opt kgauge.Options, maxK int) (cost.CriteriaStage, error) {
+	opt.Criteria.MaxK, opt.Sketch.MaxK = maxK, maxK
+	res, _, err := kgauge.Estimate(ctx, paths, opt)
+	if err != nil {
+		return cost.CriteriaStage{}, fmt.Errorf("plan: criteria stage up to k = %d: %w", maxK, err)
+	}
+	workers := opt.Criteria.Workers
+	if workers == 0 {
+		workers = runtime.GOMAXPROCS(0)
+	}
+	return cost.CriteriaStage{MinK: opt.Criteria.MinK, MaxK: maxK, Workers: workers, Seconds: res.Timings.Criteria}, nil
+}
+
+// probeSketch builds a sketch of rows at opt's sizes (of the estimate's coreset and sample sizes as
+// far as the rows go), seeded as the estimate's probe seeds its own, feeding mini-batch k-means at
+// most probeFeedRows of them.
+func probeSketch(rows []float64, cols []string, opt kgauge.Options) (*sketch.Sketch, error) {
+	n := len(rows) / len(cols)
+	cfg := opt.Sketch
+	cfg.Columns = cols
+	cfg.ExpectedRows = int64(n)
+	cfg.MiniBatchRows = int64(min(n, probeFeedRows))
+	pr, err := kgauge.ProbeFromRows(rows, cols, opt)
+	if err != nil {
+		return nil, err
+	}
+	sk, err := sketch.New(cfg, pr)
+	if err != nil {
+		return nil, err
+	}
+	sk.Add(rows)
+	return sk, nil
 }
 
 // timeSketch sets cal's sketch.AddColumns cost per value (steady state, once the coreset and sample
@@ -337,21 +389,10 @@ func probeRuns(minK, maxK int) []cost.CriteriaRun {
 // Ward linkage but in one run, and returns them in ascending k for cost.CriteriaFromRuns, with the
 // width the criteria ran in (after a wide input's reduction).
 func runCriteria(ctx context.Context, rows []float64, cols []string, opt kgauge.Options, runs []cost.CriteriaRun) (*cost.CriteriaProbe, error) {
-	d := len(cols)
-	n := len(rows) / d
-	cfg := opt.Sketch
-	cfg.Columns = cols
-	cfg.ExpectedRows = int64(n)
-	cfg.MiniBatchRows = int64(min(n, probeFeedRows))
-	pr, err := kgauge.ProbeFromRows(rows, cols, opt)
+	sk, err := probeSketch(rows, cols, opt)
 	if err != nil {
 		return nil, err
 	}
-	sk, err := sketch.New(cfg, pr)
-	if err != nil {
-		return nil, err
-	}
-	sk.Add(rows)
 	sum, _ := kgauge.Summarize(sk, opt.Scale)
 	sum, _ = kgauge.ReduceWide(sum, opt) // the criteria run where Evaluate runs them
 	par := opt.Criteria.Workers
@@ -419,13 +460,18 @@ func FitToRun(cal cost.Calibration, w cost.Workload, tm kgauge.Timings) cost.Cal
 		cal.OpenFileSeconds *= tm.Open / t.Open
 	}
 	if tm.Criteria > 0 && t.Criteria > 0 {
-		// Every calibrated criteria run takes f times as long, and so does the stage priced from them.
+		// Every calibrated criteria run and whole stage takes f times as long, and so does the stage
+		// priced from them.
 		f := tm.Criteria / t.Criteria
 		sets := make([]cost.CriteriaProbe, len(cal.Criteria))
 		for i, cp := range cal.Criteria {
 			cp.Runs = slices.Clone(cp.Runs)
 			for j := range cp.Runs {
 				cp.Runs[j].Seconds *= f
+			}
+			cp.Stages = slices.Clone(cp.Stages)
+			for j := range cp.Stages {
+				cp.Stages[j].Seconds *= f
 			}
 			sets[i] = cp
 		}

@@ -9,6 +9,7 @@ import (
 	"os"
 	"path/filepath"
 	"reflect"
+	"slices"
 	"testing"
 
 	"github.com/kgauge/kgauge/bench/synth"
@@ -104,14 +105,28 @@ func TestTimedProbeLimits(t *testing.T) {
 }
 
 // TestFitToRun: after fitting, the model reproduces the measured open, probe, pass and criteria times of
-// the run, whatever they were.
+// the run, whatever they were, with and without whole stages in the calibration's criteria runs
+// (their factor over the runs' price must survive the fit).
 func TestFitToRun(t *testing.T) {
 	w := cost.Workload{Files: 3, Units: 40, Rows: 2_000_000, Bytes: 256_000_000, Dims: 16, Workers: 2, Cores: 2,
 		MinK: 1, MaxK: 20, Coreset: 8192, Sample: 4096, MiniBatchRows: 1 << 17, BatchRows: 4096, ProbeRows: 65536,
 		ProbeUnits: 16, Restarts: 3, Anchors: 1000, GapRefs: 10, GapSample: 2000, GapRestarts: 1}
-	for _, tm := range []kgauge.Timings{{Open: 0.01, Probe: 0.2, Pass: 4, Criteria: 9}, {Open: 0.5, Probe: 1, Pass: 40, Criteria: 2},
-		{Open: 0.001, Probe: 0.1, Pass: 0.05, Criteria: 30}} {
-		cal := FitToRun(cost.Default(), w, tm)
+	staged := cost.Default()
+	staged.Criteria = slices.Clone(staged.Criteria)
+	for i := range staged.Criteria {
+		staged.Criteria[i].Stages = []cost.CriteriaStage{{MinK: 1, MaxK: 10, Workers: 2, Seconds: 1 + float64(i)},
+			{MinK: 1, MaxK: 20, Workers: 2, Seconds: 7 + float64(i)}}
+	}
+	for _, tc := range []struct {
+		base cost.Calibration
+		tm   kgauge.Timings
+	}{{cost.Default(), kgauge.Timings{Open: 0.01, Probe: 0.2, Pass: 4, Criteria: 9}},
+		{cost.Default(), kgauge.Timings{Open: 0.5, Probe: 1, Pass: 40, Criteria: 2}},
+		{cost.Default(), kgauge.Timings{Open: 0.001, Probe: 0.1, Pass: 0.05, Criteria: 30}},
+		{staged, kgauge.Timings{Open: 0.01, Probe: 0.2, Pass: 4, Criteria: 9}},
+		{staged, kgauge.Timings{Open: 0.001, Probe: 0.1, Pass: 0.05, Criteria: 30}}} {
+		tm := tc.tm
+		cal := FitToRun(tc.base, w, tm)
 		if err := cal.Validate(); err != nil {
 			t.Fatalf("fitted calibration: %v", err)
 		}
@@ -279,5 +294,43 @@ func TestWardLeaves(t *testing.T) {
 		if v.Criterion == criteria.NameWard && !v.Abstain {
 			t.Errorf("Ward vote %+v without the linkage; want an abstention", v)
 		}
+	}
+}
+
+// TestCriteriaRunsStages: CriteriaRuns returns the runs asked for (k = 1 with and without the
+// Ward linkage, then each k) and one whole stage per largest k asked for, ascending whatever the
+// order asked, each from k = 1 on the estimate's criteria workers with a positive time; and the
+// calibration that carries them is valid.
+func TestCriteriaRunsStages(t *testing.T) {
+	path := smallMixture(t, 6000, 2048)
+	opt := kgauge.DefaultOptions()
+	opt.Criteria.MaxK = 6
+	opt.Criteria.Workers = 2
+	cp, err := CriteriaRuns(context.Background(), []string{path}, opt, []int{2, 6}, []int{6, 3})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var ks []int
+	for _, r := range cp.Runs {
+		ks = append(ks, r.K)
+	}
+	if want := []int{1, 1, 2, 6}; !reflect.DeepEqual(ks, want) {
+		t.Errorf("runs at k %v, want %v", ks, want)
+	}
+	if len(cp.Stages) != 2 || cp.Stages[0].MaxK != 3 || cp.Stages[1].MaxK != 6 {
+		t.Fatalf("stages %+v, want up to k = 3 and 6", cp.Stages)
+	}
+	for _, st := range cp.Stages {
+		if st.MinK != 1 || st.Workers != 2 || !(st.Seconds > 0) {
+			t.Errorf("stage %+v: want from k = 1 on 2 workers, positive time", st)
+		}
+	}
+	cal := cost.Default()
+	cal.Criteria = []cost.CriteriaProbe{*cp}
+	if err := cal.Validate(); err != nil {
+		t.Errorf("calibration with these runs: %v", err)
+	}
+	if f := cp.StageFactor(6); !(f > 0) || math.IsInf(f, 0) {
+		t.Errorf("StageFactor(6) = %v, want a positive number", f)
 	}
 }

@@ -81,6 +81,20 @@ type CriteriaProbe struct {
 	Coreset  int           `json:"coreset"`            // coreset points of the probe's sketch
 	Parallel int           `json:"parallel"`           // runs timed side by side, as the estimate runs its k
 	Runs     []CriteriaRun `json:"runs"`               // ascending k
+
+	// Stages are whole criteria stages timed on the same file (calibration runs only; ascending
+	// MaxK): what the runs miss, CriteriaFromWidths takes from them (StageFactor).
+	Stages []CriteriaStage `json:"stages,omitempty"`
+}
+
+// CriteriaStage is one whole criteria stage timed as an estimate runs it (kgauge.Evaluate: the
+// summary, any reduction, and the criteria for every k of MinK..MaxK with the Ward linkage on
+// Workers goroutines).
+type CriteriaStage struct {
+	MinK    int     `json:"min_k"`
+	MaxK    int     `json:"max_k"`
+	Workers int     `json:"workers"`
+	Seconds float64 `json:"seconds"`
 }
 
 //go:embed calibration.json
@@ -127,6 +141,12 @@ func (c Calibration) Validate() error {
 				cp.Dims, c.Criteria[max(i-1, 0)].Dims)
 		case !cp.usable():
 			return fmt.Errorf("cost: calibration criteria_runs at %d dims: want k = 1 with and without the Ward linkage, with its leaves, and no negative time", cp.Dims)
+		}
+		for j, st := range cp.Stages {
+			if st.MinK < 1 || st.MaxK < st.MinK || st.Workers < 1 || !(st.Seconds > 0) || math.IsInf(st.Seconds, 0) ||
+				(j > 0 && st.MaxK <= cp.Stages[j-1].MaxK) {
+				return fmt.Errorf("cost: calibration criteria_runs at %d dims: bad stage %+v (want 1 <= min_k <= max_k, max_k ascending, workers >= 1, positive seconds)", cp.Dims, st)
+			}
 		}
 	}
 	switch {
@@ -449,6 +469,42 @@ func (cp *CriteriaProbe) find(k int, ward bool) *CriteriaRun {
 	return nil
 }
 
+// StageFactor is what the whole stage took ÷ what CriteriaFromRuns prices from cp's runs for the
+// same stage (its k range, its workers, cp's coreset and width), for a range up to maxK: the
+// factor of each of cp.Stages, interpolated linearly over the largest k between two stages and
+// the nearest stage's beyond them; 1 without stages.
+//
+// The runs time each k alone, so they miss what only a range of k does: the fit path's sweeps
+// (each k started again from its neighbours' fits until none improves, criteria/fits.go), which
+// run largely one after another, and the pool's idle slots while the main fit path holds the
+// per-k scores back (DEVELOPERS.md, issue 16).
+func (cp *CriteriaProbe) StageFactor(maxK int) float64 {
+	type point struct{ k, f float64 }
+	var pts []point
+	for _, st := range cp.Stages {
+		m := max(cp.Coreset, 1)
+		sw := Workload{Dims: max(cp.Dims, 1), MinK: st.MinK, MaxK: st.MaxK, Rows: int64(m), Coreset: m,
+			WardLeaves: criteria.WardLeaves(m, st.MaxK)}
+		p, ok := CriteriaFromRuns(sw, cp, st.Workers)
+		if ok && p > 0 && st.Seconds > 0 {
+			pts = append(pts, point{float64(st.MaxK), st.Seconds / p})
+		}
+	}
+	switch {
+	case len(pts) == 0:
+		return 1
+	case float64(maxK) <= pts[0].k:
+		return pts[0].f
+	}
+	for i := 1; i < len(pts); i++ {
+		if float64(maxK) <= pts[i].k {
+			a, b := pts[i-1], pts[i]
+			return a.f + (float64(maxK)-a.k)/(b.k-a.k)*(b.f-a.f)
+		}
+	}
+	return pts[len(pts)-1].f
+}
+
 // Width exponents of CriteriaFromWidths beyond the calibrated widths: the stage never gets cheaper
 // with more columns, and grows at most as d³ (its eigen decompositions; every other part is at
 // most d²).
@@ -459,8 +515,8 @@ const (
 
 // CriteriaFromWidths prices the criteria stage of w from criteria runs timed at several column
 // counts (sets, ascending Dims; the calibration's): each set prices w as CriteriaFromRuns does,
-// the sets of one width (data of different cluster counts) give the mean of their prices, and the
-// stage at w's criteria width d (w.CriteriaDims, or w.Dims) is interpolated between the two widths
+// times the set's StageFactor (its whole stages measured ÷ priced from its runs), the sets of
+// one width (data of different cluster counts) give the mean of their prices, and the stage at w's criteria width d (w.CriteriaDims, or w.Dims) is interpolated between the two widths
 // around d as a power of d, t = t₁·(d/d₁)^e with e = ln(t₂/t₁)/ln(d₂/d₁): the stage has parts
 // that do not grow with the columns and parts that grow as d or d², so neither a line through
 // zero nor one through the two points holds over a decade of widths. Beyond the widths measured
@@ -483,6 +539,7 @@ func CriteriaFromWidths(w Workload, sets []CriteriaProbe, cores int) (float64, b
 		if !ok || sets[i].Dims < 1 || !(t > 0) {
 			continue
 		}
+		t *= sets[i].StageFactor(w.MaxK)
 		if last := len(pts) - 1; last >= 0 && pts[last].d == float64(sets[i].Dims) {
 			pts[last].t = (pts[last].t*float64(n) + t) / float64(n+1)
 			n++

@@ -66,6 +66,9 @@ func TestParseRejects(t *testing.T) {
 		{"no Ward run", `"ward": true`, `"ward": false`, "Ward"},
 		{"negative run", `"seconds": 0.5`, `"seconds": -0.5`, "negative"},
 		{"unknown field", `"cores": 2`, `"cores": 2, "speed": 3`, "unknown field"},
+		{"stage without time", `"runs": [`, `"stages": [{"min_k": 1, "max_k": 20, "workers": 2, "seconds": 0}], "runs": [`, "bad stage"},
+		{"stage range reversed", `"runs": [`, `"stages": [{"min_k": 5, "max_k": 4, "workers": 2, "seconds": 1}], "runs": [`, "bad stage"},
+		{"stages not ascending", `"runs": [`, `"stages": [{"min_k": 1, "max_k": 20, "workers": 2, "seconds": 1}, {"min_k": 1, "max_k": 10, "workers": 2, "seconds": 1}], "runs": [`, "bad stage"},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			b := strings.Replace(string(good), tc.from, tc.to, 1)
@@ -396,5 +399,71 @@ func TestBeamFigures(t *testing.T) {
 	}
 	if want := float64(w.Units) * BeamWorkItemOverhead.Seconds(); a < want {
 		t.Errorf("Beam pass %v s misses the %v s of per-item overhead", a, want)
+	}
+}
+
+// withStages returns cp with whole stages up to k = 10 and 20 (from k = 1, on two workers) that
+// took f10 and f20 times what cp's runs price for them.
+func withStages(t *testing.T, cp CriteriaProbe, f10, f20 float64) CriteriaProbe {
+	t.Helper()
+	for _, st := range []struct {
+		maxK int
+		f    float64
+	}{{10, f10}, {20, f20}} {
+		w := Workload{Dims: max(cp.Dims, 1), MinK: 1, MaxK: st.maxK, Rows: int64(cp.Coreset), Coreset: cp.Coreset,
+			WardLeaves: criteria.WardLeaves(cp.Coreset, st.maxK)}
+		p, ok := CriteriaFromRuns(w, &cp, 2)
+		if !ok || !(p > 0) {
+			t.Fatalf("runs price the stage to %d at %v (ok %v)", st.maxK, p, ok)
+		}
+		cp.Stages = append(cp.Stages, CriteriaStage{MinK: 1, MaxK: st.maxK, Workers: 2, Seconds: st.f * p})
+	}
+	return cp
+}
+
+// TestStageFactor: a set whose whole stages took f times what its runs price for them scales its
+// price by f: at the stages' largest k, linearly between them, the nearest stage's beyond them,
+// and 1 without stages; CriteriaFromWidths applies it to each set, and a calibration carrying
+// stages passes Validate and survives its JSON.
+func TestStageFactor(t *testing.T) {
+	cp := withStages(t, *testRuns(), 2, 1.5)
+	for _, tc := range []struct {
+		maxK int
+		want float64
+	}{{10, 2}, {20, 1.5}, {15, 1.75}, {12, 1.9}, {4, 2}, {40, 1.5}} {
+		if got := cp.StageFactor(tc.maxK); math.Abs(got-tc.want) > 1e-9 {
+			t.Errorf("StageFactor(%d) = %v, want %v", tc.maxK, got, tc.want)
+		}
+	}
+	if got := testRuns().StageFactor(20); got != 1 {
+		t.Errorf("no stages: StageFactor = %v, want 1", got)
+	}
+	w := testWork()
+	plain := testWidths(9)
+	staged := []CriteriaProbe{withStages(t, plain[0], 3, 2), withStages(t, plain[1], 3, 2)}
+	for _, tc := range []struct {
+		maxK int
+		f    float64
+	}{{20, 2}, {10, 3}, {15, 2.5}} {
+		v := w
+		v.MaxK = tc.maxK
+		a, _ := CriteriaFromWidths(v, plain, 2)
+		b, ok := CriteriaFromWidths(v, staged, 2)
+		if !ok || math.Abs(b-tc.f*a) > 1e-9*b {
+			t.Errorf("k 1..%d: staged sets price %v, want %v × the runs' %v", tc.maxK, b, tc.f, a)
+		}
+	}
+	c := testCal()
+	c.Criteria = staged
+	b, err := c.JSON()
+	if err != nil {
+		t.Fatal(err)
+	}
+	back, err := Parse(b)
+	if err != nil {
+		t.Fatalf("calibration with stages: %v", err)
+	}
+	if got, want := Predict(w, back).Terms.Criteria, 2*Predict(w, testCal()).Terms.Criteria; math.Abs(got-want) > 1e-9*want {
+		t.Errorf("Predict with stages 2× the runs' price: criteria %v, want %v", got, want)
 	}
 }

@@ -67,11 +67,11 @@ type childOut struct {
 // child runs "plan MAXK FILE", "plan-noprobe MAXK FILE" (the figures priced from the committed
 // calibration alone: the progress bar's first ETA, the report's planned column, --memory's check),
 // "estimate WORKERS MAXK FILE" (MAXK 0: the default k range), "build WORKERS MAXK FILE" (open,
-// probe and pass only) or "criteria-runs K1,K2,… FILE" (capacity.CriteriaRuns with --max-k the
-// largest k) and prints a childOut.
+// probe and pass only) or "criteria-runs K1,K2,… S1,S2,… FILE" (capacity.CriteriaRuns with
+// --max-k the largest k, and whole stages up to each S) and prints a childOut.
 func child(args []string) error {
 	if len(args) < 3 || ((args[0] == "estimate" || args[0] == "build") && len(args) < 4) {
-		return errors.New("child: want plan MAXK FILE, estimate|build WORKERS MAXK FILE or criteria-runs KS FILE")
+		return errors.New("child: want plan MAXK FILE, estimate|build WORKERS MAXK FILE or criteria-runs KS STAGES FILE")
 	}
 	ctx := context.Background()
 	opt := kgauge.DefaultOptions()
@@ -89,16 +89,19 @@ func child(args []string) error {
 		out.Seconds = time.Since(start).Seconds()
 		out.Plan = p
 	case "criteria-runs":
-		var ks []int
-		for _, f := range strings.Split(args[1], ",") {
-			var k int
-			if _, err := fmt.Sscan(f, &k); err != nil || k < 1 {
-				return fmt.Errorf("child: bad k %q", f)
-			}
-			ks = append(ks, k)
+		if len(args) < 4 {
+			return errors.New("child: want criteria-runs KS STAGES FILE")
+		}
+		ks, err := parseKs(args[1])
+		if err != nil {
+			return err
+		}
+		stages, err := parseKs(args[2])
+		if err != nil {
+			return err
 		}
 		opt.Criteria.MaxK = slices.Max(ks)
-		cp, err := capacity.CriteriaRuns(ctx, args[2:], opt, ks)
+		cp, err := capacity.CriteriaRuns(ctx, args[3:], opt, ks, stages)
 		if err != nil {
 			return err
 		}
@@ -136,6 +139,19 @@ func child(args []string) error {
 	}
 	out.MaxRSS = ownPeak()
 	return json.NewEncoder(os.Stdout).Encode(out)
+}
+
+// parseKs reads a comma-separated list of k, each at least 1.
+func parseKs(list string) ([]int, error) {
+	var ks []int
+	for _, f := range strings.Split(list, ",") {
+		var k int
+		if _, err := fmt.Sscan(f, &k); err != nil || k < 1 {
+			return nil, fmt.Errorf("child: bad k %q in %q", f, list)
+		}
+		ks = append(ks, k)
+	}
+	return ks, nil
 }
 
 // ownPeak returns this process's peak resident memory (VmHWM in /proc/self/status), or 0 where
@@ -284,11 +300,14 @@ const (
 // the criteria runs the calibration stores for pricing the criteria without a probe
 // (cost.CriteriaFromWidths), each on calCriteriaRows rows. A k's cost depends on how it compares
 // with the data's clusters, which nothing but a probe knows: the runs span 4 to 16 clusters, and
-// the model takes the mean of their prices.
+// the model takes the mean of their prices. calStages is the largest k of the whole stages (from
+// k = 1) timed on the same rows, which price what the single-k runs miss (cost.StageFactor): the
+// default range and half of it.
 var (
 	calWidths       = []int{8, 16, 32, 64}
 	calKs           = []int{2, 4, 8, 12, 16, 20, 40}
 	calMixtures     = []int{4, 8, 16}
+	calStages       = []int{10, 20}
 	calCriteriaRows = 131072
 )
 
@@ -300,11 +319,11 @@ var (
 func calibrate(dir, out string, repeats int, quick bool) error {
 	small := shape{Name: "calibrate-small", Rows: 2_000_000, Dims: 16, K: calClusters, RowGroup: 65536, Seed: calSeed}
 	large := shape{Name: "calibrate-large", Rows: 8_000_000, Dims: 16, K: calClusters, RowGroup: 65536, Seed: calSeed}
-	widths, ks, mixtures, critRows := calWidths, calKs, calMixtures, calCriteriaRows
+	widths, ks, mixtures, stages, critRows := calWidths, calKs, calMixtures, calStages, calCriteriaRows
 	if quick {
 		small.Rows, small.RowGroup = 200_000, 8192
 		large.Rows, large.RowGroup = 800_000, 8192
-		widths, ks, mixtures, critRows = []int{8, 16}, []int{2, 4, 8}, []int{4, 8}, 20_000
+		widths, ks, mixtures, stages, critRows = []int{8, 16}, []int{2, 4, 8}, []int{4, 8}, []int{4, 8}, 20_000
 	}
 	cal := cost.Default()
 	cal.Cores = runtime.NumCPU()
@@ -312,19 +331,17 @@ func calibrate(dir, out string, repeats int, quick bool) error {
 
 	// Criteria runs at several widths.
 	var sets []cost.CriteriaProbe
-	list := make([]string, len(ks))
-	for i, k := range ks {
-		list[i] = fmt.Sprint(k)
-	}
+	join := func(v []int) string { return strings.Trim(strings.ReplaceAll(fmt.Sprint(v), " ", ","), "[]") }
+	list := join(ks)
 	for _, d := range widths {
 		for _, clusters := range mixtures {
 			sh := shape{Name: fmt.Sprintf("criteria-d%d-k%d", d, clusters), Rows: critRows, Dims: d, K: clusters, RowGroup: 16384, Seed: calSeed}
-			fmt.Fprintf(os.Stderr, "calibrate: criteria runs at %d columns on %d clusters, k = %s\n", d, clusters, strings.Join(list, ", "))
+			fmt.Fprintf(os.Stderr, "calibrate: criteria runs at %d columns on %d clusters, k = %s, stages to k = %s\n", d, clusters, list, join(stages))
 			path, err := sh.write(dir)
 			if err != nil {
 				return err
 			}
-			c, err := runChild("criteria-runs", strings.Join(list, ","), path)
+			c, err := runChild("criteria-runs", list, join(stages), path)
 			os.Remove(path)
 			if err != nil {
 				return err
@@ -420,8 +437,8 @@ func calibrate(dir, out string, repeats int, quick bool) error {
 		cal.ProbeOverhead = median(probe) / pred.Terms.Probe
 	}
 	cal.BaseBytes = max(0, int64(median(rss))-(pred.PeakBytes-cal.BaseBytes))
-	cal.Source = fmt.Sprintf("kgauge-calibrate on %d and %d × %d Gaussian-mixture rows (snappy Parquet, %d-row groups; criteria runs on %d rows at %s columns of %s clusters), medians of %d runs, load average %s",
-		small.Rows, large.Rows, small.Dims, small.RowGroup, critRows, strings.Trim(fmt.Sprint(widths), "[]"), strings.Trim(fmt.Sprint(mixtures), "[]"), repeats, loadAverage())
+	cal.Source = fmt.Sprintf("kgauge-calibrate on %d and %d × %d Gaussian-mixture rows (snappy Parquet, %d-row groups; criteria runs on %d rows at %s columns of %s clusters, whole stages to k = %s), medians of %d runs, load average %s",
+		small.Rows, large.Rows, small.Dims, small.RowGroup, critRows, strings.Trim(fmt.Sprint(widths), "[]"), strings.Trim(fmt.Sprint(mixtures), "[]"), join(stages), repeats, loadAverage())
 	cal.Machine = machine()
 	cal.Command = "go run ./cmd/kgauge-calibrate"
 	cal.Probe = nil
