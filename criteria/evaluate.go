@@ -75,7 +75,8 @@ const wardDirectMax = 400
 // EM from the k-means fit (GMMFullFit; 1e-6 times the mean per-dimension variance added to every
 // covariance's diagonal; at most 100 iterations, tolerance 1e-3 per unit weight; log-likelihood
 // scaled by N / coreset weight less the coreset fit's optimism (fitExcess), BIC/AIC with the real N
-// and p = GMMFullParams), and BICKMeans (corrected alike).
+// and p = GMMFullParams; ICL = BIC + 2 × the entropy of the EM's last soft classification, scaled
+// alike), and BICKMeans (corrected like the mixture).
 // The gap statistic uses n = min(opt.GapSample, sample size) points of the uniform sample (a
 // seeded subsample without replacement; if the Summary has no sample, n points drawn from the
 // coreset in proportion to weight) against opt.GapRefs reference sets of n points in the
@@ -88,8 +89,8 @@ const wardDirectMax = 400
 // race at Lloyd tolerance 1e-3 before the best runs on to 1e-5), the data side also started from the main fit's centres at each k and every
 // reference set on a path of its own. Each criterion then votes (Result.Votes, CriterionNames order): elbow = Kneedle on WCSS(k)
 // over the valid k; silhouette, simplified_silhouette and calinski_harabasz = argmax over k >= 2;
-// davies_bouldin = argmin over k >= 2; gap_box and gap_pca = GapRule; bic_gmm, aic_gmm and
-// bic_kmeans = argmin over all k; ward = the largest relative jump of the merge costs (see
+// davies_bouldin = argmin over k >= 2; gap_box and gap_pca = GapRule; bic_gmm, aic_gmm,
+// bic_kmeans and icl_gmm = argmin over all k; ward = the largest relative jump of the merge costs (see
 // wardVote); split_agreement = splitVote on whitened halves of the sample; the one-mode check
 // (modeCheck) runs once; the verdict combines them (Decide in vote.go), and FarRows is measured on the
 // verdict's fit.
