@@ -450,9 +450,10 @@ func Project(r *kgauge.Result, w cost.Workload) {
 }
 
 // FitToRun rescales the constants of cal so that the model reproduces the measured stage times tm
-// of a run of w: the open, probe and criteria terms by their ratios, and the rows-proportional part
-// of the pass (unit opens, scan and sketch) so that the whole pass matches; when the fixed feed term
-// alone exceeds the measured pass, both pass overheads take the whole ratio instead.
+// of a run of w: the open and criteria terms by their ratios, the probe overhead so that the probe
+// term matches, and the scan and sketch rates so that the whole pass matches; when the unit opens and
+// the fixed feed term alone come near the measured pass, both pass overheads take the whole ratio
+// instead.
 func FitToRun(cal cost.Calibration, w cost.Workload, tm kgauge.Timings) cost.Calibration {
 	p := cost.Predict(w, cal)
 	t := p.Terms
@@ -478,22 +479,32 @@ func FitToRun(cal cost.Calibration, w cost.Workload, tm kgauge.Timings) cost.Cal
 		cal.Criteria = sets
 	}
 	if tm.Pass > 0 && t.Pass > 0 {
-		linear := t.Scan + t.Sketch
-		want := tm.Pass*t.Speedup - t.Feed
+		// The unit opens keep their price (the probe stage pays them too); the bytes and the sketch
+		// take the rest of the rows-proportional part.
+		opens := float64(w.Units) * cal.OpenUnitSeconds * cost.Overhead(cal.PassOverhead)
+		linear := t.Scan + t.Sketch - opens
+		want := tm.Pass*t.Speedup - t.Feed - opens
 		if linear > 0 && want > 0.1*linear {
 			f := want / linear
 			cal.ScanBytesPerSec /= f
 			cal.AddSecPerValue *= f
-			cal.OpenUnitSeconds *= f
 		} else {
 			f := tm.Pass / t.Pass
 			cal.PassOverhead = cost.Overhead(cal.PassOverhead) * f
 			cal.FeedOverhead = cost.Overhead(cal.FeedOverhead) * f
 		}
 	}
-	// The probe shares the scan and kernel rates just refitted: fit it last.
-	if p := cost.Predict(w, cal).Terms.Probe; tm.Probe > 0 && p > 0 {
-		cal.ProbeOverhead = cost.Overhead(cal.ProbeOverhead) * tm.Probe / p
+	// The probe shares the unit-open, scan and kernel rates just refitted: fit it last. Its term is
+	// affine in the overhead (unit opens outside it), so the overhead is solved from two prices.
+	if tm.Probe > 0 {
+		cal.ProbeOverhead = 1
+		one := cost.Predict(w, cal).Terms.Probe
+		cal.ProbeOverhead = 2
+		scaled := cost.Predict(w, cal).Terms.Probe - one // the part under the overhead
+		cal.ProbeOverhead = 1
+		if opens := one - scaled; scaled > 0 && tm.Probe > opens {
+			cal.ProbeOverhead = (tm.Probe - opens) / scaled
+		}
 	}
 	cal.Source = "fitted to this run; " + cal.Source
 	cal.Probe = nil

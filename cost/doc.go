@@ -5,7 +5,7 @@
 //
 //	T = open + probe + pass + criteria
 //	open     = files·OpenFile
-//	probe    = probe units·OpenUnit + probe bytes/ScanRate + seed rows·Σk·d/KernelRate
+//	probe    = probe units·OpenUnit + ProbeOverhead·(probe bytes/ScanRate + seed rows·Σk·d/KernelRate)
 //	pass     = (PassOverhead·(units·OpenUnit + bytes/ScanRate + rows·d·AddPerValue) + FeedOverhead·fed·Σk·d/KernelRate) / S(W)
 //	criteria = setup + makespan(Ward job, job of k = MaxK … MinK; cores)    from the probe's runs
 //	criteria = the same from the calibration's runs at the widths around d, × (d/d₁)^e   without a probe

@@ -15,7 +15,7 @@ import (
 func testCal() Calibration {
 	return Calibration{Source: "test", OpenFileSeconds: 0.01, OpenUnitSeconds: 0.001,
 		ScanBytesPerSec: 1e8, AddSecPerValue: 1e-9, KernelPKDPerSec: 1e9,
-		Criteria: testWidths(9), PassOverhead: 1, FeedOverhead: 0.5,
+		Criteria: testWidths(9), PassOverhead: 1, FeedOverhead: 0.5, ProbeOverhead: 3,
 		ParallelFraction: 0.8, Cores: 2, PageBytes: 1 << 20, BaseBytes: 1 << 24}
 }
 
@@ -111,6 +111,10 @@ func TestPredictTerms(t *testing.T) {
 	near("sketch", tm.Sketch, 1e6*16*1e-9)
 	near("feed", tm.Feed, float64(1<<18)*210*16/1e9*0.5) // the feed overhead, 0.5
 	near("speed-up", tm.Speedup, 1/(0.2+0.4))
+	// The probe: 16 unit opens, then the probe's bytes and the seeding for every k under the probe
+	// overhead (opens outside it).
+	seed := math.Min(65536, float64(sketch.ProbeSeedRows))
+	near("probe", tm.Probe, 16*0.001+(65536*128.0/1e8+seed*210*16/1e9)*Overhead(c.ProbeOverhead))
 	near("pass", tm.Pass, (tm.Scan+tm.Sketch+tm.Feed)*0.6)
 	// Without a probe, the criteria at 16 columns are the geometric mean of the runs' price at 8 and
 	// at 32 columns (9 times that at 8): 3 times the price at 8.

@@ -6,6 +6,7 @@ import (
 	"flag"
 	"fmt"
 	"io"
+	"math"
 	"strings"
 	"text/tabwriter"
 
@@ -26,9 +27,10 @@ func (c *PlanCommand) Run(ctx context.Context, args []string) error {
 	var f estimateFlags
 	f.register(fs)
 	f.registerOutputs(fs, withOut)
-	noProbe := fs.Bool("no-probe", false, "skip the timed read; use the committed calibration only")
+	timed := fs.Bool("timed", false, "also time a short read and a few criteria runs of this input, and print what they predict beside the calibrated figure")
+	fs.Bool("no-probe", false, "no effect, kept for existing scripts: the plan's figure comes from the committed calibration unless --timed")
 	fs.Usage = func() {
-		fmt.Fprintln(fs.Output(), "Usage: kgauge plan [flags] PATH...\n\nPredict the wall time and peak memory of \"kgauge estimate\" with the same flags, from the\nfiles' metadata and a short timed read of a few row groups.\n\nFlags:")
+		fmt.Fprintln(fs.Output(), "Usage: kgauge plan [flags] PATH...\n\nPredict the wall time and peak memory of \"kgauge estimate\" with the same flags from the\nfiles' metadata and the committed calibration: the figure the estimate's progress bar and report\nstart from. --timed adds a second figure from a short timed read of a few row groups.\n\nFlags:")
 		printFlags(fs)
 	}
 	if err := parseArgs(fs, args, c.Stdout); err != nil {
@@ -46,7 +48,7 @@ func (c *PlanCommand) Run(ctx context.Context, args []string) error {
 			return err
 		}
 	}
-	p, err := capacity.Forecast(ctx, fs.Args(), opt, !*noProbe)
+	p, err := forecast(ctx, fs.Args(), opt, *timed)
 	if err != nil {
 		return err
 	}
@@ -61,7 +63,48 @@ func (c *PlanCommand) Run(ctx context.Context, args []string) error {
 	return writePlan(c.Stdout, p)
 }
 
-func writePlanJSON(w io.Writer, p *capacity.Plan) error {
+// planOutput is what plan prints: the calibrated plan, the one figure that the estimate's progress
+// bar, its report's planned column and --memory use too, and with --timed the second figure priced
+// from a timed probe of the input.
+type planOutput struct {
+	*capacity.Plan
+	Timed *timedFigure `json:"timed,omitempty"`
+}
+
+// timedFigure is the prediction priced from a timed probe of the input, beside the calibrated plan.
+type timedFigure struct {
+	Calibration cost.Calibration `json:"calibration"` // the probe's rates and criteria runs under probe
+	cost.Prediction
+	Difference  float64 `json:"difference"`   // predicted seconds over the calibrated plan's, minus one
+	PlanSeconds float64 `json:"plan_seconds"` // what the timed probe took
+}
+
+// forecast makes the calibrated plan and, when timed, the timed figure beside it.
+func forecast(ctx context.Context, paths []string, opt kgauge.Options, timed bool) (*planOutput, error) {
+	p, err := capacity.Forecast(ctx, paths, opt, false)
+	if err != nil {
+		return nil, err
+	}
+	out := &planOutput{Plan: p}
+	if !timed {
+		return out, nil
+	}
+	tp, err := capacity.Forecast(ctx, paths, opt, true)
+	if err != nil {
+		return nil, err
+	}
+	out.Timed = &timedFigure{Calibration: tp.Calibration, Prediction: tp.Prediction, PlanSeconds: tp.PlanSeconds}
+	if p.Seconds > 0 {
+		out.Timed.Difference = tp.Seconds/p.Seconds - 1
+	}
+	return out, nil
+}
+
+// timedApart is how far apart the timed and calibrated figures may be before plan says which to
+// trust: the ±25% the plan aims at (bench/plan-accuracy.md).
+const timedApart = 0.25
+
+func writePlanJSON(w io.Writer, p *planOutput) error {
 	enc := json.NewEncoder(w)
 	enc.SetIndent("", "  ")
 	return enc.Encode(p)
@@ -97,38 +140,62 @@ func secondsText(s float64) string {
 	return fmt.Sprintf("%.3f s", s)
 }
 
-func writePlan(out io.Writer, p *capacity.Plan) error {
+func writePlan(out io.Writer, po *planOutput) error {
 	var b strings.Builder
+	p := po.Plan
 	w := p.Workload
 	cal := p.Calibration
 	fmt.Fprintf(&b, "input: %d file(s), %d unit(s), %d rows × %d columns, %s of column data\n",
 		w.Files, w.Units, w.Rows, w.Dims, bytesText(w.Bytes))
-	if pt := cal.Probe; pt != nil {
+	fmt.Fprintf(&b, "calibrated: constants from the committed calibration (%s)\n", cal.Source)
+	tf := po.Timed
+	if tf != nil && tf.Calibration.Probe != nil {
+		pt, tc := tf.Calibration.Probe, tf.Calibration
 		runs := 0
 		if pt.Criteria != nil {
 			runs = len(pt.Criteria.Runs)
 		}
 		fmt.Fprintf(&b, "timed probe: %d unit(s), %d rows, %s read in %s (%s/s per worker); sketch %.2f ns/value, kernel %.2f G point·k·d/s, %d criteria runs in %s\n",
-			pt.Units, pt.Rows, bytesText(pt.Bytes), secondsText(pt.ReadSeconds), bytesText(int64(cal.ScanBytesPerSec)),
-			cal.AddSecPerValue*1e9, cal.KernelPKDPerSec/1e9, runs, secondsText(pt.CriteriaSeconds))
-	} else {
-		fmt.Fprintf(&b, "no timed probe: constants from the committed calibration (%s)\n", cal.Source)
+			pt.Units, pt.Rows, bytesText(pt.Bytes), secondsText(pt.ReadSeconds), bytesText(int64(tc.ScanBytesPerSec)),
+			tc.AddSecPerValue*1e9, tc.KernelPKDPerSec/1e9, runs, secondsText(pt.CriteriaSeconds))
 	}
-	fmt.Fprintf(&b, "\n== estimate with %d worker(s): about %s, peak memory about %s ==\n\n", w.Workers,
+	fmt.Fprintf(&b, "\n== estimate with %d worker(s): about %s, peak memory about %s ==\n", w.Workers,
 		secondsText(p.Seconds), bytesText(p.PeakBytes))
+	b.WriteString("   the estimate's progress bar, its report's planned column and --memory use this same figure\n")
+	if tf != nil {
+		fmt.Fprintf(&b, "   timed on this input: about %s (%+.0f%%), peak memory about %s\n",
+			secondsText(tf.Seconds), 100*tf.Difference, bytesText(tf.PeakBytes))
+		if math.Abs(tf.Difference) > timedApart {
+			fmt.Fprintf(&b, "   the two differ by more than %.0f%%: the criteria cost what the data's clusters make them cost, which only the timed runs see; expect the run nearer the timed figure\n", 100*timedApart)
+		}
+	}
+	b.WriteString("\n")
 
 	tw := tabwriter.NewWriter(&b, 2, 4, 2, ' ', 0)
 	t := p.Terms
-	fmt.Fprintln(tw, "time term\tseconds\thow")
-	fmt.Fprintf(tw, "open\t%.3f\t%d footer(s)\n", t.Open, w.Files)
-	fmt.Fprintf(tw, "probe\t%.3f\t%d rows over up to %d units\n", t.Probe, min(int64(w.ProbeRows), w.Rows), w.ProbeUnits)
-	fmt.Fprintf(tw, "pass: scan\t%.3f\tone worker, %s at %s/s\n", t.Scan, bytesText(w.Bytes), bytesText(int64(cal.ScanBytesPerSec)))
-	fmt.Fprintf(tw, "pass: sketch\t%.3f\tone worker, rows × d × %.2f ns\n", t.Sketch, cal.AddSecPerValue*1e9)
-	fmt.Fprintf(tw, "pass: mini-batch feed\t%.3f\tone worker, %d rows × Σk=%d × d\n", t.Feed, min(w.MiniBatchRows, max(w.Rows, 0)), w.SumK())
-	fmt.Fprintf(tw, "pass\t%.3f\t÷ speed-up %.2f (parallel fraction %.2f)\n", t.Pass, t.Speedup, cal.ParallelFraction)
-	fmt.Fprintf(tw, "criteria\t%.3f\tcoreset %d, k %d..%d, B=%d, gap sample %d, %d anchors\n", t.Criteria,
-		w.Coreset, w.MinK, w.MaxK, w.GapRefs, w.GapSample, w.Anchors)
-	fmt.Fprintf(tw, "total\t%.3f\t\n", p.Seconds)
+	var tt cost.Terms
+	if tf != nil {
+		tt = tf.Terms
+		fmt.Fprintln(tw, "time term\tseconds\ttimed\thow")
+	} else {
+		fmt.Fprintln(tw, "time term\tseconds\thow")
+	}
+	term := func(name string, v, timedV float64, how string) {
+		if tf != nil {
+			fmt.Fprintf(tw, "%s\t%.3f\t%.3f\t%s\n", name, v, timedV, how)
+			return
+		}
+		fmt.Fprintf(tw, "%s\t%.3f\t%s\n", name, v, how)
+	}
+	term("open", t.Open, tt.Open, fmt.Sprintf("%d footer(s)", w.Files))
+	term("probe", t.Probe, tt.Probe, fmt.Sprintf("%d rows over up to %d units", min(int64(w.ProbeRows), w.Rows), w.ProbeUnits))
+	term("pass: scan", t.Scan, tt.Scan, fmt.Sprintf("one worker, %s at %s/s", bytesText(w.Bytes), bytesText(int64(cal.ScanBytesPerSec))))
+	term("pass: sketch", t.Sketch, tt.Sketch, fmt.Sprintf("one worker, rows × d × %.2f ns", cal.AddSecPerValue*1e9))
+	term("pass: mini-batch feed", t.Feed, tt.Feed, fmt.Sprintf("one worker, %d rows × Σk=%d × d", min(w.MiniBatchRows, max(w.Rows, 0)), w.SumK()))
+	term("pass", t.Pass, tt.Pass, fmt.Sprintf("÷ speed-up %.2f (parallel fraction %.2f)", t.Speedup, cal.ParallelFraction))
+	term("criteria", t.Criteria, tt.Criteria, fmt.Sprintf("coreset %d, k %d..%d, B=%d, gap sample %d, %d anchors",
+		w.Coreset, w.MinK, w.MaxK, w.GapRefs, w.GapSample, w.Anchors))
+	term("total", p.Seconds, tt.Open+tt.Probe+tt.Pass+tt.Criteria, "")
 	fmt.Fprintln(tw, "\t\t")
 	m := p.Memory
 	fmt.Fprintln(tw, "memory term\tbytes\t")

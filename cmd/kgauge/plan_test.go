@@ -2,6 +2,7 @@ package main
 
 import (
 	"encoding/json"
+	"math"
 	"os"
 	"path/filepath"
 	"strings"
@@ -11,14 +12,14 @@ import (
 	"github.com/kgauge/kgauge/cost"
 )
 
-// TestPlanJSON: plan --json carries the top-level numbers a job reads, the cost-model terms, the
-// worker table (1, 2, 4, 8) and the 1×/10×/100× rows, and its timed probe read at most a twentieth
-// of the rows beyond its first unit.
+// TestPlanJSON: plan --json --timed carries the top-level numbers a job reads, the cost-model terms,
+// the worker table (1, 2, 4, 8) and the 1×/10×/100× rows, and beside them the timed figure, whose
+// probe read at most a twentieth of the rows beyond its first unit.
 func TestPlanJSON(t *testing.T) {
 	o := smallLoads()
 	o.Rows = 60000
 	dir := lake(t, o)
-	code, out, errs := run(t, append(append([]string{"plan", "--json"}, quickFlags...), dir)...)
+	code, out, errs := run(t, append(append([]string{"plan", "--json", "--timed"}, quickFlags...), dir)...)
 	if code != 0 {
 		t.Fatalf("exit %d: %s", code, errs)
 	}
@@ -37,11 +38,18 @@ func TestPlanJSON(t *testing.T) {
 			Seconds   float64 `json:"predicted_seconds"`
 		} `json:"by_data_scale"`
 		Calibration struct {
-			Probe *struct {
-				Units int   `json:"units"`
-				Rows  int64 `json:"rows"`
-			} `json:"probe"`
+			Probe *struct{} `json:"probe"`
 		} `json:"calibration"`
+		Timed *struct {
+			Seconds     float64 `json:"predicted_seconds"`
+			Difference  float64 `json:"difference"`
+			Calibration struct {
+				Probe *struct {
+					Units int   `json:"units"`
+					Rows  int64 `json:"rows"`
+				} `json:"probe"`
+			} `json:"calibration"`
+		} `json:"timed"`
 		Workload struct{ Rows int64 }
 	}
 	if err := json.Unmarshal([]byte(out), &p); err != nil {
@@ -66,7 +74,16 @@ func TestPlanJSON(t *testing.T) {
 	if p.Workload.Rows != int64(o.Rows) {
 		t.Errorf("workload rows %d, want %d from the footers", p.Workload.Rows, o.Rows)
 	}
-	pr := p.Calibration.Probe
+	if p.Calibration.Probe != nil {
+		t.Errorf("the plan's own figure carries a timed probe; it must be the calibrated one the estimate shows")
+	}
+	if p.Timed == nil {
+		t.Fatalf("--timed printed no timed figure")
+	}
+	if want := p.Timed.Seconds / *p.Seconds - 1; math.Abs(p.Timed.Difference-want) > 1e-9 {
+		t.Errorf("timed difference %v, want %v from %v and %v s", p.Timed.Difference, want, p.Timed.Seconds, *p.Seconds)
+	}
+	pr := p.Timed.Calibration.Probe
 	if pr == nil || pr.Units < 1 {
 		t.Fatalf("no timed probe recorded: %+v", pr)
 	}
@@ -77,19 +94,36 @@ func TestPlanJSON(t *testing.T) {
 
 func TestPlanTable(t *testing.T) {
 	dir := lake(t, smallLoads())
-	out := filepath.Join(t.TempDir(), "plan.json")
-	code, text, errs := run(t, append(append([]string{"plan", "--out", out}, quickFlags...), dir)...)
-	if code != 0 {
-		t.Fatalf("exit %d: %s", code, errs)
-	}
-	for _, want := range []string{"== estimate with", "pass: scan", "pass: mini-batch feed", "criteria", "peak",
-		"by workers", "by data size", "10×", "100×", "timed probe:"} {
-		if !strings.Contains(text, want) {
-			t.Errorf("plan output lacks %q:\n%s", want, text)
-		}
-	}
-	if b, err := os.ReadFile(out); err != nil || !json.Valid(b) {
-		t.Errorf("--out did not write JSON: %v", err)
+	for _, tc := range []struct {
+		flags         []string
+		want, wantNot []string
+	}{
+		{nil, []string{"calibrated:", "use this same figure"}, []string{"timed probe:", "timed on this input"}},
+		{[]string{"--timed"}, []string{"calibrated:", "timed probe:", "timed on this input", "seconds   timed"}, nil},
+		{[]string{"--no-probe"}, []string{"calibrated:"}, []string{"timed probe:"}},
+	} {
+		t.Run(strings.Join(append([]string{"plan"}, tc.flags...), " "), func(t *testing.T) {
+			out := filepath.Join(t.TempDir(), "plan.json")
+			args := append(append(append([]string{"plan", "--out", out}, tc.flags...), quickFlags...), dir)
+			code, text, errs := run(t, args...)
+			if code != 0 {
+				t.Fatalf("exit %d: %s", code, errs)
+			}
+			for _, want := range append([]string{"== estimate with", "pass: scan", "pass: mini-batch feed", "criteria", "peak",
+				"by workers", "by data size", "10×", "100×"}, tc.want...) {
+				if !strings.Contains(text, want) {
+					t.Errorf("plan output lacks %q:\n%s", want, text)
+				}
+			}
+			for _, no := range tc.wantNot {
+				if strings.Contains(text, no) {
+					t.Errorf("plan output holds %q:\n%s", no, text)
+				}
+			}
+			if b, err := os.ReadFile(out); err != nil || !json.Valid(b) {
+				t.Errorf("--out did not write JSON: %v", err)
+			}
+		})
 	}
 }
 

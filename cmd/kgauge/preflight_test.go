@@ -8,12 +8,12 @@ import (
 
 	"github.com/kgauge/kgauge"
 	"github.com/kgauge/kgauge/bench/synth"
-	"github.com/kgauge/kgauge/capacity"
 )
 
 // TestPreflightFiguresAgree: the progress bar's first ETA and the report's planned figures (both
-// from planFor) are plan --no-probe's time and peak, for the same inputs and flags, with and
-// without --memory (issue 16 asks for 10%; they are one computation).
+// from planFor) are the plan's own time and peak (what "kgauge plan" prints first, with --timed
+// too), for the same inputs and flags, with and without --memory (issue 16 asks for 10%; they are
+// one computation).
 func TestPreflightFiguresAgree(t *testing.T) {
 	path := filepath.Join(t.TempDir(), "m.parquet")
 	o := synth.DefaultMixtureOptions()
@@ -28,7 +28,7 @@ func TestPreflightFiguresAgree(t *testing.T) {
 		if pred == nil {
 			t.Fatalf("--memory %d: planFor priced nothing", memory)
 		}
-		plan, err := capacity.Forecast(context.Background(), []string{path}, opt, false)
+		plan, err := forecast(context.Background(), []string{path}, opt, memory == 0)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -39,7 +39,7 @@ func TestPreflightFiguresAgree(t *testing.T) {
 		}{{"first ETA", eta, plan.Seconds}, {"report's planned seconds", pred.Seconds, plan.Seconds},
 			{"report's planned peak", float64(pred.PeakBytes), float64(plan.PeakBytes)}} {
 			if math.Abs(c.got-c.want) > 0.1*c.want {
-				t.Errorf("--memory %d: %s %v, plan --no-probe %v", memory, c.name, c.got, c.want)
+				t.Errorf("--memory %d: %s %v, plan %v", memory, c.name, c.got, c.want)
 			}
 		}
 	}
