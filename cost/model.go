@@ -354,9 +354,12 @@ func PredictMemory(w Workload, c Calibration) Memory {
 	mem.Base = c.BaseBytes
 	mem.Sketches = W * held
 	mem.ReadBuffers = W * int64(w.BatchRows) * D * 8
+	// A worker holds a page of every column as stored and as decoded: the decoded size (8 bytes a
+	// value) is what a compressible column needs, whatever its stored bytes (the demo lake, stored
+	// at 0.24 MiB a column chunk, peaked as high as a file of incompressible values at 0.5 MiB).
 	chunk := int64(0)
 	if w.Units > 0 {
-		chunk = w.Bytes / int64(w.Units) / max(D, 1)
+		chunk = max(w.Bytes/int64(w.Units)/max(D, 1), int64(rows)/int64(w.Units)*8)
 	}
 	mem.PageBuffers = W * D * 2 * min(c.PageBytes, max(chunk, 1))
 	mem.Probe = int64(math.Min(rows, float64(w.ProbeRows))) * D * 8

@@ -129,6 +129,18 @@ func TestPredictTerms(t *testing.T) {
 	if m.ReadBuffers != 2*4096*16*8 {
 		t.Errorf("read buffers %d, want %d", m.ReadBuffers, 2*4096*16*8)
 	}
+	// Page buffers: workers × columns × 2 × one column chunk (capped at a page), the chunk being the
+	// larger of its stored bytes and its decoded values (50,000 rows a unit × 8 bytes).
+	for _, tc := range []struct {
+		bytes int64
+		chunk int64
+	}{{128_000_000, 400_000}, {64_000_000, 400_000}, {256_000_000, 800_000}, {2_560_000_000, 1 << 20}} {
+		w := testWork()
+		w.Bytes = tc.bytes
+		if got, want := PredictMemory(w, c).PageBuffers, 2*16*2*tc.chunk; got != want {
+			t.Errorf("%d stored bytes: page buffers %d, want %d", tc.bytes, got, want)
+		}
+	}
 }
 
 // TestMemoryFromOwners: the sketch and criteria terms are the owning packages' own size functions

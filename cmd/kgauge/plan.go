@@ -27,10 +27,9 @@ func (c *PlanCommand) Run(ctx context.Context, args []string) error {
 	var f estimateFlags
 	f.register(fs)
 	f.registerOutputs(fs, withOut)
-	timed := fs.Bool("timed", false, "also time a short read and a few criteria runs of this input, and print what they predict beside the calibrated figure")
-	fs.Bool("no-probe", false, "no effect, kept for existing scripts: the plan's figure comes from the committed calibration unless --timed")
+	noProbe := fs.Bool("no-probe", false, "skip the timed read of the input and its second figure; print the calibrated figure only")
 	fs.Usage = func() {
-		fmt.Fprintln(fs.Output(), "Usage: kgauge plan [flags] PATH...\n\nPredict the wall time and peak memory of \"kgauge estimate\" with the same flags from the\nfiles' metadata and the committed calibration: the figure the estimate's progress bar and report\nstart from. --timed adds a second figure from a short timed read of a few row groups.\n\nFlags:")
+		fmt.Fprintln(fs.Output(), "Usage: kgauge plan [flags] PATH...\n\nPredict the wall time and peak memory of \"kgauge estimate\" with the same flags from the\nfiles' metadata and the committed calibration (the figure the estimate's progress bar and report\nstart from), and beside it a second figure from a short timed read of a few row groups.\n\nFlags:")
 		printFlags(fs)
 	}
 	if err := parseArgs(fs, args, c.Stdout); err != nil {
@@ -48,7 +47,7 @@ func (c *PlanCommand) Run(ctx context.Context, args []string) error {
 			return err
 		}
 	}
-	p, err := forecast(ctx, fs.Args(), opt, *timed)
+	p, err := forecast(ctx, fs.Args(), opt, !*noProbe)
 	if err != nil {
 		return err
 	}
@@ -64,8 +63,8 @@ func (c *PlanCommand) Run(ctx context.Context, args []string) error {
 }
 
 // planOutput is what plan prints: the calibrated plan, the one figure that the estimate's progress
-// bar, its report's planned column and --memory use too, and with --timed the second figure priced
-// from a timed probe of the input.
+// bar, its report's planned column and --memory use too, and unless --no-probe the second figure
+// priced from a timed probe of the input.
 type planOutput struct {
 	*capacity.Plan
 	Timed *timedFigure `json:"timed,omitempty"`

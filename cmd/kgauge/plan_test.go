@@ -12,14 +12,14 @@ import (
 	"github.com/kgauge/kgauge/cost"
 )
 
-// TestPlanJSON: plan --json --timed carries the top-level numbers a job reads, the cost-model terms,
+// TestPlanJSON: plan --json carries the top-level numbers a job reads, the cost-model terms,
 // the worker table (1, 2, 4, 8) and the 1×/10×/100× rows, and beside them the timed figure, whose
 // probe read at most a twentieth of the rows beyond its first unit.
 func TestPlanJSON(t *testing.T) {
 	o := smallLoads()
 	o.Rows = 60000
 	dir := lake(t, o)
-	code, out, errs := run(t, append(append([]string{"plan", "--json", "--timed"}, quickFlags...), dir)...)
+	code, out, errs := run(t, append(append([]string{"plan", "--json"}, quickFlags...), dir)...)
 	if code != 0 {
 		t.Fatalf("exit %d: %s", code, errs)
 	}
@@ -78,7 +78,7 @@ func TestPlanJSON(t *testing.T) {
 		t.Errorf("the plan's own figure carries a timed probe; it must be the calibrated one the estimate shows")
 	}
 	if p.Timed == nil {
-		t.Fatalf("--timed printed no timed figure")
+		t.Fatalf("plan printed no timed figure")
 	}
 	if want := p.Timed.Seconds / *p.Seconds - 1; math.Abs(p.Timed.Difference-want) > 1e-9 {
 		t.Errorf("timed difference %v, want %v from %v and %v s", p.Timed.Difference, want, p.Timed.Seconds, *p.Seconds)
@@ -98,9 +98,8 @@ func TestPlanTable(t *testing.T) {
 		flags         []string
 		want, wantNot []string
 	}{
-		{nil, []string{"calibrated:", "use this same figure"}, []string{"timed probe:", "timed on this input"}},
-		{[]string{"--timed"}, []string{"calibrated:", "timed probe:", "timed on this input", "seconds   timed"}, nil},
-		{[]string{"--no-probe"}, []string{"calibrated:"}, []string{"timed probe:"}},
+		{nil, []string{"calibrated:", "use this same figure", "timed probe:", "timed on this input", "seconds   timed"}, nil},
+		{[]string{"--no-probe"}, []string{"calibrated:", "use this same figure"}, []string{"timed probe:", "timed on this input"}},
 	} {
 		t.Run(strings.Join(append([]string{"plan"}, tc.flags...), " "), func(t *testing.T) {
 			out := filepath.Join(t.TempDir(), "plan.json")

@@ -11,8 +11,8 @@ import (
 )
 
 // TestPreflightFiguresAgree: the progress bar's first ETA and the report's planned figures (both
-// from planFor) are the plan's own time and peak (what "kgauge plan" prints first, with --timed
-// too), for the same inputs and flags, with and without --memory (issue 16 asks for 10%; they are
+// from planFor) are the plan's own time and peak (what "kgauge plan" prints first, with and without
+// --no-probe), for the same inputs and flags, with and without --memory (issue 16 asks for 10%; they are
 // one computation).
 func TestPreflightFiguresAgree(t *testing.T) {
 	path := filepath.Join(t.TempDir(), "m.parquet")
