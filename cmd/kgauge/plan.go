@@ -162,10 +162,10 @@ func writePlan(out io.Writer, po *planOutput) error {
 		secondsText(p.Seconds), bytesText(p.PeakBytes))
 	b.WriteString("   the estimate's progress bar, its report's planned column and --memory use this same figure\n")
 	if tf != nil {
-		fmt.Fprintf(&b, "   timed on this input: about %s (%+.0f%%), peak memory about %s\n",
+		fmt.Fprintf(&b, "   timed on this input: about %s (%+.0f%% from it), peak memory about %s\n",
 			secondsText(tf.Seconds), 100*tf.Difference, bytesText(tf.PeakBytes))
 		if math.Abs(tf.Difference) > timedApart {
-			fmt.Fprintf(&b, "   the two differ by more than %.0f%%: the criteria cost what the data's clusters make them cost, which only the timed runs see; expect the run nearer the timed figure\n", 100*timedApart)
+			fmt.Fprintf(&b, "   the two differ by more than %.0f%%: what the criteria cost depends on the data (its clusters, how fast the fits converge), which only the timed runs see; expect the run nearer the timed figure\n", 100*timedApart)
 		}
 	}
 	b.WriteString("\n")
