@@ -240,3 +240,30 @@ func TestBICOneNeedsRows(t *testing.T) {
 		}
 	}
 }
+
+// TestEdgeIncludesTheKBelowMaxK: in a range of 20 k, a likelihood criterion whose minimum is at
+// max-k - 1 abstains as still improving (the fit at max-k may be a slightly worse optimum); in a
+// range of 10 k only max-k itself is the edge, and a minimum two below max-k always votes.
+func TestEdgeIncludesTheKBelowMaxK(t *testing.T) {
+	for _, c := range []struct {
+		maxK, best int
+		still      bool
+	}{
+		{20, 20, true}, {20, 19, true}, {20, 18, false}, {10, 10, true}, {10, 9, false}, {40, 38, true}, {40, 37, false},
+	} {
+		per := make([]Scores, c.maxK)
+		for i := range per {
+			k := i + 1
+			per[i] = nanScores(k)
+			per[i].Valid = true
+			per[i].BICGMM = math.Abs(float64(k - c.best)) // minimum at best
+		}
+		opt := DefaultOptions()
+		opt.MaxK = c.maxK
+		vs := VotesOf(per, 0, 1e6, 4, opt)
+		v := vs[slices.IndexFunc(vs, func(v Vote) bool { return v.Criterion == NameBICGMM })]
+		if v.StillImproving != c.still || (!c.still && v.K != c.best) {
+			t.Errorf("max-k %d, minimum at %d: vote %+v, want still improving %v", c.maxK, c.best, v, c.still)
+		}
+	}
+}
