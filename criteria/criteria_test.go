@@ -80,6 +80,37 @@ func TestGapRuleHandChecked(t *testing.T) {
 	}
 }
 
+func TestGapFlattensHandChecked(t *testing.T) {
+	// The demo lake's gap_pca curve at seed 1 (k = 1..20, `kgauge synth --rows 500000 --partitions
+	// 3`, 4 decimals): rises of 0.24, 0.34, 0.29, 0.21 up to k = 5, then at most 0.038.
+	demo := []float64{1.3146, 1.5586, 1.8954, 2.1892, 2.4035, 2.4389, 2.4771, 2.4994, 2.5213, 2.5453,
+		2.5611, 2.5701, 2.5752, 2.5809, 2.5869, 2.5922, 2.5951, 2.5998, 2.6047, 2.6086}
+	steady := make([]float64, 20) // a gap rising by the same step all the way
+	for i := range steady {
+		steady[i] = 0.1 * float64(i)
+	}
+	tests := []struct {
+		name string
+		gap  []float64
+		want int
+	}{
+		{"demo lake", demo, 4},
+		{"steady rise", steady, -1},
+		// The rise after index 2 is 0.125 at most, a fifth of 0.625 exactly (binary fractions): not under it.
+		{"at the ratio", []float64{0, 0.125, 0.75, 0.875, 1, 1.125, 1.25, 1.375}, -1},
+		{"under the ratio", []float64{0, 0.1, 0.6, 0.69, 0.75, 0.8, 0.85, 0.9}, 2},
+		// Only four steps follow index 2: too short a tail to call flat.
+		{"short tail", []float64{0, 0.1, 0.6, 0.61, 0.62, 0.63, 0.64}, -1},
+		{"NaN before", []float64{math.NaN(), 0.1, 0.6, 0.61, 0.62, 0.63, 0.64, 0.65}, 2},
+		{"falling", []float64{1, 0.9, 0.8, 0.7, 0.6, 0.5, 0.4}, -1},
+	}
+	for _, tc := range tests {
+		if got := criteria.GapFlattens(tc.gap); got != tc.want {
+			t.Errorf("%s: GapFlattens = %d, want %d", tc.name, got, tc.want)
+		}
+	}
+}
+
 func TestWardHandChecked(t *testing.T) {
 	// 1-D points 0, 1, 10: merge {0,1} at cost 1*1/2*1 = 0.5, then {0,1} (mean 0.5, n 2) with 10 at
 	// 2*1/3*9.5^2 = 60.1666... (Ward 1963 merge cost).

@@ -22,9 +22,10 @@ const (
 	streamGapSample
 	streamBoxRefs
 	streamPCARefs
-	streamChecks // the points behind the one-mode check and the split halves
-	streamModes  // the one-mode check's halves and 2-means fits
-	streamSplit  // the split halves' k-means fits at each k
+	streamChecks       // the points behind the one-mode check and the split halves
+	streamModes        // the one-mode check's halves and 2-means fits
+	streamSplit        // the split halves' k-means fits at each k
+	streamClusterModes // the halves and 2-means fits of each cluster at each k
 )
 
 // rngFor returns the random stream for (seed, k, purpose): a PCG seeded with the seed and a
@@ -220,6 +221,7 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 			sc := scoreK(core, fits[k-opt.MinK], k, s, opt, scale, excess, reg, stop)
 			if sc.Valid && !stop() {
 				sc.SplitAgreement = splitAgreement(splitA, splitB, k, 2, rngFor(opt.Seed, k, streamSplit))
+				sc.ClusterModes, sc.ClusterModesCover, _ = ClusterModes(checks, fits[k-opt.MinK].Centres, k, rngFor(opt.Seed, k, streamClusterModes))
 			}
 			res.PerK[k-opt.MinK] = sc
 		}})

@@ -159,43 +159,22 @@ func modeCheck(pts Points, rng *rand.Rand) (ModeCheck, bool) {
 	}
 	perm := rng.Perm(n)
 	h := n / 2
-	half := func(idx []int) Points {
-		x := make([]float64, 0, len(idx)*pts.D)
-		for _, i := range idx {
-			x = append(x, pts.Point(i)...)
-		}
-		return Points{X: x, D: pts.D}
-	}
-	a, b := half(perm[:h]), half(perm[h:2*h])
+	a, b := pointsAt(pts, perm[:h]), pointsAt(pts, perm[h:2*h])
 	out := ModeCheck{N: h, PValue: 1}
 	tests := 0
 	minP := 1.0
-	d := pts.D
 	for _, pr := range [][2]Points{{a, b}, {b, a}} {
 		for _, k := range []int{2, 3} {
 			fit := kmeans.Fit(pr[0], k, kmeans.FitOptions{Restarts: 3, Rand: rng})
 			for u := 0; u < k; u++ {
 				for v := u + 1; v < k; v++ {
-					dir := make([]float64, d)
-					norm := 0.0
-					for j := range d {
-						dir[j] = fit.Centres[u*d+j] - fit.Centres[v*d+j]
-						norm += dir[j] * dir[j]
-					}
-					if !(norm > 0) {
+					dip, ok := lineDip(pr[1], fit.Centres, u, v, pr[1].Len())
+					if !ok {
 						continue
 					}
-					proj := make([]float64, pr[1].Len())
-					for i := range proj {
-						for j, x := range pr[1].Point(i) {
-							proj[i] += x * dir[j]
-						}
-					}
-					slices.Sort(proj)
-					dip := ModeDip(proj)
 					tests++
 					out.Dip = max(out.Dip, dip)
-					minP = min(minP, ModeDipPValue(dip, len(proj)))
+					minP = min(minP, ModeDipPValue(dip, pr[1].Len()))
 				}
 			}
 		}
@@ -211,3 +190,35 @@ func modeCheck(pts Points, rng *rand.Rand) (ModeCheck, bool) {
 // checkPoints is the number of points (from the uniform sample, or drawn from the coreset by
 // weight) behind the one-mode check and the split halves.
 const checkPoints = 3000
+
+// pointsAt returns the points of pts at idx, in that order, unweighted.
+func pointsAt(pts Points, idx []int) Points {
+	x := make([]float64, 0, len(idx)*pts.D)
+	for _, i := range idx {
+		x = append(x, pts.Point(i)...)
+	}
+	return Points{X: x, D: pts.D}
+}
+
+// lineDip returns ModeDip of the first m points of pts projected on the line through centres u and
+// v (row-major, pts.D columns each); ok is false when the two centres coincide.
+func lineDip(pts Points, centres []float64, u, v, m int) (dip float64, ok bool) {
+	d := pts.D
+	dir := make([]float64, d)
+	norm := 0.0
+	for j := range d {
+		dir[j] = centres[u*d+j] - centres[v*d+j]
+		norm += dir[j] * dir[j]
+	}
+	if !(norm > 0) {
+		return 0, false
+	}
+	proj := make([]float64, m)
+	for i := range proj {
+		for j, x := range pts.Point(i) {
+			proj[i] += x * dir[j]
+		}
+	}
+	slices.Sort(proj)
+	return ModeDip(proj), true
+}

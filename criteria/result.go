@@ -20,12 +20,14 @@ const (
 	NameCalinskiHarabasz     = "calinski_harabasz"
 	NameDaviesBouldin        = "davies_bouldin"
 	NameSplitAgreement       = "split_agreement"
+	NameClusterModes         = "cluster_modes"
 )
 
 // CriterionNames returns the criterion names in the order of Result.Votes.
 func CriterionNames() []string {
 	return []string{NameElbow, NameSilhouette, NameSimplifiedSilhouette, NameGapBox, NameGapPCA, NameBICGMM,
-		NameAICGMM, NameBICKMeans, NameICLGMM, NameWard, NameCalinskiHarabasz, NameDaviesBouldin, NameSplitAgreement}
+		NameAICGMM, NameBICKMeans, NameICLGMM, NameWard, NameCalinskiHarabasz, NameDaviesBouldin, NameSplitAgreement,
+		NameClusterModes}
 }
 
 // Result is the outcome of Evaluate.
@@ -117,6 +119,11 @@ type Scores struct {
 	DaviesBouldin    float64 `json:"davies_bouldin"`
 
 	SplitAgreement float64 `json:"split_agreement"` // prediction strength between two disjoint halves
+	// ClusterModes is ClusterModes' Bonferroni-corrected p-value for the k-means partition at k:
+	// small when some cluster still holds two modes along its own 2-means cut.
+	ClusterModes float64 `json:"cluster_modes"`
+	// ClusterModesCover is the share of ClusterModes' points in clusters large enough to test.
+	ClusterModesCover float64 `json:"cluster_modes_cover"`
 }
 
 func nanScores(k int) Scores {
@@ -124,7 +131,7 @@ func nanScores(k int) Scores {
 	return Scores{K: k, WCSS: n, Kneedle: n, Silhouette: n, SilhouetteLo: n, SilhouetteHi: n,
 		SimplifiedSilhouette: n, GapBox: n, GapBoxS: n, GapPCA: n, GapPCAS: n, LogW: n, LogLikGMM: n,
 		BICGMM: n, AICGMM: n, BICKMeans: n, ICLGMM: n, WardHeight: n, WardJump: n, CalinskiHarabasz: n, DaviesBouldin: n,
-		SplitAgreement: n}
+		SplitAgreement: n, ClusterModes: n, ClusterModesCover: n}
 }
 
 // UnmarshalJSON reads s as MarshalJSON writes it: null becomes NaN.
@@ -175,11 +182,14 @@ func (s Scores) MarshalJSON() ([]byte, error) {
 		CalinskiHarabasz     jsonFloat `json:"calinski_harabasz"`
 		DaviesBouldin        jsonFloat `json:"davies_bouldin"`
 		SplitAgreement       jsonFloat `json:"split_agreement"`
+		ClusterModes         jsonFloat `json:"cluster_modes"`
+		ClusterModesCover    jsonFloat `json:"cluster_modes_cover"`
 	}
 	return json.Marshal(out{s.K, s.Valid, jsonFloat(s.WCSS), jsonFloat(s.Kneedle), jsonFloat(s.Silhouette),
 		jsonFloat(s.SilhouetteLo), jsonFloat(s.SilhouetteHi), jsonFloat(s.SimplifiedSilhouette),
 		jsonFloat(s.GapBox), jsonFloat(s.GapBoxS), jsonFloat(s.GapPCA), jsonFloat(s.GapPCAS), jsonFloat(s.LogW),
 		jsonFloat(s.LogLikGMM), jsonFloat(s.BICGMM), jsonFloat(s.AICGMM), jsonFloat(s.BICKMeans),
 		jsonFloat(s.ICLGMM), jsonFloat(s.WardHeight), jsonFloat(s.WardJump), jsonFloat(s.CalinskiHarabasz), jsonFloat(s.DaviesBouldin),
-		jsonFloat(s.SplitAgreement)})
+		jsonFloat(s.SplitAgreement), jsonFloat(s.ClusterModes),
+		jsonFloat(s.ClusterModesCover)})
 }

@@ -59,14 +59,7 @@ func splitHalves(pts Points, rng *rand.Rand) (a, b Points) {
 	n := pts.Len()
 	perm := rng.Perm(n)
 	h := min(n/2, splitHalfMax)
-	take := func(idx []int) Points {
-		x := make([]float64, 0, len(idx)*pts.D)
-		for _, i := range idx {
-			x = append(x, pts.Point(i)...)
-		}
-		return Points{X: x, D: pts.D}
-	}
-	return take(perm[:h]), take(perm[h : 2*h])
+	return pointsAt(pts, perm[:h]), pointsAt(pts, perm[h:2*h])
 }
 
 // splitAgreement returns the prediction strength of k for the halves a and b, averaged over both

@@ -141,10 +141,15 @@ func votes(per []Scores, wardK int, rows float64, dims int, opt Options) []Vote 
 		for i, s := range per {
 			gap[i], sk[i] = g.f(s)
 		}
-		if i := GapRule(gap, sk); i >= 0 {
+		i, f := GapRule(gap, sk), GapFlattens(gap)
+		switch {
+		case f >= 0 && (i < 0 || f < i):
+			add(g.name, per[f].K, true, fmt.Sprintf("the gap's rise after k = %d stays under %.0f%% of its rise into it "+
+				"(the groups are found; what follows is their shape)", per[f].K, 100*gapFlatRatio))
+		case i >= 0:
 			add(g.name, per[i].K, true, "smallest k with Gap(k) >= Gap(k+1) - s(k+1)")
-		} else {
-			add(g.name, 0, false, "no k below max-k meets Gap(k) >= Gap(k+1) - s(k+1)")
+		default:
+			add(g.name, 0, false, "no k below max-k meets Gap(k) >= Gap(k+1) - s(k+1), and the gap does not flatten")
 		}
 	}
 
@@ -178,5 +183,12 @@ func votes(per []Scores, wardK int, rows float64, dims int, opt Options) []Vote 
 		note = "no k scored"
 	}
 	add(NameSplitAgreement, k, ok, note)
+	k, ok = clusterModesVote(per)
+	note = fmt.Sprintf("smallest k >= 2 at which no cluster shows a second mode along its own 2-means cut (dip test, p >= %g)", modeCheckAlpha)
+	if !ok {
+		note = fmt.Sprintf("no k >= 2 without a second mode in some cluster, or too many of its clusters too small to test "+
+			"(under %d check points each)", clusterModesMin)
+	}
+	add(NameClusterModes, k, ok, note)
 	return out
 }

@@ -165,6 +165,7 @@ var plain = map[string]string{
 	NameCalinskiHarabasz:     "groups are farthest apart for how spread out they are (Calinski-Harabasz)",
 	NameDaviesBouldin:        "groups are most compact and least alike (Davies-Bouldin)",
 	NameSplitAgreement:       "two disjoint halves of the rows are grouped the same way (split agreement)",
+	NameClusterModes:         "every group has a single peak, and this is the fewest groups for which that holds (cluster modes)",
 }
 
 // Decide combines the votes and the one-mode check into a verdict with the weights w.
