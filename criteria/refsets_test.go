@@ -43,6 +43,8 @@ func TestReferenceSetVerdicts(t *testing.T) {
 		{"dim032.txt", 16, 20},
 		{"dim064.txt", 16, 20},
 		{"a1.txt", 20, 25},
+		{"a2.txt", 35, 40},
+		{"a3.txt", 50, 55},
 	}
 	for _, tc := range tests {
 		t.Run(tc.file, func(t *testing.T) {
