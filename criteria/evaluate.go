@@ -26,6 +26,7 @@ const (
 	streamModes        // the one-mode check's halves and 2-means fits
 	streamSplit        // the split halves' k-means fits at each k
 	streamClusterModes // the halves and 2-means fits of each cluster at each k
+	streamSplitPlain   // the k-means fits of the split halves in the rows' own scale at each k
 )
 
 // rngFor returns the random stream for (seed, k, purpose): a PCG seeded with the seed and a
@@ -157,6 +158,7 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 
 	checks := gapSide(s, checkPoints, rngFor(opt.Seed, 0, streamChecks))
 	splitA, splitB := splitHalves(whiten(checks, s.Cov), rngFor(opt.Seed, 0, streamSplit))
+	plainA, plainB := splitHalves(checks, rngFor(opt.Seed, 0, streamSplit)) // the same rows, unwhitened
 
 	stop := func() bool { return ctx.Err() != nil }
 
@@ -221,6 +223,9 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 			sc := scoreK(core, fits[k-opt.MinK], k, s, opt, scale, excess, reg, stop)
 			if sc.Valid && !stop() {
 				sc.SplitAgreement = splitAgreement(splitA, splitB, k, 2, rngFor(opt.Seed, k, streamSplit))
+				if k > 1 {
+					sc.SplitAgreementPlain = splitAgreement(plainA, plainB, k, 2, rngFor(opt.Seed, k, streamSplitPlain))
+				}
 				sc.ClusterModes, sc.ClusterModesCover, _ = ClusterModes(checks, fits[k-opt.MinK].Centres, k, rngFor(opt.Seed, k, streamClusterModes))
 			}
 			res.PerK[k-opt.MinK] = sc

@@ -119,6 +119,9 @@ type Scores struct {
 	DaviesBouldin    float64 `json:"davies_bouldin"`
 
 	SplitAgreement float64 `json:"split_agreement"` // prediction strength between two disjoint halves
+	// SplitAgreementPlain is the prediction strength of the same halves in the rows' own scale
+	// (not whitened): it picks split_agreement's k once the whitened halves say "several".
+	SplitAgreementPlain float64 `json:"split_agreement_plain"`
 	// ClusterModes is ClusterModes' Bonferroni-corrected p-value for the k-means partition at k:
 	// small when some cluster still holds two modes along its own 2-means cut.
 	ClusterModes float64 `json:"cluster_modes"`
@@ -131,7 +134,7 @@ func nanScores(k int) Scores {
 	return Scores{K: k, WCSS: n, Kneedle: n, Silhouette: n, SilhouetteLo: n, SilhouetteHi: n,
 		SimplifiedSilhouette: n, GapBox: n, GapBoxS: n, GapPCA: n, GapPCAS: n, LogW: n, LogLikGMM: n,
 		BICGMM: n, AICGMM: n, BICKMeans: n, ICLGMM: n, WardHeight: n, WardJump: n, CalinskiHarabasz: n, DaviesBouldin: n,
-		SplitAgreement: n, ClusterModes: n, ClusterModesCover: n}
+		SplitAgreement: n, SplitAgreementPlain: n, ClusterModes: n, ClusterModesCover: n}
 }
 
 // UnmarshalJSON reads s as MarshalJSON writes it: null becomes NaN.
@@ -182,6 +185,7 @@ func (s Scores) MarshalJSON() ([]byte, error) {
 		CalinskiHarabasz     jsonFloat `json:"calinski_harabasz"`
 		DaviesBouldin        jsonFloat `json:"davies_bouldin"`
 		SplitAgreement       jsonFloat `json:"split_agreement"`
+		SplitAgreementPlain  jsonFloat `json:"split_agreement_plain"`
 		ClusterModes         jsonFloat `json:"cluster_modes"`
 		ClusterModesCover    jsonFloat `json:"cluster_modes_cover"`
 	}
@@ -190,6 +194,6 @@ func (s Scores) MarshalJSON() ([]byte, error) {
 		jsonFloat(s.GapBox), jsonFloat(s.GapBoxS), jsonFloat(s.GapPCA), jsonFloat(s.GapPCAS), jsonFloat(s.LogW),
 		jsonFloat(s.LogLikGMM), jsonFloat(s.BICGMM), jsonFloat(s.AICGMM), jsonFloat(s.BICKMeans),
 		jsonFloat(s.ICLGMM), jsonFloat(s.WardHeight), jsonFloat(s.WardJump), jsonFloat(s.CalinskiHarabasz), jsonFloat(s.DaviesBouldin),
-		jsonFloat(s.SplitAgreement), jsonFloat(s.ClusterModes),
+		jsonFloat(s.SplitAgreement), jsonFloat(s.SplitAgreementPlain), jsonFloat(s.ClusterModes),
 		jsonFloat(s.ClusterModesCover)})
 }

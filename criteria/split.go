@@ -83,8 +83,14 @@ func splitAgreement(a, b Points, k, restarts int, rng *rand.Rand) float64 {
 	return (one(b, fb, fa) + one(a, fa, fb)) / 2
 }
 
-// splitVote returns the largest valid k whose split agreement is at least splitThreshold (k = 1
-// always qualifies), and whether any k was scored.
+// splitVote returns split_agreement's k and whether any k was scored. Whether the rows hold
+// several groups is decided on the whitened halves: the largest valid k whose SplitAgreement is at
+// least splitThreshold (k = 1 always qualifies). If that is 1, so is the vote. Otherwise the k is
+// the largest k >= 2 whose SplitAgreementPlain (the same halves in the rows' own scale) is at
+// least splitThreshold, or the whitened k when none is: whitening makes a single stretched cloud
+// round, which the "one group" question needs, but it also blows the directions that hold no
+// cluster up to the size of those that do, where two halves' fits at the right k then disagree
+// (DEVELOPERS.md, issue 12, fifth and sixth rounds).
 func splitVote(per []Scores) (int, bool) {
 	best, ok := 0, false
 	for _, s := range per {
@@ -92,7 +98,19 @@ func splitVote(per []Scores) (int, bool) {
 			best, ok = s.K, true
 		}
 	}
-	return best, ok
+	if !ok || best == 1 {
+		return best, ok
+	}
+	plain := 0
+	for _, s := range per {
+		if s.K >= 2 && s.Valid && s.SplitAgreementPlain >= splitThreshold {
+			plain = s.K
+		}
+	}
+	if plain > 0 {
+		return plain, true
+	}
+	return best, true
 }
 
 // whiten returns the points of p mapped by Cov^(-1/2) (gonum mat.EigenSym; eigenvalues below
