@@ -86,7 +86,7 @@ const (
 // simulation error s; on large samples of clusters that are skewed or stretched within themselves,
 // s is tiny and splitting such a cluster keeps lowering ln W faster than splitting a box of the same
 // extent, so the gap keeps rising slowly after the groups are found (the demo lake: steps of
-// 0.21-0.27 up to k = 5, then at most 0.03-0.06 on to k = 20, s about 0.005). A curve whose rise
+// 0.19-0.37 up to k = 5, then at most 0.03-0.07 on to k = 20, s about 0.005). A curve whose rise
 // after k stays under a fifth of its rise into k found its groups at k; what follows is their
 // shape. The ratio was chosen on the benchmark grid (0.25 and above lost grid verdicts) and the
 // minimum of five following steps keeps a short range's tail from looking flat
