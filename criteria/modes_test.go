@@ -179,3 +179,29 @@ func TestWhitenGivesUnitCovariance(t *testing.T) {
 		}
 	}
 }
+
+// TestSplitVoteScales checks split_agreement's two scales: the whitened prediction strength decides
+// one group or several, the unwhitened one then picks k (the whitened k when none qualifies).
+func TestSplitVoteScales(t *testing.T) {
+	per := func(white, plain []float64) []Scores {
+		var out []Scores
+		for i := range white {
+			out = append(out, Scores{K: i + 1, Valid: true, SplitAgreement: white[i], SplitAgreementPlain: plain[i]})
+		}
+		return out
+	}
+	nan := math.NaN()
+	for _, tc := range []struct {
+		name         string
+		white, plain []float64
+		want         int
+	}{
+		{"whitened says one group", []float64{1, 0.5, 0.6, 0.4}, []float64{nan, 0.9, 0.95, 0.9}, 1},
+		{"several; k from the plain halves", []float64{1, 0.9, 0.5, 0.4}, []float64{nan, 1, 0.6, 0.85}, 4},
+		{"several; no plain k qualifies", []float64{1, 0.5, 0.85, 0.4}, []float64{nan, 0.5, 0.6, 0.7}, 3},
+	} {
+		if got, ok := splitVote(per(tc.white, tc.plain)); !ok || got != tc.want {
+			t.Errorf("%s: splitVote = %d, %v; want %d", tc.name, got, ok, tc.want)
+		}
+	}
+}
