@@ -299,8 +299,14 @@ func naiveLloyd(p kmeans.Data, init []float64) ([]float64, []int32) {
 	return c, lab
 }
 
+// TestLloydMatchesNaive also covers the iterations in which Lloyd moves only the changed points'
+// terms of the cluster sums (few labels change): the last cases converge over dozens of
+// iterations, one with every tenth point of weight 0.
 func TestLloydMatchesNaive(t *testing.T) {
-	for _, tc := range []struct{ n, d, k int }{{200, 2, 3}, {500, 5, 8}, {300, 16, 12}, {100, 1, 4}} {
+	for _, tc := range []struct {
+		n, d, k int
+		zeros   bool
+	}{{200, 2, 3, false}, {500, 5, 8, false}, {300, 16, 12, false}, {100, 1, 4, false}, {4000, 2, 25, false}, {4000, 2, 25, true}} {
 		rng := rand.New(rand.NewPCG(uint64(tc.n), uint64(tc.d)))
 		x := randPoints(rng, tc.n, tc.d, 1)
 		for i := 0; i < tc.n; i++ { // shift points into loose groups
@@ -311,11 +317,17 @@ func TestLloydMatchesNaive(t *testing.T) {
 		w := make([]float64, tc.n)
 		for i := range w {
 			w[i] = 0.5 + rng.Float64()
+			if tc.zeros && i%10 == 0 {
+				w[i] = 0
+			}
 		}
 		p := kmeans.Data{X: x, W: w, D: tc.d}
 		init := kmeans.PlusPlus(p, tc.k, rand.New(rand.NewPCG(1, 1)), nil)
 		wantC, wantL := naiveLloyd(p, init)
 		r := kmeans.Lloyd(p, init, kmeans.LloydOptions{MaxIter: 1000, Tol: 1e-300})
+		if tc.n >= 3000 && r.Iters < 10 {
+			t.Fatalf("n=%d: %d iterations; the case should need many", tc.n, r.Iters)
+		}
 		for i := range wantL {
 			if r.Labels[i] != wantL[i] {
 				t.Fatalf("n=%d d=%d k=%d: label %d differs (%d vs %d)", tc.n, tc.d, tc.k, i, r.Labels[i], wantL[i])

@@ -64,9 +64,8 @@ func Lloyd(p Data, init []float64, opt LloydOptions) Result {
 		return res
 	}
 	h := newHamerly(p, k)
-	sums := make([]float64, k*d)
 	old := make([]float64, k*d)
-	cs := newCentred(p)
+	cs := newCentred(p, k)
 	prev := math.Inf(1)
 	for it := 1; it <= opt.MaxIter; it++ {
 		if opt.Context != nil && opt.Context.Err() != nil {
@@ -77,11 +76,12 @@ func Lloyd(p Data, init []float64, opt LloydOptions) Result {
 		if it > 1 && changed == 0 {
 			break // labels unchanged: the centres are already their means
 		}
-		if h.reseed(c, res.Labels, res.Sizes) {
+		reseeded := h.reseed(c, res.Labels, res.Sizes)
+		if reseeded {
 			changed++
 		}
 		copy(old, c)
-		cost := cs.update(p, res.Labels, c, sums, res.Sizes)
+		cost := cs.update(p, res.Labels, c, res.Sizes, it == 1 || reseeded || changed > n/incrementalShare)
 		h.move(old, c, res.Labels)
 		if cost == 0 || (!math.IsInf(prev, 1) && prev-cost <= opt.Tol*prev) {
 			break
@@ -286,16 +286,34 @@ func reseedEmpty(p Data, labels []int32, dist2, sizes []float64, k int) {
 
 // centred holds what Lloyd needs to get the cost of each iteration from the cluster sums
 // instead of a second sweep over the points: the weighted mean mu of the points, their weighted
-// squared distances q_i = w_i ||x_i - mu||^2 and tss = sum q_i.
+// squared distances q_i = w_i ||x_i - mu||^2 and tss = sum q_i. It also keeps the per-cluster
+// sums of the last update and the labels they were taken with, so that an iteration in which few
+// labels changed moves only those points' terms (see update).
 type centred struct {
 	mu  []float64
 	q   []float64
 	tss float64
+
+	sums   []float64 // sum of w_i x_i per cluster, k*d
+	weight []float64 // sum of w_i per cluster
+	count  []int     // points of positive weight per cluster
+	qsum   []float64 // sum of q_i per cluster
+	was    []int32   // the labels the sums were taken with
+	since  int       // incremental updates since the last full one
 }
 
-func newCentred(p Data) *centred {
+// incrementalShare: an update moves only the changed points' terms when at most 1/incrementalShare
+// of the labels changed (each such point costs two of a full update's additions), and
+// refreshEvery bounds the incremental updates in a row, so rounding cannot accumulate.
+const (
+	incrementalShare = 4
+	refreshEvery     = 16
+)
+
+func newCentred(p Data, k int) *centred {
 	d, n := p.D, p.Len()
-	cs := &centred{mu: make([]float64, d), q: make([]float64, n)}
+	cs := &centred{mu: make([]float64, d), q: make([]float64, n), sums: make([]float64, k*d),
+		weight: make([]float64, k), count: make([]int, k), qsum: make([]float64, k), was: make([]int32, n)}
 	tw := 0.0
 	for i := 0; i < n; i++ {
 		w := p.Weight(i)
@@ -321,47 +339,80 @@ func newCentred(p Data) *centred {
 // Lloyd's default tolerance of 1e-7) and the cost is summed point by point instead.
 const costRelFloor = 1e-6
 
-// update moves each non-empty centre to the weighted mean of its points  and
-// returns the cost sum w ||x - c_label||^2 of the new centres, from the identity
+// update moves each non-empty centre to the weighted mean of its points and returns the cost
+// sum w ||x - c_label||^2 of the new centres, from the identity
 //
 //	sum_{i in j} w_i ||x_i - c_j||^2 = sum_{i in j} w_i ||x_i - mu||^2 - W_j ||c_j - mu||^2
 //
 // (c_j the weighted mean of cluster j, W_j its weight), which needs no second sweep over the
-// points. When the cost is below costRelFloor times the total sum of squares it is recomputed
-// exactly. It also fills sizes.
-func (cs *centred) update(p Data, labels []int32, c, sums, sizes []float64) float64 {
-	d, k := p.D, len(sizes)
-	for i := range sums {
-		sums[i] = 0
-	}
-	for j := range sizes {
-		sizes[j] = 0
-	}
-	var qs [64]float64
-	var q []float64
-	if k <= len(qs) {
-		q = qs[:k]
-	} else {
-		q = make([]float64, k)
-	}
-	for i, l := range labels {
-		w := p.Weight(i)
-		x := p.Point(i)
-		s := sums[int(l)*d : int(l)*d+d]
-		s = s[:len(x)]
-		for t, v := range x {
-			s[t] += w * v
+// points. With full false it takes the cluster sums of the last update and moves the terms of
+// the points whose label changed since (refreshEvery such updates at most in a row); otherwise it
+// sums every point. When the cost is below costRelFloor times the total sum of squares it is
+// recomputed exactly. It also fills sizes.
+func (cs *centred) update(p Data, labels []int32, c, sizes []float64, full bool) float64 {
+	d := p.D
+	if full || cs.since >= refreshEvery {
+		cs.since = 0
+		clear(cs.sums)
+		clear(cs.weight)
+		clear(cs.count)
+		clear(cs.qsum)
+		for i, l := range labels {
+			w := p.Weight(i)
+			x := p.Point(i)
+			s := cs.sums[int(l)*d : int(l)*d+d]
+			s = s[:len(x)]
+			for t, v := range x {
+				s[t] += w * v
+			}
+			cs.weight[l] += w
+			if w > 0 {
+				cs.count[l]++
+			}
+			cs.qsum[l] += cs.q[i]
 		}
-		sizes[l] += w
-		q[l] += cs.q[i]
+		copy(cs.was, labels)
+	} else {
+		cs.since++
+		for i, l := range labels {
+			o := cs.was[i]
+			if o == l {
+				continue
+			}
+			cs.was[i] = l
+			w := p.Weight(i)
+			x := p.Point(i)
+			so := cs.sums[int(o)*d : int(o)*d+d]
+			sl := cs.sums[int(l)*d : int(l)*d+d]
+			so, sl = so[:len(x)], sl[:len(x)]
+			for t, v := range x {
+				so[t] -= w * v
+				sl[t] += w * v
+			}
+			cs.weight[o] -= w
+			cs.weight[l] += w
+			if w > 0 {
+				cs.count[o]--
+				cs.count[l]++
+			}
+			cs.qsum[o] -= cs.q[i]
+			cs.qsum[l] += cs.q[i]
+		}
 	}
 	cost := 0.0
-	for j, sz := range sizes {
+	for j := range sizes {
+		if cs.count[j] == 0 {
+			// No weight: clear what rounding left of the removed points.
+			clear(cs.sums[j*d : j*d+d])
+			cs.weight[j], cs.qsum[j] = 0, 0
+		}
+		sz := cs.weight[j]
+		sizes[j] = sz
 		if sz > 0 {
 			for t := 0; t < d; t++ {
-				c[j*d+t] = sums[j*d+t] / sz
+				c[j*d+t] = cs.sums[j*d+t] / sz
 			}
-			cost += q[j] - sz*Dist2(c[j*d:(j+1)*d], cs.mu)
+			cost += cs.qsum[j] - sz*Dist2(c[j*d:(j+1)*d], cs.mu)
 		}
 	}
 	if !(cost > costRelFloor*cs.tss) {
