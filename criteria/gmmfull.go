@@ -2,6 +2,7 @@ package criteria
 
 import (
 	"fmt"
+	"gonum.org/v1/gonum/floats"
 	"math"
 
 	"gonum.org/v1/gonum/mat"
@@ -87,6 +88,9 @@ func (g GMMFull) prepare(reg float64) ([]fullComp, error) {
 // z is scratch of length D.
 func (c *fullComp) mahalanobis(x, mu, z []float64) float64 {
 	d := len(x)
+	if d >= wideFrom {
+		return c.mahalanobisWide(x, mu, z)
+	}
 	q := 0.0
 	for a := 0; a < d; a++ {
 		row := c.l[a*d : a*d+a]
@@ -101,10 +105,45 @@ func (c *fullComp) mahalanobis(x, mu, z []float64) float64 {
 	return q
 }
 
+// wideFrom is the dimension from which mahalanobis and mahalanobis2 go through mahalanobisWide.
+// BenchmarkGMMFit/full, the EM at k = 20 on 16,384 points: with gonum's dot product at every
+// dimension, d = 24 took 0.44 s against 0.41 s, d = 48 2.55 against 2.84 s, d = 64 4.09 against
+// 4.84 s.
+const wideFrom = 40
+
+// asmDotFrom is the row length from which mahalanobisWide takes a row's product with gonum's
+// assembly dot product (floats.Dot); on shorter rows the call costs more than the loop.
+const asmDotFrom = 24
+
+// mahalanobisWide is mahalanobis with the longer rows' products taken by floats.Dot (SIMD).
+func (c *fullComp) mahalanobisWide(x, mu, z []float64) float64 {
+	d := len(x)
+	q := 0.0
+	short := min(d, asmDotFrom)
+	for a := 0; a < short; a++ {
+		s := x[a] - mu[a]
+		for b, v := range c.l[a*d : a*d+a] {
+			s -= v * z[b]
+		}
+		s *= c.invDia[a]
+		z[a] = s
+		q += s * s
+	}
+	for a := short; a < d; a++ {
+		s := (x[a] - mu[a] - floats.Dot(c.l[a*d:a*d+a], z[:a])) * c.invDia[a]
+		z[a] = s
+		q += s * s
+	}
+	return q
+}
+
 // mahalanobis2 returns the squared Mahalanobis distances of x to (mu, c) and (mu2, c2), each
 // summed in mahalanobis' order; z and z2 are scratch of length D.
 func mahalanobis2(c, c2 *fullComp, x, mu, mu2, z, z2 []float64) (float64, float64) {
 	d := len(x)
+	if d >= wideFrom {
+		return c.mahalanobisWide(x, mu, z), c2.mahalanobisWide(x, mu2, z2)
+	}
 	z, z2 = z[:d], z2[:d]
 	q, q2 := 0.0, 0.0
 	for a := 0; a < d; a++ {
