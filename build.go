@@ -243,40 +243,85 @@ func describe(ds *stream.Dataset) *Input {
 
 // probe reads up to opt.ProbeRows rows from the first units of the shuffled order, at most
 // ceil(ProbeRows/ProbeUnits) from each, and derives the pass's scale and starting centres from them.
+// The first ProbeUnits units are read by up to opt.Workers goroutines at once, each into its own
+// slot of one slice, so the rows and the probe do not depend on the workers and the probe holds
+// its rows once; further units are read one after the other, only while the rows are fewer than
+// 2 MaxK.
 func probe(ctx context.Context, ds *stream.Dataset, units []stream.Unit, opt Options) (sketch.Probe, error) {
 	d := ds.Dims()
 	perUnit := (opt.ProbeRows + opt.ProbeUnits - 1) / opt.ProbeUnits
 	minRows := 2 * opt.Criteria.MaxK
-	var rows []float64
-	buf := make([]float64, min(perUnit, opt.BatchRows)*d)
-	for i, u := range units {
-		n := len(rows) / d
-		if n >= opt.ProbeRows || (i >= opt.ProbeUnits && n >= minRows) {
+	first := min(len(units), opt.ProbeUnits)
+	slot := perUnit * d
+	rows := make([]float64, first*slot)
+	got := make([]int, first)
+	errs := make([]error, first)
+	next := make(chan int)
+	var wg sync.WaitGroup
+	for range min(opt.Workers, first) {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for i := range next {
+				got[i], errs[i] = probeUnit(ctx, ds, units[i], rows[i*slot:(i+1)*slot], opt.BatchRows)
+			}
+		}()
+	}
+	for i := range first {
+		next <- i
+	}
+	close(next)
+	wg.Wait()
+	n := 0 // rows kept, moved down over the slots' unused ends
+	for i := range first {
+		if errs[i] != nil {
+			return sketch.Probe{}, errs[i]
+		}
+		m := min(got[i], opt.ProbeRows-n)
+		copy(rows[n*d:], rows[i*slot:i*slot+m*d])
+		n += m
+	}
+	rows = rows[:n*d]
+	for _, u := range units[first:] {
+		if n >= opt.ProbeRows || n >= minRows {
 			break
 		}
-		if err := ctx.Err(); err != nil {
-			return sketch.Probe{}, err
-		}
-		r, err := ds.OpenUnit(u)
+		want := min(perUnit, opt.ProbeRows-n)
+		rows = slices.Grow(rows, want*d)
+		m, err := probeUnit(ctx, ds, u, rows[n*d:(n+want)*d], opt.BatchRows)
 		if err != nil {
 			return sketch.Probe{}, err
 		}
-		want := min(perUnit, opt.ProbeRows-n)
-		for got := 0; got < want; {
-			m, err := r.Read(buf[:min(len(buf), (want-got)*d)])
-			rows = append(rows, buf[:m*d]...)
-			got += m
-			if err == io.EOF {
-				break
-			}
-			if err != nil {
-				r.Close()
-				return sketch.Probe{}, err
-			}
-		}
-		r.Close()
+		n += m
+		rows = rows[:n*d]
 	}
 	return ProbeFromRows(rows, ds.Columns, opt)
+}
+
+// probeUnit fills dst (row-major) with the first rows of unit u, at most batch rows a read, and
+// returns how many rows it holds (fewer than dst has room for when the unit is shorter).
+func probeUnit(ctx context.Context, ds *stream.Dataset, u stream.Unit, dst []float64, batch int) (int, error) {
+	if err := ctx.Err(); err != nil {
+		return 0, err
+	}
+	r, err := ds.OpenUnit(u)
+	if err != nil {
+		return 0, err
+	}
+	defer r.Close()
+	d := ds.Dims()
+	got := 0
+	for want := len(dst) / d; got < want; {
+		m, err := r.Read(dst[got*d : min(want, got+batch)*d])
+		got += m
+		if err == io.EOF {
+			break
+		}
+		if err != nil {
+			return 0, err
+		}
+	}
+	return got, nil
 }
 
 // ProbeFromRows derives the pass's scale and starting centres from the probe's rows (row-major, raw
