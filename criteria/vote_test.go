@@ -214,14 +214,17 @@ func TestSharedK(t *testing.T) {
 	}
 }
 
-// TestBICOneNeedsRows: bic_gmm's k = 1 has no say with fewer than rowsPerParam rows per parameter
-// of a two-component full mixture (GMMFullParams(2, 32) = 1121, so 11,210 rows); its k >= 2 always counts.
-func TestBICOneNeedsRows(t *testing.T) {
+// TestMixtureVotesNeedRows: a mixture criterion's k = 1 has no say with fewer than rowsPerParam
+// rows per parameter of a two-component full mixture (GMMFullParams(2, 32) = 1121, so 11,210
+// rows), and its k >= 2 none with fewer than rowsPerParamAtK per parameter of a k-component one
+// (GMMFullParams(3, 32) = 1682, so 3,364 rows); bic_kmeans, not a full mixture, always votes.
+func TestMixtureVotesNeedRows(t *testing.T) {
 	per := func(best int) []Scores {
 		var out []Scores
 		for k := 1; k <= 6; k++ {
 			s := nanScores(k)
-			s.Valid, s.WCSS, s.BICGMM = true, 100/float64(k), math.Abs(float64(k-best))
+			v := math.Abs(float64(k - best))
+			s.Valid, s.WCSS, s.BICGMM, s.AICGMM, s.ICLGMM, s.BICKMeans = true, 100/float64(k), v, v, v, v
 			out = append(out, s)
 		}
 		return out
@@ -232,11 +235,16 @@ func TestBICOneNeedsRows(t *testing.T) {
 		best    int
 		rows    float64
 		abstain bool
-	}{{1, 11209, true}, {1, 11210, false}, {3, 500, false}} {
+	}{{1, 11209, true}, {1, 11210, false}, {3, 3363, true}, {3, 3364, false}, {3, 500, true}, {2, 2242, false}} {
 		vs := votes(per(tc.best), 0, tc.rows, 32, opt)
-		i := slices.IndexFunc(vs, func(v Vote) bool { return v.Criterion == NameBICGMM })
-		if v := vs[i]; v.Abstain != tc.abstain || (!v.Abstain && v.K != tc.best) {
-			t.Errorf("best %d, %v rows: bic_gmm vote %+v, want abstain=%v", tc.best, tc.rows, v, tc.abstain)
+		for _, name := range []string{NameBICGMM, NameAICGMM, NameICLGMM, NameBICKMeans} {
+			want := tc.abstain && name != NameBICKMeans
+			i := slices.IndexFunc(vs, func(v Vote) bool { return v.Criterion == name })
+			if v := vs[i]; v.Abstain != want || (!v.Abstain && v.K != tc.best) {
+				t.Errorf("best %d, %v rows: %s vote %+v, want abstain=%v", tc.best, tc.rows, name, v, want)
+			} else if want && !strings.Contains(v.Note, "rows are fewer than") {
+				t.Errorf("best %d, %v rows: %s abstains without saying why: %q", tc.best, tc.rows, name, v.Note)
+			}
 		}
 	}
 }
