@@ -73,8 +73,8 @@ func bicOneUnsupported(rows float64, dims int) bool {
 // about as many parameters as rows the fitted mixture follows the regularisation, not the data:
 // on Tibshirani's scenario (d) (4 clusters in 10 dimensions, 100 to 200 rows; 263 parameters at
 // k = 4) aic_gmm named the true k in 11 of 50 realizations and voted 2, 3, 15 or 18 elsewhere.
-// Measured on the calibration grid (bench/report/CALIBRATION.md; DEVELOPERS.md, issue 12,
-// "thin mixtures"): 1, 2 and 4 rows per parameter all keep 133 of 143 verdicts right and cut the
+// Measured on the calibration grid (bench/report/CALIBRATION.md; DEVELOPERS.md, issue 12, seventh
+// round): 1, 2 and 4 rows per parameter all keep 133 of 143 verdicts right and cut the
 // wrong verdicts not flagged unstable from 5 to 3; 4 turned scenario c#1's seeds to k = 1 at five
 // of ten, 1 lost one realization of scenario (d) at max-k 6, so 2.
 const rowsPerParamAtK = 2
