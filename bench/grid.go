@@ -62,8 +62,9 @@ type GridRun struct {
 	Votes   map[string]int     `json:"votes"` // 0 = abstained
 	Modes   criteria.ModeCheck `json:"one_mode_check"`
 	Seconds float64            `json:"seconds"`
-	Rows    float64            `json:"rows"` // rows summarised (Summary.N)
-	Dims    int                `json:"dims"` // columns (Summary.D)
+	Rows    float64            `json:"rows"`             // rows summarised (Summary.N)
+	Points  int                `json:"points,omitempty"` // coreset points (Summary.Coreset.Len()); 0 in runs stored before it was kept
+	Dims    int                `json:"dims"`             // columns (Summary.D)
 	// PerK holds every criterion's score at each k of the run, so the grid can be voted again when
 	// a voting rule changes (Revote) without running it again.
 	PerK []criteria.Scores `json:"per_k,omitempty"`
@@ -77,7 +78,7 @@ func (r *GridRun) Revote() {
 	}
 	opt := criteria.DefaultOptions()
 	opt.MinK, opt.MaxK = r.PerK[0].K, r.PerK[len(r.PerK)-1].K
-	r.setVotes(criteria.VotesOf(r.PerK, r.Votes[criteria.NameWard], r.Rows, r.Dims, opt))
+	r.setVotes(criteria.VotesOf(r.PerK, r.Votes[criteria.NameWard], r.Rows, r.Points, r.Dims, opt))
 }
 
 // setVotes stores vs in r.Votes: a criterion still improving at max-k is recorded as max-k (Decide
@@ -321,7 +322,7 @@ func RunGrid(ctx context.Context, cfg GridConfig, log io.Writer) ([]GridRun, err
 			return
 		}
 		run := GridRun{Case: j.c.name, Family: j.c.family, Stable: j.c.stable, K: j.c.k, MaxK: j.c.maxK, Seed: j.seed,
-			Modes: r.Modes, Seconds: time.Since(t0).Seconds(), Rows: s.N, Dims: s.D, PerK: r.PerK}
+			Modes: r.Modes, Seconds: time.Since(t0).Seconds(), Rows: s.N, Points: s.Coreset.Len(), Dims: s.D, PerK: r.PerK}
 		run.setVotes(r.Votes)
 		runs[i] = run
 		if log != nil {

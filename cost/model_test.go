@@ -160,13 +160,18 @@ func TestMemoryFromOwners(t *testing.T) {
 	if want := held + summary + criteria.WorkingBytes(co, w.Coreset, w.Sample, w.Dims, w.Cores); m.Criteria != want {
 		t.Errorf("criteria bytes %d, want %d", m.Criteria, want)
 	}
-	// Width: from 100 to 1000 columns the criteria stage must grow at least 15-fold (d² terms:
-	// cross products, covariance, eigen decompositions, full-covariance mixtures), not 10-fold.
-	narrow, wide := w, w
-	narrow.Dims, wide.Dims = 100, 1000
-	a, b := PredictMemory(narrow, testCal()).Criteria, PredictMemory(wide, testCal()).Criteria
-	if b < 15*a {
-		t.Errorf("criteria bytes at 1000 columns %d, at 100 %d: the d² terms are missing", b, a)
+	// Width: the criteria stage grows as d² (cross products, covariance, eigen decompositions, a
+	// k = 1 mixture; no larger mixture is fitted on 500 columns or more, criteria.WorkingBytes), so
+	// its second difference over 500, 1000 and 1500 columns is at least that of the six d×d float64
+	// copies of the eigen decompositions alone, 6·8·2·500² bytes; a linear term has none.
+	at := func(d int) int64 {
+		x := w
+		x.Dims = d
+		return PredictMemory(x, testCal()).Criteria
+	}
+	if second, floor := at(1500)-2*at(1000)+at(500), int64(6*8*2*500*500); second < floor {
+		t.Errorf("criteria bytes at 500, 1000 and 1500 columns %d, %d, %d: second difference %d, want >= %d (the d² terms are missing)",
+			at(500), at(1000), at(1500), second, floor)
 	}
 }
 

@@ -91,8 +91,10 @@ const wardDirectMax = 400
 // race at Lloyd tolerance 1e-3 before the best runs on to 1e-5), the data side also started from the main fit's centres at each k and every
 // reference set on a path of its own. Each criterion then votes (Result.Votes, CriterionNames order): elbow = Kneedle on WCSS(k)
 // over the valid k; silhouette, simplified_silhouette and calinski_harabasz = argmax over k >= 2;
-// davies_bouldin = argmin over k >= 2; gap_box and gap_pca = GapRule; bic_gmm, aic_gmm,
-// bic_kmeans and icl_gmm = argmin over all k; ward = the largest relative jump of the merge costs (see
+// davies_bouldin = argmin over k >= 2; gap_box and gap_pca = GapRule; bic_kmeans = argmin over
+// all k; bic_gmm, aic_gmm and icl_gmm = argmin over the k whose full-covariance mixture has at
+// least two of the coreset's points per parameter (the mixture is fitted for those k only, and a
+// minimum at the largest of them, with larger k in the range, has no say); ward = the largest relative jump of the merge costs (see
 // wardVote); split_agreement = splitVote on whitened halves of the sample; the one-mode check
 // (modeCheck) runs once; the verdict combines them (Decide in vote.go), and FarRows is measured on the
 // verdict's fit.
@@ -281,7 +283,7 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 	for i := range res.PerK {
 		res.PerK[i].WardHeight, res.PerK[i].WardJump = h[i], j[i]
 	}
-	res.Votes = votes(res.PerK, best, s.N, s.D, opt)
+	res.Votes = votes(res.PerK, best, s.N, core.Len(), s.D, opt)
 	res.Verdict = verdict(res, opt)
 	res.Far = farRows(core, res)
 	return res, nil
@@ -385,7 +387,10 @@ func scoreK(core Points, fit Fit, k int, s Summary, opt Options, scale, excess, 
 	if stop() {
 		return sc
 	}
-	if _, ll, en, _, err := gmmFullFit(core, fit, GMMOptions{Reg: reg, MaxIter: gmmMaxIter, Tol: gmmTol}); err == nil {
+	if k >= 2 && mixtureThinAt(k, s.N, core.Len(), s.D) {
+		// Too few points per parameter for the mixture criteria to hear this k (mixtureThinAt):
+		// its mixture is not fitted.
+	} else if _, ll, en, _, err := gmmFullFit(core, fit, GMMOptions{Reg: reg, MaxIter: gmmMaxIter, Tol: gmmTol}); err == nil {
 		p := GMMFullParams(k, s.D)
 		ll = ll*scale - float64(p)/2*excess
 		sc.LogLikGMM, sc.BICGMM, sc.AICGMM = ll, BIC(ll, p, s.N), AIC(ll, p)

@@ -75,7 +75,7 @@ func TestVotesOfStoredScores(t *testing.T) {
 			wardK = v.K
 		}
 	}
-	got := criteria.VotesOf(back, wardK, 900, 2, opt)
+	got := criteria.VotesOf(back, wardK, 900, 900, 2, opt)
 	if !reflect.DeepEqual(got, res.Votes) {
 		t.Errorf("votes from stored scores differ:\n got %+v\nwant %+v", got, res.Votes)
 	}

@@ -1,5 +1,7 @@
 package criteria
 
+import "math"
+
 // Sizes Evaluate owns, for the cost model (package cost). They sit beside the code they describe so
 // that a change of Evaluate changes the prediction with it (TestWorkingBytesMatchesHeap).
 
@@ -38,8 +40,9 @@ const evaluateFixedBytes = 2 << 20
 //     eigen decompositions (principal-component box, whitening);
 //   - the fits of every k (labels of the m points, centres);
 //   - per worker, one k at a time: Lloyd's bounds and labels and the full-covariance mixture at
-//     the largest k (k covariances, their copies and Cholesky factors of d×d, responsibilities of
-//     m points);
+//     the largest k it is fitted for (k covariances, their copies and Cholesky factors of d×d,
+//     responsibilities of m points; no k whose mixture has fewer than two of the m points per
+//     parameter is fitted, see mixtureThinAt);
 //   - the Ward linkage's distance matrix over its leaves (WardLeaves).
 func WorkingBytes(opt Options, m, n, d, workers int) int64 {
 	opt = opt.withDefaults()
@@ -52,17 +55,27 @@ func WorkingBytes(opt Options, m, n, d, workers int) int64 {
 	c := int64(min(checkPoints, pool))
 	nk := int64(opt.MaxK - opt.MinK + 1)
 	sumK := int64(opt.MaxK+opt.MinK) * nk / 2
-	K := int64(opt.MaxK)
 	M := int64(m)
 	refs := int64(1+2*opt.GapRefs) * g * D * 8
 	checks := 2 * c * D * 8
 	width := 6 * D * D * 8
 	fits := nk*M*4 + sumK*D*8
-	perWorker := M*(4*8+4) + 3*K*D*D*8 + M*K*8
+	km := int64(mixtureTopK(opt.MinK, opt.MaxK, m, d))
+	perWorker := M*(4*8+4) + 3*km*D*D*8 + M*km*8
 	leaves := int64(WardLeaves(m, opt.MaxK))
 	ward := leaves * leaves * 8
 	w := int64(max(1, min(workers, int(nk))))
 	// The fixed part is transient (the one-mode check's null tables are built before the fits), so it
 	// overlaps the fits rather than adding to them.
 	return refs + checks + width + max(evaluateFixedBytes, fits+w*perWorker+ward)
+}
+
+// mixtureTopK is the largest k in minK..maxK whose full-covariance mixture Evaluate fits on m
+// coreset points in d dimensions (k = 1 always is).
+func mixtureTopK(minK, maxK, m, d int) int {
+	top := 1
+	for k := max(2, minK); k <= maxK && !mixtureThinAt(k, math.Inf(1), m, d); k++ {
+		top = k
+	}
+	return top
 }

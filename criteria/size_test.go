@@ -69,24 +69,27 @@ func blobPoints(n, d int) kmeans.Data {
 // TestWorkingBytesMatchesHeap compares WorkingBytes with the peak heap of Evaluate on one worker.
 // Each case is dominated by one term, so that a term wrong by a factor of 2 leaves the band:
 // the gap references (many of them), the width terms and the check points (200 columns), the
-// full-covariance mixture (a wide k range on 64 columns), the Ward linkage's matrix (a coreset at
-// the direct limit).
+// full-covariance mixture's responsibilities (k = 58..60 on 6,000 points; its covariances cannot
+// dominate, as no mixture with fewer than two points per parameter is fitted), the Ward linkage's
+// matrix (a coreset at the direct limit). On 600 points of 128 columns no mixture beyond k = 1 is
+// fitted, and the prediction must know it.
 func TestWorkingBytesMatchesHeap(t *testing.T) {
 	if testing.Short() {
 		t.Skip("runs Evaluate several times")
 	}
 	for _, tc := range []struct {
-		name                      string
-		m, d, maxK, refs, gs, anc int
+		name                            string
+		m, d, minK, maxK, refs, gs, anc int
 	}{
-		{"gap references", 2000, 16, 4, 20, 2000, 200},
-		{"width", 2000, 200, 2, 1, 100, 100},
-		{"mixture", 600, 128, 30, 1, 100, 100},
-		{"ward", criteria.WardDirectMax, 4, 3, 1, 100, 100},
+		{"gap references", 2000, 16, 1, 4, 20, 2000, 200},
+		{"width", 2000, 200, 1, 2, 1, 100, 100},
+		{"mixture", 6000, 2, 58, 60, 1, 100, 100},
+		{"mixture too thin to fit", 600, 128, 1, 30, 1, 100, 100},
+		{"ward", criteria.WardDirectMax, 4, 1, 3, 1, 100, 100},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			s := criteria.ExactSummary(blobPoints(tc.m, tc.d))
-			o := criteria.Options{MinK: 1, MaxK: tc.maxK, GapRefs: tc.refs, GapSample: tc.gs, Anchors: tc.anc, Workers: 1}
+			o := criteria.Options{MinK: tc.minK, MaxK: tc.maxK, GapRefs: tc.refs, GapSample: tc.gs, Anchors: tc.anc, Workers: 1}
 			measured := float64(peakHeapBytes(func() {
 				if _, err := criteria.Evaluate(context.Background(), s, o); err != nil {
 					t.Fatal(err)

@@ -46,12 +46,13 @@ func edgeFrom(minK, maxK int) int { return maxK - (maxK-minK+1)/20 }
 
 // VotesOf returns the votes Evaluate casts from per-k scores (Result.PerK of a range
 // opt.MinK..opt.MaxK) and the Ward linkage's k (the k of Result's ward vote, 0 if it abstained),
-// in CriterionNames order, for a summary of rows rows in dims dimensions (Summary.N and D). It
-// lets a stored result be voted again when a voting rule changes (bench/grid.go re-votes the
+// in CriterionNames order, for a summary of rows rows in dims dimensions whose coreset holds
+// points points (Summary.N, D and Coreset.Len(); points <= 0 means as many as rows). It lets a
+// stored result be voted again when a voting rule changes (bench/grid.go re-votes the
 // calibration grid this way); per is not modified.
-func VotesOf(per []Scores, wardK int, rows float64, dims int, opt Options) []Vote {
+func VotesOf(per []Scores, wardK int, rows float64, points, dims int, opt Options) []Vote {
 	opt = opt.withDefaults()
-	return votes(slices.Clone(per), wardK, rows, dims, opt)
+	return votes(slices.Clone(per), wardK, rows, points, dims, opt)
 }
 
 // rowsPerParam is how many rows per parameter of a two-component full-covariance mixture bic_gmm
@@ -69,7 +70,9 @@ func bicOneUnsupported(rows float64, dims int) bool {
 }
 
 // rowsPerParamAtK is how many rows per parameter of a k-component full-covariance mixture the
-// mixture criteria (bic_gmm, aic_gmm, icl_gmm) need before their choice of that k counts. With
+// mixture criteria (bic_gmm, aic_gmm, icl_gmm) need before their choice of that k counts, the rows
+// being the distinct points the mixture is fitted on: the coreset's points when it holds fewer than
+// the rows (a weighted point adds weight, not information about a covariance). With
 // about as many parameters as rows the fitted mixture follows the regularisation, not the data:
 // on Tibshirani's scenario (d) (4 clusters in 10 dimensions, 100 to 200 rows; 263 parameters at
 // k = 4) aic_gmm named the true k in 11 of 50 realizations and voted 2, 3, 15 or 18 elsewhere.
@@ -80,25 +83,52 @@ func bicOneUnsupported(rows float64, dims int) bool {
 const rowsPerParamAtK = 2
 
 // mixtureTooThin reports whether a mixture criterion's choice of k is no evidence for rows rows in
-// dims dimensions: for k = 1, fewer than rowsPerParam rows per parameter of a two-component
-// full-covariance mixture (one component wins on its penalty alone); for k >= 2, fewer than
-// rowsPerParamAtK per parameter of a k-component one. The note says why, for the vote.
-func mixtureTooThin(k int, rows float64, dims int) (thin bool, note string) {
+// dims dimensions, summarised by a coreset of points points (points <= 0: as many as rows): for
+// k = 1, fewer than rowsPerParam rows per parameter of a two-component full-covariance mixture
+// (one component wins on its penalty alone; the penalty grows with the rows, so the rows count);
+// for k >= 2, fewer than rowsPerParamAtK distinct points (the smaller of rows and points) per
+// parameter of a k-component one (the fit sees the points, not the rows they stand for). The note
+// says why, for the vote.
+func mixtureTooThin(k int, rows float64, points, dims int) (thin bool, note string) {
 	if k == 1 && bicOneUnsupported(rows, dims) {
 		return true, fmt.Sprintf("no say: best at k = 1, but %.0f rows are fewer than %d per parameter of a "+
 			"two-component full-covariance mixture (%d parameters), so one component wins on its penalty alone",
 			rows, rowsPerParam, GMMFullParams(2, dims))
 	}
-	if p := GMMFullParams(k, dims); k >= 2 && rows < rowsPerParamAtK*float64(p) {
-		return true, fmt.Sprintf("no say: best at k = %d, but %.0f rows are fewer than %d per parameter of a "+
+	if k >= 2 && mixtureThinAt(k, rows, points, dims) {
+		return true, fmt.Sprintf("no say: best at k = %d, but its %.0f %s are fewer than %d per parameter of a "+
 			"%d-component full-covariance mixture (%d parameters), so its fit follows the regularisation, not the rows",
-			k, rows, rowsPerParamAtK, k, p)
+			k, seenPoints(rows, points), seenWhat(rows, points), rowsPerParamAtK, k, GMMFullParams(k, dims))
 	}
 	return false, ""
 }
 
+// mixtureThinAt reports whether a k-component full-covariance mixture (k >= 2) in dims dimensions
+// has fewer than rowsPerParamAtK distinct points per parameter (seenPoints). Evaluate does not fit
+// such a mixture, and the mixture criteria pass such a k over.
+func mixtureThinAt(k int, rows float64, points, dims int) bool {
+	return seenPoints(rows, points) < rowsPerParamAtK*float64(GMMFullParams(k, dims))
+}
+
+// seenPoints is how many distinct points a mixture is fitted on: the coreset's points, or the rows
+// when they are fewer (or points <= 0).
+func seenPoints(rows float64, points int) float64 {
+	if points > 0 && float64(points) < rows {
+		return float64(points)
+	}
+	return rows
+}
+
+// seenWhat names seenPoints' count: "coreset points" or "rows".
+func seenWhat(rows float64, points int) string {
+	if points > 0 && float64(points) < rows {
+		return "coreset points"
+	}
+	return "rows"
+}
+
 // votes turns the per-k scores into one vote per criterion (CriterionNames order).
-func votes(per []Scores, wardK int, rows float64, dims int, opt Options) []Vote {
+func votes(per []Scores, wardK int, rows float64, points, dims int, opt Options) []Vote {
 	var out []Vote
 	add := func(name string, k int, ok bool, note string) {
 		if !ok {
@@ -182,10 +212,31 @@ func votes(per []Scores, wardK int, rows float64, dims int, opt Options) []Vote 
 		}
 	}
 
+	// A mixture criterion chooses among the k whose mixture the points can support (Evaluate does
+	// not fit the others; stored scores of such k are passed over the same way). Still falling at
+	// the largest of them, with larger k in the range, it has found no minimum and has no say.
+	top := 0
+	for _, s := range per {
+		if s.Valid && (s.K < 2 || !mixtureThinAt(s.K, rows, points, dims)) {
+			top = max(top, s.K)
+		}
+	}
 	mixture := func(name string, f func(Scores) float64, note string) {
-		k, _, ok := pick(per, 1, false, f)
-		if thin, why := mixtureTooThin(k, rows, dims); ok && thin {
+		k, _, ok := pick(per, 1, false, func(s Scores) float64 {
+			if s.K >= 2 && mixtureThinAt(s.K, rows, points, dims) {
+				return math.NaN()
+			}
+			return f(s)
+		})
+		if thin, why := mixtureTooThin(k, rows, points, dims); ok && thin {
 			add(name, 0, false, why)
+			return
+		}
+		if ok && k == top && k < opt.MaxK {
+			p := GMMFullParams(k+1, dims)
+			add(name, 0, false, fmt.Sprintf("no say: best at k = %d, the largest k whose mixture has at least %d of its %.0f %s "+
+				"per parameter (a %d-component one has %d parameters), so a larger k could not be compared",
+				k, rowsPerParamAtK, seenPoints(rows, points), seenWhat(rows, points), k+1, p))
 			return
 		}
 		add(name, k, ok, note)

@@ -178,7 +178,7 @@ func TestKneeInFirstThird(t *testing.T) {
 	}{{6, true}, {12, false}} {
 		opt := DefaultOptions()
 		opt.MaxK = tc.maxK
-		vs := votes(per(tc.maxK), 0, 1e6, 2, opt)
+		vs := votes(per(tc.maxK), 0, 1e6, 0, 2, opt)
 		if v := vs[0]; v.Criterion != NameElbow || v.Abstain != tc.abstain || (!v.Abstain && v.K != 3) {
 			t.Errorf("max-k %d: elbow vote %+v, want abstain=%v (else k = 3)", tc.maxK, v, tc.abstain)
 		}
@@ -216,8 +216,12 @@ func TestSharedK(t *testing.T) {
 
 // TestMixtureVotesNeedRows: a mixture criterion's k = 1 has no say with fewer than rowsPerParam
 // rows per parameter of a two-component full mixture (GMMFullParams(2, 32) = 1121, so 11,210
-// rows), and its k >= 2 none with fewer than rowsPerParamAtK per parameter of a k-component one
-// (GMMFullParams(3, 32) = 1682, so 3,364 rows); bic_kmeans, not a full mixture, always votes.
+// rows), whatever the coreset holds (the penalty grows with the rows). A k >= 2 whose mixture has
+// fewer than rowsPerParamAtK distinct points per parameter (GMMFullParams(3, 32) = 1682, so 3,364
+// for k = 3; the points are the smaller of the rows and the coreset's points: a million rows
+// summarised by 3,363 coreset points are too few) is passed over, and a best k that is the largest
+// k left, with a larger k in the range, has no say either (nothing larger could be compared).
+// bic_kmeans, not a full mixture, always votes.
 func TestMixtureVotesNeedRows(t *testing.T) {
 	per := func(best int) []Scores {
 		var out []Scores
@@ -232,19 +236,39 @@ func TestMixtureVotesNeedRows(t *testing.T) {
 	opt := DefaultOptions()
 	opt.MaxK = 6
 	for _, tc := range []struct {
-		best    int
-		rows    float64
-		abstain bool
-	}{{1, 11209, true}, {1, 11210, false}, {3, 3363, true}, {3, 3364, false}, {3, 500, true}, {2, 2242, false}} {
-		vs := votes(per(tc.best), 0, tc.rows, 32, opt)
-		for _, name := range []string{NameBICGMM, NameAICGMM, NameICLGMM, NameBICKMeans} {
-			want := tc.abstain && name != NameBICKMeans
-			i := slices.IndexFunc(vs, func(v Vote) bool { return v.Criterion == name })
-			if v := vs[i]; v.Abstain != want || (!v.Abstain && v.K != tc.best) {
-				t.Errorf("best %d, %v rows: %s vote %+v, want abstain=%v", tc.best, tc.rows, name, v, want)
-			} else if want && !strings.Contains(v.Note, "rows are fewer than") {
-				t.Errorf("best %d, %v rows: %s abstains without saying why: %q", tc.best, tc.rows, name, v.Note)
+		best   int
+		rows   float64
+		points int
+		want   int    // the mixture criteria's k, 0 for no say
+		why    string // what the note of no say must contain
+	}{
+		{1, 11209, 0, 0, "11209 rows are fewer than 10 per parameter"},
+		{1, 11210, 0, 1, ""},
+		{1, 11210, 500, 0, "best at k = 1, the largest k whose mixture"}, // no k >= 2 fits 500 points: nothing to compare
+		{3, 1e6, 0, 3, ""},  // every k fits: the minimum
+		{3, 5000, 0, 3, ""}, // k = 4 (4,486 points) fits, k = 5 (5,608) does not
+		{3, 4000, 0, 0, "best at k = 3, the largest k"},                 // k = 4 does not fit: 3 is the largest
+		{2, 6000, 0, 2, ""},                                             // k = 1..5 fit (5,608 points at 5): 2 is inside
+		{3, 3363, 0, 0, "best at k = 2, the largest k"},                 // k = 3 passed over; 2 is the largest k left
+		{2, 2241, 0, 0, "2241 rows are fewer than 10 per parameter"},    // k = 1's own rule comes first
+		{3, 1e6, 3363, 0, "2 of its 3363 coreset points per parameter"}, // the coreset, not the rows
+		{2, 1e6, 9000, 2, ""},                                           // every k of 1..6 fits 9,000 points
+		{3, 1e6, 2241, 0, "best at k = 1, the largest k whose mixture"}, // no k >= 2 fits
+	} {
+		vs := votes(per(tc.best), 0, tc.rows, tc.points, 32, opt)
+		for _, name := range []string{NameBICGMM, NameAICGMM, NameICLGMM} {
+			v := vs[slices.IndexFunc(vs, func(v Vote) bool { return v.Criterion == name })]
+			switch {
+			case tc.want == 0 && !v.Abstain:
+				t.Errorf("best %d, %v rows, %d points: %s votes %d, want no say", tc.best, tc.rows, tc.points, name, v.K)
+			case tc.want == 0 && !strings.Contains(v.Note, tc.why):
+				t.Errorf("best %d, %v rows, %d points: %s note %q, want it to say %q", tc.best, tc.rows, tc.points, name, v.Note, tc.why)
+			case tc.want > 0 && (v.Abstain || v.K != tc.want):
+				t.Errorf("best %d, %v rows, %d points: %s vote %+v, want k = %d", tc.best, tc.rows, tc.points, name, v, tc.want)
 			}
+		}
+		if v := vs[slices.IndexFunc(vs, func(v Vote) bool { return v.Criterion == NameBICKMeans })]; v.Abstain || v.K != tc.best {
+			t.Errorf("best %d, %v rows, %d points: bic_kmeans vote %+v, want k = %d", tc.best, tc.rows, tc.points, v, tc.best)
 		}
 	}
 }
@@ -268,7 +292,7 @@ func TestEdgeIncludesTheKBelowMaxK(t *testing.T) {
 		}
 		opt := DefaultOptions()
 		opt.MaxK = c.maxK
-		vs := VotesOf(per, 0, 1e6, 4, opt)
+		vs := VotesOf(per, 0, 1e6, 0, 4, opt)
 		v := vs[slices.IndexFunc(vs, func(v Vote) bool { return v.Criterion == NameBICGMM })]
 		if v.StillImproving != c.still || (!c.still && v.K != c.best) {
 			t.Errorf("max-k %d, minimum at %d: vote %+v, want still improving %v", c.maxK, c.best, v, c.still)
