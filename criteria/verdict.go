@@ -82,23 +82,16 @@ func bicOneUnsupported(rows float64, dims int) bool {
 // of ten, 1 lost one realization of scenario (d) at max-k 6, so 2.
 const rowsPerParamAtK = 2
 
-// mixtureTooThin reports whether a mixture criterion's choice of k is no evidence for rows rows in
-// dims dimensions, summarised by a coreset of points points (points <= 0: as many as rows): for
-// k = 1, fewer than rowsPerParam rows per parameter of a two-component full-covariance mixture
-// (one component wins on its penalty alone; the penalty grows with the rows, so the rows count);
-// for k >= 2, fewer than rowsPerParamAtK distinct points (the smaller of rows and points) per
-// parameter of a k-component one (the fit sees the points, not the rows they stand for). The note
-// says why, for the vote.
-func mixtureTooThin(k int, rows float64, points, dims int) (thin bool, note string) {
+// mixtureOneUnsupported reports whether a mixture criterion's choice of k = 1 is no evidence for
+// rows rows in dims dimensions: fewer than rowsPerParam rows per parameter of a two-component
+// full-covariance mixture, so one component wins on its penalty alone (the penalty grows with the
+// rows, so the rows count, not the coreset's points). A k >= 2 with too few points for its mixture
+// never gets this far: the mixture criteria pass it over (mixtureThinAt). The note says why.
+func mixtureOneUnsupported(k int, rows float64, dims int) (thin bool, note string) {
 	if k == 1 && bicOneUnsupported(rows, dims) {
 		return true, fmt.Sprintf("no say: best at k = 1, but %.0f rows are fewer than %d per parameter of a "+
 			"two-component full-covariance mixture (%d parameters), so one component wins on its penalty alone",
 			rows, rowsPerParam, GMMFullParams(2, dims))
-	}
-	if k >= 2 && mixtureThinAt(k, rows, points, dims) {
-		return true, fmt.Sprintf("no say: best at k = %d, but its %.0f %s are fewer than %d per parameter of a "+
-			"%d-component full-covariance mixture (%d parameters), so its fit follows the regularisation, not the rows",
-			k, seenPoints(rows, points), seenWhat(rows, points), rowsPerParamAtK, k, GMMFullParams(k, dims))
 	}
 	return false, ""
 }
@@ -228,7 +221,7 @@ func votes(per []Scores, wardK int, rows float64, points, dims int, opt Options)
 			}
 			return f(s)
 		})
-		if thin, why := mixtureTooThin(k, rows, points, dims); ok && thin {
+		if thin, why := mixtureOneUnsupported(k, rows, dims); ok && thin {
 			add(name, 0, false, why)
 			return
 		}
