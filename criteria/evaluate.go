@@ -387,14 +387,15 @@ func scoreK(core Points, fit Fit, k int, s Summary, opt Options, scale, excess, 
 	if stop() {
 		return sc
 	}
-	if k >= 2 && mixtureThinAt(k, s.N, core.Len(), s.D) {
-		// Too few points per parameter for the mixture criteria to hear this k (mixtureThinAt):
-		// its mixture is not fitted.
-	} else if _, ll, en, _, err := gmmFullFit(core, fit, GMMOptions{Reg: reg, MaxIter: gmmMaxIter, Tol: gmmTol}); err == nil {
-		p := GMMFullParams(k, s.D)
-		ll = ll*scale - float64(p)/2*excess
-		sc.LogLikGMM, sc.BICGMM, sc.AICGMM = ll, BIC(ll, p, s.N), AIC(ll, p)
-		sc.ICLGMM = sc.BICGMM + 2*en*scale
+	// A k with too few points per parameter for the mixture criteria to hear it (mixtureThinAt)
+	// is not fitted: its mixture scores stay NaN.
+	if k < 2 || !mixtureThinAt(k, s.N, core.Len(), s.D) {
+		if _, ll, en, _, err := gmmFullFit(core, fit, GMMOptions{Reg: reg, MaxIter: gmmMaxIter, Tol: gmmTol}); err == nil {
+			p := GMMFullParams(k, s.D)
+			ll = ll*scale - float64(p)/2*excess
+			sc.LogLikGMM, sc.BICGMM, sc.AICGMM = ll, BIC(ll, p, s.N), AIC(ll, p)
+			sc.ICLGMM = sc.BICGMM + 2*en*scale
+		}
 	}
 	sizes := make([]float64, k)
 	for j, z := range fit.Sizes {

@@ -100,24 +100,17 @@ func mixtureOneUnsupported(k int, rows float64, dims int) (thin bool, note strin
 // has fewer than rowsPerParamAtK distinct points per parameter (seenPoints). Evaluate does not fit
 // such a mixture, and the mixture criteria pass such a k over.
 func mixtureThinAt(k int, rows float64, points, dims int) bool {
-	return seenPoints(rows, points) < rowsPerParamAtK*float64(GMMFullParams(k, dims))
+	n, _ := seenPoints(rows, points)
+	return n < rowsPerParamAtK*float64(GMMFullParams(k, dims))
 }
 
-// seenPoints is how many distinct points a mixture is fitted on: the coreset's points, or the rows
-// when they are fewer (or points <= 0).
-func seenPoints(rows float64, points int) float64 {
+// seenPoints is how many distinct points a mixture is fitted on, and what they are: the coreset's
+// points, or the rows when they are fewer (or points <= 0).
+func seenPoints(rows float64, points int) (n float64, what string) {
 	if points > 0 && float64(points) < rows {
-		return float64(points)
+		return float64(points), "coreset points"
 	}
-	return rows
-}
-
-// seenWhat names seenPoints' count: "coreset points" or "rows".
-func seenWhat(rows float64, points int) string {
-	if points > 0 && float64(points) < rows {
-		return "coreset points"
-	}
-	return "rows"
+	return rows, "rows"
 }
 
 // votes turns the per-k scores into one vote per criterion (CriterionNames order).
@@ -207,10 +200,14 @@ func votes(per []Scores, wardK int, rows float64, points, dims int, opt Options)
 
 	// A mixture criterion chooses among the k whose mixture the points can support (Evaluate does
 	// not fit the others; stored scores of such k are passed over the same way). Still falling at
-	// the largest of them, with larger k in the range, it has found no minimum and has no say.
-	top := 0
+	// the largest of them, with larger valid k passed over, it has found no minimum and has no say.
+	top, lastValid := 0, 0
 	for _, s := range per {
-		if s.Valid && (s.K < 2 || !mixtureThinAt(s.K, rows, points, dims)) {
+		if !s.Valid {
+			continue
+		}
+		lastValid = max(lastValid, s.K)
+		if s.K < 2 || !mixtureThinAt(s.K, rows, points, dims) {
 			top = max(top, s.K)
 		}
 	}
@@ -225,11 +222,11 @@ func votes(per []Scores, wardK int, rows float64, points, dims int, opt Options)
 			add(name, 0, false, why)
 			return
 		}
-		if ok && k == top && k < opt.MaxK {
-			p := GMMFullParams(k+1, dims)
+		if ok && k == top && top < lastValid {
+			n, what := seenPoints(rows, points)
 			add(name, 0, false, fmt.Sprintf("no say: best at k = %d, the largest k whose mixture has at least %d of its %.0f %s "+
 				"per parameter (a %d-component one has %d parameters), so a larger k could not be compared",
-				k, rowsPerParamAtK, seenPoints(rows, points), seenWhat(rows, points), k+1, p))
+				k, rowsPerParamAtK, n, what, k+1, GMMFullParams(k+1, dims)))
 			return
 		}
 		add(name, k, ok, note)

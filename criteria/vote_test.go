@@ -271,6 +271,14 @@ func TestMixtureVotesNeedRows(t *testing.T) {
 			t.Errorf("best %d, %v rows, %d points: bic_kmeans vote %+v, want k = %d", tc.best, tc.rows, tc.points, v, tc.best)
 		}
 	}
+	// A minimum at the largest valid k is a choice when the k above it are invalid (empty clusters),
+	// not passed over: only thin k make the largest k left "could not be compared".
+	sc := per(4)
+	sc[4].Valid, sc[5].Valid = false, false // k = 5 and 6
+	vs := votes(sc, 0, 1e6, 0, 32, opt)
+	if v := vs[slices.IndexFunc(vs, func(v Vote) bool { return v.Criterion == NameBICGMM })]; v.Abstain || v.K != 4 {
+		t.Errorf("minimum at the largest valid k = 4 (k = 5, 6 invalid): bic_gmm vote %+v, want k = 4", v)
+	}
 }
 
 // TestEdgeIncludesTheKBelowMaxK: in a range of 20 k, a likelihood criterion whose minimum is at
