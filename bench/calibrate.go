@@ -85,14 +85,15 @@ func DeriveWeights(runs []GridRun, source string) criteria.Weights {
 		}
 		w.Structure[c] = max(0, logit((float64(right)+1)/(float64(n)+2)))
 	}
-	for _, c := range criteria.CriterionNames() {
+	for _, c := range choiceVoters() {
 		right, n := 0, 0
 		for _, r := range train {
-			if r.K < 2 || r.Votes[c] == 0 {
+			k := r.choiceSays(c)
+			if r.K < 2 || k == 0 {
 				continue
 			}
 			n++
-			if r.Votes[c] == r.K {
+			if k == r.K {
 				right++
 			}
 		}
@@ -199,6 +200,21 @@ type calBin struct {
 // common practice): twelve of twelve right is 0.93, not a certainty the grid cannot show.
 func (b calBin) rate() float64 { return float64(b.right+1) / float64(b.all+2) }
 
+// choiceVoters are the voters of stage 2: every criterion and the derived
+// criteria.NameMixturesAgree.
+func choiceVoters() []string {
+	return append(criteria.CriterionNames(), criteria.NameMixturesAgree)
+}
+
+// choiceSays returns the k stage-2 voter c names in run r (0: it abstains; a criterion still
+// improving at max-k is stored as max-k).
+func (r GridRun) choiceSays(c string) int {
+	if c == criteria.NameMixturesAgree {
+		return criteria.MixturesAgree(r.votes(), 1, r.MaxK)
+	}
+	return r.Votes[c]
+}
+
 // sharedErrorFloor: two voters count as sharing their errors when, of the training runs in which
 // either is wrong, both make the same mistake in at least this share. Measured on the grid
 // (bench/report/CALIBRATION.md, "Shared errors"): silhouette, simplified silhouette and
@@ -214,7 +230,7 @@ func sharedChoiceErrors(runs []GridRun, a, b string) float64 {
 		if r.K < 2 {
 			continue
 		}
-		ka, kb := r.Votes[a], r.Votes[b]
+		ka, kb := r.choiceSays(a), r.choiceSays(b)
 		wa, wb := ka >= 2 && ka != r.K, kb >= 2 && kb != r.K
 		if wa || wb {
 			either++
@@ -344,7 +360,7 @@ func CalibrationMarkdown(runs []GridRun, w criteria.Weights, command string) str
 	b.WriteString("Weights and the calibration table come from the data sets outside the held-out half (a hash of the name); " +
 		"the reliability table below is measured on the held-out half only.\n\n")
 	b.WriteString("## Weights\n\n| voter | stage 1 (one group or several) | stage 2 (which k) |\n| --- | --- | --- |\n")
-	names := append(criteria.CriterionNames(), criteria.NameOneMode, criteria.NameSharedK)
+	names := append(choiceVoters(), criteria.NameOneMode, criteria.NameSharedK)
 	for _, c := range names {
 		s1, ok1 := w.Structure[c]
 		s2, ok2 := w.Choice[c]
@@ -373,7 +389,7 @@ func CalibrationMarkdown(runs []GridRun, w criteria.Weights, command string) str
 	}{
 		{"1", append(slices.DeleteFunc(criteria.CriterionNames(), func(c string) bool { return !criteria.CanSayOne(c) }), criteria.NameOneMode, criteria.NameSharedK),
 			func(a, b string) float64 { return sharedStructureErrors(train, a, b) }},
-		{"2", criteria.CriterionNames(), func(a, b string) float64 { return sharedChoiceErrors(train, a, b) }},
+		{"2", choiceVoters(), func(a, b string) float64 { return sharedChoiceErrors(train, a, b) }},
 	} {
 		for i, a := range st.voters {
 			for _, c := range st.voters[i+1:] {

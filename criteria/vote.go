@@ -16,6 +16,10 @@ const NameOneMode = "one_mode"
 // choices (SharedK).
 const NameSharedK = "shared_k"
 
+// NameMixturesAgree is the key in Weights.Choice of the stage-2 voter that reads the three
+// mixture criteria together (MixturesAgree).
+const NameMixturesAgree = "mixtures_agree"
+
 // SharedKMin is how many criteria must name one k >= 3 for SharedK to say "several groups".
 const SharedKMin = 4
 
@@ -41,6 +45,33 @@ func SharedK(vs []Vote, minK, maxK int) bool {
 	return false
 }
 
+// MixturesAgree returns the k >= 2 that bic_gmm, aic_gmm and icl_gmm all name inside the range
+// minK..maxK (none of them abstaining or still improving at max-k), or 0. The three price the same
+// full-covariance mixture's likelihood with penalties from light to heavy: AIC two per parameter,
+// BIC ln N per parameter, ICL BIC's plus twice the entropy of the soft classification. When all
+// three stop at one k, the choice does not hang on how parameters and overlap are priced. On
+// the benchmark grid that k was right wherever the three met (bench/report/CALIBRATION.md; 26 of
+// 26 training and 29 of 29 held-out runs, 30 of 30 seed-stability runs, DEVELOPERS.md, issue 12,
+// ninth round), including elongated clusters and clusters of very unequal size where the k-means
+// criteria split one long or dense cluster; on heavy tails and far outliers AIC runs on to larger k
+// and the three part, so it stays silent there.
+func MixturesAgree(vs []Vote, minK, maxK int) int {
+	edge := edgeRange(minK, maxK)
+	k := 0
+	for _, name := range []string{NameBICGMM, NameAICGMM, NameICLGMM} {
+		i := slices.IndexFunc(vs, func(v Vote) bool { return v.Criterion == name })
+		if i < 0 {
+			return 0
+		}
+		v := vs[i]
+		if v.Abstain || v.StillImproving || v.K < 2 || (edge && v.K == maxK) || (k != 0 && v.K != k) {
+			return 0
+		}
+		k = v.K
+	}
+	return k
+}
+
 // unstableRatio: a verdict is unstable when another k holds at least this share of its vote
 // weight. Chosen on the benchmark grid (bench/report/CALIBRATION.md): below it, seeds 1..10 gave
 // the same verdict in at least 9 of 10 runs on every reference set and scenario measured.
@@ -62,7 +93,8 @@ type Weights struct {
 	// Choice weighs every criterion's k in stage 2: log(p/(1-p)) + log(m-1), floored at 0, with p
 	// the share of grid runs with several groups in which it named the true k and m the number of
 	// candidate k (the weighted-majority rule for independent voters over m classes), divided
-	// like Structure by √(1 + the shares of wrong k it has in common with other voters).
+	// like Structure by √(1 + the shares of wrong k it has in common with other voters). The
+	// derived voter NameMixturesAgree is weighed the same way over the runs in which it speaks.
 	Choice map[string]float64 `json:"choice"`
 	// Calibration maps Support to the share of held-out grid runs whose verdict was right: the
 	// confidence of a verdict is Right of the last point whose Support is at most the verdict's.
@@ -96,7 +128,9 @@ func ParseWeights(b []byte) (Weights, error) {
 			return Weights{}, fmt.Errorf("criteria: weights: no %s weights", m.what)
 		}
 		for name, v := range m.m {
-			if !slices.Contains(known, name) && !(m.what == "structure" && (name == NameOneMode || name == NameSharedK)) {
+			derived := (m.what == "structure" && (name == NameOneMode || name == NameSharedK)) ||
+				(m.what == "choice" && name == NameMixturesAgree)
+			if !slices.Contains(known, name) && !derived {
 				return Weights{}, fmt.Errorf("criteria: weights: unknown %s voter %q", m.what, name)
 			}
 			if !(v >= 0) || math.IsInf(v, 0) {
@@ -166,6 +200,7 @@ var plain = map[string]string{
 	NameDaviesBouldin:        "groups are most compact and least alike (Davies-Bouldin)",
 	NameSplitAgreement:       "two disjoint halves of the rows are grouped the same way (split agreement)",
 	NameClusterModes:         "every group has a single peak, and this is the fewest groups for which that holds (cluster modes)",
+	NameMixturesAgree:        "bell-shaped mixtures name it whether parameters and overlap are priced lightly or heavily (AIC, BIC and ICL agree)",
 }
 
 // Decide combines the votes and the one-mode check into a verdict with the weights w.
@@ -176,7 +211,8 @@ var plain = map[string]string{
 // false (an exact tie goes to "one": a false alarm costs more than a missed split, and the verdict
 // is marked unstable).
 //
-// Stage 2: every criterion naming a k >= 2 adds its Choice weight to that k; a criterion still
+// Stage 2: every criterion naming a k >= 2 adds its Choice weight to that k, and so does the
+// derived voter NameMixturesAgree when bic_gmm, aic_gmm and icl_gmm name one k (MixturesAgree); a criterion still
 // improving at maxK (Vote.StillImproving, or a vote at maxK, with at least three k in range) only
 // says "k may be larger" and adds to the edge; it says "several" in stage 1 and is left out of
 // Agreement unless K is maxK. The k with the most
@@ -234,6 +270,12 @@ func Decide(vs []Vote, modes ModeCheck, minK, maxK int, w Weights) Verdict {
 		wt := w.Choice[v.Criterion]
 		total2 += wt
 		score[v.K] += wt
+	}
+	// The derived voter: the three mixture criteria naming one k together.
+	mixK := MixturesAgree(vs, minK, maxK)
+	if wt := w.Choice[NameMixturesAgree]; mixK > 0 && wt > 0 {
+		score[mixK] += wt
+		total2 += wt
 	}
 	ranked := make([]int, 0, len(score))
 	for k := range score {
@@ -297,7 +339,7 @@ func Decide(vs []Vote, modes ModeCheck, minK, maxK int, w Weights) Verdict {
 			}
 			out.Why = whyOne(modes, oneBy, len(oneBy)+len(severalBy))
 			if out.RunnerUp > 0 {
-				out.WhyRunner = whyK(out.RunnerUp, vs, score[out.RunnerUp], total2, "Runner-up", w)
+				out.WhyRunner = whyK(out.RunnerUp, vs, mixK, score[out.RunnerUp], total2, "Runner-up", w)
 			}
 			return out
 		}
@@ -317,7 +359,7 @@ func Decide(vs []Vote, modes ModeCheck, minK, maxK int, w Weights) Verdict {
 		out.Confidence = w.Confidence(out.Support)
 		if len(ranked) > 0 {
 			out.RunnerUp = ranked[0]
-			out.WhyRunner = whyK(out.RunnerUp, vs, score[out.RunnerUp], total2, "Runner-up", w)
+			out.WhyRunner = whyK(out.RunnerUp, vs, mixK, score[out.RunnerUp], total2, "Runner-up", w)
 		}
 		out.Why = fmt.Sprintf("k = %d (max-k): criteria holding %.0f%% of the weighted vote are still improving at the top of the range, "+
 			"so the data may hold more clusters than --max-k allows.", maxK, 100*edge/total2)
@@ -353,9 +395,9 @@ func Decide(vs []Vote, modes ModeCheck, minK, maxK int, w Weights) Verdict {
 		out.Alternatives = append(out.Alternatives, out.RunnerUp)
 	}
 	out.Unstable = len(out.Alternatives) > 0
-	out.Why = whyK(K, vs, score[K], total2, "", w)
+	out.Why = whyK(K, vs, mixK, score[K], total2, "", w)
 	if out.RunnerUp > 0 {
-		out.WhyRunner = whyK(out.RunnerUp, vs, score[out.RunnerUp], total2, "Runner-up", w)
+		out.WhyRunner = whyK(out.RunnerUp, vs, mixK, score[out.RunnerUp], total2, "Runner-up", w)
 	}
 	return out
 }
@@ -384,12 +426,16 @@ func whyOne(m ModeCheck, oneBy []string, voters int) string {
 
 // whyK is Verdict.Why (or WhyRunner, with prefix) for a k >= 2: its weight share and the
 // strongest criteria behind it, each with what it measures.
-func whyK(k int, vs []Vote, score, total float64, prefix string, w Weights) string {
+func whyK(k int, vs []Vote, mixK int, score, total float64, prefix string, w Weights) string {
 	var by []string
 	for _, v := range vs {
 		if !v.Abstain && v.K == k {
 			by = append(by, v.Criterion)
 		}
+	}
+	named := len(by) // criteria, without the derived voter
+	if mixK == k && w.Choice[NameMixturesAgree] > 0 {
+		by = append(by, NameMixturesAgree)
 	}
 	slices.SortStableFunc(by, func(a, b string) int {
 		wa, wb := w.Choice[a], w.Choice[b]
@@ -416,10 +462,10 @@ func whyK(k int, vs []Vote, score, total float64, prefix string, w Weights) stri
 			reasons = append(reasons, plain[c])
 		}
 		noun := "criteria"
-		if len(by) == 1 {
+		if named == 1 {
 			noun = "criterion"
 		}
-		fmt.Fprintf(&b, " (%d %s): %s", len(by), noun, strings.Join(reasons, "; "))
+		fmt.Fprintf(&b, " (%d %s): %s", named, noun, strings.Join(reasons, "; "))
 	}
 	b.WriteString(".")
 	return b.String()

@@ -98,6 +98,7 @@ func TestParseWeights(t *testing.T) {
 		{"unknown criterion", `{"structure":{"gap_box":1},"choice":{"no_such":1}}`, "no_such"},
 		{"negative weight", `{"structure":{"gap_box":-1},"choice":{"elbow":1}}`, "gap_box"},
 		{"one_mode outside stage 1", `{"structure":{"gap_box":1},"choice":{"one_mode":1}}`, "one_mode"},
+		{"mixtures_agree outside stage 2", `{"structure":{"mixtures_agree":1},"choice":{"elbow":1}}`, "mixtures_agree"},
 		{"no choice weights", `{"structure":{"gap_box":1}}`, "no choice"},
 		{"calibration out of order", `{"structure":{"gap_box":1},"choice":{"elbow":1},"calibration":[{"support":0.5,"right":0.5},{"support":0.2,"right":0.6}]}`, "calibration point 1"},
 		{"not JSON", `{`, "weights"},
@@ -211,6 +212,55 @@ func TestSharedK(t *testing.T) {
 	w.Structure[NameSharedK] = 2.5
 	if v := Decide(vs, ModeCheck{}, 1, 20, w); v.K != 10 {
 		t.Errorf("with shared_k: k = %d, want 10", v.K)
+	}
+}
+
+func TestMixturesAgree(t *testing.T) {
+	for _, tc := range []struct {
+		name  string
+		votes map[string]int
+		want  int
+	}{
+		{"all three on 8", map[string]int{NameBICGMM: 8, NameAICGMM: 8, NameICLGMM: 8, NameWard: 6}, 8},
+		{"AIC runs on", map[string]int{NameBICGMM: 8, NameAICGMM: 10, NameICLGMM: 8}, 0},
+		{"ICL abstains", map[string]int{NameBICGMM: 8, NameAICGMM: 8}, 0},
+		{"all three say one group", map[string]int{NameBICGMM: 1, NameAICGMM: 1, NameICLGMM: 1}, 0},
+		{"all three at max-k", map[string]int{NameBICGMM: 20, NameAICGMM: 20, NameICLGMM: 20}, 0},
+	} {
+		if got := MixturesAgree(votesOf(tc.votes), 1, 20); got != tc.want {
+			t.Errorf("%s: MixturesAgree = %d, want %d", tc.name, got, tc.want)
+		}
+	}
+	vs := votesOf(map[string]int{NameGapBox: 6, NameWard: 6, NameSilhouette: 6, NameSplitAgreement: 8,
+		NameBICGMM: 8, NameAICGMM: 8, NameICLGMM: 8, NameBICKMeans: 5})
+	// A still-improving vote is stored as an abstention with StillImproving (Vote's contract).
+	atEdge := slices.Clone(vs)
+	for i := range atEdge {
+		if atEdge[i].Criterion == NameAICGMM {
+			atEdge[i] = Vote{Criterion: NameAICGMM, Abstain: true, StillImproving: true}
+		}
+	}
+	if got := MixturesAgree(atEdge, 1, 20); got != 0 {
+		t.Errorf("AIC still improving: MixturesAgree = %d, want 0", got)
+	}
+	// Its weight moves stage 2: with equal weights 6 (four criteria) leads 8 (three); the derived
+	// voter's weight of 2 puts 8 ahead.
+	w := equalWeights()
+	vs = votesOf(map[string]int{NameGapBox: 6, NameWard: 6, NameSilhouette: 6, NameDaviesBouldin: 6,
+		NameBICGMM: 8, NameAICGMM: 8, NameICLGMM: 8, NameBICKMeans: 5})
+	if v := Decide(vs, ModeCheck{N: 500, PValue: 0.001, Modes: true}, 1, 20, w); v.K != 6 {
+		t.Fatalf("without mixtures_agree: k = %d, want 6", v.K)
+	}
+	w.Choice[NameMixturesAgree] = 2
+	v := Decide(vs, ModeCheck{N: 500, PValue: 0.001, Modes: true}, 1, 20, w)
+	if v.K != 8 {
+		t.Errorf("with mixtures_agree: k = %d, want 8", v.K)
+	}
+	if !strings.Contains(v.Why, "(3 criteria)") || !strings.Contains(v.Why, "AIC, BIC and ICL agree") {
+		t.Errorf("why %q: want the three criteria counted and the agreement named", v.Why)
+	}
+	if slices.Contains(v.Agree, NameMixturesAgree) {
+		t.Errorf("agree %v: the derived voter is not a criterion", v.Agree)
 	}
 }
 
