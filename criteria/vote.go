@@ -96,16 +96,18 @@ type Weights struct {
 	// like Structure by √(1 + the shares of wrong k it has in common with other voters). The
 	// derived voter NameMixturesAgree is weighed the same way over the runs in which it speaks.
 	Choice map[string]float64 `json:"choice"`
-	// Calibration maps Support to the share of held-out grid runs whose verdict was right: the
-	// confidence of a verdict is Right of the last point whose Support is at most the verdict's.
+	// Calibration maps Support to the share of grid runs whose verdict was right (a logistic fit
+	// on the training half, capped by the share right of the runs at that support or above;
+	// bench.DeriveWeights): the confidence of a verdict is Right of the last point whose Support
+	// is at most the verdict's.
 	Calibration []CalPoint `json:"calibration"`
 }
 
 // CalPoint is one step of the calibration table.
 type CalPoint struct {
-	Support float64 `json:"support"` // lower end of the support bin
-	Right   float64 `json:"right"`   // share right, smoothed (right+1)/(runs+2), monotone (pool-adjacent-violators)
-	Runs    int     `json:"runs"`    // grid runs behind it
+	Support float64 `json:"support"` // lower end of the step
+	Right   float64 `json:"right"`   // calibrated share right from Support on (non-decreasing)
+	Runs    int     `json:"runs"`    // training runs whose support falls in the step
 }
 
 //go:embed weights.json
