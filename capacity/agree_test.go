@@ -3,10 +3,10 @@ package capacity
 import (
 	"context"
 	"errors"
-	"github.com/kgauge/kgauge"
 	"strings"
 	"testing"
 
+	"github.com/kgauge/kgauge"
 	"github.com/kgauge/kgauge/cost"
 )
 

@@ -3,7 +3,6 @@ package capacity
 import (
 	"context"
 	"fmt"
-	"github.com/kgauge/kgauge"
 	"math"
 	"math/rand/v2"
 	"os"
@@ -12,6 +11,7 @@ import (
 	"slices"
 	"testing"
 
+	"github.com/kgauge/kgauge"
 	"github.com/kgauge/kgauge/bench/synth"
 	"github.com/kgauge/kgauge/cost"
 	"github.com/kgauge/kgauge/criteria"
