@@ -3,6 +3,7 @@ package bench
 import (
 	"context"
 	"flag"
+	"math"
 	"os"
 	"reflect"
 	"testing"
@@ -127,5 +128,44 @@ func TestSeedStabilityOnGrid(t *testing.T) {
 		if len(vs) != 10 || covered < 9 {
 			t.Errorf("%s: %d of %d seeds agree with k=%d or are flagged unstable, want >= 9 of 10", c, covered, len(vs), mode)
 		}
+	}
+}
+
+// TestCalibrationTable checks the calibration's properties on invented supports (a property test,
+// not a measurement): weak verdicts right half of the time, strong ones always. The table must
+// not fall as the support rises, must tell the weak ones less than 0.6, and must not claim more
+// than the strongest calibrationTopRuns runs show by the rule of succession (21/22).
+func TestCalibrationTable(t *testing.T) {
+	var pts []calPoint
+	for i := range 20 {
+		pts = append(pts, calPoint{support: 0.1 + 0.01*float64(i), right: i%2 == 0})
+	}
+	for i := range 40 {
+		pts = append(pts, calPoint{support: 0.5 + 0.0125*float64(i), right: true})
+	}
+	round := func(v float64) float64 { return math.Round(v*1000) / 1000 }
+	table := calibrationTable(pts, round)
+	if len(table) != 51 || table[0].Support != 0 || table[50].Support != 1 {
+		t.Fatalf("table has %d steps from %v to %v, want 51 from 0 to 1", len(table), table[0].Support, table[len(table)-1].Support)
+	}
+	runs := 0
+	for i, p := range table {
+		runs += p.Runs
+		if i > 0 && p.Right < table[i-1].Right {
+			t.Errorf("step %v: %v below the step before (%v)", p.Support, p.Right, table[i-1].Right)
+		}
+		if p.Right > round(21.0/22) {
+			t.Errorf("step %v: %v above 21/22", p.Support, p.Right)
+		}
+	}
+	if runs != len(pts) {
+		t.Errorf("steps hold %d runs, want %d", runs, len(pts))
+	}
+	w := criteria.Weights{Calibration: table}
+	if c := w.Confidence(0.15); !(c < 0.6) {
+		t.Errorf("confidence at support 0.15 = %v, want below 0.6 (half of those runs are wrong)", c)
+	}
+	if c := w.Confidence(0.9); !(c > 0.9) {
+		t.Errorf("confidence at support 0.9 = %v, want above 0.9 (all of those runs are right)", c)
 	}
 }

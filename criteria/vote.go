@@ -215,12 +215,12 @@ var plain = map[string]string{
 // is marked unstable).
 //
 // Stage 2: every criterion naming a k >= 2 adds its Choice weight to that k, and so does the
-// derived voter NameMixturesAgree when bic_gmm, aic_gmm and icl_gmm name one k (MixturesAgree); a criterion still
-// improving at maxK (Vote.StillImproving, or a vote at maxK, with at least three k in range) only
-// says "k may be larger" and adds to the edge; it says "several" in stage 1 and is left out of
-// Agreement unless K is maxK. The k with the most
-// weight wins; if the edge outweighs all of k inside the range together, K is maxK with AtMaxK. An exact tie is resolved toward the
-// smaller k and marked unstable, never toward a particular criterion.
+// derived voter NameMixturesAgree when bic_gmm, aic_gmm and icl_gmm name one k (MixturesAgree);
+// a criterion still improving at maxK (Vote.StillImproving, or a vote at maxK, with at least
+// three k in range) only says "k may be larger" and adds to the edge; it says "several" in stage 1
+// and is left out of Agreement unless K is maxK. The k with the most weight wins; if the edge
+// outweighs all of k inside the range together, K is maxK with AtMaxK. An exact tie is resolved
+// toward the smaller k and marked unstable, never toward a particular criterion.
 //
 // Support is the winning weight share (for k >= 2, the share of stage 1 saying "several" times the
 // share of stage 2 behind K); Confidence is the calibrated Support. Unstable is set when another k
