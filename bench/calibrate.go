@@ -435,7 +435,11 @@ func CalibrationMarkdown(runs []GridRun, w criteria.Weights, command string) str
 			}
 		}
 	}
-	b.WriteString("\n## Calibration table (training half)\n\n| support from | share right | runs |\n| --- | --- | --- |\n")
+	b.WriteString("\n## Calibration table (training half)\n\nThe share right is a logistic function of the support fitted to " +
+		"the training runs (Platt scaling), capped at the share right, smoothed as (right+1)/(runs+2), of the training runs " +
+		fmt.Sprintf("at that support or above (never fewer than the %d strongest), non-decreasing, in steps of %.2f; "+
+			"*runs* counts the training runs whose support falls in the step.\n\n", calibrationTopRuns, calibrationStep) +
+		"| support from | share right | runs |\n| --- | --- | --- |\n")
 	for _, p := range w.Calibration {
 		fmt.Fprintf(&b, "| %.3f | %.3f | %d |\n", p.Support, p.Right, p.Runs)
 	}
