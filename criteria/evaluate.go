@@ -78,7 +78,8 @@ const wardDirectMax = 400
 // covariance's diagonal; at most 100 iterations, tolerance 1e-3 per unit weight; log-likelihood
 // scaled by N / coreset weight less the coreset fit's optimism (fitExcess), BIC/AIC with the real N
 // and p = GMMFullParams; ICL = BIC + 2 × the entropy of the EM's last soft classification, scaled
-// alike), and BICKMeans (corrected like the mixture).
+// alike; where the points cannot carry a full mixture at opt.MaxK, a spherical one too, each k
+// scored by the one of lower BIC, see mixtureFamilies), and BICKMeans (corrected like the mixture).
 // The gap statistic uses n = min(opt.GapSample, sample size) points of the uniform sample (a
 // seeded subsample without replacement; if the Summary has no sample, n points drawn from the
 // coreset in proportion to weight) against opt.GapRefs reference sets of n points in the
@@ -92,7 +93,7 @@ const wardDirectMax = 400
 // reference set on a path of its own. Each criterion then votes (Result.Votes, CriterionNames order): elbow = Kneedle on WCSS(k)
 // over the valid k; silhouette, simplified_silhouette and calinski_harabasz = argmax over k >= 2;
 // davies_bouldin = argmin over k >= 2; gap_box and gap_pca = GapRule; bic_kmeans = argmin over
-// all k; bic_gmm, aic_gmm and icl_gmm = argmin over the k whose full-covariance mixture has at
+// all k; bic_gmm, aic_gmm and icl_gmm = argmin over the k whose mixture (of a family they compare) has at
 // least two of the coreset's points per parameter (the mixture is fitted for those k only, and a
 // minimum at the largest of them, with larger k in the range, has no say); ward = the largest relative jump of the merge costs (see
 // wardVote); split_agreement = splitVote on whitened halves of the sample; the one-mode check
@@ -387,14 +388,23 @@ func scoreK(core Points, fit Fit, k int, s Summary, opt Options, scale, excess, 
 	if stop() {
 		return sc
 	}
-	// A k with too few points per parameter for the mixture criteria to hear it (mixtureThinAt)
-	// is not fitted: its mixture scores stay NaN.
-	if k < 2 || !mixtureThinAt(k, s.N, core.Len(), s.D) {
-		if _, ll, en, _, err := gmmFullFit(core, fit, GMMOptions{Reg: reg, MaxIter: gmmMaxIter, Tol: gmmTol}); err == nil {
-			p := GMMFullParams(k, s.D)
-			ll = ll*scale - float64(p)/2*excess
-			sc.LogLikGMM, sc.BICGMM, sc.AICGMM = ll, BIC(ll, p, s.N), AIC(ll, p)
+	// Each family the mixture criteria compare (mixtureFamilies) is fitted where the points carry
+	// it (familyThinAt; k = 1 always); the one of lowest BIC gives the k's mixture scores. A k no
+	// family is fitted at keeps NaN.
+	for _, f := range mixtureFamilies(opt.MaxK, s.N, core.Len(), s.D) {
+		if k >= 2 && familyThinAt(f, k, s.N, core.Len(), s.D) {
+			continue
+		}
+		ll, en, err := fitMixture(f, core, fit, reg)
+		if err != nil {
+			continue
+		}
+		p := f.Params(k, s.D)
+		ll = ll*scale - float64(p)/2*excess
+		if bic := BIC(ll, p, s.N); math.IsNaN(sc.BICGMM) || bic < sc.BICGMM {
+			sc.LogLikGMM, sc.BICGMM, sc.AICGMM = ll, bic, AIC(ll, p)
 			sc.ICLGMM = sc.BICGMM + 2*en*scale
+			sc.MixtureFamily = f
 		}
 	}
 	sizes := make([]float64, k)

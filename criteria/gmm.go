@@ -4,8 +4,10 @@ import (
 	"math"
 )
 
-// GMM is a Gaussian mixture with diagonal covariances. Evaluate uses the full-covariance GMMFull;
-// the diagonal model is kept for the accuracy benchmarks (bench/) and its reference checks.
+// GMM is a Gaussian mixture with diagonal covariances (or spherical ones: GMMOptions.Spherical).
+// Evaluate fits the full-covariance GMMFull, and the spherical model as well where the points
+// cannot carry a full covariance at every k of the range (mixtureLadder); the diagonal model is
+// kept for the accuracy benchmarks (bench/) and its reference checks.
 type GMM struct {
 	K, D    int
 	Weights []float64 // K mixing proportions
@@ -17,11 +19,18 @@ type GMM struct {
 // dimensions: (K - 1) + 2 K D (weights, means, variances).
 func GMMParams(k, d int) int { return (k - 1) + 2*k*d }
 
+// GMMSphericalParams returns the number of free parameters of a K-component spherical mixture in D
+// dimensions (one variance per component): (K - 1) + K D + K.
+func GMMSphericalParams(k, d int) int { return (k - 1) + k*d + k }
+
 // GMMOptions controls GMMFit. Zero values mean defaults.
 type GMMOptions struct {
 	MaxIter int     // default 100
 	Tol     float64 // stop when the mean log-likelihood per unit weight changes by <= Tol; default 1e-4
 	Reg     float64 // added to every variance after each M step (variance floor); default 1e-6
+	// Spherical makes GMMFit fit one variance per component, the mean of its per-dimension
+	// variances (the maximum-likelihood spherical variance), stored in every dimension of Vars.
+	Spherical bool
 }
 
 // LogLik returns the weighted log-likelihood sum_i w_i ln sum_j pi_j N(x_i | mu_j, diag(var_j)),
@@ -73,6 +82,14 @@ func (g GMM) LogLik(p Points, resp []float64) float64 {
 	return ll
 }
 
+// ClassEntropy returns the weighted entropy of the mixture's soft classification of p,
+// -sum_i w_i sum_j r_ij ln r_ij (the term ICL adds to BIC twice).
+func (g GMM) ClassEntropy(p Points) float64 {
+	resp := make([]float64, p.Len()*g.K)
+	g.LogLik(p, resp)
+	return classEntropy(p, resp, g.K)
+}
+
 // GMMFit fits a diagonal Gaussian mixture to the weighted points by EM (Dempster, Laird & Rubin
 // 1977) started from a k-means solution: weights = cluster weight shares, means = the k-means
 // centres, variances = weighted within-cluster variances per dimension, each + opt.Reg. Each M step
@@ -80,6 +97,28 @@ func (g GMM) LogLik(p Points, resp []float64) float64 {
 // keeps its previous mean and variances. It returns the model, its weighted log-likelihood on p
 // and the number of EM iterations.
 func GMMFit(p Points, init Fit, opt GMMOptions) (GMM, float64, int) {
+	g, ll, _, iters := gmmFit(p, init, opt)
+	return g, ll, iters
+}
+
+// sphericalVars replaces each of the k components' d variances by their mean, then adds reg.
+func sphericalVars(vars []float64, k, d int, reg float64) {
+	for j := 0; j < k; j++ {
+		v := vars[j*d : j*d+d]
+		m := 0.0
+		for _, x := range v {
+			m += x - reg
+		}
+		m = max(0, m/float64(d)) + reg
+		for t := range v {
+			v[t] = m
+		}
+	}
+}
+
+// gmmFit is GMMFit that also returns the weighted entropy of the classification (classEntropy)
+// with the responsibilities of the returned log-likelihood's E step.
+func gmmFit(p Points, init Fit, opt GMMOptions) (GMM, float64, float64, int) {
 	if opt.MaxIter <= 0 {
 		opt.MaxIter = 100
 	}
@@ -112,16 +151,19 @@ func GMMFit(p Points, init Fit, opt GMMOptions) (GMM, float64, int) {
 		}
 		g.Weights[j] /= W
 	}
+	if opt.Spherical {
+		sphericalVars(g.Vars, k, d, opt.Reg)
+	}
 	resp := make([]float64, n*k)
 	nk := make([]float64, k)
 	sums, sq := make([]float64, k*d), make([]float64, k*d)
 	prev := math.Inf(-1)
 	ll := 0.0
 	iters := 0
-	for it := 1; it <= opt.MaxIter; it++ {
+	for it := 1; ; it++ {
 		ll = g.LogLik(p, resp)
 		iters = it
-		if math.Abs(ll-prev) <= opt.Tol*W {
+		if math.Abs(ll-prev) <= opt.Tol*W || it == opt.MaxIter {
 			break
 		}
 		prev = ll
@@ -167,9 +209,12 @@ func GMMFit(p Points, init Fit, opt GMMOptions) (GMM, float64, int) {
 				g.Means[j*d+t] += sh
 				g.Vars[j*d+t] = v + opt.Reg
 			}
+			if opt.Spherical {
+				sphericalVars(g.Vars[j*d:j*d+d], 1, d, opt.Reg)
+			}
 		}
 	}
-	return g, ll, iters
+	return g, ll, classEntropy(p, resp, k), iters
 }
 
 // BIC returns the Bayesian information criterion -2 ln L + p ln n (Schwarz 1978; lower is better).

@@ -111,6 +111,10 @@ type Scores struct {
 	// of the rows (scaled to N rows). Lower is better; it adds to BIC the price of clusters that
 	// overlap, so a cluster that is not bell-shaped is not paid for as several.
 	ICLGMM float64 `json:"icl_gmm"`
+	// MixtureFamily is the covariance model behind LogLikGMM, BICGMM, AICGMM and ICLGMM: full,
+	// or, where the points cannot carry a full one at every k (mixtureLadder), the family of lower
+	// BIC at this k. Empty when no mixture was fitted.
+	MixtureFamily MixtureFamily `json:"mixture_family,omitempty"`
 
 	WardHeight float64 `json:"ward_height"` // cost of the Ward merge from k to k-1 clusters
 	WardJump   float64 `json:"ward_jump"`   // (H(k) - H(k+1)) / H(k+1)
@@ -162,38 +166,39 @@ func (f jsonFloat) MarshalJSON() ([]byte, error) {
 // MarshalJSON writes s with NaN (and infinite) values as null.
 func (s Scores) MarshalJSON() ([]byte, error) {
 	type out struct {
-		K                    int       `json:"k"`
-		Valid                bool      `json:"valid"`
-		WCSS                 jsonFloat `json:"wcss"`
-		Kneedle              jsonFloat `json:"kneedle"`
-		Silhouette           jsonFloat `json:"silhouette"`
-		SilhouetteLo         jsonFloat `json:"silhouette_lo"`
-		SilhouetteHi         jsonFloat `json:"silhouette_hi"`
-		SimplifiedSilhouette jsonFloat `json:"simplified_silhouette"`
-		GapBox               jsonFloat `json:"gap_box"`
-		GapBoxS              jsonFloat `json:"gap_box_s"`
-		GapPCA               jsonFloat `json:"gap_pca"`
-		GapPCAS              jsonFloat `json:"gap_pca_s"`
-		LogW                 jsonFloat `json:"log_w"`
-		LogLikGMM            jsonFloat `json:"loglik_gmm"`
-		BICGMM               jsonFloat `json:"bic_gmm"`
-		AICGMM               jsonFloat `json:"aic_gmm"`
-		BICKMeans            jsonFloat `json:"bic_kmeans"`
-		ICLGMM               jsonFloat `json:"icl_gmm"`
-		WardHeight           jsonFloat `json:"ward_height"`
-		WardJump             jsonFloat `json:"ward_jump"`
-		CalinskiHarabasz     jsonFloat `json:"calinski_harabasz"`
-		DaviesBouldin        jsonFloat `json:"davies_bouldin"`
-		SplitAgreement       jsonFloat `json:"split_agreement"`
-		SplitAgreementPlain  jsonFloat `json:"split_agreement_plain"`
-		ClusterModes         jsonFloat `json:"cluster_modes"`
-		ClusterModesCover    jsonFloat `json:"cluster_modes_cover"`
+		K                    int           `json:"k"`
+		Valid                bool          `json:"valid"`
+		WCSS                 jsonFloat     `json:"wcss"`
+		Kneedle              jsonFloat     `json:"kneedle"`
+		Silhouette           jsonFloat     `json:"silhouette"`
+		SilhouetteLo         jsonFloat     `json:"silhouette_lo"`
+		SilhouetteHi         jsonFloat     `json:"silhouette_hi"`
+		SimplifiedSilhouette jsonFloat     `json:"simplified_silhouette"`
+		GapBox               jsonFloat     `json:"gap_box"`
+		GapBoxS              jsonFloat     `json:"gap_box_s"`
+		GapPCA               jsonFloat     `json:"gap_pca"`
+		GapPCAS              jsonFloat     `json:"gap_pca_s"`
+		LogW                 jsonFloat     `json:"log_w"`
+		LogLikGMM            jsonFloat     `json:"loglik_gmm"`
+		BICGMM               jsonFloat     `json:"bic_gmm"`
+		AICGMM               jsonFloat     `json:"aic_gmm"`
+		BICKMeans            jsonFloat     `json:"bic_kmeans"`
+		ICLGMM               jsonFloat     `json:"icl_gmm"`
+		MixtureFamily        MixtureFamily `json:"mixture_family,omitempty"`
+		WardHeight           jsonFloat     `json:"ward_height"`
+		WardJump             jsonFloat     `json:"ward_jump"`
+		CalinskiHarabasz     jsonFloat     `json:"calinski_harabasz"`
+		DaviesBouldin        jsonFloat     `json:"davies_bouldin"`
+		SplitAgreement       jsonFloat     `json:"split_agreement"`
+		SplitAgreementPlain  jsonFloat     `json:"split_agreement_plain"`
+		ClusterModes         jsonFloat     `json:"cluster_modes"`
+		ClusterModesCover    jsonFloat     `json:"cluster_modes_cover"`
 	}
 	return json.Marshal(out{s.K, s.Valid, jsonFloat(s.WCSS), jsonFloat(s.Kneedle), jsonFloat(s.Silhouette),
 		jsonFloat(s.SilhouetteLo), jsonFloat(s.SilhouetteHi), jsonFloat(s.SimplifiedSilhouette),
 		jsonFloat(s.GapBox), jsonFloat(s.GapBoxS), jsonFloat(s.GapPCA), jsonFloat(s.GapPCAS), jsonFloat(s.LogW),
 		jsonFloat(s.LogLikGMM), jsonFloat(s.BICGMM), jsonFloat(s.AICGMM), jsonFloat(s.BICKMeans),
-		jsonFloat(s.ICLGMM), jsonFloat(s.WardHeight), jsonFloat(s.WardJump), jsonFloat(s.CalinskiHarabasz), jsonFloat(s.DaviesBouldin),
+		jsonFloat(s.ICLGMM), s.MixtureFamily, jsonFloat(s.WardHeight), jsonFloat(s.WardJump), jsonFloat(s.CalinskiHarabasz), jsonFloat(s.DaviesBouldin),
 		jsonFloat(s.SplitAgreement), jsonFloat(s.SplitAgreementPlain), jsonFloat(s.ClusterModes),
 		jsonFloat(s.ClusterModesCover)})
 }

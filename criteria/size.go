@@ -39,10 +39,11 @@ const evaluateFixedBytes = 2 << 20
 //   - the width terms: copies of the d×d covariance, the eigenvectors and the workspace of the
 //     eigen decompositions (principal-component box, whitening);
 //   - the fits of every k (labels of the m points, centres);
-//   - per worker, one k at a time: Lloyd's bounds and labels and the full-covariance mixture at
-//     the largest k it is fitted for (k covariances, their copies and Cholesky factors of d×d,
-//     responsibilities of m points; no k whose mixture has fewer than two of the m points per
-//     parameter is fitted, see mixtureThinAt);
+//   - per worker, one k at a time: Lloyd's bounds and labels, the full-covariance mixture at the
+//     largest k it is fitted for (k covariances, their copies and Cholesky factors of d×d; no k
+//     whose mixture has fewer than two of the m points per parameter is fitted, see
+//     mixtureThinAt) and the responsibilities of m points at the largest k any mixture family is
+//     fitted for (mixtureFamilies);
 //   - the Ward linkage's distance matrix over its leaves (WardLeaves).
 func WorkingBytes(opt Options, m, n, d, workers int) int64 {
 	opt = opt.withDefaults()
@@ -60,8 +61,10 @@ func WorkingBytes(opt Options, m, n, d, workers int) int64 {
 	checks := 2 * c * D * 8
 	width := 6 * D * D * 8
 	fits := nk*M*4 + sumK*D*8
-	km := int64(mixtureTopK(opt.MinK, opt.MaxK, m, d))
-	perWorker := M*(4*8+4) + 3*km*D*D*8 + M*km*8
+	fams := mixtureFamilies(opt.MaxK, math.Inf(1), m, d)
+	kFull := int64(mixtureTopK(opt.MinK, opt.MaxK, m, d, FamilyFull))
+	kAny := int64(mixtureTopK(opt.MinK, opt.MaxK, m, d, fams[len(fams)-1]))
+	perWorker := M*(4*8+4) + 3*kFull*D*D*8 + M*kAny*8
 	leaves := int64(WardLeaves(m, opt.MaxK))
 	ward := leaves * leaves * 8
 	w := int64(max(1, min(workers, int(nk))))
@@ -70,11 +73,11 @@ func WorkingBytes(opt Options, m, n, d, workers int) int64 {
 	return refs + checks + width + max(evaluateFixedBytes, fits+w*perWorker+ward)
 }
 
-// mixtureTopK is the largest k in minK..maxK whose full-covariance mixture Evaluate fits on m
+// mixtureTopK is the largest k in minK..maxK whose mixture of family f Evaluate fits on m
 // coreset points in d dimensions (k = 1 always is).
-func mixtureTopK(minK, maxK, m, d int) int {
+func mixtureTopK(minK, maxK, m, d int, f MixtureFamily) int {
 	top := 1
-	for k := max(2, minK); k <= maxK && !mixtureThinAt(k, math.Inf(1), m, d); k++ {
+	for k := max(2, minK); k <= maxK && !familyThinAt(f, k, math.Inf(1), m, d); k++ {
 		top = k
 	}
 	return top

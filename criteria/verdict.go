@@ -202,18 +202,22 @@ func votes(per []Scores, wardK int, rows float64, points, dims int, opt Options)
 	// not fit the others; stored scores of such k are passed over the same way). Still falling at
 	// the largest of them, with larger valid k passed over, it has found no minimum and has no say.
 	top, lastValid := 0, 0
+	passedOver := func(k int) bool {
+		over, _ := mixturePassedOver(k, opt.MaxK, rows, points, dims)
+		return over
+	}
 	for _, s := range per {
 		if !s.Valid {
 			continue
 		}
 		lastValid = max(lastValid, s.K)
-		if s.K < 2 || !mixtureThinAt(s.K, rows, points, dims) {
+		if !passedOver(s.K) {
 			top = max(top, s.K)
 		}
 	}
 	mixture := func(name string, f func(Scores) float64, note string) {
 		k, _, ok := pick(per, 1, false, func(s Scores) float64 {
-			if s.K >= 2 && mixtureThinAt(s.K, rows, points, dims) {
+			if passedOver(s.K) {
 				return math.NaN()
 			}
 			return f(s)
@@ -224,10 +228,26 @@ func votes(per []Scores, wardK int, rows float64, points, dims int, opt Options)
 		}
 		if ok && k == top && top < lastValid {
 			n, what := seenPoints(rows, points)
+			_, f := mixturePassedOver(k+1, opt.MaxK, rows, points, dims)
 			add(name, 0, false, fmt.Sprintf("no say: best at k = %d, the largest k whose mixture has at least %d of its %.0f %s "+
-				"per parameter (a %d-component one has %d parameters), so a larger k could not be compared",
-				k, rowsPerParamAtK, n, what, k+1, GMMFullParams(k+1, dims)))
+				"per parameter (a %d-component %s one has %d parameters), so a larger k could not be compared",
+				k, rowsPerParamAtK, n, what, k+1, f, f.Params(k+1, dims)))
 			return
+		}
+		// Under the ladder (mixtureFamilies), a minimum the full model gives at the largest k it is
+		// carried at was never compared with a full model at k + 1, only with the spherical one,
+		// which on correlated columns is far worse at every k: no say, as above.
+		if ok && per[k-opt.MinK].MixtureFamily == FamilyFull && k < lastValid && mixtureThinAt(k+1, rows, points, dims) {
+			n, what := seenPoints(rows, points)
+			add(name, 0, false, fmt.Sprintf("no say: best at k = %d with a full-covariance mixture, the largest k whose full mixture has "+
+				"at least %d of its %.0f %s per parameter (a %d-component one has %d parameters); a larger k could only be "+
+				"scored by a spherical one, so it was not compared", k, rowsPerParamAtK, n, what, k+1, GMMFullParams(k+1, dims)))
+			return
+		}
+		if ok {
+			if fam := per[k-opt.MinK].MixtureFamily; fam != "" && fam != FamilyFull {
+				note = strings.Replace(note, "full-covariance", fam.adjective(), 1)
+			}
 		}
 		add(name, k, ok, note)
 	}

@@ -264,14 +264,57 @@ func TestMixturesAgree(t *testing.T) {
 	}
 }
 
+// TestMixtureLadderVotes: under the ladder (5,000 points in 32 dimensions carry a full mixture up
+// to k = 4, GMMFullParams(5, 32) = 2804 needing 5,608), a minimum the full model gives at k = 4
+// was only compared with spherical fits above it and has no say; one the spherical model gives at
+// k = 5 is a vote, and its note names the spherical model; a full minimum below k = 4 is a vote.
+func TestMixtureLadderVotes(t *testing.T) {
+	opt := DefaultOptions()
+	opt.MaxK = 6
+	per := func(best int) []Scores {
+		var out []Scores
+		for k := 1; k <= 6; k++ {
+			s := nanScores(k)
+			s.Valid, s.WCSS, s.BICKMeans = true, 100/float64(k), 0
+			s.BICGMM = math.Abs(float64(k - best))
+			s.AICGMM, s.ICLGMM = s.BICGMM, s.BICGMM
+			s.MixtureFamily = FamilyFull
+			if k >= 5 {
+				s.MixtureFamily = FamilySpherical
+			}
+			out = append(out, s)
+		}
+		return out
+	}
+	for _, tc := range []struct {
+		best int
+		want int    // 0: no say
+		note string // what the note must contain
+	}{
+		{4, 0, "best at k = 4 with a full-covariance mixture"},
+		{5, 5, "spherical Gaussian mixture"},
+		{3, 3, "full-covariance Gaussian mixture"},
+	} {
+		vs := votes(per(tc.best), 0, 1e6, 5000, 32, opt)
+		for _, name := range []string{NameBICGMM, NameAICGMM, NameICLGMM} {
+			v := vs[slices.IndexFunc(vs, func(v Vote) bool { return v.Criterion == name })]
+			if (tc.want == 0) != v.Abstain || (tc.want > 0 && v.K != tc.want) || !strings.Contains(v.Note, tc.note) {
+				t.Errorf("best %d: %s vote %+v, want k = %d (0: no say) and a note with %q", tc.best, name, v, tc.want, tc.note)
+			}
+		}
+	}
+}
+
 // TestMixtureVotesNeedRows: a mixture criterion's k = 1 has no say with fewer than rowsPerParam
 // rows per parameter of a two-component full mixture (GMMFullParams(2, 32) = 1121, so 11,210
-// rows), whatever the coreset holds (the penalty grows with the rows). A k >= 2 whose mixture has
-// fewer than rowsPerParamAtK distinct points per parameter (GMMFullParams(3, 32) = 1682, so 3,364
-// for k = 3; the points are the smaller of the rows and the coreset's points: a million rows
-// summarised by 3,363 coreset points are too few) is passed over, and a best k that is the largest
-// k left, with a larger k in the range, has no say either (nothing larger could be compared).
-// bic_kmeans, not a full mixture, always votes.
+// rows), whatever the coreset holds (the penalty grows with the rows). Where the points (the
+// smaller of the rows and the coreset's points) carry a full mixture at max-k (GMMFullParams(6,
+// 32) = 3365, so 6,730 points) every k is scored by it; below that the diagonal and spherical
+// models are fitted too (mixtureLadder), and a k >= 2 is passed over only where even the
+// spherical one has fewer than rowsPerParamAtK points per parameter (GMMSphericalParams(k, 32) =
+// 34k - 1: 134 points at k = 2, 202 at 3, 270 at 4, 338 at 5). A best k that is the largest k
+// left, with a larger k in the range, has no say (nothing larger could be compared). bic_kmeans,
+// not a mixture, always votes.
 func TestMixtureVotesNeedRows(t *testing.T) {
 	per := func(best int) []Scores {
 		var out []Scores
@@ -294,16 +337,17 @@ func TestMixtureVotesNeedRows(t *testing.T) {
 	}{
 		{1, 11209, 0, 0, "11209 rows are fewer than 10 per parameter"},
 		{1, 11210, 0, 1, ""},
-		{1, 11210, 500, 0, "best at k = 1, the largest k whose mixture"}, // no k >= 2 fits 500 points: nothing to compare
-		{3, 1e6, 0, 3, ""},  // every k fits: the minimum
-		{3, 5000, 0, 3, ""}, // k = 4 (4,486 points) fits, k = 5 (5,608) does not
-		{3, 4000, 0, 0, "best at k = 3, the largest k"},                 // k = 4 does not fit: 3 is the largest
-		{2, 6000, 0, 2, ""},                                             // k = 1..5 fit (5,608 points at 5): 2 is inside
-		{3, 3363, 0, 0, "best at k = 2, the largest k"},                 // k = 3 passed over; 2 is the largest k left
-		{2, 2241, 0, 0, "2241 rows are fewer than 10 per parameter"},    // k = 1's own rule comes first
-		{3, 1e6, 3363, 0, "2 of its 3363 coreset points per parameter"}, // the coreset, not the rows
-		{2, 1e6, 9000, 2, ""},                                           // every k of 1..6 fits 9,000 points
-		{3, 1e6, 2241, 0, "best at k = 1, the largest k whose mixture"}, // no k >= 2 fits
+		{1, 11210, 500, 1, ""}, // the spherical model fits every k on 500 points, and k = 1 has its rows
+		{3, 1e6, 0, 3, ""},     // the full model fits every k: the minimum
+		{3, 5000, 0, 3, ""},    // full thin from k = 5: every k scored by the families it carries
+		{2, 6000, 0, 2, ""},
+		{3, 1e6, 3363, 3, ""}, // the coreset's points decide, not the rows
+		{2, 2241, 0, 2, ""},   // no full mixture at k >= 2, the spherical one at every k
+		{3, 1e6, 300, 3, ""},  // spherical thin from k = 5; 3 is inside the k left
+		{4, 1e6, 300, 0, "best at k = 4, the largest k whose mixture has at least 2 of its 300 coreset points per parameter (a 5-component spherical one has 169 parameters)"},
+		{3, 1e6, 200, 0, "best at k = 2, the largest k"},           // k = 3 (202 points) passed over
+		{3, 1e6, 133, 0, "best at k = 1, the largest k"},           // no k >= 2 fits
+		{3, 133, 0, 0, "133 rows are fewer than 10 per parameter"}, // k = 1 left, and its own rule
 	} {
 		vs := votes(per(tc.best), 0, tc.rows, tc.points, 32, opt)
 		for _, name := range []string{NameBICGMM, NameAICGMM, NameICLGMM} {

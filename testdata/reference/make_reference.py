@@ -18,6 +18,9 @@ For every point set and k it records:
   * the same for GaussianMixture(covariance_type="full") from the same start (covariances =
     within-cluster covariances + 1e-6 I): weights_, means_, covariances_, loglik, bic, aic, and
     the entropy of predict_proba(X) (the term ICL adds to BIC);
+  * the same for GaussianMixture(covariance_type="spherical") from the same start (one variance
+    per component: the mean of its within-cluster variances + 1e-6): weights_, means_,
+    covariances_, loglik, bic, aic and the entropy of predict_proba(X);
   * scipy.cluster.hierarchy.linkage(X, method="ward") merge heights (column 2).
 """
 import argparse
@@ -129,6 +132,21 @@ def main():
                 # Entropy of the soft classification, -sum_i sum_j t_ij ln t_ij (0 ln 0 = 0), the
                 # term ICL adds to BIC twice (Biernacki, Celeux & Govaert 2000).
                 "entropy": float(-sum(t * np.log(t) for t in gf.predict_proba(x).ravel() if t > 0)),
+            }
+            # The same start for the spherical model: one variance per component, the mean of its
+            # per-dimension variances (v0 already holds reg_covar, so the mean does too).
+            gs = GaussianMixture(n_components=k, covariance_type="spherical", reg_covar=1e-6, tol=1e-10,
+                                 max_iter=5000, weights_init=w0, means_init=m0,
+                                 precisions_init=1.0 / v0.mean(axis=1), random_state=0).fit(x)
+            r["gmm_spherical"] = {
+                "weights": gs.weights_.tolist(),
+                "means": gs.means_.ravel().tolist(),
+                "vars": gs.covariances_.ravel().tolist(),
+                "loglik": float(gs.score_samples(x).sum()),
+                "bic": float(gs.bic(x)),
+                "aic": float(gs.aic(x)),
+                "n_iter": int(gs.n_iter_),
+                "entropy": float(-sum(t * np.log(t) for t in gs.predict_proba(x).ravel() if t > 0)),
             }
             rec["per_k"][str(k)] = r
         rec["ward_heights"] = linkage(x, method="ward")[:, 2].tolist()
