@@ -387,10 +387,11 @@ func CalibrationMarkdown(runs []GridRun, w criteria.Weights, command string) str
 		"(`GridRun.Revote`).\n\n")
 	b.WriteString("Stage 1 (one group or several) hears the criteria able to say k = 1, the one-mode check and `shared_k` (at least " +
 		fmt.Sprintf("%d criteria naming one k ≥ 3); `bic_gmm`'s k = 1 has no say when the rows are fewer than ten per parameter "+
-			"of a two-component full-covariance mixture. Where the coreset's points (the run's `points`) carry a full-covariance "+
-			"mixture at max-k (two per parameter), the mixture criteria score every k by it; below that they score each k by "+
-			"the lower BIC of the full and the spherical mixture, each fitted where it has two points per parameter, pass over "+
-			"a k where neither has, and have no say when their minimum is the largest k left.\n\n", criteria.SharedKMin))
+			"of a two-component full-covariance mixture. Where the coreset's points (the run's `points`) are at least ten per "+
+			"parameter of a full-covariance mixture at max-k, the mixture criteria score every k by it; below that they score "+
+			"each k by the lower BIC of the full and the spherical mixture, each fitted where it has two points per parameter, "+
+			"pass over a k where neither has, and have no say when their minimum is the largest k left (or the full model's "+
+			"at the largest k it is fitted for).\n\n", criteria.SharedKMin))
 	b.WriteString("Weights and the calibration table come from the data sets outside the held-out half (a hash of the name); " +
 		"the reliability table below is measured on the held-out half only.\n\n")
 	b.WriteString("## Weights\n\n| voter | stage 1 (one group or several) | stage 2 (which k) |\n| --- | --- | --- |\n")

@@ -5,8 +5,8 @@ import (
 )
 
 // GMM is a Gaussian mixture with diagonal covariances (or spherical ones: GMMOptions.Spherical).
-// Evaluate fits the full-covariance GMMFull, and the spherical model as well where the points
-// cannot carry a full covariance at every k of the range (mixtureLadder); the diagonal model is
+// Evaluate fits the full-covariance GMMFull, and the spherical model as well where the points are
+// too few for a well-determined full covariance at max-k (mixtureLadder); the diagonal model is
 // kept for the accuracy benchmarks (bench/) and its reference checks.
 type GMM struct {
 	K, D    int

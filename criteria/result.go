@@ -112,7 +112,7 @@ type Scores struct {
 	// overlap, so a cluster that is not bell-shaped is not paid for as several.
 	ICLGMM float64 `json:"icl_gmm"`
 	// MixtureFamily is the covariance model behind LogLikGMM, BICGMM, AICGMM and ICLGMM: full,
-	// or, where the points cannot carry a full one at every k (mixtureLadder), the family of lower
+	// or, where the points are few for a full one at max-k (mixtureLadder), the family of lower
 	// BIC at this k. Empty when no mixture was fitted.
 	MixtureFamily MixtureFamily `json:"mixture_family,omitempty"`
 

@@ -308,9 +308,9 @@ func TestMixtureLadderVotes(t *testing.T) {
 // TestMixtureVotesNeedRows: a mixture criterion's k = 1 has no say with fewer than rowsPerParam
 // rows per parameter of a two-component full mixture (GMMFullParams(2, 32) = 1121, so 11,210
 // rows), whatever the coreset holds (the penalty grows with the rows). Where the points (the
-// smaller of the rows and the coreset's points) carry a full mixture at max-k (GMMFullParams(6,
-// 32) = 3365, so 6,730 points) every k is scored by it; below that the diagonal and spherical
-// models are fitted too (mixtureLadder), and a k >= 2 is passed over only where even the
+// smaller of the rows and the coreset's points) are at least ten per parameter of a full mixture
+// at max-k (GMMFullParams(6, 32) = 3365, so 33,650 points) every k is scored by it; below that the
+// spherical model is fitted too (mixtureLadder), and a k >= 2 is passed over only where even the
 // spherical one has fewer than rowsPerParamAtK points per parameter (GMMSphericalParams(k, 32) =
 // 34k - 1: 134 points at k = 2, 202 at 3, 270 at 4, 338 at 5). A best k that is the largest k
 // left, with a larger k in the range, has no say (nothing larger could be compared). bic_kmeans,
