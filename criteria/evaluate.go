@@ -76,8 +76,8 @@ const wardDirectMax = 400
 // Calinski–Harabasz and Davies–Bouldin (on the weighted coreset), a full-covariance GMM fitted by
 // EM from the k-means fit (GMMFullFit; 1e-6 times the mean per-dimension variance added to every
 // covariance's diagonal; at most 100 iterations, tolerance 1e-3 per unit weight; log-likelihood
-// scaled by N / coreset weight less the coreset fit's optimism (fitExcess), BIC/AIC with the real N
-// and p = GMMFullParams; ICL = BIC + 2 × the entropy of the EM's last soft classification, scaled
+// scaled by N / coreset weight less the coreset fit's optimism (fitExcess), BIC and AICc (AIC with
+// the small-sample correction, AICc) with the real N and p = GMMFullParams; ICL = BIC + 2 × the entropy of the EM's last soft classification, scaled
 // alike; where the points are fewer than ten per parameter of a full mixture at opt.MaxK, a
 // spherical one too, each k scored by the one of lower BIC, see mixtureFamilies), and BICKMeans
 // (corrected like the mixture).
@@ -403,7 +403,7 @@ func scoreK(core Points, fit Fit, k int, s Summary, opt Options, scale, excess, 
 		p := f.Params(k, s.D)
 		ll = ll*scale - float64(p)/2*excess
 		if bic := BIC(ll, p, s.N); math.IsNaN(sc.BICGMM) || bic < sc.BICGMM {
-			sc.LogLikGMM, sc.BICGMM, sc.AICGMM = ll, bic, AIC(ll, p)
+			sc.LogLikGMM, sc.BICGMM, sc.AICGMM = ll, bic, AICc(ll, p, s.N)
 			sc.ICLGMM = sc.BICGMM + 2*en*scale
 			sc.MixtureFamily = f
 		}

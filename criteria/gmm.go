@@ -224,3 +224,16 @@ func BIC(loglik float64, params int, n float64) float64 {
 
 // AIC returns the Akaike information criterion -2 ln L + 2 p (Akaike 1974; lower is better).
 func AIC(loglik float64, params int) float64 { return -2*loglik + 2*float64(params) }
+
+// AICc returns AIC with the small-sample correction of Hurvich & Tsai (1989, Biometrika 76:297-307),
+// AIC + 2 p (p + 1) / (n - p - 1) for n rows (Burnham & Anderson 2002 advise it whenever n / p is
+// below about 40; both from memory); +Inf when n <= p + 1. On large inputs it is AIC: the
+// correction is about 2 p² / n. aic_gmm uses it (DEVELOPERS.md, issue 12, tenth round): with few
+// rows per parameter plain AIC runs on to larger k.
+func AICc(loglik float64, params int, n float64) float64 {
+	p := float64(params)
+	if n <= p+1 {
+		return math.Inf(1)
+	}
+	return AIC(loglik, params) + 2*p*(p+1)/(n-p-1)
+}

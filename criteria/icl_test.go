@@ -63,3 +63,26 @@ func TestICLCountsSkewedClustersOnce(t *testing.T) {
 		})
 	}
 }
+
+// TestAICc checks the small-sample correction of Hurvich & Tsai (1989): AIC + 2p(p+1)/(n-p-1),
+// computed here by hand; it is undefined (+Inf) at n <= p + 1 and about 2p²/n on many rows.
+func TestAICc(t *testing.T) {
+	for _, c := range []struct {
+		ll   float64
+		p    int
+		n    float64
+		want float64
+	}{
+		{-100, 10, 50, 220 + 220/39.0},
+		{-100, 47, 125, 294 + 4512/77.0},
+		{-100, 10, 12, 220 + 220},
+		{-100, 10, 11, math.Inf(1)},
+	} {
+		if got := criteria.AICc(c.ll, c.p, c.n); math.Abs(got-c.want) > 1e-12*math.Abs(c.want) && got != c.want {
+			t.Errorf("AICc(%v, %d, %v) = %v, want %v", c.ll, c.p, c.n, got, c.want)
+		}
+	}
+	if d, approx := criteria.AICc(-1e5, 100, 1e6)-criteria.AIC(-1e5, 100), 2*100*100/1e6; d < approx || d > 1.02*approx {
+		t.Errorf("AICc - AIC on 1e6 rows = %v, want about 2p²/n = %v", d, approx)
+	}
+}

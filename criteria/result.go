@@ -104,7 +104,7 @@ type Scores struct {
 
 	LogLikGMM float64 `json:"loglik_gmm"` // scaled to N rows, less the coreset fit's optimism (fitExcess)
 	BICGMM    float64 `json:"bic_gmm"`
-	AICGMM    float64 `json:"aic_gmm"`
+	AICGMM    float64 `json:"aic_gmm"`    // AICc: AIC with the small-sample correction (criteria.AICc)
 	BICKMeans float64 `json:"bic_kmeans"` // -2 l + p ln N, lower is better
 	// ICLGMM is the integrated completed likelihood of the full-covariance mixture (Biernacki,
 	// Celeux & Govaert 2000): BICGMM + 2 EN, EN the entropy of the mixture's soft classification

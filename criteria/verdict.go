@@ -252,7 +252,7 @@ func votes(per []Scores, wardK int, rows float64, points, dims int, opt Options)
 		add(name, k, ok, note)
 	}
 	mixture(NameBICGMM, func(s Scores) float64 { return s.BICGMM }, "min BIC of a full-covariance Gaussian mixture")
-	mixture(NameAICGMM, func(s Scores) float64 { return s.AICGMM }, "min AIC of a full-covariance Gaussian mixture")
+	mixture(NameAICGMM, func(s Scores) float64 { return s.AICGMM }, "min AICc (AIC with the small-sample correction) of a full-covariance Gaussian mixture")
 	k, _, ok = pick(per, 1, false, func(s Scores) float64 { return s.BICKMeans })
 	add(NameBICKMeans, k, ok, "min spherical k-means BIC (per-dimension variance)")
 	mixture(NameICLGMM, func(s Scores) float64 { return s.ICLGMM },

@@ -48,7 +48,7 @@ func SharedK(vs []Vote, minK, maxK int) bool {
 // MixturesAgree returns the k >= 2 that bic_gmm, aic_gmm and icl_gmm all name inside the range
 // minK..maxK (none of them abstaining or still improving at max-k), or 0. The three price the same
 // mixture's likelihood (full-covariance, or spherical where the points are few for a full one at
-// max-k and it has the lower BIC: mixtureFamilies) with penalties from light to heavy: AIC two per parameter,
+// max-k and it has the lower BIC: mixtureFamilies) with penalties from light to heavy: AICc about two per parameter,
 // BIC ln N per parameter, ICL BIC's plus twice the entropy of the soft classification. When all
 // three stop at one k, the choice does not hang on how parameters and overlap are priced. On
 // the benchmark grid that k was right wherever the three met (bench/report/CALIBRATION.md; 26 of
