@@ -105,7 +105,11 @@ func TestBrowserRender(t *testing.T) {
 	}
 
 	shot := filepath.Join(dir, "kgauge-report.png")
-	_, log = runChromium(t, bin, url, "--screenshot="+shot, "--window-size=1280,2400", "--hide-scrollbars")
+	// The virtual-time budget makes headless Chromium finish loading and decoding the plots (data:
+	// URIs) before the capture: without it, on a loaded machine the screenshot was once taken
+	// before they drew (0 plum pixels) while the DOM above held all five.
+	_, log = runChromium(t, bin, url, "--screenshot="+shot, "--window-size=1280,2400", "--hide-scrollbars",
+		"--virtual-time-budget=10000")
 	if bad := consoleLines(log); len(bad) > 0 {
 		t.Errorf("console messages while taking the screenshot:\n%s", strings.Join(bad, "\n"))
 	}
