@@ -518,7 +518,17 @@ func CalibrationMarkdown(runs []GridRun, w criteria.Weights, command string) str
 	}
 	fmt.Fprintf(&b, "\nOf these %d verdicts, %d are flagged unstable (%d of them right); of the %d not flagged, %d are right.\n",
 		tn, flagged, flaggedRight, tn-flagged, plainRight)
-	b.WriteString("\n## Seed stability (seeds 1..10)\n\nA verdict flagged unstable is marked `?`. Issue 12 asks that at least 9 of 10 seeds agree, or that the output say the verdict is unstable: the last column counts the runs that do one or the other.\n\n| data set | true k | verdicts, seeds 1..10 | most common | runs agreeing | runs flagged unstable | agreeing or flagged |\n| --- | --- | --- | --- | --- | --- | --- |\n")
+	b.WriteString("\n## Seed stability (seeds 1..10)\n\n")
+	b.WriteString(seedStabilityTable(runs, w))
+	return b.String()
+}
+
+// seedStabilityTable writes the seed-stability table of the seed runs among runs (GridRun.Stable),
+// voted with w: each data set's verdicts at seeds 1..n, the most common, how many agree with it
+// and how many are flagged unstable.
+func seedStabilityTable(runs []GridRun, w criteria.Weights) string {
+	var b strings.Builder
+	b.WriteString("A verdict flagged unstable is marked `?`. Issue 12 asks that at least 9 of 10 seeds agree, or that the output say the verdict is unstable: the last column counts the runs that do one or the other.\n\n| data set | true k | verdicts, seeds 1..10 | most common | runs agreeing | runs flagged unstable | agreeing or flagged |\n| --- | --- | --- | --- | --- | --- | --- |\n")
 	var sorder []string
 	seen := map[string]bool{}
 	for _, r := range runs {
