@@ -71,6 +71,25 @@ def write_mixtures():
     np.savetxt(os.path.join(HERE, "corr3_5d.csv"), x, delimiter=",", fmt="%.17g")
 
 
+def mixture_record(g, x, cov_key, entropy=True):
+    """The fitted mixture g on x: weights_, means_, covariances_ (under cov_key), the log-likelihood
+    score_samples(x).sum(), bic, aic, n_iter_ and, with entropy, the entropy of the soft
+    classification -sum_i sum_j t_ij ln t_ij (0 ln 0 = 0), the term ICL adds to BIC twice
+    (Biernacki, Celeux & Govaert 2000)."""
+    rec = {
+        "weights": g.weights_.tolist(),
+        "means": g.means_.ravel().tolist(),
+        cov_key: g.covariances_.ravel().tolist(),
+        "loglik": float(g.score_samples(x).sum()),
+        "bic": float(g.bic(x)),
+        "aic": float(g.aic(x)),
+        "n_iter": int(g.n_iter_),
+    }
+    if entropy:
+        rec["entropy"] = float(-sum(t * np.log(t) for t in g.predict_proba(x).ravel() if t > 0))
+    return rec
+
+
 def load(path):
     return np.loadtxt(path, delimiter=",", ndmin=2)
 
@@ -105,15 +124,7 @@ def main():
             gm = GaussianMixture(n_components=k, covariance_type="diag", reg_covar=1e-6, tol=1e-10,
                                  max_iter=5000, weights_init=w0, means_init=m0, precisions_init=1.0 / v0,
                                  random_state=0).fit(x)
-            r["gmm"] = {
-                "weights": gm.weights_.tolist(),
-                "means": gm.means_.ravel().tolist(),
-                "vars": gm.covariances_.ravel().tolist(),
-                "loglik": float(gm.score_samples(x).sum()),
-                "bic": float(gm.bic(x)),
-                "aic": float(gm.aic(x)),
-                "n_iter": int(gm.n_iter_),
-            }
+            r["gmm"] = mixture_record(gm, x, "vars", entropy=False)
             # The same start for the full-covariance model: covariances = within-cluster
             # covariances (ddof 0) + reg_covar on the diagonal.
             c0 = np.array([np.cov(x[lab == j].T, bias=True).reshape(x.shape[1], x.shape[1])
@@ -121,33 +132,13 @@ def main():
             gf = GaussianMixture(n_components=k, covariance_type="full", reg_covar=1e-6, tol=1e-10,
                                  max_iter=5000, weights_init=w0, means_init=m0,
                                  precisions_init=np.linalg.inv(c0), random_state=0).fit(x)
-            r["gmm_full"] = {
-                "weights": gf.weights_.tolist(),
-                "means": gf.means_.ravel().tolist(),
-                "covs": gf.covariances_.ravel().tolist(),
-                "loglik": float(gf.score_samples(x).sum()),
-                "bic": float(gf.bic(x)),
-                "aic": float(gf.aic(x)),
-                "n_iter": int(gf.n_iter_),
-                # Entropy of the soft classification, -sum_i sum_j t_ij ln t_ij (0 ln 0 = 0), the
-                # term ICL adds to BIC twice (Biernacki, Celeux & Govaert 2000).
-                "entropy": float(-sum(t * np.log(t) for t in gf.predict_proba(x).ravel() if t > 0)),
-            }
+            r["gmm_full"] = mixture_record(gf, x, "covs")
             # The same start for the spherical model: one variance per component, the mean of its
             # per-dimension variances (v0 already holds reg_covar, so the mean does too).
             gs = GaussianMixture(n_components=k, covariance_type="spherical", reg_covar=1e-6, tol=1e-10,
                                  max_iter=5000, weights_init=w0, means_init=m0,
                                  precisions_init=1.0 / v0.mean(axis=1), random_state=0).fit(x)
-            r["gmm_spherical"] = {
-                "weights": gs.weights_.tolist(),
-                "means": gs.means_.ravel().tolist(),
-                "vars": gs.covariances_.ravel().tolist(),
-                "loglik": float(gs.score_samples(x).sum()),
-                "bic": float(gs.bic(x)),
-                "aic": float(gs.aic(x)),
-                "n_iter": int(gs.n_iter_),
-                "entropy": float(-sum(t * np.log(t) for t in gs.predict_proba(x).ravel() if t > 0)),
-            }
+            r["gmm_spherical"] = mixture_record(gs, x, "vars")
             rec["per_k"][str(k)] = r
         rec["ward_heights"] = linkage(x, method="ward")[:, 2].tolist()
         out["sets"][name] = rec
