@@ -77,10 +77,10 @@ const wardDirectMax = 400
 // EM from the k-means fit (GMMFullFit; 1e-6 times the mean per-dimension variance added to every
 // covariance's diagonal; at most 100 iterations, tolerance 1e-3 per unit weight; log-likelihood
 // scaled by N / coreset weight less the coreset fit's optimism (fitExcess), BIC and AICc (AIC with
-// the small-sample correction, AICc) with the real N and p = GMMFullParams; ICL = BIC + 2 × the entropy of the EM's last soft classification, scaled
-// alike; where the points are fewer than ten per parameter of a full mixture at opt.MaxK, a
-// spherical one too, each k scored by the one of lower BIC, see mixtureFamilies), and BICKMeans
-// (corrected like the mixture).
+// its small-sample correction) with the real N and p = GMMFullParams; ICL = BIC + 2 × the entropy
+// of the EM's last soft classification, scaled alike; where the points are fewer than ten per
+// parameter of a full mixture at opt.MaxK, a spherical one too, each k scored by the one of lower
+// BIC, see mixtureFamilies), and BICKMeans (corrected like the mixture).
 // The gap statistic uses n = min(opt.GapSample, sample size) points of the uniform sample (a
 // seeded subsample without replacement; if the Summary has no sample, n points drawn from the
 // coreset in proportion to weight) against opt.GapRefs reference sets of n points in the

@@ -54,9 +54,10 @@ func mixtureFamilies(maxK int, rows float64, points, dims int) []MixtureFamily {
 // (c), four clusters in 3 dimensions, a full mixture on 125 rows merged two of them where the
 // spherical one, fitted beside it, does not (48 of 50; 50). Switching it on only where the full
 // model is thin at maxK (two points per parameter) left (b) and (c) at 49 and 47; on every input
-// (with a diagonal candidate too), Unbalance fell to 5 of 10 seeds from 8. A diagonal model as a third candidate gave 137 grid
-// verdicts right against 138 (on a 125-row scenario (d) set it won at k = 3, where the spherical
-// one had 4). It costs the spherical EM at every k: 3% of the criteria stage at 16 columns.
+// (with a diagonal candidate too), Unbalance fell to 5 of 10 seeds from 8. A diagonal model as a
+// third candidate gave 137 grid verdicts right against 138 (on a 125-row scenario (d) set it won
+// at k = 3, where the spherical one had 4). It costs the spherical EM at every k: 3% of the
+// criteria stage at 16 columns.
 func mixtureLadder(maxK int, rows float64, points, dims int) bool {
 	n, _ := seenPoints(rows, points)
 	return maxK >= 2 && n < rowsPerParam*float64(GMMFullParams(maxK, dims))

@@ -94,8 +94,10 @@ func (g GMM) ClassEntropy(p Points) float64 {
 // 1977) started from a k-means solution: weights = cluster weight shares, means = the k-means
 // centres, variances = weighted within-cluster variances per dimension, each + opt.Reg. Each M step
 // uses weighted responsibilities w_i r_ij; a component whose weight falls below 1e-12 of the total
-// keeps its previous mean and variances. It returns the model, its weighted log-likelihood on p
-// and the number of EM iterations.
+// keeps its previous mean and variances (with opt.Spherical, each component's variances are set to
+// their mean after every M step). EM stops when the log-likelihood per unit weight changes by at
+// most opt.Tol or at the opt.MaxIter-th E step. It returns the model, its weighted log-likelihood
+// on p (of that model: the last E step's) and the number of EM iterations.
 func GMMFit(p Points, init Fit, opt GMMOptions) (GMM, float64, int) {
 	g, ll, _, iters := gmmFit(p, init, opt)
 	return g, ll, iters
