@@ -230,7 +230,7 @@ func AIC(loglik float64, params int) float64 { return -2*loglik + 2*float64(para
 // AICc returns AIC with the small-sample correction of Hurvich & Tsai (1989, Biometrika 76:297-307),
 // AIC + 2 p (p + 1) / (n - p - 1) for n rows (Burnham & Anderson 2002 advise it whenever n / p is
 // below about 40; both from memory); +Inf when n <= p + 1. On large inputs it is AIC: the
-// correction is about 2 p² / n. aic_gmm uses it (DEVELOPERS.md, issue 12, tenth round): with few
+// correction is about 2 p² / n. aic_gmm uses it (DEVELOPERS.md, issue 12, eleventh round): with few
 // rows per parameter plain AIC runs on to larger k.
 func AICc(loglik float64, params int, n float64) float64 {
 	p := float64(params)
