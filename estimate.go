@@ -123,7 +123,7 @@ func Evaluate(ctx context.Context, sk *sketch.Sketch, opt Options) (*Result, err
 		Agree: cr.Verdict.Agree, Disagree: cr.Verdict.Disagree, Rule: cr.Verdict.Rule,
 		Confidence: cr.Verdict.Confidence, Unstable: cr.Verdict.Unstable, Alternatives: cr.Verdict.Alternatives,
 		Why: cr.Verdict.Why, WhyRunnerUp: cr.Verdict.WhyRunner, OneMode: cr.Modes, FarRows: cr.Far,
-		Skewed: skewedColumns(sk, opt.Scale),
+		Skewed: skewedColumns(sk, sc),
 		Votes:  map[string]*int{}, VoteList: cr.Votes, PerK: cr.PerK,
 		Rows: sk.Rows(), SkippedRows: sk.Meta.SkippedRows, ProbeRows: sk.Meta.ProbeRows,
 		Columns: sk.Columns(), Ignored: []IgnoredColumn{}, Files: []FileInfo{}, Tables: []TableInfo{},

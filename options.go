@@ -18,15 +18,18 @@ const (
 	Range  Scale = "range"  // (x − min) / (max − min); a constant column is only shifted
 	Raw    Scale = "none"   // the data's own units
 	Log    Scale = "log"    // (ln x − mean ln x) / sd ln x, every value must be > 0 (skew.go)
+	// Auto is zscore, except that a positive right-skewed column whose logarithm is close to
+	// symmetric is taken as Log takes it (skew.go, autoLogs).
+	Auto Scale = "auto"
 )
 
 // ParseScale turns a flag value into a Scale.
 func ParseScale(s string) (Scale, error) {
 	switch Scale(s) {
-	case ZScore, Range, Raw, Log:
+	case ZScore, Range, Raw, Log, Auto:
 		return Scale(s), nil
 	}
-	return "", fmt.Errorf("unknown scale %q (want zscore, range, log or none)", s)
+	return "", fmt.Errorf("unknown scale %q (want auto, zscore, range, log or none)", s)
 }
 
 // Defaults for [Options].
@@ -72,7 +75,7 @@ type Options struct {
 
 // DefaultOptions returns the options used for zero fields.
 func DefaultOptions() Options {
-	return Options{Scale: ZScore, Workers: runtime.NumCPU(), BatchRows: DefaultBatchRows,
+	return Options{Scale: Auto, Workers: runtime.NumCPU(), BatchRows: DefaultBatchRows,
 		ProbeRows: DefaultProbeRows, ProbeUnits: DefaultProbeUnits,
 		Sketch: sketch.Config{CoresetSize: sketch.DefaultCoresetSize, SampleSize: sketch.DefaultSampleSize,
 			MiniBatchSize: sketch.DefaultMiniBatchSize, MiniBatchRows: sketch.DefaultMiniBatchRows},

@@ -4,25 +4,32 @@ import (
 	"math"
 	"slices"
 
+	"gonum.org/v1/gonum/mat"
+	"gonum.org/v1/gonum/stat"
+
 	"github.com/kgauge/kgauge/criteria"
 	"github.com/kgauge/kgauge/internal/kmeans"
 	"github.com/kgauge/kgauge/sketch"
 	"github.com/kgauge/kgauge/sketch/reduce"
 )
 
-// Scaling is the affine map applied to every feature before the criteria: z = (x − Center) / Spread.
+// Scaling is the map applied to every feature before the criteria: z = (x − Center) / Spread, or
+// z = (ln x − Center) / Spread for a column marked in Logged.
 type Scaling struct {
 	Method Scale     `json:"method"`
 	Center []float64 `json:"center"`
 	Spread []float64 `json:"spread"`
-	Log    bool      `json:"log,omitempty"` // z = (ln x − Center) / Spread (--scale log)
+	// Logged marks the columns whose logarithm is taken first: every column under --scale log,
+	// the positive right-skewed ones with a near-symmetric logarithm under auto; nil when none.
+	Logged []bool `json:"logged,omitempty"`
 }
 
-// scalingOf computes the scaling from the exact statistics of the whole sketch.
+// logs reports whether column j is taken as its logarithm.
+func (sc Scaling) logs(j int) bool { return sc.Logged != nil && sc.Logged[j] }
+
+// scalingOf computes the scaling from the exact statistics of the whole sketch (and, for the
+// logarithmic columns, from its uniform sample).
 func scalingOf(sk *sketch.Sketch, method Scale) Scaling {
-	if method == Log {
-		return logScaling(sk)
-	}
 	m := sk.Moments()
 	d := sk.Dims()
 	sc := Scaling{Method: method, Center: make([]float64, d), Spread: make([]float64, d)}
@@ -30,7 +37,7 @@ func scalingOf(sk *sketch.Sketch, method Scale) Scaling {
 	std := m.StdTo(nil)
 	for j := range d {
 		switch method {
-		case ZScore:
+		case ZScore, Auto, Log:
 			sc.Center[j], sc.Spread[j] = mean[j], std[j]
 		case Range:
 			sc.Center[j], sc.Spread[j] = m.Min[j], m.Max[j]-m.Min[j]
@@ -46,6 +53,16 @@ func scalingOf(sk *sketch.Sketch, method Scale) Scaling {
 			sc.Spread[j] = 1
 		}
 	}
+	switch method {
+	case Log:
+		all := make([]bool, d)
+		for j := range all {
+			all[j] = true
+		}
+		return logColumns(sk, sc, all)
+	case Auto:
+		return logColumns(sk, sc, autoLogs(sk))
+	}
 	return sc
 }
 
@@ -57,7 +74,7 @@ func (sc Scaling) apply(x []float64) []float64 {
 	out := make([]float64, len(x))
 	for i, v := range x {
 		j := i % d
-		if sc.Log {
+		if sc.logs(j) {
 			v = math.Log(v)
 		}
 		z := (v - sc.Center[j]) / sc.Spread[j]
@@ -80,23 +97,22 @@ func Summarize(sk *sketch.Sketch, method Scale) (criteria.Summary, Scaling) {
 	cross := sk.Cross()
 	s := criteria.Summary{D: d, N: float64(m.N), Seeds: map[int][]float64{}}
 	s.Mean = sc.apply(m.MeanTo(nil))
-	if sc.Log {
-		s.Mean = make([]float64, d) // Center is the mean of ln x (sample estimate)
+	for j := range d {
+		if sc.logs(j) {
+			s.Mean[j] = 0 // Center is the mean of ln x (sample estimate)
+		}
 	}
 	s.Min = sc.apply(m.Min)
 	s.Max = sc.apply(m.Max)
 	// The covariance in the moments' power-of-two units, divided by the spreads in the same units:
 	// the same numbers as raw covariance ÷ spreads, bit for bit, without overflowing for columns
-	// of magnitude 1e160 and more. Under --scale log it is the sample's covariance of ln x, whose
-	// unit is 1.
+	// of magnitude 1e160 and more. When a column is taken as its logarithm, it is the uniform
+	// sample's covariance in the scaled space (the pass keeps no cross-products of ln x).
 	s.Cov = cross.UnitCovTo(nil)
 	unit := cross.Unit
-	if sc.Log {
-		s.Cov = logCov(sk.Sample(), sc)
-		unit = make([]float64, d)
-		for j := range unit {
-			unit[j] = 1
-		}
+	if sc.Logged != nil {
+		s.Cov = sampleCov(sc.apply(sk.Sample()), d)
+		unit = slices.Clone(sc.Spread)
 	} else if cross.N < 2 {
 		// Too few sampled rows for cross-products: fall back to the exact diagonal.
 		clear(s.Cov)
@@ -121,6 +137,24 @@ func Summarize(sk *sketch.Sketch, method Scale) (criteria.Summary, Scaling) {
 		}
 	}
 	return s, sc
+}
+
+// sampleCov returns the covariance (divided by n, as the sketch's cross-products are) of the n×d
+// rows of z.
+func sampleCov(z []float64, d int) []float64 {
+	n := len(z) / d
+	if n < 2 {
+		return make([]float64, d*d)
+	}
+	var cov mat.SymDense
+	stat.CovarianceMatrix(&cov, mat.NewDense(n, d, z), nil)
+	out := make([]float64, d*d)
+	for a := range d {
+		for b := range d {
+			out[a*d+b] = cov.At(a, b) * float64(n-1) / float64(n)
+		}
+	}
+	return out
 }
 
 // ReduceWide maps the summary of an input wider than the reduction threshold onto its leading

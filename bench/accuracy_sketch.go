@@ -25,12 +25,26 @@ type sketchSpec struct {
 	Coreset, Sample int
 	MinK, MaxK      int
 	Seed            uint64
+	Scale           kgauge.Scale // kgauge's default when empty
 }
 
-// summaryOf feeds the raw rows of w to a sketch the way kgauge's pass does (a probe of random rows
-// fixes the weighting scale and the mini-batch starting centres, then every row once, in units)
-// and returns kgauge.Summarize's z-scored summary.
+// summaryOf returns kgauge.Summarize's summary of w's sketch (sketchOf), scaled as spec.Scale says.
 func summaryOf(w *Workload, spec sketchSpec) (criteria.Summary, error) {
+	sk, err := sketchOf(w, spec)
+	if err != nil {
+		return criteria.Summary{}, err
+	}
+	scale := spec.Scale
+	if scale == "" {
+		scale = kgauge.DefaultOptions().Scale
+	}
+	s, _ := kgauge.Summarize(sk, scale)
+	return s, nil
+}
+
+// sketchOf feeds the raw rows of w to a sketch the way kgauge's pass does (a probe of random rows
+// fixes the weighting scale and the mini-batch starting centres, then every row once, in units).
+func sketchOf(w *Workload, spec sketchSpec) (*sketch.Sketch, error) {
 	d, n := w.D, w.N
 	rng := rand.New(rand.NewPCG(spec.Seed, 0x70726f6265))
 	pn := min(n, probeRows)
@@ -69,14 +83,13 @@ func summaryOf(w *Workload, spec sketchSpec) (criteria.Summary, error) {
 		SampleSize: spec.Sample, ExpectedRows: int64(n), Seed: spec.Seed}
 	sk, err := sketch.New(cfg, p)
 	if err != nil {
-		return criteria.Summary{}, err
+		return nil, err
 	}
 	for u, off := 0, 0; off < n; u, off = u+1, off+unitRows {
 		sk.BeginUnit(u)
 		sk.Add(w.X[off*d : min(n, off+unitRows)*d])
 	}
-	s, _ := kgauge.Summarize(sk, kgauge.ZScore)
-	return s, nil
+	return sk, nil
 }
 
 // uniformData returns the summary's uniform sample with every point weighted N/m, so that sums

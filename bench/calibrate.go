@@ -375,7 +375,7 @@ func CalibrationMarkdown(runs []GridRun, w criteria.Weights, command string) str
 	var b strings.Builder
 	fmt.Fprintf(&b, "# The vote's weights and calibration (issue 12)\n\nMade by `%s` (grid runs saved in "+
 		"`bench/report/grid.json`; weights written to `criteria/weights.json`, embedded in the binary).\n\n", command)
-	b.WriteString("Every run goes through the CLI's path (probe, sketch in 65,536-row units, `kgauge.Summarize` with z-scores, " +
+	b.WriteString("Every run goes through the CLI's path (probe, sketch in 65,536-row units, `kgauge.Summarize` with the default scaling (`auto`: z-scores, the logarithm of a positive right-skewed column whose logarithm is near symmetric), " +
 		"`criteria.Evaluate`), with a coreset of 2,000 points (the sample keeps its default 4,096) to keep the grid near 10 minutes " +
 		"on two shared cores. Data sets: the five Tibshirani, Walther & Hastie (2001) scenarios (10 realizations each), Fränti S1–S4, " +
 		"A1, DIM032, DIM064, Unbalance and Ruspini (testdata/refsets), 37 generated mixture designs in two realizations each " +

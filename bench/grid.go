@@ -11,6 +11,7 @@ import (
 	"path/filepath"
 	"time"
 
+	"github.com/kgauge/kgauge"
 	"github.com/kgauge/kgauge/bench/synth"
 	"github.com/kgauge/kgauge/criteria"
 )
@@ -35,6 +36,7 @@ type GridConfig struct {
 	Seed      uint64
 	MaxK      int // --max-k of every run, raised to k+5 where the true k needs it
 	QuickName string
+	Scale     kgauge.Scale // the scaling of every run; kgauge's default when empty
 }
 
 // FullGrid is the committed grid (bench/report/CALIBRATION.md).
@@ -309,7 +311,7 @@ func RunGrid(ctx context.Context, cfg GridConfig, log io.Writer) ([]GridRun, err
 	err = parallel(ctx, len(jobs), cfg.Workers, func(i int) {
 		j := jobs[i]
 		t0 := time.Now()
-		s, err := summaryOf(j.c.w, sketchSpec{Coreset: cfg.Coreset, Sample: 4096, MinK: 1, MaxK: j.c.maxK, Seed: j.seed})
+		s, err := summaryOf(j.c.w, sketchSpec{Coreset: cfg.Coreset, Sample: 4096, MinK: 1, MaxK: j.c.maxK, Seed: j.seed, Scale: cfg.Scale})
 		if err != nil {
 			errs[i] = err
 			return

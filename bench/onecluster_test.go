@@ -11,7 +11,7 @@ import (
 
 // TestOneClusterShapesSayOne is issue 12's "no false structure": data with one cluster, however
 // correlated, skewed or heavy-tailed, gives k = 1 with structure false, through the CLI's path
-// (probe, sketch, kgauge.Summarize with z-scores, criteria.Evaluate). Property test with invented
+// (probe, sketch, kgauge.Summarize with the default scaling, criteria.Evaluate). Property test with invented
 // data (synth.OneCluster), plus the null scenario (a) of Tibshirani, Walther & Hastie (2001).
 func TestOneClusterShapesSayOne(t *testing.T) {
 	type shape struct {

@@ -5,13 +5,15 @@ import (
 	"math"
 	"math/rand/v2"
 	"path/filepath"
+	"slices"
 	"strings"
 	"testing"
 )
 
-// TestScaleLog checks --scale log end to end on invented data: right-skewed positive columns are
-// reported and log-scaled; a column holding a value <= 0 is refused with exit code 3 and a
-// one-line error naming it.
+// TestScaleLog checks --scale log and auto end to end on invented data: right-skewed positive
+// columns are reported, and log-scaled by both (a log-normal column's logarithm is symmetric); a
+// column holding a value <= 0 is refused by --scale log with exit code 3 and a one-line error
+// naming it.
 func TestScaleLog(t *testing.T) {
 	dir := t.TempDir()
 	rng := rand.New(rand.NewPCG(4, 2))
@@ -23,7 +25,7 @@ func TestScaleLog(t *testing.T) {
 
 	for _, tc := range []struct {
 		scale, action string
-	}{{"zscore", "--scale log would take logarithms first"}, {"log", "log-scaled"}} {
+	}{{"zscore", "--scale log would take logarithms first"}, {"log", "log-scaled"}, {"auto", "log-scaled: its logarithm is close to symmetric"}} {
 		code, out, errOut := run(t, "estimate", "--json", "--quiet", "--max-k", "6", "--scale", tc.scale, pos)
 		if code != 0 {
 			t.Fatalf("--scale %s: exit %d: %s", tc.scale, code, errOut)
@@ -36,7 +38,7 @@ func TestScaleLog(t *testing.T) {
 			} `json:"skewed_columns"`
 			Scaling struct {
 				Method string `json:"method"`
-				Log    bool   `json:"log"`
+				Logged []bool `json:"logged"`
 			} `json:"scaling"`
 		}
 		if err := json.Unmarshal([]byte(out), &res); err != nil {
@@ -48,7 +50,11 @@ func TestScaleLog(t *testing.T) {
 			!strings.Contains(res.Skewed[0].Action, tc.action) {
 			t.Errorf("--scale %s: skewed columns %+v, want x and y with action %q", tc.scale, res.Skewed, tc.action)
 		}
-		if res.Scaling.Method != tc.scale || res.Scaling.Log != (tc.scale == "log") {
+		logged := []bool{true, true}
+		if tc.scale == "zscore" {
+			logged = nil
+		}
+		if res.Scaling.Method != tc.scale || !slices.Equal(res.Scaling.Logged, logged) {
 			t.Errorf("--scale %s: scaling %+v", tc.scale, res.Scaling)
 		}
 	}
@@ -59,5 +65,26 @@ func TestScaleLog(t *testing.T) {
 	code, _, errOut := run(t, "estimate", "--quiet", "--max-k", "6", "--scale", "log", zero)
 	if code != 3 || !strings.Contains(errOut, `column "y"`) || strings.Count(strings.TrimSpace(errOut), "\n") != 0 {
 		t.Errorf("--scale log with a zero: exit %d, stderr %q; want 3 and one line naming column y", code, errOut)
+	}
+	// --scale auto takes what it can: x's logarithm, y as it is.
+	code, out, errOut := run(t, "estimate", "--json", "--quiet", "--max-k", "6", "--scale", "auto", zero)
+	if code != 0 {
+		t.Fatalf("--scale auto with a zero: exit %d: %s", code, errOut)
+	}
+	var res struct {
+		Skewed []struct {
+			Name   string `json:"name"`
+			Action string `json:"action"`
+		} `json:"skewed_columns"`
+		Scaling struct {
+			Logged []bool `json:"logged"`
+		} `json:"scaling"`
+	}
+	if err := json.Unmarshal([]byte(out), &res); err != nil {
+		t.Fatal(err)
+	}
+	if !slices.Equal(res.Scaling.Logged, []bool{true, false}) || len(res.Skewed) != 2 ||
+		!strings.Contains(res.Skewed[1].Action, "values <= 0") {
+		t.Errorf("--scale auto with a zero in y: logged %v, skewed %+v; want x logged, y not, and said why", res.Scaling.Logged, res.Skewed)
 	}
 }

@@ -60,7 +60,7 @@ func (d *Data) Register(fs *flag.FlagSet) {
 	d.fs = fs
 	o := &d.Opt
 	fs.StringVar(&d.columns, "columns", "", "comma-separated feature columns (default: every numeric column)")
-	fs.StringVar(&d.scale, "scale", string(o.Scale), "feature scaling: zscore, range, log (logarithm, then z-score; every value > 0) or none")
+	fs.StringVar(&d.scale, "scale", string(o.Scale), "feature scaling: auto (z-score; a positive right-skewed column whose logarithm is near symmetric is log-scaled), zscore, range, log (logarithm of every column, then z-score; every value > 0) or none")
 	fs.IntVar(&o.Criteria.MinK, "min-k", o.Criteria.MinK, "smallest k to score")
 	fs.IntVar(&o.Criteria.MaxK, "max-k", o.Criteria.MaxK, "largest k to score")
 	fs.Uint64Var(&o.Seed, "seed", o.Seed, "seed of every random choice; the same input, flags and seed give the same result")
