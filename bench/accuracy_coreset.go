@@ -94,7 +94,7 @@ func runCoreset(ctx context.Context, cfg AccuracyConfig, res *Accuracy, log io.W
 		err := parallel(ctx, len(cells), cfg.Workers, func(i int) {
 			c := cells[i]
 			s, err := summaryOf(w, sketchSpec{Coreset: c.m, Sample: c.m, MinK: w.K, MaxK: w.K,
-				Seed: seedOf(11, uint64(wi), uint64(c.m), uint64(c.rep))})
+				Seed: seedOf(11, uint64(wi), uint64(c.m), uint64(c.rep)), Scale: exactScale})
 			if err != nil {
 				errs[i] = err
 				return

@@ -121,7 +121,7 @@ func runSilhouette(ctx context.Context, cfg AccuracyConfig, res *Accuracy, log i
 			series := fmt.Sprintf("coreset m=%d", cfg.SilCoreset)
 			for r := range cfg.SilCoreReps {
 				s, err := summaryOf(w, sketchSpec{Coreset: cfg.SilCoreset, Sample: 2, MinK: w.K, MaxK: w.K,
-					Seed: seedOf(2, uint64(wi), uint64(r))})
+					Seed: seedOf(2, uint64(wi), uint64(r)), Scale: exactScale})
 				if err != nil {
 					return err
 				}

@@ -28,6 +28,10 @@ type sketchSpec struct {
 	Scale           kgauge.Scale // kgauge's default when empty
 }
 
+// exactScale is the scaling of the accuracy report's sketches: z-scores, as its exact side takes
+// every row (Workload.Z), so that the two differ by the sketch alone.
+const exactScale = kgauge.ZScore
+
 // summaryOf returns kgauge.Summarize's summary of w's sketch (sketchOf), scaled as spec.Scale says.
 func summaryOf(w *Workload, spec sketchSpec) (criteria.Summary, error) {
 	sk, err := sketchOf(w, spec)

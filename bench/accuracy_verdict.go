@@ -63,7 +63,7 @@ func runVerdict(ctx context.Context, cfg AccuracyConfig, res *Accuracy, log io.W
 			c := cells[i]
 			seed := seedOf(30, uint64(wi), uint64(c.m), uint64(c.rep))
 			s, err := summaryOf(w, sketchSpec{Coreset: c.m, Sample: sketch.DefaultSampleSize, MinK: opt.MinK,
-				MaxK: opt.MaxK, Seed: seed})
+				MaxK: opt.MaxK, Seed: seed, Scale: exactScale})
 			if err != nil {
 				errs[i] = err
 				return

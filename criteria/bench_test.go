@@ -81,3 +81,22 @@ func BenchmarkGMMFit(b *testing.B) {
 		})
 	}
 }
+
+// BenchmarkStudentTFit is the one Student t Evaluate fits at k = 1 (20 iterations at most,
+// tolerance 1e-3 per unit weight, as the mixtures), on 16,384 points at the widths of
+// BenchmarkCriteriaStage.
+func BenchmarkStudentTFit(b *testing.B) {
+	for _, d := range []int{16, 40, 64} {
+		p := mixture(2, 16384, d, 8, 6)
+		b.Run(fmt.Sprintf("d=%d", d), func(b *testing.B) {
+			it := 0
+			for b.Loop() {
+				var err error
+				if _, _, it, err = criteria.StudentTFit(p, criteria.GMMOptions{Reg: 1e-6, MaxIter: 20, Tol: 1e-3}); err != nil {
+					b.Fatal(err)
+				}
+			}
+			b.ReportMetric(float64(it), "em-iters")
+		})
+	}
+}

@@ -80,7 +80,9 @@ const wardDirectMax = 400
 // its small-sample correction) with the real N and p = GMMFullParams; ICL = BIC + 2 × the entropy
 // of the EM's last soft classification, scaled alike; where the points are fewer than ten per
 // parameter of a full mixture at opt.MaxK, a spherical one too, each k scored by the one of lower
-// BIC, see mixtureFamilies), and BICKMeans (corrected like the mixture).
+// BIC, see mixtureFamilies), and BICKMeans (corrected like the mixture). At k = 1 it also fits one
+// multivariate Student t by ECME (StudentTFit, the same bounds), scored like the mixtures
+// (BICStudentT).
 // The gap statistic uses n = min(opt.GapSample, sample size) points of the uniform sample (a
 // seeded subsample without replacement; if the Summary has no sample, n points drawn from the
 // coreset in proportion to weight) against opt.GapRefs reference sets of n points in the
@@ -96,7 +98,8 @@ const wardDirectMax = 400
 // davies_bouldin = argmin over k >= 2; gap_box and gap_pca = GapRule; bic_kmeans = argmin over
 // all k; bic_gmm, aic_gmm and icl_gmm = argmin over the k whose mixture (of a family they compare) has at
 // least two of the coreset's points per parameter (the mixture is fitted for those k only, and a
-// minimum at the largest of them, with larger k in the range, has no say); ward = the largest relative jump of the merge costs (see
+// minimum at the largest of them, with larger k in the range, has no say; bic_gmm's k >= 2 gives way
+// to k = 1 when BICStudentT is lower, heavyTailedOne); ward = the largest relative jump of the merge costs (see
 // wardVote); split_agreement = splitVote on whitened halves of the sample; the one-mode check
 // (modeCheck) runs once; the verdict combines them (Decide in vote.go), and FarRows is measured on the
 // verdict's fit.
@@ -406,6 +409,12 @@ func scoreK(core Points, fit Fit, k int, s Summary, opt Options, scale, excess, 
 			sc.LogLikGMM, sc.BICGMM, sc.AICGMM = ll, bic, AICc(ll, p, s.N)
 			sc.ICLGMM = sc.BICGMM + 2*en*scale
 			sc.MixtureFamily = f
+		}
+	}
+	if k == 1 {
+		if _, ll, _, err := StudentTFit(core, GMMOptions{Reg: reg, MaxIter: gmmMaxIter, Tol: gmmTol}); err == nil {
+			p := StudentTParams(s.D)
+			sc.BICStudentT = BIC(ll*scale-float64(p)/2*excess, p, s.N)
 		}
 	}
 	sizes := make([]float64, k)

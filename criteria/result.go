@@ -115,6 +115,10 @@ type Scores struct {
 	// or, where the points are few for a full one at max-k (mixtureLadder), the family of lower
 	// BIC at this k. Empty when no mixture was fitted.
 	MixtureFamily MixtureFamily `json:"mixture_family,omitempty"`
+	// BICStudentT is the BIC of one multivariate Student t group (StudentTFit, scaled and corrected
+	// as LogLikGMM is), at k = 1 only (NaN elsewhere): bic_gmm's k >= 2 gives way to one group
+	// when this is lower (a heavy-tailed cloud, not several groups).
+	BICStudentT float64 `json:"bic_student_t"`
 
 	WardHeight float64 `json:"ward_height"` // cost of the Ward merge from k to k-1 clusters
 	WardJump   float64 `json:"ward_jump"`   // (H(k) - H(k+1)) / H(k+1)
@@ -137,7 +141,7 @@ func nanScores(k int) Scores {
 	n := math.NaN()
 	return Scores{K: k, WCSS: n, Kneedle: n, Silhouette: n, SilhouetteLo: n, SilhouetteHi: n,
 		SimplifiedSilhouette: n, GapBox: n, GapBoxS: n, GapPCA: n, GapPCAS: n, LogW: n, LogLikGMM: n,
-		BICGMM: n, AICGMM: n, BICKMeans: n, ICLGMM: n, WardHeight: n, WardJump: n, CalinskiHarabasz: n, DaviesBouldin: n,
+		BICGMM: n, AICGMM: n, BICKMeans: n, ICLGMM: n, BICStudentT: n, WardHeight: n, WardJump: n, CalinskiHarabasz: n, DaviesBouldin: n,
 		SplitAgreement: n, SplitAgreementPlain: n, ClusterModes: n, ClusterModesCover: n}
 }
 
@@ -185,6 +189,7 @@ func (s Scores) MarshalJSON() ([]byte, error) {
 		BICKMeans            jsonFloat     `json:"bic_kmeans"`
 		ICLGMM               jsonFloat     `json:"icl_gmm"`
 		MixtureFamily        MixtureFamily `json:"mixture_family,omitempty"`
+		BICStudentT          jsonFloat     `json:"bic_student_t"`
 		WardHeight           jsonFloat     `json:"ward_height"`
 		WardJump             jsonFloat     `json:"ward_jump"`
 		CalinskiHarabasz     jsonFloat     `json:"calinski_harabasz"`
@@ -198,7 +203,7 @@ func (s Scores) MarshalJSON() ([]byte, error) {
 		jsonFloat(s.SilhouetteLo), jsonFloat(s.SilhouetteHi), jsonFloat(s.SimplifiedSilhouette),
 		jsonFloat(s.GapBox), jsonFloat(s.GapBoxS), jsonFloat(s.GapPCA), jsonFloat(s.GapPCAS), jsonFloat(s.LogW),
 		jsonFloat(s.LogLikGMM), jsonFloat(s.BICGMM), jsonFloat(s.AICGMM), jsonFloat(s.BICKMeans),
-		jsonFloat(s.ICLGMM), s.MixtureFamily, jsonFloat(s.WardHeight), jsonFloat(s.WardJump), jsonFloat(s.CalinskiHarabasz), jsonFloat(s.DaviesBouldin),
+		jsonFloat(s.ICLGMM), s.MixtureFamily, jsonFloat(s.BICStudentT), jsonFloat(s.WardHeight), jsonFloat(s.WardJump), jsonFloat(s.CalinskiHarabasz), jsonFloat(s.DaviesBouldin),
 		jsonFloat(s.SplitAgreement), jsonFloat(s.SplitAgreementPlain), jsonFloat(s.ClusterModes),
 		jsonFloat(s.ClusterModesCover)})
 }

@@ -113,6 +113,24 @@ func seenPoints(rows float64, points int) (n float64, what string) {
 	return rows, "rows"
 }
 
+// heavyTailedOne turns bic_gmm's vote v for a k >= 2 into k = 1 when one multivariate Student t
+// has a lower BIC than v's mixture: a cloud with heavy tails is a scale mixture of Gaussians with
+// one centre, which a Gaussian mixture imitates with components around it (McLachlan & Peel 2000,
+// ch. 7, from memory), so its components are no evidence of groups. Where bic_gmm's own k = 1
+// would have no say (bicOneUnsupported: one group wins on its penalty alone), neither has this.
+func heavyTailedOne(v *Vote, per []Scores, minK int, rows float64, dims int) {
+	if v.Abstain || v.K < 2 || minK > 1 || bicOneUnsupported(rows, dims) {
+		return
+	}
+	t, g := per[1-minK].BICStudentT, per[v.K-minK].BICGMM
+	if !(t < g) {
+		return
+	}
+	v.Note = fmt.Sprintf("one heavy-tailed group: a single Student t fits better (BIC %.6g) than the best Gaussian mixture "+
+		"(k = %d, BIC %.6g), whose components only imitate its tails", t, v.K, g)
+	v.K = 1
+}
+
 // votes turns the per-k scores into one vote per criterion (CriterionNames order).
 func votes(per []Scores, wardK int, rows float64, points, dims int, opt Options) []Vote {
 	var out []Vote
@@ -252,6 +270,7 @@ func votes(per []Scores, wardK int, rows float64, points, dims int, opt Options)
 		add(name, k, ok, note)
 	}
 	mixture(NameBICGMM, func(s Scores) float64 { return s.BICGMM }, "min BIC of a full-covariance Gaussian mixture")
+	heavyTailedOne(&out[len(out)-1], per, opt.MinK, rows, dims)
 	mixture(NameAICGMM, func(s Scores) float64 { return s.AICGMM }, "min AICc (AIC with the small-sample correction) of a full-covariance Gaussian mixture")
 	k, _, ok = pick(per, 1, false, func(s Scores) float64 { return s.BICKMeans })
 	add(NameBICKMeans, k, ok, "min spherical k-means BIC (per-dimension variance)")
