@@ -41,18 +41,21 @@ type Result struct {
 	WhyRunnerUp  string             `json:"why_runner_up"` // "" when there is no runner-up
 	OneMode      criteria.ModeCheck `json:"one_mode_check"`
 	FarRows      criteria.FarRows   `json:"far_rows"`
-	Skewed       []SkewedColumn     `json:"skewed_columns"` // columns that look right-skewed, and what was done
-	Votes        map[string]*int    `json:"votes"`
-	VoteList     []criteria.Vote    `json:"vote_details"`
-	PerK         []criteria.Scores  `json:"per_k"`
-	Rows         int64              `json:"rows"`
-	SkippedRows  int64              `json:"skipped_rows"`
-	ProbeRows    int64              `json:"probe_rows"`
-	Columns      []string           `json:"columns"`
-	Ignored      []IgnoredColumn    `json:"ignored_columns"`
-	Files        []FileInfo         `json:"files"`
-	Tables       []TableInfo        `json:"tables"`   // Delta Lake and Iceberg tables read as tables; empty when none
-	Sketches     []string           `json:"sketches"` // saved sketch files merged; empty when none
+	// MixturesStop is the largest k whose Gaussian mixture was fitted when BIC and ICL had settled
+	// before max-k (criteria.Result.MixturesStopAt); null when the mixtures ran to max-k.
+	MixturesStop *int              `json:"mixtures_stopped_at_k"`
+	Skewed       []SkewedColumn    `json:"skewed_columns"` // columns that look right-skewed, and what was done
+	Votes        map[string]*int   `json:"votes"`
+	VoteList     []criteria.Vote   `json:"vote_details"`
+	PerK         []criteria.Scores `json:"per_k"`
+	Rows         int64             `json:"rows"`
+	SkippedRows  int64             `json:"skipped_rows"`
+	ProbeRows    int64             `json:"probe_rows"`
+	Columns      []string          `json:"columns"`
+	Ignored      []IgnoredColumn   `json:"ignored_columns"`
+	Files        []FileInfo        `json:"files"`
+	Tables       []TableInfo       `json:"tables"`   // Delta Lake and Iceberg tables read as tables; empty when none
+	Sketches     []string          `json:"sketches"` // saved sketch files merged; empty when none
 	// SkippedFiles are data files left out because they cannot be read (--skip-unreadable);
 	// empty when none.
 	SkippedFiles []SkippedFile `json:"skipped_files"`
@@ -122,7 +125,7 @@ func Evaluate(ctx context.Context, sk *sketch.Sketch, opt Options) (*Result, err
 	r := &Result{K: cr.Verdict.K, Agreement: cr.Verdict.Agreement, Structure: cr.Verdict.Structure, AtMaxK: cr.Verdict.AtMaxK,
 		Agree: cr.Verdict.Agree, Disagree: cr.Verdict.Disagree, Rule: cr.Verdict.Rule,
 		Confidence: cr.Verdict.Confidence, Unstable: cr.Verdict.Unstable, Alternatives: cr.Verdict.Alternatives,
-		Why: cr.Verdict.Why, WhyRunnerUp: cr.Verdict.WhyRunner, OneMode: cr.Modes, FarRows: cr.Far,
+		Why: cr.Verdict.Why, WhyRunnerUp: cr.Verdict.WhyRunner, OneMode: cr.Modes, FarRows: cr.Far, MixturesStop: nonZero(cr.MixturesStopAt),
 		Skewed: skewedColumns(sk, sc),
 		Votes:  map[string]*int{}, VoteList: cr.Votes, PerK: cr.PerK,
 		Rows: sk.Rows(), SkippedRows: sk.Meta.SkippedRows, ProbeRows: sk.Meta.ProbeRows,
@@ -328,3 +331,11 @@ type InputError struct {
 
 func (e *InputError) Error() string { return e.Path + ": " + e.Err.Error() }
 func (e *InputError) Unwrap() error { return e.Err }
+
+// nonZero returns a pointer to v, or nil when v is 0 (a JSON null).
+func nonZero(v int) *int {
+	if v == 0 {
+		return nil
+	}
+	return &v
+}

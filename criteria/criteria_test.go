@@ -399,3 +399,36 @@ func TestGapNullIsNearZero(t *testing.T) {
 		}
 	}
 }
+
+// TestMixtureChainStops: on three separated groups and k = 1..14 the mixtures are fitted from
+// k = 1 up until BIC, AICc and ICL have climbed for four steps, not beyond; the scores above the
+// stop are NaN, the mixture criteria still name 3, and the stop does not depend on the workers.
+func TestMixtureChainStops(t *testing.T) {
+	s := criteria.ExactSummary(mixture(11, 400, 3, 3, 8))
+	opt := criteria.DefaultOptions()
+	opt.MaxK, opt.Anchors = 14, 200
+	var first string
+	for _, w := range []int{1, 2} {
+		opt.Workers = w
+		r, j := evalJSON(t, s, opt)
+		if first == "" {
+			first = j
+		} else if j != first {
+			t.Fatalf("workers=%d gives a different result", w)
+		}
+		stop := r.MixturesStopAt
+		if stop < 3+4 || stop >= opt.MaxK {
+			t.Fatalf("mixtures stopped at k = %d, want 7..%d", stop, opt.MaxK-1)
+		}
+		for _, sc := range r.PerK {
+			if fitted := !math.IsNaN(sc.BICGMM); fitted != (sc.K <= stop) {
+				t.Errorf("k = %d: BIC %v with the chain stopped at %d", sc.K, sc.BICGMM, stop)
+			}
+		}
+		for _, v := range r.Votes {
+			if (v.Criterion == criteria.NameBICGMM || v.Criterion == criteria.NameICLGMM) && v.K != 3 {
+				t.Errorf("%s votes %d, want 3 (%s)", v.Criterion, v.K, v.Note)
+			}
+		}
+	}
+}

@@ -220,11 +220,52 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 	}
 	var later []job
 	var fits []Fit
+	var prog *progress
+	var pl *pool
 	if gapHi >= opt.MinK {
 		later = append(later, job{cost: refCost / 2, run: func() {
 			dataW = gapPath(gapData, true, func(k int) *rand.Rand { return rngFor(opt.Seed, k, streamGapData) }, fits)
 		}})
 	}
+	// The mixtures run as a chain over k, smallest first, each job queueing the next until BIC
+	// and ICL are settled (mixturesSettled) or no family is carried by the points: the fits above
+	// are not made, and their scores stay NaN. Each job is ranked by the cost of the
+	// chain left, so the chain is never starved by the shorter jobs beside it.
+	mix := make([]mixtureFit, nk)
+	fams := len(mixtureFamilies(opt.MaxK, s.N, n, d))
+	mixCost := func(k int) float64 { return float64(fams) * mixtureCost(n, k, d) }
+	chainLeft := func(k int) float64 {
+		c := 0.0
+		for j := k; j <= opt.MaxK; j++ {
+			c += mixCost(j)
+		}
+		return c
+	}
+	// The chain runs one fit at a time, on one responsibilities buffer sized for the largest k
+	// any family can be fitted at, so that growing it leaves no garbage behind.
+	var mixResp []float64
+	if fs := mixtureFamilies(opt.MaxK, s.N, n, d); len(fs) > 0 {
+		mixResp = make([]float64, 0, n*mixtureTopK(opt.MinK, opt.MaxK, n, d, fs[len(fs)-1]))
+	}
+	var mixJob func(k int) job
+	mixJob = func(k int) job {
+		return job{cost: mixCost(k), rank: chainLeft(k), run: func() {
+			i := k - opt.MinK
+			mix[i] = mixtureK(core, fits[i], k, s, opt, scale, excess, reg, &mixResp)
+			next := k + 1
+			over, _ := mixturePassedOver(next, opt.MaxK, s.N, n, d)
+			settled := next <= opt.MaxK && !over && mixturesSettled(mix, i)
+			if next > opt.MaxK || over || settled {
+				if settled {
+					res.MixturesStopAt = k
+				}
+				prog.add(chainLeft(next))
+				return
+			}
+			pl.add(mixJob(next))
+		}}
+	}
+	later = append(later, mixJob(opt.MinK))
 	for k := opt.MaxK; k >= opt.MinK; k-- {
 		later = append(later, job{cost: scoreCost(n, k, d, opt.Anchors, splitA.Len()), run: func() {
 			sc := scoreK(core, fits[k-opt.MinK], k, s, opt, scale, excess, reg, stop)
@@ -238,12 +279,12 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 			res.PerK[k-opt.MinK] = sc
 		}})
 	}
-	total := mainCost
+	total := mainCost + chainLeft(opt.MinK+1)
 	for _, j := range append(jobs, later...) {
 		total += j.cost
 	}
-	prog := newProgress(opt.Progress, total)
-	pl := newPool(workers, stop, prog)
+	prog = newProgress(opt.Progress, total)
+	pl = newPool(workers, stop, prog)
 	pl.add(jobs...)
 
 	// Stage 1: the k-means fit of every k on the coreset.
@@ -271,6 +312,11 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 		return nil, fmt.Errorf("criteria: evaluate: %w", err)
 	}
 	prog.finish()
+	for i, m := range mix {
+		if sc := &res.PerK[i]; m.ok && sc.Valid {
+			sc.LogLikGMM, sc.BICGMM, sc.AICGMM, sc.ICLGMM, sc.MixtureFamily = m.ll, m.bic, m.aic, m.icl, m.family
+		}
+	}
 	for i := range dataW {
 		sc := &res.PerK[i]
 		if !(dataW[i] > 0) {
@@ -365,9 +411,9 @@ func fitExcess(core Points, n float64) float64 {
 	return max(0, n/(sw*sw/sw2)-1)
 }
 
-// scoreK computes the per-k scores of Evaluate (all but the gap and Ward columns) from the fit.
-// The likelihood criteria (bic_gmm, aic_gmm, bic_kmeans) are corrected for the coreset fit's
-// optimism: p · excess is added to each, p their parameter count (fitExcess).
+// scoreK computes the per-k scores of Evaluate (all but the gap, Ward and mixture columns) from
+// the fit. The likelihood criteria (bic_kmeans, and the Student t at k = 1) are corrected for the
+// coreset fit's optimism: p · excess is added to each, p their parameter count (fitExcess).
 func scoreK(core Points, fit Fit, k int, s Summary, opt Options, scale, excess, reg float64, stop func() bool) Scores {
 	sc := nanScores(k)
 	sc.WCSS = fit.Cost * scale
@@ -392,25 +438,6 @@ func scoreK(core Points, fit Fit, k int, s Summary, opt Options, scale, excess, 
 	if stop() {
 		return sc
 	}
-	// Each family the mixture criteria compare (mixtureFamilies) is fitted where the points carry
-	// it (familyThinAt; k = 1 always); the one of lowest BIC gives the k's mixture scores. A k no
-	// family is fitted at keeps NaN.
-	for _, f := range mixtureFamilies(opt.MaxK, s.N, core.Len(), s.D) {
-		if k >= 2 && familyThinAt(f, k, s.N, core.Len(), s.D) {
-			continue
-		}
-		ll, en, err := fitMixture(f, core, fit, reg)
-		if err != nil {
-			continue
-		}
-		p := f.Params(k, s.D)
-		ll = ll*scale - float64(p)/2*excess
-		if bic := BIC(ll, p, s.N); math.IsNaN(sc.BICGMM) || bic < sc.BICGMM {
-			sc.LogLikGMM, sc.BICGMM, sc.AICGMM = ll, bic, AICc(ll, p, s.N)
-			sc.ICLGMM = sc.BICGMM + 2*en*scale
-			sc.MixtureFamily = f
-		}
-	}
 	if k == 1 {
 		if _, ll, _, err := StudentTFit(core, GMMOptions{Reg: reg, MaxIter: gmmMaxIter, Tol: gmmTol}); err == nil {
 			p := StudentTParams(s.D)
@@ -423,6 +450,78 @@ func scoreK(core Points, fit Fit, k int, s Summary, opt Options, scale, excess, 
 	}
 	sc.BICKMeans = BICKMeans(sizes, fit.Cost*scale, s.D) + float64(BICKMeansParams(k, s.D))*excess
 	return sc
+}
+
+// mixtureFit holds the mixture scores of one k (mixtureK); ok is false where no family was fitted.
+type mixtureFit struct {
+	ok                bool
+	ll, bic, aic, icl float64
+	family            MixtureFamily
+}
+
+// mixtureK fits, at one k, each family the mixture criteria compare (mixtureFamilies) where the
+// points carry it (familyThinAt; k = 1 always), by EM from the k-means fit, and returns the scores
+// of the one of lowest BIC: the log-likelihood scaled to N rows less the coreset fit's optimism
+// (p · excess / 2), BIC, AICc and ICL. ok is false when the fit has an empty cluster or no family
+// was fitted. resp is the EM's responsibilities buffer (fitMixture).
+func mixtureK(core Points, fit Fit, k int, s Summary, opt Options, scale, excess, reg float64, resp *[]float64) mixtureFit {
+	var m mixtureFit
+	for _, z := range fit.Sizes {
+		if !(z > 0) {
+			return m
+		}
+	}
+	for _, f := range mixtureFamilies(opt.MaxK, s.N, core.Len(), s.D) {
+		if k >= 2 && familyThinAt(f, k, s.N, core.Len(), s.D) {
+			continue
+		}
+		ll, en, err := fitMixture(f, core, fit, reg, resp)
+		if err != nil {
+			continue
+		}
+		p := f.Params(k, s.D)
+		ll = ll*scale - float64(p)/2*excess
+		if bic := BIC(ll, p, s.N); !m.ok || bic < m.bic {
+			m = mixtureFit{ok: true, ll: ll, bic: bic, aic: AICc(ll, p, s.N), icl: bic + 2*en*scale, family: f}
+		}
+	}
+	return m
+}
+
+// mixtureRise is the number of steps over which BIC and ICL must climb before the mixture
+// criteria are settled (mixturesSettled): when both have risen at every one of the last
+// mixtureRise k, from above their lowest value, Evaluate fits no larger mixture. The EM is the
+// criteria stage's largest cost at large max-k and grows with k; above the true k it rarely
+// converges within its iterations. AICc, whose penalty is the lightest, often falls slowly on to
+// max-k on large inputs and is not waited for: it chooses among the k fitted, and has no say when
+// its lowest value is at the last of them (votes). Chosen on the benchmark grid's stored curves
+// (DEVELOPERS.md, issue 15, "Criteria stage, round 4").
+const mixtureRise = 4
+
+// mixturesSettled reports whether, over the mixtures fitted at indexes 0..i (fits[j].ok), BIC and
+// ICL each have their lowest value at least mixtureRise indexes before i and have risen at each
+// of the last mixtureRise steps (every one of those k fitted).
+func mixturesSettled(fits []mixtureFit, i int) bool {
+	for _, f := range []func(mixtureFit) float64{
+		func(m mixtureFit) float64 { return m.bic },
+		func(m mixtureFit) float64 { return m.icl },
+	} {
+		best := -1
+		for j := 0; j <= i; j++ {
+			if v := f(fits[j]); fits[j].ok && !math.IsNaN(v) && (best < 0 || v < f(fits[best])) {
+				best = j
+			}
+		}
+		if best < 0 || i-best < mixtureRise {
+			return false
+		}
+		for j := i - mixtureRise + 1; j <= i; j++ {
+			if !fits[j-1].ok || !fits[j].ok || !(f(fits[j]) > f(fits[j-1])) {
+				return false
+			}
+		}
+	}
+	return true
 }
 
 // gapSide returns the data side of the gap statistic: min(n, sample size) points of the sample

@@ -80,9 +80,10 @@ func mixturePassedOver(k, maxK int, rows float64, points, dims int) (over bool, 
 }
 
 // fitMixture fits a mixture of family f to the points by EM from the k-means fit and returns its
-// weighted log-likelihood and classification entropy on the points.
-func fitMixture(f MixtureFamily, core Points, fit Fit, reg float64) (ll, entropy float64, err error) {
-	opt := GMMOptions{Reg: reg, MaxIter: gmmMaxIter, Tol: gmmTol}
+// weighted log-likelihood and classification entropy on the points. resp, when not nil, is the
+// responsibilities' buffer, reused from one fit to the next.
+func fitMixture(f MixtureFamily, core Points, fit Fit, reg float64, resp *[]float64) (ll, entropy float64, err error) {
+	opt := GMMOptions{Reg: reg, MaxIter: gmmMaxIter, Tol: gmmTol, resp: resp}
 	switch f {
 	case FamilyFull:
 		_, ll, entropy, _, err = gmmFullFit(core, fit, opt)

@@ -107,3 +107,54 @@ func TestFitPathSweeps(t *testing.T) {
 		}
 	}
 }
+
+// TestMixturesSettled: the chain of mixtures over k stops only after BIC and ICL have each
+// climbed at every one of the last mixtureRise steps from above their lowest value (property
+// test on invented curves; the rule was chosen on the benchmark grid, DEVELOPERS.md).
+func TestMixturesSettled(t *testing.T) {
+	curve := func(vs ...float64) []mixtureFit {
+		out := make([]mixtureFit, len(vs))
+		for i, v := range vs {
+			if math.IsNaN(v) {
+				continue // not fitted
+			}
+			out[i] = mixtureFit{ok: true, bic: v, aic: v, icl: v}
+		}
+		return out
+	}
+	nan := math.NaN()
+	for _, tc := range []struct {
+		name string
+		fits []mixtureFit
+		i    int
+		want bool
+	}{
+		{"four steps up from the minimum", curve(5, 3, 1, 2, 3, 4, 5), 6, true},
+		{"three steps up only", curve(5, 3, 1, 2, 3, 4, 5), 5, false},
+		{"above the minimum but not climbing", curve(5, 3, 1, 4, 3, 4, 5), 6, false},
+		{"still falling", curve(9, 8, 7, 6, 5, 4, 3), 6, false},
+		{"a k not fitted in the climb", curve(5, 1, 2, nan, 4, 5), 5, false},
+		{"nothing fitted", curve(nan, nan, nan, nan, nan), 4, false},
+		{"minimum at k = 1", curve(1, 2, 3, 4, 5), 4, true},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			if got := mixturesSettled(tc.fits, tc.i); got != tc.want {
+				t.Errorf("mixturesSettled(…, %d) = %v, want %v", tc.i, got, tc.want)
+			}
+		})
+	}
+	// ICL still falling keeps the chain going; AICc is not waited for.
+	fits := curve(5, 3, 1, 2, 3, 4, 5)
+	for i := range fits {
+		fits[i].aic = float64(10 - i)
+	}
+	if !mixturesSettled(fits, 6) {
+		t.Error("not settled while only AICc falls")
+	}
+	for i := range fits {
+		fits[i].icl = float64(10 - i)
+	}
+	if mixturesSettled(fits, 6) {
+		t.Error("settled while ICL still falls")
+	}
+}

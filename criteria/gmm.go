@@ -31,6 +31,22 @@ type GMMOptions struct {
 	// Spherical makes GMMFit fit one variance per component, the mean of its per-dimension
 	// variances (the maximum-likelihood spherical variance), stored in every dimension of Vars.
 	Spherical bool
+	// resp, when not nil, is reused for the responsibilities (grown when short), so a caller that
+	// fits one mixture after another holds one n×k buffer instead of leaving one per fit to the
+	// collector (Evaluate's chain over k).
+	resp *[]float64
+}
+
+// respBuffer returns a slice of n values for the responsibilities: opt.resp's, grown as needed,
+// or a new one.
+func (o GMMOptions) respBuffer(n int) []float64 {
+	if o.resp == nil {
+		return make([]float64, n)
+	}
+	if cap(*o.resp) < n {
+		*o.resp = make([]float64, n)
+	}
+	return (*o.resp)[:n]
 }
 
 // LogLik returns the weighted log-likelihood sum_i w_i ln sum_j pi_j N(x_i | mu_j, diag(var_j)),
@@ -156,7 +172,7 @@ func gmmFit(p Points, init Fit, opt GMMOptions) (GMM, float64, float64, int) {
 	if opt.Spherical {
 		sphericalVars(g.Vars, k, d, opt.Reg)
 	}
-	resp := make([]float64, n*k)
+	resp := opt.respBuffer(n * k)
 	nk := make([]float64, k)
 	sums, sq := make([]float64, k*d), make([]float64, k*d)
 	prev := math.Inf(-1)

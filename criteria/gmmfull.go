@@ -318,7 +318,7 @@ func gmmFullFit(p Points, init Fit, opt GMMOptions) (GMMFull, float64, float64, 
 			g.Weights[j] = 1e-300 // an empty k-means cluster: a component with no weight
 		}
 	}
-	resp := make([]float64, n*k)
+	resp := opt.respBuffer(n * k)
 	nk := make([]float64, k)
 	sums, sq := make([]float64, k*d), make([]float64, k*dd)
 	var blk mBlock

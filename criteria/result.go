@@ -40,6 +40,10 @@ type Result struct {
 	Options Options   `json:"options"` // the options used, defaults filled in
 	Modes   ModeCheck `json:"one_mode_check"`
 	Far     FarRows   `json:"far_rows"` // rows far from every centre of the verdict's fit
+	// MixturesStopAt is the largest k whose mixture was fitted when the chain over k stopped
+	// before max-k because BIC and ICL had climbed for four steps (mixturesSettled); 0 otherwise.
+	// The mixture scores above it are NaN.
+	MixturesStopAt int `json:"mixtures_stop_at_k,omitempty"`
 }
 
 // Vote is one criterion's choice of k. Abstain is true (and K 0) when the criterion could not

@@ -38,10 +38,15 @@ func gapPathCost(n, lo, hi, d int) float64 {
 	return c
 }
 
-// scoreCost is the expected cost of scoreK at k: the mixture's EM, the anchor silhouette and the
-// indices, plus the split halves' two fits.
+// mixtureCost is the expected cost of one mixture family's EM at k.
+func mixtureCost(n, k, d int) float64 {
+	return costGMMPasses * float64(n) * float64(k) * float64(d) * float64(d)
+}
+
+// scoreCost is the expected cost of scoreK at k: the anchor silhouette and the indices, plus the
+// split halves' two fits.
 func scoreCost(n, k, d, anchors, split int) float64 {
-	c := costGMMPasses * float64(n) * float64(k) * float64(d) * float64(d)
+	c := 0.0
 	if k >= 2 {
 		c += 0.5*float64(anchors)*float64(n)*float64(d) + 3*float64(n)*float64(k)*float64(d)
 		c += 2 * restartCost(split, k, d, 2)
@@ -90,13 +95,24 @@ func (p *progress) finish() {
 	}
 }
 
-// job is one unit of Evaluate's work with its expected cost.
+// job is one unit of Evaluate's work with its expected cost. The pool orders jobs by rank when
+// it is set (a job that heads a chain of later ones ranks by the chain's cost), else by cost.
 type job struct {
 	cost float64
+	rank float64
 	run  func()
 }
 
+// order is the cost the pool orders j by.
+func (j job) order() float64 {
+	if j.rank > 0 {
+		return j.rank
+	}
+	return j.cost
+}
+
 // pool runs jobs on a fixed number of goroutines, taking the most expensive queued job first
+// (job.order)
 // (the first queued among equals); jobs may be queued while it runs. Every running job, and
 // every caller that takes a slot with acquire, holds one of the pool's slots, so no more than
 // its number of workers run at once. Once stop reports true, queued jobs are dropped.
@@ -167,7 +183,7 @@ func (p *pool) work() {
 		}
 		best := 0
 		for i, j := range p.queue {
-			if j.cost > p.queue[best].cost {
+			if j.order() > p.queue[best].order() {
 				best = i
 			}
 		}

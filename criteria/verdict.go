@@ -216,20 +216,23 @@ func votes(per []Scores, wardK int, rows float64, points, dims int, opt Options)
 		}
 	}
 
-	// A mixture criterion chooses among the k whose mixture the points can support (Evaluate does
-	// not fit the others; stored scores of such k are passed over the same way). Still falling at
+	// A mixture criterion chooses among the k whose mixture the points can support and Evaluate
+	// fitted (it does not fit the others; stored scores of such k are passed over the same way). Still falling at
 	// the largest of them, with larger valid k passed over, it has found no minimum and has no say.
 	top, lastValid := 0, 0
 	passedOver := func(k int) bool {
 		over, _ := mixturePassedOver(k, opt.MaxK, rows, points, dims)
 		return over
 	}
+	// top is the largest valid k whose mixture was fitted: Evaluate's chain over k also stops
+	// once BIC and ICL have climbed for mixtureRise steps, and a criterion still falling there
+	// (AICc, which is not waited for) has no say either.
 	for _, s := range per {
 		if !s.Valid {
 			continue
 		}
 		lastValid = max(lastValid, s.K)
-		if !passedOver(s.K) {
+		if !passedOver(s.K) && !math.IsNaN(s.BICGMM) {
 			top = max(top, s.K)
 		}
 	}
@@ -242,6 +245,11 @@ func votes(per []Scores, wardK int, rows float64, points, dims int, opt Options)
 		})
 		if thin, why := mixtureOneUnsupported(k, rows, dims); ok && thin {
 			add(name, 0, false, why)
+			return
+		}
+		if ok && k == top && top < lastValid && !passedOver(k+1) {
+			add(name, 0, false, fmt.Sprintf("no say: still falling at k = %d, the largest k whose mixture was fitted (BIC and ICL "+
+				"had risen at each of the %d k before it, so no larger one was fitted)", k, mixtureRise))
 			return
 		}
 		if ok && k == top && top < lastValid {
