@@ -220,52 +220,51 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 	}
 	var later []job
 	var fits []Fit
-	var prog *progress
-	var pl *pool
 	if gapHi >= opt.MinK {
 		later = append(later, job{cost: refCost / 2, run: func() {
 			dataW = gapPath(gapData, true, func(k int) *rand.Rand { return rngFor(opt.Seed, k, streamGapData) }, fits)
 		}})
 	}
-	// The mixtures run as a chain over k, smallest first, each job queueing the next until BIC
-	// and ICL are settled (mixturesSettled) or no family is carried by the points: the fits above
-	// are not made, and their scores stay NaN. Each job is ranked by the cost of the
-	// chain left, so the chain is never starved by the shorter jobs beside it.
+	// The mixtures: one job per k, ranked by the cost of the mixtures from its k up (so the
+	// smallest k run first, ahead of the score jobs). A job whose k lies above a k where BIC and
+	// ICL are already settled (mixturesSettled, over k that have all finished) is skipped, and
+	// after the pool everything above the first settled k is dropped (mixtureStop), so the result
+	// does not depend on which jobs ran. At most one job per worker runs at once, each on a
+	// responsibilities buffer of its own, sized once for the largest k any family is fitted at.
 	mix := make([]mixtureFit, nk)
-	fams := len(mixtureFamilies(opt.MaxK, s.N, n, d))
-	mixCost := func(k int) float64 { return float64(fams) * mixtureCost(n, k, d) }
-	chainLeft := func(k int) float64 {
-		c := 0.0
+	mixDone := make([]bool, nk)
+	var mixMu sync.Mutex
+	fams := mixtureFamilies(opt.MaxK, s.N, n, d)
+	mixCost := func(k int) float64 { return float64(len(fams)) * mixtureCost(n, k, d) }
+	kTop := mixtureTopK(opt.MinK, opt.MaxK, n, d, fams[len(fams)-1])
+	var buffers [][]float64
+	for k := opt.MaxK; k >= opt.MinK; k-- {
+		rank := 0.0
 		for j := k; j <= opt.MaxK; j++ {
-			c += mixCost(j)
+			rank += mixCost(j)
 		}
-		return c
-	}
-	// The chain runs one fit at a time, on one responsibilities buffer sized for the largest k
-	// any family can be fitted at, so that growing it leaves no garbage behind.
-	var mixResp []float64
-	if fs := mixtureFamilies(opt.MaxK, s.N, n, d); len(fs) > 0 {
-		mixResp = make([]float64, 0, n*mixtureTopK(opt.MinK, opt.MaxK, n, d, fs[len(fs)-1]))
-	}
-	var mixJob func(k int) job
-	mixJob = func(k int) job {
-		return job{cost: mixCost(k), rank: chainLeft(k), run: func() {
+		later = append(later, job{cost: mixCost(k), rank: rank, run: func() {
 			i := k - opt.MinK
-			mix[i] = mixtureK(core, fits[i], k, s, opt, scale, excess, reg, &mixResp)
-			next := k + 1
-			over, _ := mixturePassedOver(next, opt.MaxK, s.N, n, d)
-			settled := next <= opt.MaxK && !over && mixturesSettled(mix, i)
-			if next > opt.MaxK || over || settled {
-				if settled {
-					res.MixturesStopAt = k
-				}
-				prog.add(chainLeft(next))
+			mixMu.Lock()
+			skip := settledBelow(mix, mixDone, i)
+			var buf []float64
+			if len(buffers) > 0 {
+				buf, buffers = buffers[len(buffers)-1], buffers[:len(buffers)-1]
+			}
+			mixMu.Unlock()
+			if skip {
 				return
 			}
-			pl.add(mixJob(next))
-		}}
+			if buf == nil {
+				buf = make([]float64, 0, n*kTop)
+			}
+			m := mixtureK(core, fits[i], k, s, opt, scale, excess, reg, &buf)
+			mixMu.Lock()
+			mix[i], mixDone[i] = m, true
+			buffers = append(buffers, buf)
+			mixMu.Unlock()
+		}})
 	}
-	later = append(later, mixJob(opt.MinK))
 	for k := opt.MaxK; k >= opt.MinK; k-- {
 		later = append(later, job{cost: scoreCost(n, k, d, opt.Anchors, splitA.Len()), run: func() {
 			sc := scoreK(core, fits[k-opt.MinK], k, s, opt, scale, excess, reg, stop)
@@ -279,12 +278,12 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 			res.PerK[k-opt.MinK] = sc
 		}})
 	}
-	total := mainCost + chainLeft(opt.MinK+1)
+	total := mainCost
 	for _, j := range append(jobs, later...) {
 		total += j.cost
 	}
-	prog = newProgress(opt.Progress, total)
-	pl = newPool(workers, stop, prog)
+	prog := newProgress(opt.Progress, total)
+	pl := newPool(workers, stop, prog)
 	pl.add(jobs...)
 
 	// Stage 1: the k-means fit of every k on the coreset.
@@ -312,6 +311,12 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 		return nil, fmt.Errorf("criteria: evaluate: %w", err)
 	}
 	prog.finish()
+	if stop := mixtureStop(mix, mixDone, opt.MinK, opt.MaxK, s.N, n, d); stop > 0 {
+		res.MixturesStopAt = stop
+		for i := stop + 1 - opt.MinK; i < nk; i++ {
+			mix[i] = mixtureFit{}
+		}
+	}
 	for i, m := range mix {
 		if sc := &res.PerK[i]; m.ok && sc.Valid {
 			sc.LogLikGMM, sc.BICGMM, sc.AICGMM, sc.ICLGMM, sc.MixtureFamily = m.ll, m.bic, m.aic, m.icl, m.family
@@ -488,40 +493,103 @@ func mixtureK(core Points, fit Fit, k int, s Summary, opt Options, scale, excess
 	return m
 }
 
-// mixtureRise is the number of steps over which BIC and ICL must climb before the mixture
-// criteria are settled (mixturesSettled): when both have risen at every one of the last
-// mixtureRise k, from above their lowest value, Evaluate fits no larger mixture. The EM is the
-// criteria stage's largest cost at large max-k and grows with k; above the true k it rarely
-// converges within its iterations. AICc, whose penalty is the lightest, often falls slowly on to
-// max-k on large inputs and is not waited for: it chooses among the k fitted, and has no say when
-// its lowest value is at the last of them (votes). Chosen on the benchmark grid's stored curves
+// mixtureRise and mixtureAbove define where BIC and ICL are settled (mixturesSettled): both have
+// risen at each of the last mixtureRise k from above their lowest value, or both have stayed above
+// it, with one mixture family throughout, for the last mixtureAbove k. Evaluate then fits no larger
+// mixture. The EM is the criteria stage's largest cost at large max-k and grows with k; above the
+// true k it rarely converges within its iterations, so on large inputs the curves wander there
+// instead of climbing (hence the second test). AICc, whose penalty is the lightest, often falls
+// slowly on to max-k on large inputs and is not waited for: it chooses among the k fitted, and has
+// no say when its lowest value is at the last of them (votes). A minimum of another family does
+// not count as passed: in many columns the full covariance at k = 1 beats the spherical mixtures
+// of the next k until k nears the groups' count. Chosen on the benchmark grid's stored curves
 // (DEVELOPERS.md, issue 15, "Criteria stage, round 4").
-const mixtureRise = 4
+const (
+	mixtureRise  = 4
+	mixtureAbove = 6
+)
 
-// mixturesSettled reports whether, over the mixtures fitted at indexes 0..i (fits[j].ok), BIC and
-// ICL each have their lowest value at least mixtureRise indexes before i and have risen at each
-// of the last mixtureRise steps (every one of those k fitted).
+// mixturesSettled reports whether the mixtures fitted at indexes 0..i (fits[j].ok) are settled at
+// i (see mixtureRise).
 func mixturesSettled(fits []mixtureFit, i int) bool {
-	for _, f := range []func(mixtureFit) float64{
-		func(m mixtureFit) float64 { return m.bic },
-		func(m mixtureFit) float64 { return m.icl },
-	} {
-		best := -1
-		for j := 0; j <= i; j++ {
-			if v := f(fits[j]); fits[j].ok && !math.IsNaN(v) && (best < 0 || v < f(fits[best])) {
-				best = j
-			}
+	return mixturesClimbed(fits, i, mixtureRise) || mixturesStayedAbove(fits, i, mixtureAbove)
+}
+
+// mixtureCurves are the scores whose settling ends the mixtures: BIC and ICL.
+var mixtureCurves = []func(mixtureFit) float64{
+	func(m mixtureFit) float64 { return m.bic },
+	func(m mixtureFit) float64 { return m.icl },
+}
+
+// lowestFit returns the index in 0..i of the lowest f among the fitted mixtures, or -1.
+func lowestFit(fits []mixtureFit, i int, f func(mixtureFit) float64) int {
+	best := -1
+	for j := 0; j <= i; j++ {
+		if v := f(fits[j]); fits[j].ok && !math.IsNaN(v) && (best < 0 || v < f(fits[best])) {
+			best = j
 		}
-		if best < 0 || i-best < mixtureRise {
+	}
+	return best
+}
+
+// mixturesClimbed reports whether BIC and ICL each have their lowest value at least m indexes
+// before i and have risen at each of the last m steps (every one of those k fitted).
+func mixturesClimbed(fits []mixtureFit, i, m int) bool {
+	for _, f := range mixtureCurves {
+		best := lowestFit(fits, i, f)
+		if best < 0 || i-best < m {
 			return false
 		}
-		for j := i - mixtureRise + 1; j <= i; j++ {
+		for j := i - m + 1; j <= i; j++ {
 			if !fits[j-1].ok || !fits[j].ok || !(f(fits[j]) > f(fits[j-1])) {
 				return false
 			}
 		}
 	}
 	return true
+}
+
+// mixturesStayedAbove reports whether BIC and ICL each have their lowest value at least m indexes
+// before i, every k from there to i fitted with the family of that lowest value.
+func mixturesStayedAbove(fits []mixtureFit, i, m int) bool {
+	for _, f := range mixtureCurves {
+		best := lowestFit(fits, i, f)
+		if best < 0 || i-best < m {
+			return false
+		}
+		for j := best + 1; j <= i; j++ {
+			if !fits[j].ok || fits[j].family != fits[best].family {
+				return false
+			}
+		}
+	}
+	return true
+}
+
+// settledBelow reports whether the mixtures are settled (mixturesSettled) at some index below i
+// whose mixtures, and every one below it, have finished (done).
+func settledBelow(fits []mixtureFit, done []bool, i int) bool {
+	for j := 0; j < i && done[j]; j++ {
+		if mixturesSettled(fits, j) {
+			return true
+		}
+	}
+	return false
+}
+
+// mixtureStop returns the k at which Evaluate's mixtures stop: the smallest k below maxK at which
+// they are settled (every smaller k finished) and a larger one could still be fitted
+// (mixturePassedOver); 0 when there is none.
+func mixtureStop(fits []mixtureFit, done []bool, minK, maxK int, rows float64, points, dims int) int {
+	for i := 0; i < len(fits)-1 && done[i]; i++ {
+		if over, _ := mixturePassedOver(minK+i+1, maxK, rows, points, dims); over {
+			return 0
+		}
+		if mixturesSettled(fits, i) {
+			return minK + i
+		}
+	}
+	return 0
 }
 
 // gapSide returns the data side of the gap statistic: min(n, sample size) points of the sample

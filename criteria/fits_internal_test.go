@@ -108,20 +108,22 @@ func TestFitPathSweeps(t *testing.T) {
 	}
 }
 
-// TestMixturesSettled: the chain of mixtures over k stops only after BIC and ICL have each
-// climbed at every one of the last mixtureRise steps from above their lowest value (property
-// test on invented curves; the rule was chosen on the benchmark grid, DEVELOPERS.md).
+// TestMixturesSettled: the mixtures over k stop only after BIC and ICL have each climbed at every
+// one of the last mixtureRise steps from above their lowest value, or stayed above it, with one
+// family, for mixtureAbove steps (property test on invented curves; the rule was chosen on the
+// benchmark grid, DEVELOPERS.md).
 func TestMixturesSettled(t *testing.T) {
-	curve := func(vs ...float64) []mixtureFit {
+	fam := func(f MixtureFamily, vs ...float64) []mixtureFit {
 		out := make([]mixtureFit, len(vs))
 		for i, v := range vs {
 			if math.IsNaN(v) {
 				continue // not fitted
 			}
-			out[i] = mixtureFit{ok: true, bic: v, aic: v, icl: v}
+			out[i] = mixtureFit{ok: true, bic: v, aic: v, icl: v, family: f}
 		}
 		return out
 	}
+	curve := func(vs ...float64) []mixtureFit { return fam(FamilyFull, vs...) }
 	nan := math.NaN()
 	for _, tc := range []struct {
 		name string
@@ -131,11 +133,14 @@ func TestMixturesSettled(t *testing.T) {
 	}{
 		{"four steps up from the minimum", curve(5, 3, 1, 2, 3, 4, 5), 6, true},
 		{"three steps up only", curve(5, 3, 1, 2, 3, 4, 5), 5, false},
-		{"above the minimum but not climbing", curve(5, 3, 1, 4, 3, 4, 5), 6, false},
+		{"above the minimum for five k, not climbing", curve(5, 3, 1, 4, 3, 4, 5, 4), 7, false},
+		{"above the minimum for six k, not climbing", curve(5, 3, 1, 4, 3, 4, 5, 4, 6), 8, true},
 		{"still falling", curve(9, 8, 7, 6, 5, 4, 3), 6, false},
 		{"a k not fitted in the climb", curve(5, 1, 2, nan, 4, 5), 5, false},
 		{"nothing fitted", curve(nan, nan, nan, nan, nan), 4, false},
 		{"minimum at k = 1", curve(1, 2, 3, 4, 5), 4, true},
+		{"minimum of another family, not climbing", append(curve(1), fam(FamilySpherical, 4, 3, 4, 3, 4, 3, 4)...), 7, false},
+		{"minimum of the same family, not climbing", fam(FamilySpherical, 1, 4, 3, 4, 3, 4, 3, 4), 7, true},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			if got := mixturesSettled(tc.fits, tc.i); got != tc.want {
@@ -143,7 +148,7 @@ func TestMixturesSettled(t *testing.T) {
 			}
 		})
 	}
-	// ICL still falling keeps the chain going; AICc is not waited for.
+	// ICL still falling keeps the mixtures going; AICc is not waited for.
 	fits := curve(5, 3, 1, 2, 3, 4, 5)
 	for i := range fits {
 		fits[i].aic = float64(10 - i)

@@ -40,9 +40,10 @@ type Result struct {
 	Options Options   `json:"options"` // the options used, defaults filled in
 	Modes   ModeCheck `json:"one_mode_check"`
 	Far     FarRows   `json:"far_rows"` // rows far from every centre of the verdict's fit
-	// MixturesStopAt is the largest k whose mixture was fitted when the chain over k stopped
-	// before max-k because BIC and ICL had climbed for four steps (mixturesSettled); 0 otherwise.
-	// The mixture scores above it are NaN.
+	// MixturesStopAt is the largest k whose mixture was kept when the mixtures stopped before
+	// max-k because BIC and ICL had settled (mixturesSettled: risen at each of four k in a row, or
+	// stayed above their lowest value for six with one family); 0 otherwise. The mixture scores
+	// above it are NaN.
 	MixturesStopAt int `json:"mixtures_stop_at_k,omitempty"`
 }
 

@@ -224,9 +224,9 @@ func votes(per []Scores, wardK int, rows float64, points, dims int, opt Options)
 		over, _ := mixturePassedOver(k, opt.MaxK, rows, points, dims)
 		return over
 	}
-	// top is the largest valid k whose mixture was fitted: Evaluate's chain over k also stops
-	// once BIC and ICL have climbed for mixtureRise steps, and a criterion still falling there
-	// (AICc, which is not waited for) has no say either.
+	// top is the largest valid k whose mixture was fitted: Evaluate's mixtures also stop once
+	// BIC and ICL are settled (mixturesSettled), and a criterion still falling there (AICc, which
+	// is not waited for) has no say either.
 	for _, s := range per {
 		if !s.Valid {
 			continue
@@ -249,7 +249,7 @@ func votes(per []Scores, wardK int, rows float64, points, dims int, opt Options)
 		}
 		if ok && k == top && top < lastValid && !passedOver(k+1) {
 			add(name, 0, false, fmt.Sprintf("no say: still falling at k = %d, the largest k whose mixture was fitted (BIC and ICL "+
-				"had risen at each of the %d k before it, so no larger one was fitted)", k, mixtureRise))
+				"had risen for %d k, or stayed above their lowest value for %d, so no larger one was fitted)", k, mixtureRise, mixtureAbove))
 			return
 		}
 		if ok && k == top && top < lastValid {
