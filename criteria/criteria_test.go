@@ -190,21 +190,31 @@ func evalJSON(t *testing.T, s criteria.Summary, opt criteria.Options) (*criteria
 	return r, string(b)
 }
 
-func TestEvaluateIndependentOfWorkers(t *testing.T) {
-	s := criteria.ExactSummary(mixture(7, 600, 4, 3, 4))
-	opt := criteria.DefaultOptions()
-	opt.MaxK = 8
-	opt.Anchors = 200
+// sameForWorkers evaluates s with each number of workers, fails unless every result marshals to
+// the same JSON, and returns the results and that JSON.
+func sameForWorkers(t *testing.T, s criteria.Summary, opt criteria.Options, workers ...int) ([]*criteria.Result, string) {
+	t.Helper()
+	var out []*criteria.Result
 	var first string
-	for _, w := range []int{1, 2, 3} {
+	for _, w := range workers {
 		opt.Workers = w
-		_, j := evalJSON(t, s, opt)
+		r, j := evalJSON(t, s, opt)
 		if first == "" {
 			first = j
 		} else if j != first {
 			t.Fatalf("workers=%d gives a different result", w)
 		}
+		out = append(out, r)
 	}
+	return out, first
+}
+
+func TestEvaluateIndependentOfWorkers(t *testing.T) {
+	s := criteria.ExactSummary(mixture(7, 600, 4, 3, 4))
+	opt := criteria.DefaultOptions()
+	opt.MaxK = 8
+	opt.Anchors = 200
+	_, first := sameForWorkers(t, s, opt, 1, 2, 3)
 	// A different seed changes the Monte Carlo parts.
 	opt.Workers, opt.Seed = 1, 99
 	if _, j := evalJSON(t, s, opt); strings.Replace(j, `"seed":99`, `"seed":1`, 1) == first {
@@ -407,15 +417,8 @@ func TestMixtureChainStops(t *testing.T) {
 	s := criteria.ExactSummary(mixture(11, 400, 3, 3, 8))
 	opt := criteria.DefaultOptions()
 	opt.MaxK, opt.Anchors = 14, 200
-	var first string
-	for _, w := range []int{1, 2} {
-		opt.Workers = w
-		r, j := evalJSON(t, s, opt)
-		if first == "" {
-			first = j
-		} else if j != first {
-			t.Fatalf("workers=%d gives a different result", w)
-		}
+	results, _ := sameForWorkers(t, s, opt, 1, 2)
+	for _, r := range results {
 		stop := r.MixturesStopAt
 		if stop < 3+4 || stop >= opt.MaxK {
 			t.Fatalf("mixtures stopped at k = %d, want 7..%d", stop, opt.MaxK-1)

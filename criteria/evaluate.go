@@ -512,7 +512,23 @@ const (
 // mixturesSettled reports whether the mixtures fitted at indexes 0..i (fits[j].ok) are settled at
 // i (see mixtureRise).
 func mixturesSettled(fits []mixtureFit, i int) bool {
-	return mixturesClimbed(fits, i, mixtureRise) || mixturesStayedAbove(fits, i, mixtureAbove)
+	climbed := func(f func(mixtureFit) float64, _ int) bool {
+		for j := i - mixtureRise + 1; j <= i; j++ {
+			if !fits[j-1].ok || !fits[j].ok || !(f(fits[j]) > f(fits[j-1])) {
+				return false
+			}
+		}
+		return true
+	}
+	oneFamily := func(_ func(mixtureFit) float64, best int) bool {
+		for j := best + 1; j <= i; j++ {
+			if !fits[j].ok || fits[j].family != fits[best].family {
+				return false
+			}
+		}
+		return true
+	}
+	return mixturesPast(fits, i, mixtureRise, climbed) || mixturesPast(fits, i, mixtureAbove, oneFamily)
 }
 
 // mixtureCurves are the scores whose settling ends the mixtures: BIC and ICL.
@@ -521,46 +537,19 @@ var mixtureCurves = []func(mixtureFit) float64{
 	func(m mixtureFit) float64 { return m.icl },
 }
 
-// lowestFit returns the index in 0..i of the lowest f among the fitted mixtures, or -1.
-func lowestFit(fits []mixtureFit, i int, f func(mixtureFit) float64) int {
-	best := -1
-	for j := 0; j <= i; j++ {
-		if v := f(fits[j]); fits[j].ok && !math.IsNaN(v) && (best < 0 || v < f(fits[best])) {
-			best = j
-		}
-	}
-	return best
-}
-
-// mixturesClimbed reports whether BIC and ICL each have their lowest value at least m indexes
-// before i and have risen at each of the last m steps (every one of those k fitted).
-func mixturesClimbed(fits []mixtureFit, i, m int) bool {
+// mixturesPast reports whether BIC and ICL each have their lowest value (over the fitted
+// mixtures at indexes 0..i) at least m indexes before i, and pass test from there: test gets the
+// curve and the index of its lowest value.
+func mixturesPast(fits []mixtureFit, i, m int, test func(f func(mixtureFit) float64, best int) bool) bool {
 	for _, f := range mixtureCurves {
-		best := lowestFit(fits, i, f)
-		if best < 0 || i-best < m {
-			return false
-		}
-		for j := i - m + 1; j <= i; j++ {
-			if !fits[j-1].ok || !fits[j].ok || !(f(fits[j]) > f(fits[j-1])) {
-				return false
+		best := -1
+		for j := 0; j <= i; j++ {
+			if v := f(fits[j]); fits[j].ok && !math.IsNaN(v) && (best < 0 || v < f(fits[best])) {
+				best = j
 			}
 		}
-	}
-	return true
-}
-
-// mixturesStayedAbove reports whether BIC and ICL each have their lowest value at least m indexes
-// before i, every k from there to i fitted with the family of that lowest value.
-func mixturesStayedAbove(fits []mixtureFit, i, m int) bool {
-	for _, f := range mixtureCurves {
-		best := lowestFit(fits, i, f)
-		if best < 0 || i-best < m {
+		if best < 0 || i-best < m || !test(f, best) {
 			return false
-		}
-		for j := best + 1; j <= i; j++ {
-			if !fits[j].ok || fits[j].family != fits[best].family {
-				return false
-			}
 		}
 	}
 	return true
