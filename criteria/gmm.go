@@ -33,7 +33,7 @@ type GMMOptions struct {
 	Spherical bool
 	// resp, when not nil, is reused for the responsibilities (grown when short), so a caller that
 	// fits one mixture after another holds one n×k buffer instead of leaving one per fit to the
-	// collector (Evaluate's chain over k).
+	// collector (Evaluate's mixture jobs, each on a buffer of its own).
 	resp *[]float64
 }
 

@@ -96,7 +96,8 @@ func (p *progress) finish() {
 }
 
 // job is one unit of Evaluate's work with its expected cost. The pool orders jobs by rank when
-// it is set (a job that heads a chain of later ones ranks by the chain's cost), else by cost.
+// it is set, else by cost (Evaluate ranks each mixture job by the cost of the mixtures from its k
+// up, so that the smallest k run first).
 type job struct {
 	cost float64
 	rank float64
@@ -112,8 +113,7 @@ func (j job) order() float64 {
 }
 
 // pool runs jobs on a fixed number of goroutines, taking the most expensive queued job first
-// (job.order)
-// (the first queued among equals); jobs may be queued while it runs. Every running job, and
+// (job.order; the first queued among equals); jobs may be queued while it runs. Every running job, and
 // every caller that takes a slot with acquire, holds one of the pool's slots, so no more than
 // its number of workers run at once. Once stop reports true, queued jobs are dropped.
 type pool struct {

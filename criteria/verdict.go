@@ -217,8 +217,9 @@ func votes(per []Scores, wardK int, rows float64, points, dims int, opt Options)
 	}
 
 	// A mixture criterion chooses among the k whose mixture the points can support and Evaluate
-	// fitted (it does not fit the others; stored scores of such k are passed over the same way). Still falling at
-	// the largest of them, with larger valid k passed over, it has found no minimum and has no say.
+	// fitted (it does not fit the others; stored scores of such k are passed over the same way).
+	// Still falling at the largest of them, with larger valid k passed over, it has found no
+	// minimum and has no say.
 	top, lastValid := 0, 0
 	passedOver := func(k int) bool {
 		over, _ := mixturePassedOver(k, opt.MaxK, rows, points, dims)
