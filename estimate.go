@@ -41,21 +41,19 @@ type Result struct {
 	WhyRunnerUp  string             `json:"why_runner_up"` // "" when there is no runner-up
 	OneMode      criteria.ModeCheck `json:"one_mode_check"`
 	FarRows      criteria.FarRows   `json:"far_rows"`
-	// MixturesStop is the largest k whose Gaussian mixture was fitted when BIC and ICL had settled
-	// before max-k (criteria.Result.MixturesStopAt); null when the mixtures ran to max-k.
-	MixturesStop *int              `json:"mixtures_stopped_at_k"`
-	Skewed       []SkewedColumn    `json:"skewed_columns"` // columns that look right-skewed, and what was done
-	Votes        map[string]*int   `json:"votes"`
-	VoteList     []criteria.Vote   `json:"vote_details"`
-	PerK         []criteria.Scores `json:"per_k"`
-	Rows         int64             `json:"rows"`
-	SkippedRows  int64             `json:"skipped_rows"`
-	ProbeRows    int64             `json:"probe_rows"`
-	Columns      []string          `json:"columns"`
-	Ignored      []IgnoredColumn   `json:"ignored_columns"`
-	Files        []FileInfo        `json:"files"`
-	Tables       []TableInfo       `json:"tables"`   // Delta Lake and Iceberg tables read as tables; empty when none
-	Sketches     []string          `json:"sketches"` // saved sketch files merged; empty when none
+	MixturesStop *int               `json:"mixtures_stopped_at_k"` // criteria.Result.MixturesStopAt; null when the mixtures ran to max-k
+	Skewed       []SkewedColumn     `json:"skewed_columns"`        // columns that look right-skewed, and what was done
+	Votes        map[string]*int    `json:"votes"`
+	VoteList     []criteria.Vote    `json:"vote_details"`
+	PerK         []criteria.Scores  `json:"per_k"`
+	Rows         int64              `json:"rows"`
+	SkippedRows  int64              `json:"skipped_rows"`
+	ProbeRows    int64              `json:"probe_rows"`
+	Columns      []string           `json:"columns"`
+	Ignored      []IgnoredColumn    `json:"ignored_columns"`
+	Files        []FileInfo         `json:"files"`
+	Tables       []TableInfo        `json:"tables"`   // Delta Lake and Iceberg tables read as tables; empty when none
+	Sketches     []string           `json:"sketches"` // saved sketch files merged; empty when none
 	// SkippedFiles are data files left out because they cannot be read (--skip-unreadable);
 	// empty when none.
 	SkippedFiles []SkippedFile `json:"skipped_files"`
@@ -136,10 +134,7 @@ func Evaluate(ctx context.Context, sk *sketch.Sketch, opt Options) (*Result, err
 	if math.IsNaN(r.Confidence) {
 		r.Confidence = 0 // no calibration table (never with the embedded weights)
 	}
-	if cr.Verdict.RunnerUp > 0 {
-		ru := cr.Verdict.RunnerUp
-		r.RunnerUp = &ru
-	}
+	r.RunnerUp = nonZero(cr.Verdict.RunnerUp)
 	for _, v := range cr.Votes {
 		if v.Abstain {
 			r.Votes[v.Criterion] = nil

@@ -410,10 +410,11 @@ func TestGapNullIsNearZero(t *testing.T) {
 	}
 }
 
-// TestMixtureChainStops: on three separated groups and k = 1..14 the mixtures are fitted from
-// k = 1 up until BIC, AICc and ICL have climbed for four steps, not beyond; the scores above the
-// stop are NaN, the mixture criteria still name 3, and the stop does not depend on the workers.
-func TestMixtureChainStops(t *testing.T) {
+// TestMixturesStop: on three separated groups and k = 1..14 the mixtures are fitted from k = 1 up
+// until BIC and ICL have settled past their minimum at 3 (at least four k later), not beyond; the
+// scores above the stop are NaN, bic_gmm and icl_gmm still name 3, and the stop does not depend
+// on the workers.
+func TestMixturesStop(t *testing.T) {
 	s := criteria.ExactSummary(mixture(11, 400, 3, 3, 8))
 	opt := criteria.DefaultOptions()
 	opt.MaxK, opt.Anchors = 14, 200
@@ -425,7 +426,7 @@ func TestMixtureChainStops(t *testing.T) {
 		}
 		for _, sc := range r.PerK {
 			if fitted := !math.IsNaN(sc.BICGMM); fitted != (sc.K <= stop) {
-				t.Errorf("k = %d: BIC %v with the chain stopped at %d", sc.K, sc.BICGMM, stop)
+				t.Errorf("k = %d: BIC %v with the mixtures stopped at %d", sc.K, sc.BICGMM, stop)
 			}
 		}
 		for _, v := range r.Votes {

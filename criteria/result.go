@@ -44,7 +44,7 @@ type Result struct {
 	// max-k because BIC and ICL had settled (mixturesSettled: risen at each of four k in a row, or
 	// stayed above their lowest value for six with one family); 0 otherwise. The mixture scores
 	// above it are NaN.
-	MixturesStopAt int `json:"mixtures_stop_at_k,omitempty"`
+	MixturesStopAt int `json:"mixtures_stopped_at_k,omitempty"`
 }
 
 // Vote is one criterion's choice of k. Abstain is true (and K 0) when the criterion could not
