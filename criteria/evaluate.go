@@ -460,6 +460,7 @@ func scoreK(core Points, fit Fit, k int, s Summary, opt Options, scale, excess, 
 // mixtureFit holds the mixture scores of one k (mixtureK); ok is false where no family was fitted.
 type mixtureFit struct {
 	ok                bool
+	k                 int
 	ll, bic, aic, icl float64
 	family            MixtureFamily
 }
@@ -487,7 +488,7 @@ func mixtureK(core Points, fit Fit, k int, s Summary, opt Options, scale, excess
 		p := f.Params(k, s.D)
 		ll = ll*scale - float64(p)/2*excess
 		if bic := BIC(ll, p, s.N); !m.ok || bic < m.bic {
-			m = mixtureFit{ok: true, ll: ll, bic: bic, aic: AICc(ll, p, s.N), icl: bic + 2*en*scale, family: f}
+			m = mixtureFit{ok: true, k: k, ll: ll, bic: bic, aic: AICc(ll, p, s.N), icl: bic + 2*en*scale, family: f}
 		}
 	}
 	return m
@@ -504,10 +505,22 @@ func mixtureK(core Points, fit Fit, k int, s Summary, opt Options, scale, excess
 // not count as passed: in many columns the full covariance at k = 1 beats the spherical mixtures
 // of the next k until k nears the groups' count. Chosen on the benchmark grid's stored curves
 // (DEVELOPERS.md, issue 15, "Criteria stage, round 4").
+//
+// The six k of the second test grow to a third of the k of the lowest value where that is more
+// (mixtureAboveFor): at large k the EM's 20 iterations leave the curves noisy far below the
+// groups' count. On Fränti's Birch2 (100 groups) BIC is lowest at 48, stays above that from
+// unconverged fits for the next twelve k, and is lowest at 100 (DEVELOPERS.md, issue 15,
+// "Criteria stage, round 5"). Up to k = 18 the window is six k, as the grid chose.
 const (
 	mixtureRise  = 4
 	mixtureAbove = 6
 )
+
+// mixtureAboveFor is the second test's window for a lowest value at k: mixtureAbove, or a third
+// of k where that is more.
+func mixtureAboveFor(k int) int {
+	return max(mixtureAbove, (k+2)/3)
+}
 
 // mixturesSettled reports whether the mixtures fitted at indexes 0..i (fits[j].ok) are settled at
 // i (see mixtureRise).
@@ -528,7 +541,7 @@ func mixturesSettled(fits []mixtureFit, i int) bool {
 		}
 		return true
 	}
-	return mixturesPast(fits, i, mixtureRise, climbed) || mixturesPast(fits, i, mixtureAbove, oneFamily)
+	return mixturesPast(fits, i, func(int) int { return mixtureRise }, climbed) || mixturesPast(fits, i, mixtureAboveFor, oneFamily)
 }
 
 // mixtureCurves are the scores whose settling ends the mixtures: BIC and ICL.
@@ -538,9 +551,9 @@ var mixtureCurves = []func(mixtureFit) float64{
 }
 
 // mixturesPast reports whether BIC and ICL each have their lowest value (over the fitted
-// mixtures at indexes 0..i) at least m indexes before i, and pass test from there: test gets the
-// curve and the index of its lowest value.
-func mixturesPast(fits []mixtureFit, i, m int, test func(f func(mixtureFit) float64, best int) bool) bool {
+// mixtures at indexes 0..i) at least m(k of that value) indexes before i, and pass test from
+// there: test gets the curve and the index of its lowest value.
+func mixturesPast(fits []mixtureFit, i int, m func(k int) int, test func(f func(mixtureFit) float64, best int) bool) bool {
 	for _, f := range mixtureCurves {
 		best := -1
 		for j := 0; j <= i; j++ {
@@ -548,7 +561,7 @@ func mixturesPast(fits []mixtureFit, i, m int, test func(f func(mixtureFit) floa
 				best = j
 			}
 		}
-		if best < 0 || i-best < m || !test(f, best) {
+		if best < 0 || i-best < m(fits[best].k) || !test(f, best) {
 			return false
 		}
 	}

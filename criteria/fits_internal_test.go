@@ -110,8 +110,9 @@ func TestFitPathSweeps(t *testing.T) {
 
 // TestMixturesSettled: the mixtures over k stop only after BIC and ICL have each climbed at every
 // one of the last mixtureRise steps from above their lowest value, or stayed above it, with one
-// family, for mixtureAbove steps (property test on invented curves; the rule was chosen on the
-// benchmark grid, DEVELOPERS.md).
+// family, for mixtureAbove steps (a third of the lowest value's k where that is more). Property
+// test on invented curves; the rule was chosen on the benchmark grid and Fränti's Birch2
+// (DEVELOPERS.md).
 func TestMixturesSettled(t *testing.T) {
 	fam := func(f MixtureFamily, vs ...float64) []mixtureFit {
 		out := make([]mixtureFit, len(vs))
@@ -119,12 +120,23 @@ func TestMixturesSettled(t *testing.T) {
 			if math.IsNaN(v) {
 				continue // not fitted
 			}
-			out[i] = mixtureFit{ok: true, bic: v, aic: v, icl: v, family: f}
+			out[i] = mixtureFit{ok: true, k: i + 1, bic: v, aic: v, icl: v, family: f}
 		}
 		return out
 	}
 	curve := func(vs ...float64) []mixtureFit { return fam(FamilyFull, vs...) }
 	nan := math.NaN()
+	// falling to its lowest value at k = 30, then wandering above it for m k.
+	wander := func(m int) []mixtureFit {
+		vs := make([]float64, 0, 30+m)
+		for k := 1; k <= 30; k++ {
+			vs = append(vs, float64(100-k))
+		}
+		for j := range m {
+			vs = append(vs, float64(72+j%2))
+		}
+		return curve(vs...)
+	}
 	for _, tc := range []struct {
 		name string
 		fits []mixtureFit
@@ -141,6 +153,9 @@ func TestMixturesSettled(t *testing.T) {
 		{"minimum at k = 1", curve(1, 2, 3, 4, 5), 4, true},
 		{"minimum of another family, not climbing", append(curve(1), fam(FamilySpherical, 4, 3, 4, 3, 4, 3, 4)...), 7, false},
 		{"minimum of the same family, not climbing", fam(FamilySpherical, 1, 4, 3, 4, 3, 4, 3, 4), 7, true},
+		{"minimum at k = 30, above it for six k", wander(6), 35, false},
+		{"minimum at k = 30, above it for nine k", wander(9), 38, false},
+		{"minimum at k = 30, above it for ten k (a third of 30)", wander(10), 39, true},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			if got := mixturesSettled(tc.fits, tc.i); got != tc.want {

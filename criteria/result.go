@@ -42,8 +42,8 @@ type Result struct {
 	Far     FarRows   `json:"far_rows"` // rows far from every centre of the verdict's fit
 	// MixturesStopAt is the largest k whose mixture was kept when the mixtures stopped before
 	// max-k because BIC and ICL had settled (mixturesSettled: risen at each of four k in a row, or
-	// stayed above their lowest value for six with one family); 0 otherwise. The mixture scores
-	// above it are NaN.
+	// stayed above their lowest value for six k, or a third of its k, with one family); 0
+	// otherwise. The mixture scores above it are NaN.
 	MixturesStopAt int `json:"mixtures_stopped_at_k,omitempty"`
 }
 

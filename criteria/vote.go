@@ -74,6 +74,17 @@ func MixturesAgree(vs []Vote, minK, maxK int) int {
 	return k
 }
 
+// nearK is how far from k a vote may name and still count for k in stage 2 (where k is named with
+// at least its weight: Decide's counts): a twentieth of k, so none below k = 20. Where groups number in the tens or hundreds, criteria that find them
+// rarely stop at the same k: on Fränti's Birch2 (100 groups) BIC and AICc name 100 and ICL 95,
+// while the gap statistics and the split agreement name 4 together and, counted one k at a time,
+// outweighed them (DEVELOPERS.md, issue 15, "Criteria stage, round 5"). Up to k = 19 stage 2
+// counts each k alone, as the benchmark grid's weights were measured.
+func nearK(k int) int { return k / 20 }
+
+// near reports whether a vote for j counts for k in stage 2 (nearK).
+func near(j, k int) bool { return j >= k-nearK(k) && j <= k+nearK(k) }
+
 // unstableRatio: a verdict is unstable when another k holds at least this share of its vote
 // weight. Chosen on the benchmark grid (bench/report/CALIBRATION.md): below it, seeds 1..10 gave
 // the same verdict in at least 9 of 10 runs on every reference set and scenario measured.
@@ -233,6 +244,11 @@ func Decide(vs []Vote, modes ModeCheck, minK, maxK int, w Weights) Verdict {
 	atEdge := func(v Vote) bool {
 		return edgeApplies && (v.StillImproving || (!v.Abstain && v.K == maxK))
 	}
+	// exact is the stage-2 weight named at each k; counts(j, k) reports whether a vote for j
+	// counts for k: j is k, or j is near k (nearK) and named with no more weight than k, so a k
+	// gathers the votes around it only where it is the local peak of the weight.
+	exact := map[int]float64{}
+	counts := func(j, k int) bool { return j == k || (near(j, k) && exact[j] <= exact[k]) }
 	build := func(K int, structure bool, rule string) Verdict {
 		out := Verdict{K: K, Structure: structure, Rule: rule, Agree: []string{}, Disagree: []string{}, Alternatives: []int{}}
 		voting := 0
@@ -246,7 +262,7 @@ func Decide(vs []Vote, modes ModeCheck, minK, maxK int, w Weights) Verdict {
 				continue
 			}
 			voting++
-			if v.K == K || (v.StillImproving && K == maxK) {
+			if counts(v.K, K) || (v.StillImproving && K == maxK) {
 				out.Agree = append(out.Agree, v.Criterion)
 			} else {
 				out.Disagree = append(out.Disagree, v.Criterion)
@@ -258,8 +274,8 @@ func Decide(vs []Vote, modes ModeCheck, minK, maxK int, w Weights) Verdict {
 		return out
 	}
 
-	// Stage 2 scores, needed for the runner-up of a k = 1 verdict as well.
-	score := map[int]float64{}
+	// Stage 2 scores, needed for the runner-up of a k = 1 verdict as well: first the weight named
+	// at each k (exact), then each k's score, the weight of the votes that count for it (counts).
 	edge, total2 := 0.0, 0.0
 	for _, v := range vs {
 		if atEdge(v) {
@@ -273,21 +289,33 @@ func Decide(vs []Vote, modes ModeCheck, minK, maxK int, w Weights) Verdict {
 		}
 		wt := w.Choice[v.Criterion]
 		total2 += wt
-		score[v.K] += wt
+		exact[v.K] += wt
 	}
 	// The derived voter: the three mixture criteria naming one k together.
 	mixK := MixturesAgree(vs, minK, maxK)
 	if wt := w.Choice[NameMixturesAgree]; mixK > 0 && wt > 0 {
-		score[mixK] += wt
+		exact[mixK] += wt
 		total2 += wt
 	}
-	ranked := make([]int, 0, len(score))
-	for k := range score {
+	score := make(map[int]float64, len(exact))
+	ranked := make([]int, 0, len(exact))
+	for k := range exact {
+		for j, wt := range exact {
+			if counts(j, k) {
+				score[k] += wt
+			}
+		}
 		ranked = append(ranked, k)
 	}
 	slices.SortFunc(ranked, func(a, b int) int {
 		if score[a] != score[b] {
 			if score[a] > score[b] {
+				return -1
+			}
+			return 1
+		}
+		if exact[a] != exact[b] {
+			if exact[a] > exact[b] {
 				return -1
 			}
 			return 1
@@ -343,7 +371,7 @@ func Decide(vs []Vote, modes ModeCheck, minK, maxK int, w Weights) Verdict {
 			}
 			out.Why = whyOne(modes, oneBy, len(oneBy)+len(severalBy))
 			if out.RunnerUp > 0 {
-				out.WhyRunner = whyK(out.RunnerUp, vs, mixK, score[out.RunnerUp], total2, "Runner-up", w)
+				out.WhyRunner = whyK(out.RunnerUp, vs, mixK, score[out.RunnerUp], total2, "Runner-up", w, counts)
 			}
 			return out
 		}
@@ -363,7 +391,7 @@ func Decide(vs []Vote, modes ModeCheck, minK, maxK int, w Weights) Verdict {
 		out.Confidence = w.Confidence(out.Support)
 		if len(ranked) > 0 {
 			out.RunnerUp = ranked[0]
-			out.WhyRunner = whyK(out.RunnerUp, vs, mixK, score[out.RunnerUp], total2, "Runner-up", w)
+			out.WhyRunner = whyK(out.RunnerUp, vs, mixK, score[out.RunnerUp], total2, "Runner-up", w, counts)
 		}
 		out.Why = fmt.Sprintf("k = %d (max-k): criteria holding %.0f%% of the weighted vote are still improving at the top of the range, "+
 			"so the data may hold more clusters than --max-k allows.", maxK, 100*edge/total2)
@@ -380,7 +408,9 @@ func Decide(vs []Vote, modes ModeCheck, minK, maxK int, w Weights) Verdict {
 		"(weights measured on the benchmark grid; votes at max-k only say 'k may be larger')")
 	out.Support = several * score[K] / total2
 	out.Confidence = w.Confidence(out.Support)
-	for _, k := range ranked[1:] {
+	// The other k: a k near K, or whose own neighbourhood holds K, is K's vote, not a rival.
+	others := slices.DeleteFunc(ranked[1:], func(k int) bool { return counts(k, K) || near(K, k) })
+	for _, k := range others {
 		if score[k] >= unstableRatio*score[K] {
 			out.Alternatives = append(out.Alternatives, k)
 		}
@@ -388,8 +418,8 @@ func Decide(vs []Vote, modes ModeCheck, minK, maxK int, w Weights) Verdict {
 	if minK <= 1 && share1 >= unstableRatio*(1-share1) {
 		out.Alternatives = append(out.Alternatives, 1)
 	}
-	if len(ranked) > 1 {
-		out.RunnerUp = ranked[1]
+	if len(others) > 0 {
+		out.RunnerUp = others[0]
 	} else if edge > 0 {
 		out.RunnerUp = maxK
 	}
@@ -399,9 +429,9 @@ func Decide(vs []Vote, modes ModeCheck, minK, maxK int, w Weights) Verdict {
 		out.Alternatives = append(out.Alternatives, out.RunnerUp)
 	}
 	out.Unstable = len(out.Alternatives) > 0
-	out.Why = whyK(K, vs, mixK, score[K], total2, "", w)
+	out.Why = whyK(K, vs, mixK, score[K], total2, "", w, counts)
 	if out.RunnerUp > 0 {
-		out.WhyRunner = whyK(out.RunnerUp, vs, mixK, score[out.RunnerUp], total2, "Runner-up", w)
+		out.WhyRunner = whyK(out.RunnerUp, vs, mixK, score[out.RunnerUp], total2, "Runner-up", w, counts)
 	}
 	return out
 }
@@ -430,11 +460,13 @@ func whyOne(m ModeCheck, oneBy []string, voters int) string {
 
 // whyK is Verdict.Why (or WhyRunner, with prefix) for a k >= 2: its weight share and the
 // strongest criteria behind it, each with what it measures.
-func whyK(k int, vs []Vote, mixK int, score, total float64, prefix string, w Weights) string {
+func whyK(k int, vs []Vote, mixK int, score, total float64, prefix string, w Weights, counts func(j, k int) bool) string {
 	var by []string
+	around := false // some of them name a k near k, not k itself
 	for _, v := range vs {
-		if !v.Abstain && v.K == k {
+		if !v.Abstain && counts(v.K, k) {
 			by = append(by, v.Criterion)
+			around = around || v.K != k
 		}
 	}
 	named := len(by) // criteria, without the derived voter
@@ -468,6 +500,9 @@ func whyK(k int, vs []Vote, mixK int, score, total float64, prefix string, w Wei
 		noun := "criteria"
 		if named == 1 {
 			noun = "criterion"
+		}
+		if around {
+			noun += fmt.Sprintf(" naming k = %d to %d", k-nearK(k), k+nearK(k))
 		}
 		fmt.Fprintf(&b, " (%d %s): %s", named, noun, strings.Join(reasons, "; "))
 	}

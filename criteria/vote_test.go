@@ -401,3 +401,47 @@ func TestEdgeIncludesTheKBelowMaxK(t *testing.T) {
 		}
 	}
 }
+
+// TestNearVotes: from k = 20 on, stage 2 counts the votes within a twentieth of k for it (nearK);
+// below, each k stands alone.
+func TestNearVotes(t *testing.T) {
+	split := ModeCheck{N: 500, PValue: 0.001, Modes: true}
+	// The votes of `kgauge estimate --max-k 110` on Fränti & Sieranoja's Birch2 (100 groups along
+	// a sine curve; ../shared/data/README.md), embedded weights: counted one k at a time, 4
+	// (both gap statistics and the split agreement) outweighs 100 (BIC, AICc; ICL names 95).
+	birch2 := map[string]int{NameAICGMM: 100, NameBICGMM: 100, NameICLGMM: 95, NameDaviesBouldin: 80, NameElbow: 11,
+		NameGapBox: 4, NameGapPCA: 4, NameSilhouette: 73, NameSimplifiedSilhouette: 79, NameSplitAgreement: 4, NameWard: 16}
+	v := Decide(votesOf(birch2), split, 1, 110, DefaultWeights())
+	if v.K != 100 || v.RunnerUp != 4 {
+		t.Errorf("Birch2: k = %d, runner-up %d; want 100, runner-up 4", v.K, v.RunnerUp)
+	}
+	if !slices.Contains(v.Agree, NameICLGMM) || !strings.Contains(v.Why, "naming k = 95 to 105") {
+		t.Errorf("Birch2: ICL's 95 not counted for 100: agree %v, why %q", v.Agree, v.Why)
+	}
+	if slices.Contains(v.Alternatives, 95) || v.RunnerUp == 95 {
+		t.Errorf("Birch2: 95 is 100's own vote, not a rival: alternatives %v", v.Alternatives)
+	}
+
+	w := equalWeights()
+	for _, tc := range []struct {
+		name  string
+		votes map[string]int
+		maxK  int
+		k     int
+	}{
+		{"below 20 each k stands alone",
+			map[string]int{NameBICGMM: 10, NameAICGMM: 11, NameICLGMM: 9, NameGapBox: 4, NameGapPCA: 4}, 20, 4},
+		{"at 40, 38 to 42 count together",
+			map[string]int{NameBICGMM: 40, NameAICGMM: 41, NameICLGMM: 39, NameGapBox: 4, NameGapPCA: 4}, 60, 40},
+		{"at 40, 43 is too far",
+			map[string]int{NameBICGMM: 40, NameAICGMM: 43, NameICLGMM: 37, NameGapBox: 4, NameGapPCA: 4}, 60, 4},
+		{"the k named most exactly wins among neighbours",
+			map[string]int{NameBICGMM: 60, NameAICGMM: 60, NameICLGMM: 61}, 80, 60},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			if v := Decide(votesOf(tc.votes), split, 1, tc.maxK, w); v.K != tc.k {
+				t.Errorf("k = %d, want %d (why: %s)", v.K, tc.k, v.Why)
+			}
+		})
+	}
+}
