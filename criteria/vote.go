@@ -75,11 +75,12 @@ func MixturesAgree(vs []Vote, minK, maxK int) int {
 }
 
 // nearK is how far from k a vote may name and still count for k in stage 2 (where k is named with
-// at least its weight: Decide's counts): a twentieth of k, so none below k = 20. Where groups number in the tens or hundreds, criteria that find them
-// rarely stop at the same k: on Fränti's Birch2 (100 groups) BIC and AICc name 100 and ICL 95,
-// while the gap statistics and the split agreement name 4 together and, counted one k at a time,
-// outweighed them (DEVELOPERS.md, issue 15, "Criteria stage, round 5"). Up to k = 19 stage 2
-// counts each k alone, as the benchmark grid's weights were measured.
+// at least its weight: Decide's counts): a twentieth of k, so none below k = 20. Where groups
+// number in the tens or hundreds, criteria that find them rarely stop at the same k: on Fränti's
+// Birch2 (100 groups) BIC and AICc name 100 and ICL 95, while the gap statistics and the split
+// agreement name 4 together and, counted one k at a time, outweighed them (DEVELOPERS.md, issue
+// 15, "Criteria stage, round 5"). Up to k = 19 stage 2 counts each k alone, as the benchmark
+// grid's weights were measured.
 func nearK(k int) int { return k / 20 }
 
 // near reports whether a vote for j counts for k in stage 2 (nearK).
@@ -409,7 +410,7 @@ func Decide(vs []Vote, modes ModeCheck, minK, maxK int, w Weights) Verdict {
 	out.Support = several * score[K] / total2
 	out.Confidence = w.Confidence(out.Support)
 	// The other k: a k near K, or whose own neighbourhood holds K, is K's vote, not a rival.
-	others := slices.DeleteFunc(ranked[1:], func(k int) bool { return counts(k, K) || near(K, k) })
+	others := slices.DeleteFunc(slices.Clone(ranked[1:]), func(k int) bool { return counts(k, K) || near(K, k) })
 	for _, k := range others {
 		if score[k] >= unstableRatio*score[K] {
 			out.Alternatives = append(out.Alternatives, k)
