@@ -250,7 +250,8 @@ func votes(per []Scores, wardK int, rows float64, points, dims int, opt Options)
 		}
 		if ok && k == top && top < lastValid && !passedOver(k+1) {
 			add(name, 0, false, fmt.Sprintf("no say: still falling at k = %d, the largest k whose mixture was fitted (BIC and ICL "+
-				"had risen for %d k, or stayed above their lowest value for %d, so no larger one was fitted)", k, mixtureRise, mixtureAbove))
+				"had risen for %d k, or stayed above their lowest value for %d k or a third of its k, so no larger one was fitted)",
+				k, mixtureRise, mixtureAbove))
 			return
 		}
 		if ok && k == top && top < lastValid {
