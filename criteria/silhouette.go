@@ -6,6 +6,7 @@ import (
 	"sort"
 
 	"github.com/kgauge/kgauge/internal/kmeans"
+	"github.com/kgauge/kgauge/internal/lanes"
 )
 
 // silGroups holds the positive-weight points of p reordered by cluster (stable, so each cluster
@@ -66,7 +67,7 @@ func newSilGroups(p Points, labels []int32, k int) *silGroups {
 }
 
 // silBlock is the number of anchors silGroups.silhouettes measures per sweep over a cluster.
-const silBlock = 4
+const silBlock = 4 // one group of lanes.WeightedRootSums
 
 // silhouettes writes s(i) of each anchor (point i of p with label labels[i] and weight > 0) into
 // out (Rousseeuw 1987):
@@ -95,13 +96,17 @@ func (g *silGroups) silhouettes(p Points, labels []int32, anchors []int, out []f
 	key := make([]float64, k)
 	var ax [silBlock][]float64
 	var own [silBlock]int32
+	block := make([]float64, silBlock*d) // the block's anchors, row-major
+	var at []float64                     // and transposed for meanDist
 	for b := 0; b < len(anchors); b += silBlock {
 		nb := min(silBlock, len(anchors)-b)
 		for q := 0; q < silBlock; q++ {
 			i := anchors[b+min(q, nb-1)] // a short block repeats its last anchor
 			ax[q], own[q] = p.Point(i), labels[i]
 			best[q] = math.Inf(1)
+			copy(block[q*d:(q+1)*d], ax[q])
 		}
+		at = lanes.Group(at, block, 1, d)
 		order = order[:0]
 		for c := 0; c < k; c++ {
 			key[c] = math.Inf(1)
@@ -130,7 +135,7 @@ func (g *silGroups) silhouettes(p Points, labels []int32, anchors []int, out []f
 			if !need {
 				continue
 			}
-			t := g.meanDist(&ax, c)
+			t := g.meanDist(at, c)
 			for q := 0; q < silBlock; q++ {
 				sums[q*k+c] = t[q]
 				if int32(c) != own[q] {
@@ -145,31 +150,14 @@ func (g *silGroups) silhouettes(p Points, labels []int32, anchors []int, out []f
 	}
 }
 
-// meanDist returns, for each of the silBlock anchors, sum_{j in C} w_j ||x_i - x_j||.
-func (g *silGroups) meanDist(ax *[silBlock][]float64, c int) [silBlock]float64 {
+// meanDist returns, for each of the silBlock anchors (transposed in at, lanes.Group),
+// sum_{j in C} w_j ||x_i - x_j||, the points' terms added in row order.
+func (g *silGroups) meanDist(at []float64, c int) [silBlock]float64 {
+	var t [silBlock]float64
 	d := g.d
-	a0 := ax[0][:d]
-	a1, a2, a3 := ax[1][:d], ax[2][:d], ax[3][:d]
-	var t0, t1, t2, t3 float64
-	for r := g.start[c]; r < g.start[c+1]; r++ {
-		x := g.x[r*d : r*d+d : r*d+d]
-		x = x[:len(a0)]
-		var s0, s1, s2, s3 float64
-		for t, v := range a0 {
-			u := x[t]
-			e0, e1, e2, e3 := v-u, a1[t]-u, a2[t]-u, a3[t]-u
-			s0 += e0 * e0
-			s1 += e1 * e1
-			s2 += e2 * e2
-			s3 += e3 * e3
-		}
-		w := g.w[r]
-		t0 += w * math.Sqrt(s0)
-		t1 += w * math.Sqrt(s1)
-		t2 += w * math.Sqrt(s2)
-		t3 += w * math.Sqrt(s3)
-	}
-	return [silBlock]float64{t0, t1, t2, t3}
+	lo, hi := g.start[c], g.start[c+1]
+	lanes.WeightedRootSums(at, g.x[lo*d:hi*d], g.w[lo:hi], &t)
+	return t
 }
 
 // finish returns s(i) from the anchor's weighted distance sum to its own cluster and b(i); row is

@@ -4,6 +4,8 @@ import (
 	"context"
 	"math"
 	"math/rand/v2"
+
+	"github.com/kgauge/kgauge/internal/lanes"
 )
 
 // Result is one k-means solution on a Data set.
@@ -101,6 +103,7 @@ type hamerly struct {
 	lower []float64 // <= distance to every other centre
 	half  []float64 // half the distance from each centre to its nearest other centre
 	shift []float64
+	g     grouped // the centres for full scans in vector lanes (lanes.Vector)
 }
 
 func newHamerly(p Data, k int) *hamerly {
@@ -173,6 +176,10 @@ func (h *hamerly) assign(c []float64, labels []int32, full bool) int {
 			h.half[j] = 0.5 * math.Sqrt(m)
 		}
 	}
+	grouped := lanes.Vector && k >= 4
+	if grouped {
+		h.g.load(c, k, d)
+	}
 	changed := 0
 	for i := range labels {
 		x := p.Point(i)
@@ -187,7 +194,13 @@ func (h *hamerly) assign(c []float64, labels []int32, full bool) int {
 				continue
 			}
 		}
-		b, d1, d2 := nearest2(x, c, k, d)
+		var b int
+		var d1, d2 float64
+		if grouped {
+			b, d1, d2 = h.g.nearest2(x, c, k, d)
+		} else {
+			b, d1, d2 = nearest2(x, c, k, d)
+		}
 		if full || int32(b) != labels[i] {
 			changed++
 		}

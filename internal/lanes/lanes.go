@@ -1,0 +1,97 @@
+// Package lanes holds the distance kernels that measure four vectors at once, one vector lane
+// per vector: the centres of a k-means scan, the anchors of a silhouette. Each kernel performs
+// the same floating-point operations in the same order as the scalar loop it replaces (no fused
+// multiply-add), so its results are equal to that loop's bit for bit; the assembly runs where the
+// machine has AVX2 ([Vector]) and the Go reference everywhere else.
+//
+// Four vectors of d values are stored transposed, value t of vector l at 4t + l ([Group]).
+package lanes
+
+import "math"
+
+// Group writes the first 4·groups rows of c (row-major, d values a row) into dst in groups of
+// four, transposed: value t of row 4g + l goes to dst[4d·g + 4t + l]. It returns dst, grown when
+// it is too short.
+func Group(dst, c []float64, groups, d int) []float64 {
+	need := 4 * d * groups
+	if cap(dst) < need {
+		dst = make([]float64, need)
+	}
+	dst = dst[:need]
+	for g := 0; g < groups; g++ {
+		block := dst[4*d*g : 4*d*(g+1)]
+		for l := 0; l < 4; l++ {
+			for t, v := range c[(4*g+l)*d : (4*g+l+1)*d] {
+				block[4*t+l] = v
+			}
+		}
+	}
+	return dst
+}
+
+// SquaredDists writes out[4g+l] = Σ_t (x[t] − ct[4d·g + 4t + l])² for the groups g < groups of
+// four transposed vectors in ct (Group; d = len(x)), each sum added over t in order from zero.
+// It panics when ct or out is too short.
+func SquaredDists(x, ct []float64, groups int, out []float64) {
+	if groups < 0 || len(ct) < 4*len(x)*groups || len(out) < 4*groups {
+		panic("lanes: SquaredDists: ct or out too short")
+	}
+	if groups == 0 {
+		return
+	}
+	squaredDists(x, ct, groups, out)
+}
+
+// WeightedRootSums sets out[l] = Σ_r w[r]·√(Σ_t (a[4t+l] − x[d·r + t])²) for the four
+// transposed vectors in a (one group, d = len(a)/4) and the rows r < len(w) of x, each inner sum
+// added over t in order and the outer over r in order, from zero. It panics when a's length is
+// not a multiple of four or x holds fewer than len(w) rows.
+func WeightedRootSums(a, x, w []float64, out *[4]float64) {
+	if len(a)%4 != 0 || len(x) < len(a)/4*len(w) {
+		panic("lanes: WeightedRootSums: a or x too short")
+	}
+	if len(a) == 0 {
+		weightedRootSumsGo(a, x, w, out)
+		return
+	}
+	weightedRootSums(a, x, w, out)
+}
+
+// squaredDistsGo is SquaredDists in Go.
+func squaredDistsGo(x, ct []float64, groups int, out []float64) {
+	d := len(x)
+	for g := 0; g < groups; g++ {
+		block := ct[4*d*g : 4*d*(g+1)]
+		var s0, s1, s2, s3 float64
+		for t, v := range x {
+			e0, e1, e2, e3 := v-block[4*t], v-block[4*t+1], v-block[4*t+2], v-block[4*t+3]
+			s0 += e0 * e0
+			s1 += e1 * e1
+			s2 += e2 * e2
+			s3 += e3 * e3
+		}
+		out[4*g], out[4*g+1], out[4*g+2], out[4*g+3] = s0, s1, s2, s3
+	}
+}
+
+// weightedRootSumsGo is WeightedRootSums in Go.
+func weightedRootSumsGo(a, x, w []float64, out *[4]float64) {
+	d := len(a) / 4
+	var t0, t1, t2, t3 float64
+	for r, wr := range w {
+		row := x[r*d : r*d+d]
+		var s0, s1, s2, s3 float64
+		for t, u := range row {
+			e0, e1, e2, e3 := a[4*t]-u, a[4*t+1]-u, a[4*t+2]-u, a[4*t+3]-u
+			s0 += e0 * e0
+			s1 += e1 * e1
+			s2 += e2 * e2
+			s3 += e3 * e3
+		}
+		t0 += wr * math.Sqrt(s0)
+		t1 += wr * math.Sqrt(s1)
+		t2 += wr * math.Sqrt(s2)
+		t3 += wr * math.Sqrt(s3)
+	}
+	*out = [4]float64{t0, t1, t2, t3}
+}

@@ -1,0 +1,31 @@
+//go:build !purego
+
+package lanes
+
+import "golang.org/x/sys/cpu"
+
+// Vector reports whether the kernels run in AVX2 assembly (the machine has it and the operating
+// system saves the wide registers); without it they run their Go reference.
+var Vector = cpu.X86.HasAVX2
+
+//go:noescape
+func squaredDistsAsm(x, ct []float64, groups int, out []float64)
+
+//go:noescape
+func weightedRootSumsAsm(a, x, w []float64, out *[4]float64)
+
+func squaredDists(x, ct []float64, groups int, out []float64) {
+	if Vector {
+		squaredDistsAsm(x, ct, groups, out)
+		return
+	}
+	squaredDistsGo(x, ct, groups, out)
+}
+
+func weightedRootSums(a, x, w []float64, out *[4]float64) {
+	if Vector {
+		weightedRootSumsAsm(a, x, w, out)
+		return
+	}
+	weightedRootSumsGo(a, x, w, out)
+}

@@ -1,0 +1,168 @@
+//go:build !purego
+
+#include "textflag.h"
+
+// func squaredDistsAsm(x []float64, ct []float64, groups int, out []float64)
+//
+// SquaredDists (lanes.go), one lane per vector: four groups go together (four independent
+// accumulators), then the rest one at a time. Subtract, multiply and add as separate
+// instructions (no fused multiply-add), as the Go reference does. The caller checks AVX2 and the
+// lengths.
+TEXT ·squaredDistsAsm(SB), NOSPLIT, $0-80
+	MOVQ x_base+0(FP), SI
+	MOVQ x_len+8(FP), CX
+	MOVQ ct_base+24(FP), DI
+	MOVQ groups+48(FP), BX
+	MOVQ out_base+56(FP), DX
+	MOVQ CX, R10
+	SHLQ $5, R10          // bytes per group: 4 values × 8 bytes × d
+	LEAQ (R10)(R10*2), R12 // three groups
+
+four:
+	CMPQ BX, $4
+	JLT  one
+	VXORPD Y0, Y0, Y0
+	VXORPD Y1, Y1, Y1
+	VXORPD Y2, Y2, Y2
+	VXORPD Y3, Y3, Y3
+	XORQ AX, AX
+
+fourloop:
+	CMPQ AX, CX
+	JGE  fourdone
+	VBROADCASTSD (SI)(AX*8), Y4
+	VSUBPD (DI), Y4, Y5
+	VSUBPD (DI)(R10*1), Y4, Y6
+	VSUBPD (DI)(R10*2), Y4, Y7
+	VSUBPD (DI)(R12*1), Y4, Y8
+	VMULPD Y5, Y5, Y5
+	VMULPD Y6, Y6, Y6
+	VMULPD Y7, Y7, Y7
+	VMULPD Y8, Y8, Y8
+	VADDPD Y5, Y0, Y0
+	VADDPD Y6, Y1, Y1
+	VADDPD Y7, Y2, Y2
+	VADDPD Y8, Y3, Y3
+	ADDQ $32, DI
+	INCQ AX
+	JMP  fourloop
+
+fourdone:
+	VMOVUPD Y0, (DX)
+	VMOVUPD Y1, 32(DX)
+	VMOVUPD Y2, 64(DX)
+	VMOVUPD Y3, 96(DX)
+	ADDQ $128, DX
+	ADDQ R12, DI          // DI had moved one group; skip the other three
+	SUBQ $4, BX
+	JMP  four
+
+one:
+	CMPQ BX, $0
+	JLE  done
+	VXORPD Y0, Y0, Y0
+	XORQ AX, AX
+
+oneloop:
+	CMPQ AX, CX
+	JGE  onedone
+	VBROADCASTSD (SI)(AX*8), Y4
+	VSUBPD (DI), Y4, Y5
+	VMULPD Y5, Y5, Y5
+	VADDPD Y5, Y0, Y0
+	ADDQ $32, DI
+	INCQ AX
+	JMP  oneloop
+
+onedone:
+	VMOVUPD Y0, (DX)
+	ADDQ $32, DX
+	DECQ BX
+	JMP  one
+
+done:
+	VZEROUPPER
+	RET
+
+// func weightedRootSumsAsm(a, x, w []float64, out *[4]float64)
+//
+// WeightedRootSums (lanes.go), one lane per vector: two rows go together (two independent inner
+// sums), their terms added to the total in row order. The caller checks AVX2 and the lengths.
+TEXT ·weightedRootSumsAsm(SB), NOSPLIT, $0-80
+	MOVQ a_base+0(FP), DI
+	MOVQ a_len+8(FP), CX
+	SHRQ $2, CX           // d
+	MOVQ x_base+24(FP), SI
+	MOVQ w_base+48(FP), R8
+	MOVQ w_len+56(FP), BX
+	MOVQ out+72(FP), DX
+	VXORPD Y7, Y7, Y7
+
+rows2:
+	CMPQ BX, $2
+	JLT  rows1
+	LEAQ (SI)(CX*8), R11  // the second row
+	MOVQ DI, R9
+	VXORPD Y0, Y0, Y0
+	VXORPD Y1, Y1, Y1
+	XORQ AX, AX
+
+inner2:
+	CMPQ AX, CX
+	JGE  done2
+	VMOVUPD (R9), Y6
+	VBROADCASTSD (SI)(AX*8), Y4
+	VBROADCASTSD (R11)(AX*8), Y5
+	VSUBPD Y6, Y4, Y4
+	VSUBPD Y6, Y5, Y5
+	VMULPD Y4, Y4, Y4
+	VMULPD Y5, Y5, Y5
+	VADDPD Y4, Y0, Y0
+	VADDPD Y5, Y1, Y1
+	ADDQ $32, R9
+	INCQ AX
+	JMP  inner2
+
+done2:
+	VSQRTPD Y0, Y0
+	VSQRTPD Y1, Y1
+	VBROADCASTSD (R8), Y2
+	VBROADCASTSD 8(R8), Y3
+	VMULPD Y2, Y0, Y0
+	VMULPD Y3, Y1, Y1
+	VADDPD Y0, Y7, Y7
+	VADDPD Y1, Y7, Y7
+	LEAQ (R11)(CX*8), SI
+	ADDQ $16, R8
+	SUBQ $2, BX
+	JMP  rows2
+
+rows1:
+	CMPQ BX, $0
+	JLE  end
+	MOVQ DI, R9
+	VXORPD Y0, Y0, Y0
+	XORQ AX, AX
+
+inner1:
+	CMPQ AX, CX
+	JGE  done1
+	VMOVUPD (R9), Y6
+	VBROADCASTSD (SI)(AX*8), Y4
+	VSUBPD Y6, Y4, Y4
+	VMULPD Y4, Y4, Y4
+	VADDPD Y4, Y0, Y0
+	ADDQ $32, R9
+	INCQ AX
+	JMP  inner1
+
+done1:
+	VSQRTPD Y0, Y0
+	VBROADCASTSD (R8), Y2
+	VMULPD Y2, Y0, Y0
+	VADDPD Y0, Y7, Y7
+
+end:
+	VMOVUPD Y7, (DX)
+	VZEROUPPER
+	RET
