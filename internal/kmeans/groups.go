@@ -1,42 +1,26 @@
 package kmeans
 
-import (
-	"math"
-
-	"github.com/kgauge/kgauge/internal/lanes"
-)
+import "github.com/kgauge/kgauge/internal/lanes"
 
 // grouped holds k centres for a scan of every centre from one point at a time: the first
-// 4·⌊k/4⌋ in groups of four, transposed for lanes.SquaredDists, and a scratch for the distances
-// of a scan.
+// 4·⌊k/4⌋ in groups of four, transposed for lanes.Nearest2.
 type grouped struct {
-	ct, out []float64
-	groups  int
+	ct     []float64
+	groups int
 }
 
 // load stores the centres c (k·d, row-major) for scans by nearest2.
 func (g *grouped) load(c []float64, k, d int) {
 	g.groups = k / 4
 	g.ct = lanes.Group(g.ct, c, g.groups, d)
-	if cap(g.out) < 4*g.groups {
-		g.out = make([]float64, 4*g.groups)
-	}
-	g.out = g.out[:4*g.groups]
 }
 
-// nearest2 is the package's nearest2 on the loaded centres c (k·d): the same sums in the same
-// order (each centre's squared differences added over t one after another), so the same result
-// bit for bit, with the grouped centres measured by lanes.SquaredDists.
+// nearest2 is the package's nearest2 on the loaded centres c (k·d; k ≥ 4): the same sums in the
+// same order (each centre's squared differences added over t one after another) and the same
+// choice among them, so the same result bit for bit, with the grouped centres scanned by
+// lanes.Nearest2 and the rest (past the last group of four) as nearest2 measures them.
 func (g *grouped) nearest2(x, c []float64, k, d int) (best int, d1, d2 float64) {
-	lanes.SquaredDists(x, g.ct, g.groups, g.out)
-	d1, d2 = math.Inf(1), math.Inf(1)
-	for j, v := range g.out {
-		if v < d1 {
-			d2, d1, best = d1, v, j
-		} else if v < d2 {
-			d2 = v
-		}
-	}
+	best, d1, d2 = lanes.Nearest2(x, g.ct, g.groups)
 	for j := 4 * g.groups; j < k; j++ {
 		v := Dist2(x, c[j*d:j*d+d])
 		if v < d1 {

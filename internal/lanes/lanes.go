@@ -95,3 +95,49 @@ func weightedRootSumsGo(a, x, w []float64, out *[4]float64) {
 	}
 	*out = [4]float64{t0, t1, t2, t3}
 }
+
+// Nearest2 returns what a scan of SquaredDists's sums in index order finds, without storing
+// them: the index of the smallest (the first of equal ones; 0 when every sum is +Inf), the
+// smallest and the second smallest (equal to the smallest when two sums are equal; +Inf when
+// there is one vector). Each lane keeps the smallest, second smallest and first index of its own
+// vectors; the four are then merged. It panics when ct is too short or groups < 1.
+func Nearest2(x, ct []float64, groups int) (best int, d1, d2 float64) {
+	if groups < 1 || len(ct) < 4*len(x)*groups {
+		panic("lanes: Nearest2: ct too short or no group")
+	}
+	var m [12]float64 // per lane: smallest, second smallest, group of the smallest
+	nearest2(x, ct, groups, &m)
+	d1, d2 = math.Inf(1), math.Inf(1)
+	w := 0
+	for l := 0; l < 4; l++ {
+		i := 4*int(m[8+l]) + l
+		if m[l] < d1 || (m[l] == d1 && i < best) || l == 0 {
+			d1, best, w = m[l], i, l
+		}
+	}
+	d2 = m[4+w]
+	for l := 0; l < 4; l++ {
+		if l != w && m[l] < d2 {
+			d2 = m[l]
+		}
+	}
+	return best, d1, d2
+}
+
+// nearest2Go is Nearest2's per-lane scan in Go.
+func nearest2Go(x, ct []float64, groups int, m *[12]float64) {
+	inf := math.Inf(1)
+	*m = [12]float64{inf, inf, inf, inf, inf, inf, inf, inf}
+	var v [4]float64
+	for g := 0; g < groups; g++ {
+		squaredDistsGo(x, ct[4*len(x)*g:], 1, v[:])
+		for l, s := range v {
+			switch {
+			case s < m[l]:
+				m[4+l], m[l], m[8+l] = m[l], s, float64(g)
+			case s < m[4+l]:
+				m[4+l] = s
+			}
+		}
+	}
+}

@@ -8,8 +8,14 @@ import "golang.org/x/sys/cpu"
 // system saves the wide registers); without it they run their Go reference.
 var Vector = cpu.X86.HasAVX2
 
+// setVector turns the assembly off, or back on where the machine has it (tests).
+func setVector(on bool) { Vector = on && cpu.X86.HasAVX2 }
+
 //go:noescape
 func squaredDistsAsm(x, ct []float64, groups int, out []float64)
+
+//go:noescape
+func nearest2Asm(x, ct []float64, groups int, m *[12]float64)
 
 //go:noescape
 func weightedRootSumsAsm(a, x, w []float64, out *[4]float64)
@@ -28,4 +34,12 @@ func weightedRootSums(a, x, w []float64, out *[4]float64) {
 		return
 	}
 	weightedRootSumsGo(a, x, w, out)
+}
+
+func nearest2(x, ct []float64, groups int, m *[12]float64) {
+	if Vector {
+		nearest2Asm(x, ct, groups, m)
+		return
+	}
+	nearest2Go(x, ct, groups, m)
 }

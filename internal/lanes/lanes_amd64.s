@@ -166,3 +166,122 @@ end:
 	VMOVUPD Y7, (DX)
 	VZEROUPPER
 	RET
+
+// func nearest2Asm(x, ct []float64, groups int, m *[12]float64)
+//
+// Nearest2's per-lane scan (lanes.go): each group's four sums as in squaredDistsAsm, then folded
+// into each lane's smallest (Y8), second smallest (Y9) and group of the smallest (Y10) in group
+// order: where a sum is below the smallest, the smallest becomes the second and the sum the
+// smallest; otherwise the second becomes the lesser of itself and the sum. Four groups go
+// together, then the rest one at a time. The caller checks AVX2 and the lengths.
+TEXT ·nearest2Asm(SB), NOSPLIT, $0-64
+	MOVQ x_base+0(FP), SI
+	MOVQ x_len+8(FP), CX
+	MOVQ ct_base+24(FP), DI
+	MOVQ groups+48(FP), BX
+	MOVQ m+56(FP), DX
+	MOVQ CX, R10
+	SHLQ $5, R10
+	LEAQ (R10)(R10*2), R12
+	MOVQ $0x7ff0000000000000, R13 // +Inf
+	MOVQ R13, X8
+	VBROADCASTSD X8, Y8
+	VMOVAPD Y8, Y9
+	VXORPD Y10, Y10, Y10          // the group of the smallest
+	VXORPD Y11, Y11, Y11          // this group's number
+	MOVQ $0x3ff0000000000000, R13 // 1.0
+	MOVQ R13, X12
+	VBROADCASTSD X12, Y12
+
+nfour:
+	CMPQ BX, $4
+	JLT  none
+	VXORPD Y0, Y0, Y0
+	VXORPD Y1, Y1, Y1
+	VXORPD Y2, Y2, Y2
+	VXORPD Y3, Y3, Y3
+	XORQ AX, AX
+
+nfourloop:
+	CMPQ AX, CX
+	JGE  nfourdone
+	VBROADCASTSD (SI)(AX*8), Y4
+	VSUBPD (DI), Y4, Y5
+	VSUBPD (DI)(R10*1), Y4, Y6
+	VSUBPD (DI)(R10*2), Y4, Y7
+	VSUBPD (DI)(R12*1), Y4, Y13
+	VMULPD Y5, Y5, Y5
+	VMULPD Y6, Y6, Y6
+	VMULPD Y7, Y7, Y7
+	VMULPD Y13, Y13, Y13
+	VADDPD Y5, Y0, Y0
+	VADDPD Y6, Y1, Y1
+	VADDPD Y7, Y2, Y2
+	VADDPD Y13, Y3, Y3
+	ADDQ $32, DI
+	INCQ AX
+	JMP  nfourloop
+
+nfourdone:
+	// Fold Y0..Y3 in group order. Y13: sum < smallest; Y14: min(sum, second).
+	VCMPPD $1, Y8, Y0, Y13
+	VMINPD Y9, Y0, Y14
+	VBLENDVPD Y13, Y8, Y14, Y9
+	VBLENDVPD Y13, Y0, Y8, Y8
+	VBLENDVPD Y13, Y11, Y10, Y10
+	VADDPD Y12, Y11, Y11
+	VCMPPD $1, Y8, Y1, Y13
+	VMINPD Y9, Y1, Y14
+	VBLENDVPD Y13, Y8, Y14, Y9
+	VBLENDVPD Y13, Y1, Y8, Y8
+	VBLENDVPD Y13, Y11, Y10, Y10
+	VADDPD Y12, Y11, Y11
+	VCMPPD $1, Y8, Y2, Y13
+	VMINPD Y9, Y2, Y14
+	VBLENDVPD Y13, Y8, Y14, Y9
+	VBLENDVPD Y13, Y2, Y8, Y8
+	VBLENDVPD Y13, Y11, Y10, Y10
+	VADDPD Y12, Y11, Y11
+	VCMPPD $1, Y8, Y3, Y13
+	VMINPD Y9, Y3, Y14
+	VBLENDVPD Y13, Y8, Y14, Y9
+	VBLENDVPD Y13, Y3, Y8, Y8
+	VBLENDVPD Y13, Y11, Y10, Y10
+	VADDPD Y12, Y11, Y11
+	ADDQ R12, DI
+	SUBQ $4, BX
+	JMP  nfour
+
+none:
+	CMPQ BX, $0
+	JLE  ndone
+	VXORPD Y0, Y0, Y0
+	XORQ AX, AX
+
+noneloop:
+	CMPQ AX, CX
+	JGE  nonedone
+	VBROADCASTSD (SI)(AX*8), Y4
+	VSUBPD (DI), Y4, Y5
+	VMULPD Y5, Y5, Y5
+	VADDPD Y5, Y0, Y0
+	ADDQ $32, DI
+	INCQ AX
+	JMP  noneloop
+
+nonedone:
+	VCMPPD $1, Y8, Y0, Y13
+	VMINPD Y9, Y0, Y14
+	VBLENDVPD Y13, Y8, Y14, Y9
+	VBLENDVPD Y13, Y0, Y8, Y8
+	VBLENDVPD Y13, Y11, Y10, Y10
+	VADDPD Y12, Y11, Y11
+	DECQ BX
+	JMP  none
+
+ndone:
+	VMOVUPD Y8, (DX)
+	VMOVUPD Y9, 32(DX)
+	VMOVUPD Y10, 64(DX)
+	VZEROUPPER
+	RET

@@ -116,3 +116,62 @@ func TestShortBuffers(t *testing.T) {
 		}()
 	}
 }
+
+// TestNearest2MatchesScan checks Nearest2 (the assembly where the machine has it, and the Go
+// reference) against a scan of SquaredDists's sums in index order, bit for bit: the first index
+// of the smallest, the smallest, the second smallest. The cases include exact ties inside one
+// lane and across lanes, sums that overflow to +Inf, and a point equal to a vector.
+func TestNearest2MatchesScan(t *testing.T) {
+	rng := rand.New(rand.NewPCG(8, 8))
+	m := func(x, ct []float64, groups int, viaGo bool) (int, float64, float64) {
+		if !viaGo {
+			return Nearest2(x, ct, groups)
+		}
+		saved := Vector
+		defer func() { setVector(saved) }()
+		setVector(false)
+		return Nearest2(x, ct, groups)
+	}
+	for _, d := range []int{1, 2, 5, 16, 33} {
+		for _, groups := range []int{1, 2, 3, 4, 5, 7, 8, 9, 26} {
+			for _, sc := range scales {
+				for trial := 0; trial < 12; trial++ {
+					n := 4 * groups
+					c := make([]float64, n*d)
+					fill(rng, c, sc)
+					switch trial % 4 {
+					case 1: // a tie across lanes and one inside a lane
+						copy(c[min(3, n-1)*d:], c[:d])
+						copy(c[min(4, n-1)*d:(min(4, n-1)+1)*d], c[:d])
+					case 2: // every vector the same
+						for j := 1; j < n; j++ {
+							copy(c[j*d:(j+1)*d], c[:d])
+						}
+					}
+					x := make([]float64, d)
+					fill(rng, x, sc)
+					if trial%3 == 0 {
+						copy(x, c[(n-1)*d:])
+					}
+					sums := make([]float64, n)
+					ct := Group(nil, c, groups, d)
+					SquaredDists(x, ct, groups, sums)
+					wb, w1, w2 := 0, math.Inf(1), math.Inf(1)
+					for j, v := range sums {
+						if v < w1 {
+							w2, w1, wb = w1, v, j
+						} else if v < w2 {
+							w2 = v
+						}
+					}
+					for _, viaGo := range []bool{false, true} {
+						b, d1, d2 := m(x, ct, groups, viaGo)
+						if b != wb || math.Float64bits(d1) != math.Float64bits(w1) || math.Float64bits(d2) != math.Float64bits(w2) {
+							t.Fatalf("d=%d groups=%d scale %g trial %d go %v: (%d, %v, %v), scan (%d, %v, %v)", d, groups, sc, trial, viaGo, b, d1, d2, wb, w1, w2)
+						}
+					}
+				}
+			}
+		}
+	}
+}
