@@ -332,12 +332,15 @@ const (
 // with the data's clusters, which nothing but a probe knows: the runs span 4 to 16 clusters, and
 // the model takes the mean of their prices. calStages is the largest k of the whole stages (from
 // k = 1) timed on the same rows, which price what the single-k runs miss (cost.StageFactor): the
-// default range and half of it.
+// default range, half of it, and twice it. The last prices the mixtures' stop (criteria,
+// mixtureStop): single-k runs each fit their k's mixtures, while a whole stage above the data's
+// clusters skips the mixtures past the k where BIC and ICL have settled, a share that grows with
+// max-k and that no stage to k = 20 measures (DEVELOPERS.md, issue 15, round 5).
 var (
 	calWidths       = []int{8, 16, 32, 64}
 	calKs           = []int{2, 4, 8, 12, 16, 20, 40}
 	calMixtures     = []int{4, 8, 16}
-	calStages       = []int{10, 20}
+	calStages       = []int{10, 20, 40}
 	calCriteriaRows = 131072
 )
 
