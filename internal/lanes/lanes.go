@@ -29,19 +29,6 @@ func Group(dst, c []float64, groups, d int) []float64 {
 	return dst
 }
 
-// SquaredDists writes out[4g+l] = Σ_t (x[t] − ct[4d·g + 4t + l])² for the groups g < groups of
-// four transposed vectors in ct (Group; d = len(x)), each sum added over t in order from zero.
-// It panics when ct or out is too short.
-func SquaredDists(x, ct []float64, groups int, out []float64) {
-	if groups < 0 || len(ct) < 4*len(x)*groups || len(out) < 4*groups {
-		panic("lanes: SquaredDists: ct or out too short")
-	}
-	if groups == 0 {
-		return
-	}
-	squaredDists(x, ct, groups, out)
-}
-
 // WeightedRootSums sets out[l] = Σ_r w[r]·√(Σ_t (a[4t+l] − x[d·r + t])²) for the four
 // transposed vectors in a (one group, d = len(a)/4) and the rows r < len(w) of x, each inner sum
 // added over t in order and the outer over r in order, from zero. It panics when a's length is
@@ -57,7 +44,9 @@ func WeightedRootSums(a, x, w []float64, out *[4]float64) {
 	weightedRootSums(a, x, w, out)
 }
 
-// squaredDistsGo is SquaredDists in Go.
+// squaredDistsGo writes out[4g+l] = Σ_t (x[t] − ct[4d·g + 4t + l])² for the groups g < groups
+// of four transposed vectors in ct (d = len(x)), each sum added over t in order from zero: the
+// sums Nearest2 scans.
 func squaredDistsGo(x, ct []float64, groups int, out []float64) {
 	d := len(x)
 	for g := 0; g < groups; g++ {
@@ -96,7 +85,9 @@ func weightedRootSumsGo(a, x, w []float64, out *[4]float64) {
 	*out = [4]float64{t0, t1, t2, t3}
 }
 
-// Nearest2 returns what a scan of SquaredDists's sums in index order finds, without storing
+// Nearest2 returns, for the 4·groups vectors of ct (Group; d = len(x)) and their squared
+// distances to x (each vector's squared differences added over t in order from zero), what a scan
+// of those sums in index order finds, without storing
 // them: the index of the smallest (the first of equal ones; 0 when every sum is +Inf), the
 // smallest and the second smallest (equal to the smallest when two sums are equal; +Inf when
 // there is one vector). Each lane keeps the smallest, second smallest and first index of its own

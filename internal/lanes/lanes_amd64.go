@@ -12,21 +12,10 @@ var Vector = cpu.X86.HasAVX2
 func setVector(on bool) { Vector = on && cpu.X86.HasAVX2 }
 
 //go:noescape
-func squaredDistsAsm(x, ct []float64, groups int, out []float64)
-
-//go:noescape
 func nearest2Asm(x, ct []float64, groups int, m *[12]float64)
 
 //go:noescape
 func weightedRootSumsAsm(a, x, w []float64, out *[4]float64)
-
-func squaredDists(x, ct []float64, groups int, out []float64) {
-	if Vector {
-		squaredDistsAsm(x, ct, groups, out)
-		return
-	}
-	squaredDistsGo(x, ct, groups, out)
-}
 
 func weightedRootSums(a, x, w []float64, out *[4]float64) {
 	if Vector {

@@ -2,87 +2,40 @@
 
 #include "textflag.h"
 
-// func squaredDistsAsm(x []float64, ct []float64, groups int, out []float64)
-//
-// SquaredDists (lanes.go), one lane per vector: four groups go together (four independent
-// accumulators), then the rest one at a time. Subtract, multiply and add as separate
-// instructions (no fused multiply-add), as the Go reference does. The caller checks AVX2 and the
-// lengths.
-TEXT ·squaredDistsAsm(SB), NOSPLIT, $0-80
-	MOVQ x_base+0(FP), SI
-	MOVQ x_len+8(FP), CX
-	MOVQ ct_base+24(FP), DI
-	MOVQ groups+48(FP), BX
-	MOVQ out_base+56(FP), DX
-	MOVQ CX, R10
-	SHLQ $5, R10          // bytes per group: 4 values × 8 bytes × d
-	LEAQ (R10)(R10*2), R12 // three groups
+// ACC4 adds, for the column t in AX, the squared differences of x[t] (at SI) and the four groups
+// from DI (R10 bytes apart; R12 is three groups) to Y0..Y3: subtract, multiply, add.
+#define ACC4 \
+	VBROADCASTSD (SI)(AX*8), Y4; \
+	VSUBPD (DI), Y4, Y5; \
+	VSUBPD (DI)(R10*1), Y4, Y6; \
+	VSUBPD (DI)(R10*2), Y4, Y7; \
+	VSUBPD (DI)(R12*1), Y4, Y13; \
+	VMULPD Y5, Y5, Y5; \
+	VMULPD Y6, Y6, Y6; \
+	VMULPD Y7, Y7, Y7; \
+	VMULPD Y13, Y13, Y13; \
+	VADDPD Y5, Y0, Y0; \
+	VADDPD Y6, Y1, Y1; \
+	VADDPD Y7, Y2, Y2; \
+	VADDPD Y13, Y3, Y3
 
-four:
-	CMPQ BX, $4
-	JLT  one
-	VXORPD Y0, Y0, Y0
-	VXORPD Y1, Y1, Y1
-	VXORPD Y2, Y2, Y2
-	VXORPD Y3, Y3, Y3
-	XORQ AX, AX
-
-fourloop:
-	CMPQ AX, CX
-	JGE  fourdone
-	VBROADCASTSD (SI)(AX*8), Y4
-	VSUBPD (DI), Y4, Y5
-	VSUBPD (DI)(R10*1), Y4, Y6
-	VSUBPD (DI)(R10*2), Y4, Y7
-	VSUBPD (DI)(R12*1), Y4, Y8
-	VMULPD Y5, Y5, Y5
-	VMULPD Y6, Y6, Y6
-	VMULPD Y7, Y7, Y7
-	VMULPD Y8, Y8, Y8
+// ACC1 is ACC4 for the one group at DI, into Y0.
+#define ACC1 \
+	VBROADCASTSD (SI)(AX*8), Y4; \
+	VSUBPD (DI), Y4, Y5; \
+	VMULPD Y5, Y5, Y5; \
 	VADDPD Y5, Y0, Y0
-	VADDPD Y6, Y1, Y1
-	VADDPD Y7, Y2, Y2
-	VADDPD Y8, Y3, Y3
-	ADDQ $32, DI
-	INCQ AX
-	JMP  fourloop
 
-fourdone:
-	VMOVUPD Y0, (DX)
-	VMOVUPD Y1, 32(DX)
-	VMOVUPD Y2, 64(DX)
-	VMOVUPD Y3, 96(DX)
-	ADDQ $128, DX
-	ADDQ R12, DI          // DI had moved one group; skip the other three
-	SUBQ $4, BX
-	JMP  four
-
-one:
-	CMPQ BX, $0
-	JLE  done
-	VXORPD Y0, Y0, Y0
-	XORQ AX, AX
-
-oneloop:
-	CMPQ AX, CX
-	JGE  onedone
-	VBROADCASTSD (SI)(AX*8), Y4
-	VSUBPD (DI), Y4, Y5
-	VMULPD Y5, Y5, Y5
-	VADDPD Y5, Y0, Y0
-	ADDQ $32, DI
-	INCQ AX
-	JMP  oneloop
-
-onedone:
-	VMOVUPD Y0, (DX)
-	ADDQ $32, DX
-	DECQ BX
-	JMP  one
-
-done:
-	VZEROUPPER
-	RET
+// FOLD folds one group's sums V into each lane's smallest (Y8), second smallest (Y9) and group
+// of the smallest (Y10), the group's number in Y11 (then advanced by Y12, all ones). Y13: the sum
+// is below the smallest; Y14: the lesser of the sum and the second.
+#define FOLD(V) \
+	VCMPPD $1, Y8, V, Y13; \
+	VMINPD Y9, V, Y14; \
+	VBLENDVPD Y13, Y8, Y14, Y9; \
+	VBLENDVPD Y13, V, Y8, Y8; \
+	VBLENDVPD Y13, Y11, Y10, Y10; \
+	VADDPD Y12, Y11, Y11
 
 // func weightedRootSumsAsm(a, x, w []float64, out *[4]float64)
 //
@@ -169,7 +122,7 @@ end:
 
 // func nearest2Asm(x, ct []float64, groups int, m *[12]float64)
 //
-// Nearest2's per-lane scan (lanes.go): each group's four sums as in squaredDistsAsm, then folded
+// Nearest2's per-lane scan (lanes.go): each group's four sums (ACC4, ACC1), then folded
 // into each lane's smallest (Y8), second smallest (Y9) and group of the smallest (Y10) in group
 // order: where a sum is below the smallest, the smallest becomes the second and the sum the
 // smallest; otherwise the second becomes the lesser of itself and the sum. Four groups go
@@ -205,49 +158,17 @@ nfour:
 nfourloop:
 	CMPQ AX, CX
 	JGE  nfourdone
-	VBROADCASTSD (SI)(AX*8), Y4
-	VSUBPD (DI), Y4, Y5
-	VSUBPD (DI)(R10*1), Y4, Y6
-	VSUBPD (DI)(R10*2), Y4, Y7
-	VSUBPD (DI)(R12*1), Y4, Y13
-	VMULPD Y5, Y5, Y5
-	VMULPD Y6, Y6, Y6
-	VMULPD Y7, Y7, Y7
-	VMULPD Y13, Y13, Y13
-	VADDPD Y5, Y0, Y0
-	VADDPD Y6, Y1, Y1
-	VADDPD Y7, Y2, Y2
-	VADDPD Y13, Y3, Y3
+	ACC4
 	ADDQ $32, DI
 	INCQ AX
 	JMP  nfourloop
 
 nfourdone:
-	// Fold Y0..Y3 in group order. Y13: sum < smallest; Y14: min(sum, second).
-	VCMPPD $1, Y8, Y0, Y13
-	VMINPD Y9, Y0, Y14
-	VBLENDVPD Y13, Y8, Y14, Y9
-	VBLENDVPD Y13, Y0, Y8, Y8
-	VBLENDVPD Y13, Y11, Y10, Y10
-	VADDPD Y12, Y11, Y11
-	VCMPPD $1, Y8, Y1, Y13
-	VMINPD Y9, Y1, Y14
-	VBLENDVPD Y13, Y8, Y14, Y9
-	VBLENDVPD Y13, Y1, Y8, Y8
-	VBLENDVPD Y13, Y11, Y10, Y10
-	VADDPD Y12, Y11, Y11
-	VCMPPD $1, Y8, Y2, Y13
-	VMINPD Y9, Y2, Y14
-	VBLENDVPD Y13, Y8, Y14, Y9
-	VBLENDVPD Y13, Y2, Y8, Y8
-	VBLENDVPD Y13, Y11, Y10, Y10
-	VADDPD Y12, Y11, Y11
-	VCMPPD $1, Y8, Y3, Y13
-	VMINPD Y9, Y3, Y14
-	VBLENDVPD Y13, Y8, Y14, Y9
-	VBLENDVPD Y13, Y3, Y8, Y8
-	VBLENDVPD Y13, Y11, Y10, Y10
-	VADDPD Y12, Y11, Y11
+	// Fold Y0..Y3 in group order.
+	FOLD(Y0)
+	FOLD(Y1)
+	FOLD(Y2)
+	FOLD(Y3)
 	ADDQ R12, DI
 	SUBQ $4, BX
 	JMP  nfour
@@ -261,21 +182,13 @@ none:
 noneloop:
 	CMPQ AX, CX
 	JGE  nonedone
-	VBROADCASTSD (SI)(AX*8), Y4
-	VSUBPD (DI), Y4, Y5
-	VMULPD Y5, Y5, Y5
-	VADDPD Y5, Y0, Y0
+	ACC1
 	ADDQ $32, DI
 	INCQ AX
 	JMP  noneloop
 
 nonedone:
-	VCMPPD $1, Y8, Y0, Y13
-	VMINPD Y9, Y0, Y14
-	VBLENDVPD Y13, Y8, Y14, Y9
-	VBLENDVPD Y13, Y0, Y8, Y8
-	VBLENDVPD Y13, Y11, Y10, Y10
-	VADDPD Y12, Y11, Y11
+	FOLD(Y0)
 	DECQ BX
 	JMP  none
 

@@ -16,8 +16,8 @@ func fill(rng *rand.Rand, v []float64, scale float64) {
 // scales run each check from subnormal to overflowing magnitudes.
 var scales = []float64{1, 1e-3, 1e6, 1e-310, 1e154, 1e200}
 
-// TestSquaredDistsMatchesScalar checks SquaredDists (assembly where the machine has it) against
-// the scalar loop it replaces, each vector's squared differences added over t one after another
+// TestSquaredDistsMatchesScalar checks the sums Nearest2 scans (their Go reference) against the
+// scalar loop they replace, each vector's squared differences added over t one after another
 // on the row-major vectors, bit for bit, and that it writes nothing past the groups asked for.
 func TestSquaredDistsMatchesScalar(t *testing.T) {
 	rng := rand.New(rand.NewPCG(2, 3))
@@ -30,7 +30,7 @@ func TestSquaredDistsMatchesScalar(t *testing.T) {
 				fill(rng, c, sc)
 				got := make([]float64, 4*groups+1)
 				got[4*groups] = -7
-				SquaredDists(x, Group(nil, c, groups, d), groups, got)
+				squaredDistsGo(x, Group(nil, c, groups, d), groups, got)
 				for j := 0; j < 4*groups; j++ {
 					want := 0.0
 					for tt, v := range x {
@@ -95,8 +95,8 @@ func TestWeightedRootSumsMatchesScalar(t *testing.T) {
 // TestShortBuffers checks that the kernels refuse buffers too short for what is asked.
 func TestShortBuffers(t *testing.T) {
 	for name, f := range map[string]func(){
-		"SquaredDists ct":  func() { SquaredDists(make([]float64, 4), make([]float64, 15), 1, make([]float64, 4)) },
-		"SquaredDists out": func() { SquaredDists(make([]float64, 4), make([]float64, 16), 1, make([]float64, 3)) },
+		"Nearest2 ct":       func() { Nearest2(make([]float64, 4), make([]float64, 15), 1) },
+		"Nearest2 no group": func() { Nearest2(make([]float64, 4), make([]float64, 16), 0) },
 		"WeightedRootSums x": func() {
 			var o [4]float64
 			WeightedRootSums(make([]float64, 8), make([]float64, 3), make([]float64, 2), &o)
@@ -118,7 +118,7 @@ func TestShortBuffers(t *testing.T) {
 }
 
 // TestNearest2MatchesScan checks Nearest2 (the assembly where the machine has it, and the Go
-// reference) against a scan of SquaredDists's sums in index order, bit for bit: the first index
+// reference) against a scan of the sums in index order, bit for bit: the first index
 // of the smallest, the smallest, the second smallest. The cases include exact ties inside one
 // lane and across lanes, sums that overflow to +Inf, and a point equal to a vector.
 func TestNearest2MatchesScan(t *testing.T) {
@@ -155,7 +155,7 @@ func TestNearest2MatchesScan(t *testing.T) {
 					}
 					sums := make([]float64, n)
 					ct := Group(nil, c, groups, d)
-					SquaredDists(x, ct, groups, sums)
+					squaredDistsGo(x, ct, groups, sums)
 					wb, w1, w2 := 0, math.Inf(1), math.Inf(1)
 					for j, v := range sums {
 						if v < w1 {
