@@ -87,22 +87,21 @@ func weightedRootSumsGo(a, x, w []float64, out *[4]float64) {
 
 // Nearest2 returns, for the 4·groups vectors of ct (Group; d = len(x)) and their squared
 // distances to x (each vector's squared differences added over t in order from zero), what a scan
-// of those sums in index order finds, without storing
-// them: the index of the smallest (the first of equal ones; 0 when every sum is +Inf), the
-// smallest and the second smallest (equal to the smallest when two sums are equal; +Inf when
-// there is one vector). Each lane keeps the smallest, second smallest and first index of its own
-// vectors; the four are then merged. It panics when ct is too short or groups < 1.
+// of those sums in index order finds, without storing them: the index of the smallest (the first
+// of equal ones; 0 when every sum is +Inf), the smallest, and the second smallest (equal to the
+// smallest when two sums are equal; +Inf when there is one vector). Each lane keeps the smallest,
+// second smallest and first index of its own vectors; the four are then merged. It panics when ct
+// is too short or groups < 1.
 func Nearest2(x, ct []float64, groups int) (best int, d1, d2 float64) {
 	if groups < 1 || len(ct) < 4*len(x)*groups {
 		panic("lanes: Nearest2: ct too short or no group")
 	}
 	var m [12]float64 // per lane: smallest, second smallest, group of the smallest
 	nearest2(x, ct, groups, &m)
-	d1, d2 = math.Inf(1), math.Inf(1)
-	w := 0
-	for l := 0; l < 4; l++ {
-		i := 4*int(m[8+l]) + l
-		if m[l] < d1 || (m[l] == d1 && i < best) || l == 0 {
+	w := 0 // the lane holding the smallest
+	best, d1 = 4*int(m[8]), m[0]
+	for l := 1; l < 4; l++ {
+		if i := 4*int(m[8+l]) + l; m[l] < d1 || (m[l] == d1 && i < best) {
 			d1, best, w = m[l], i, l
 		}
 	}
