@@ -241,3 +241,34 @@ func TestProgressETA(t *testing.T) {
 func modelTerms(before, pass, criteria float64) cost.Terms {
 	return cost.Terms{Open: before / 2, Probe: before / 2, Pass: pass, Criteria: criteria}
 }
+
+// TestTimedAdvice checks which figure plan says to expect the run nearer. Within the default k
+// range it is the timed one (it times the criteria on this input); above it, the calibrated one:
+// bench/plan-accuracy.md measured the timed figure +122% and the calibrated +7% at --max-k 40,
+// because single-k runs fit every k's mixtures while the estimate stops them.
+func TestTimedAdvice(t *testing.T) {
+	for _, c := range []struct {
+		maxK int
+		diff float64
+		want string // a phrase the line must hold; "" for no line
+	}{
+		{20, 0.10, ""},
+		{20, -0.25, ""},
+		{20, 0.40, "nearer the timed figure"},
+		{10, -0.30, "nearer the timed figure"},
+		{40, 1.22, "nearer the calibrated figure"},
+		{110, -0.50, "above k = 20"},
+		{40, 0.20, ""},
+	} {
+		got := timedAdvice(c.maxK, c.diff)
+		if c.want == "" {
+			if got != "" {
+				t.Errorf("max-k %d, %+.0f%%: got %q, want no line", c.maxK, 100*c.diff, got)
+			}
+			continue
+		}
+		if !strings.Contains(got, c.want) || !strings.HasSuffix(got, "\n") {
+			t.Errorf("max-k %d, %+.0f%%: got %q, want a line with %q", c.maxK, 100*c.diff, got, c.want)
+		}
+	}
+}
