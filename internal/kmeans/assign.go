@@ -1,6 +1,10 @@
 package kmeans
 
-import "math"
+import (
+	"math"
+
+	"github.com/kgauge/kgauge/internal/lanes"
+)
 
 // maxStackK is the largest number of centres whose norms Assign keeps on the stack; larger k
 // allocates one scratch slice per call (use an Assigner to avoid it).
@@ -183,25 +187,7 @@ func assignWith(x []float64, d int, centres, norms []float64, labels []int32, di
 	}
 }
 
-// Dist2 returns the squared Euclidean distance between a and b (len(b) >= len(a)). It keeps
-// four partial sums so the additions do not wait on each other.
-func Dist2(a, b []float64) float64 {
-	b = b[:len(a)]
-	var s0, s1, s2, s3 float64
-	i := 0
-	for ; i+3 < len(a); i += 4 {
-		t0 := a[i] - b[i]
-		t1 := a[i+1] - b[i+1]
-		t2 := a[i+2] - b[i+2]
-		t3 := a[i+3] - b[i+3]
-		s0 += t0 * t0
-		s1 += t1 * t1
-		s2 += t2 * t2
-		s3 += t3 * t3
-	}
-	for ; i < len(a); i++ {
-		t := a[i] - b[i]
-		s0 += t * t
-	}
-	return (s0 + s1) + (s2 + s3)
-}
+// Dist2 returns the squared Euclidean distance between a and b (len(b) >= len(a)) as four
+// partial sums, so the additions do not wait on each other: lanes.Dist2, one vector register on
+// machines with AVX2.
+func Dist2(a, b []float64) float64 { return lanes.Dist2(a, b) }

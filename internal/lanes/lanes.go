@@ -44,6 +44,41 @@ func WeightedRootSums(a, x, w []float64, out *[4]float64) {
 	weightedRootSums(a, x, w, out)
 }
 
+// Dist2 returns the squared Euclidean distance between a and b (len(b) ≥ len(a)) as
+// four partial sums, s_l over the t ≡ l (mod 4) below the last whole block of four and the
+// rest added to s_0 in order, returned as (s_0 + s_1) + (s_2 + s_3): the scalar loop
+// kmeans.Dist2 kept, whose four sums are the four lanes of one vector register here. It panics
+// when b is shorter than a.
+func Dist2(a, b []float64) float64 {
+	b = b[:len(a)]
+	if Vector {
+		return dist2Asm(a, b)
+	}
+	return dist2Go(a, b)
+}
+
+// dist2Go is Dist2 in Go.
+func dist2Go(a, b []float64) float64 {
+	b = b[:len(a)]
+	var s0, s1, s2, s3 float64
+	i := 0
+	for ; i+3 < len(a); i += 4 {
+		t0 := a[i] - b[i]
+		t1 := a[i+1] - b[i+1]
+		t2 := a[i+2] - b[i+2]
+		t3 := a[i+3] - b[i+3]
+		s0 += t0 * t0
+		s1 += t1 * t1
+		s2 += t2 * t2
+		s3 += t3 * t3
+	}
+	for ; i < len(a); i++ {
+		t := a[i] - b[i]
+		s0 += t * t
+	}
+	return (s0 + s1) + (s2 + s3)
+}
+
 // squaredDistsGo writes out[4g+l] = Σ_t (x[t] − ct[4d·g + 4t + l])² for the groups g < groups
 // of four transposed vectors in ct (d = len(x)), each sum added over t in order from zero: the
 // sums Nearest2 scans.

@@ -15,6 +15,9 @@ func setVector(on bool) { Vector = on && cpu.X86.HasAVX2 }
 func nearest2Asm(x, ct []float64, groups int, m *[12]float64)
 
 //go:noescape
+func dist2Asm(a, b []float64) float64
+
+//go:noescape
 func weightedRootSumsAsm(a, x, w []float64, out *[4]float64)
 
 func weightedRootSums(a, x, w []float64, out *[4]float64) {

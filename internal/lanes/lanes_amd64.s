@@ -37,6 +37,54 @@
 	VBLENDVPD Y13, Y11, Y10, Y10; \
 	VADDPD Y12, Y11, Y11
 
+// func dist2Asm(a, b []float64) float64
+//
+// Dist2 (lanes.go): the four partial sums are the lanes of Y0, one block of four values a step;
+// the values past the last block are added to lane 0 alone; then (s0 + s1) + (s2 + s3). The
+// caller checks AVX2 and that b is as long as a.
+TEXT ·dist2Asm(SB), NOSPLIT, $0-56
+	MOVQ a_base+0(FP), SI
+	MOVQ a_len+8(FP), CX
+	MOVQ b_base+24(FP), DI
+	MOVQ CX, DX
+	ANDQ $-4, DX // the values in whole blocks
+	VXORPD Y0, Y0, Y0
+	XORQ AX, AX
+
+dblock:
+	CMPQ AX, DX
+	JGE  dtail
+	VMOVUPD (SI)(AX*8), Y1
+	VSUBPD (DI)(AX*8), Y1, Y1
+	VMULPD Y1, Y1, Y1
+	VADDPD Y1, Y0, Y0
+	ADDQ $4, AX
+	JMP  dblock
+
+dtail:
+	// Lanes 2 and 3 to X2 first: the scalar operations on X0 clear the upper half of Y0.
+	VEXTRACTF128 $1, Y0, X2
+
+dtailloop:
+	CMPQ AX, CX
+	JGE  dsum
+	VMOVSD (SI)(AX*8), X1
+	VSUBSD (DI)(AX*8), X1, X1
+	VMULSD X1, X1, X1
+	VADDSD X1, X0, X0
+	INCQ AX
+	JMP  dtailloop
+
+dsum:
+	VUNPCKHPD X0, X0, X3
+	VADDSD X3, X0, X0 // s0 + s1
+	VUNPCKHPD X2, X2, X4
+	VADDSD X4, X2, X2 // s2 + s3
+	VADDSD X2, X0, X0
+	VMOVSD X0, ret+48(FP)
+	VZEROUPPER
+	RET
+
 // func weightedRootSumsAsm(a, x, w []float64, out *[4]float64)
 //
 // WeightedRootSums (lanes.go), one lane per vector: two rows go together (two independent inner

@@ -5,6 +5,8 @@ package lanes
 // Vector is false where the kernels have no assembly: they run their Go reference.
 const Vector = false
 
+func dist2Asm(a, b []float64) float64 { return dist2Go(a, b) }
+
 func weightedRootSums(a, x, w []float64, out *[4]float64) { weightedRootSumsGo(a, x, w, out) }
 
 func nearest2(x, ct []float64, groups int, m *[12]float64) { nearest2Go(x, ct, groups, m) }

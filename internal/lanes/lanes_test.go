@@ -97,6 +97,7 @@ func TestShortBuffers(t *testing.T) {
 	for name, f := range map[string]func(){
 		"Nearest2 ct":       func() { Nearest2(make([]float64, 4), make([]float64, 15), 1) },
 		"Nearest2 no group": func() { Nearest2(make([]float64, 4), make([]float64, 16), 0) },
+		"Dist2 b":           func() { Dist2(make([]float64, 5), make([]float64, 4)) },
 		"WeightedRootSums x": func() {
 			var o [4]float64
 			WeightedRootSums(make([]float64, 8), make([]float64, 3), make([]float64, 2), &o)
@@ -170,6 +171,44 @@ func TestNearest2MatchesScan(t *testing.T) {
 							t.Fatalf("d=%d groups=%d scale %g trial %d go %v: (%d, %v, %v), scan (%d, %v, %v)", d, groups, sc, trial, viaGo, b, d1, d2, wb, w1, w2)
 						}
 					}
+				}
+			}
+		}
+	}
+}
+
+// TestDist2MatchesScalar checks Dist2 (the assembly where the machine has it, and the Go
+// reference) against its definition written out, bit for bit: s_{t mod 4} over the whole blocks
+// of four, the rest added to s_0, then (s_0 + s_1) + (s_2 + s_3). Lengths 0 to 70 cover every
+// tail; the slices start at odd offsets so no load is aligned, and b is longer than a.
+func TestDist2MatchesScalar(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 9))
+	for n := 0; n <= 70; n++ {
+		for _, sc := range scales {
+			buf := make([]float64, 2*n+5)
+			fill(rng, buf, sc)
+			a, b := buf[1:1+n], buf[n+2:]
+			if n > 2 {
+				b[1] = a[1] // one zero difference
+			}
+			var s [4]float64
+			whole := n / 4 * 4
+			for i := 0; i < n; i++ {
+				e := a[i] - b[i]
+				if i < whole {
+					s[i%4] += e * e
+				} else {
+					s[0] += e * e
+				}
+			}
+			want := (s[0] + s[1]) + (s[2] + s[3])
+			for _, viaGo := range []bool{false, true} {
+				saved := Vector
+				setVector(!viaGo && saved)
+				got := Dist2(a, b)
+				setVector(saved)
+				if math.Float64bits(got) != math.Float64bits(want) {
+					t.Fatalf("n=%d scale %g go %v: Dist2 = %v, want %v", n, sc, viaGo, got, want)
 				}
 			}
 		}
