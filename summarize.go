@@ -69,9 +69,12 @@ func scalingOf(sk *sketch.Sketch, method Scale) Scaling {
 // apply maps raw rows to the scaled space. The difference is taken in raw units (as exact as it
 // can be) unless it overflows (values near ±1.8e308 on both sides), when both terms are scaled
 // first.
-func (sc Scaling) apply(x []float64) []float64 {
+func (sc Scaling) apply(x []float64) []float64 { return sc.applyTo(make([]float64, len(x)), x) }
+
+// applyTo is apply writing into out (len(x) values; out may be x itself) and returning it.
+func (sc Scaling) applyTo(out, x []float64) []float64 {
 	d := len(sc.Center)
-	out := make([]float64, len(x))
+	out = out[:len(x)]
 	for i, v := range x {
 		j := i % d
 		if sc.logs(j) {
@@ -128,8 +131,9 @@ func Summarize(sk *sketch.Sketch, method Scale) (criteria.Summary, Scaling) {
 		}
 	}
 	cx, cw := sk.Coreset()
-	s.Coreset = kmeans.Data{X: sc.apply(cx), W: cw, D: d}
-	s.Sample = kmeans.Data{X: sc.apply(sk.Sample()), D: d}
+	s.Coreset = kmeans.Data{X: sc.applyTo(cx, cx), W: cw, D: d} // the sketch's copies: scaled in place
+	sample := sk.Sample()
+	s.Sample = kmeans.Data{X: sc.applyTo(sample, sample), D: d}
 	cfg := sk.Config()
 	for k := cfg.MinK; k <= cfg.MaxK; k++ {
 		if c := reconcile(sk.CentreSets(k), k, sc); c != nil {

@@ -418,6 +418,12 @@ func (s *Sketch) Coreset() (x, weights []float64) {
 		tau = s.coreset.min()
 	}
 	skipLast := full
+	rows := s.coreset.len()
+	if skipLast {
+		rows--
+	}
+	x = make([]float64, 0, max(rows, 0)*s.coreset.d)
+	weights = make([]float64, 0, max(rows, 0))
 	i := 0
 	s.coreset.each(func(key float64, row []float64, w float64) {
 		i++
@@ -432,7 +438,7 @@ func (s *Sketch) Coreset() (x, weights []float64) {
 
 // Sample returns the uniform sample in raw units, row-major, in a fixed order.
 func (s *Sketch) Sample() []float64 {
-	var x []float64
+	x := make([]float64, 0, s.sample.len()*s.sample.d)
 	s.sample.each(func(_ float64, row []float64, _ float64) { x = append(x, row...) })
 	return x
 }
