@@ -7,6 +7,7 @@ import (
 
 	"github.com/kgauge/kgauge/criteria"
 	"github.com/kgauge/kgauge/internal/kmeans"
+	"gonum.org/v1/gonum/mat"
 )
 
 // blobs are invented points for a property test: k Gaussian blobs in d dimensions, n points each,
@@ -199,6 +200,62 @@ func TestPrincipalIsExactOnTheSummary(t *testing.T) {
 	}
 	if same, _ := Principal(s, p.D); same.D != p.D {
 		t.Errorf("a map to the input's own width changed it to %d dimensions", same.D)
+	}
+}
+
+// TestComponentsMatchEigenSym checks the components (taken from the singular value
+// decomposition) against the eigenvectors of gonum's symmetric eigen decomposition, the direct
+// definition: the same eigenvalue order and each component the same vector up to sign, to 1e-9
+// where its eigenvalue stands apart from its neighbours by more than 1% (where it does not, the
+// eigenvectors themselves are not determined, only the space they span), and the same spanned
+// space for the m leading components in every case (the projections onto the two agree).
+func TestComponentsMatchEigenSym(t *testing.T) {
+	for _, c := range []struct{ k, n, d, m int }{{4, 50, 120, 17}, {16, 40, 512, 40}, {3, 30, 8, 5}} {
+		p, _ := blobs(c.k, c.n, c.d, uint64(c.d))
+		cov := criteria.ExactSummary(p).Cov
+		got, err := Components(cov, c.d, c.m)
+		if err != nil {
+			t.Fatal(err)
+		}
+		var eig mat.EigenSym
+		if !eig.Factorize(mat.NewSymDense(c.d, append([]float64(nil), cov...)), true) {
+			t.Fatal("EigenSym did not converge")
+		}
+		vals := eig.Values(nil) // ascending
+		var vecs mat.Dense
+		eig.VectorsTo(&vecs)
+		lambda := func(l int) float64 { return vals[c.d-1-l] }
+		for l := range c.m {
+			gapBelow := l+1 >= c.d || lambda(l)-lambda(l+1) > 0.01*lambda(l)
+			gapAbove := l == 0 || lambda(l-1)-lambda(l) > 0.01*lambda(l-1)
+			if !gapBelow || !gapAbove {
+				continue
+			}
+			var dot float64
+			for j := range c.d {
+				dot += got.At(j, l) * vecs.At(j, c.d-1-l)
+			}
+			if math.Abs(math.Abs(dot)-1) > 1e-9 {
+				t.Errorf("d=%d component %d (eigenvalue %.4g): |dot| with EigenSym's vector %v, want 1", c.d, l, lambda(l), math.Abs(dot))
+			}
+		}
+		// The spanned space: ‖Vᵀ u‖ = 1 for each of EigenSym's leading m vectors u, when the m-th
+		// eigenvalue stands apart from the next.
+		if c.m < c.d && lambda(c.m-1)-lambda(c.m) > 0.01*lambda(c.m-1) {
+			for l := range c.m {
+				var norm2 float64
+				for a := range c.m {
+					var dot float64
+					for j := range c.d {
+						dot += got.At(j, a) * vecs.At(j, c.d-1-l)
+					}
+					norm2 += dot * dot
+				}
+				if math.Abs(norm2-1) > 1e-9 {
+					t.Errorf("d=%d: EigenSym's vector %d lies %v inside the components' space, want 1", c.d, l, norm2)
+				}
+			}
+		}
 	}
 }
 
