@@ -3,6 +3,8 @@ package sketch
 import (
 	"math"
 	"slices"
+
+	"gonum.org/v1/gonum/blas/blas64"
 )
 
 // Moments holds exact per-column summaries of the rows added: their count, sums and sums of squares
@@ -211,11 +213,9 @@ func (c *Cross) add(dx []float64) {
 	c.N++
 	for j, a := range dx {
 		c.S1[j] += a
-		row := c.C[j*d+j : j*d+d]
-		tail := dx[j:]
-		for l := range row {
-			row[l] += a * tail[l]
-		}
+		// row[l] += a·dx[j+l] over the upper triangle's row j: BLAS's axpy, the same product and
+		// sum per element (so the same bits), in gonum's vector assembly.
+		blas64.Implementation().Daxpy(d-j, a, dx[j:], 1, c.C[j*d+j:j*d+d], 1)
 	}
 }
 
