@@ -9,15 +9,15 @@ type miniBatch struct {
 	k       int
 	centres []float64
 	counts  []float64
-	assign  kmeans.Assigner
 }
 
-// update runs one mini-batch step: assign all rows of batch with the centres fixed, then move each
-// row's centre towards it with rate 1/count.
-func (m *miniBatch) update(batch []float64, d int, labels []int32) {
+// update runs one mini-batch step: assign all rows of batch with the centres fixed (with a's
+// scratch, one for every k of a sketch), then move each row's centre towards it with rate
+// 1/count.
+func (m *miniBatch) update(batch []float64, d int, labels []int32, a *kmeans.Assigner) {
 	n := len(batch) / d
 	labels = labels[:n]
-	m.assign.Assign(batch, d, m.centres, labels, nil)
+	a.Assign(batch, d, m.centres, labels, nil)
 	for i, c := range labels {
 		m.counts[c]++
 		eta := 1 / m.counts[c]

@@ -28,10 +28,13 @@ func HeldBytes(cfg Config, d, batchRows int) int64 {
 	reservoirs := int64(float64(int64(cfg.CoresetSize+1)*row+int64(cfg.SampleSize)*row) * growthSlack)
 	sumK := int64(cfg.MaxK+cfg.MinK) * int64(cfg.MaxK-cfg.MinK+1) / 2
 	miniBatch := int64(cfg.MiniBatchSize)*(D*8+4) + sumK*(D+1)*8
+	// The assignment's scratch, shared by every k: norms, the centres in groups of four, two dot
+	// products per centre.
+	assigner := int64(cfg.MaxK) * (D + 3) * 8
 	cross := D*D*8 + D*8
 	moments := 6 * D * 8
 	buffers := int64(batchRows)*8 + 4*D*8 // norm2, row, scratch, probe centre and scales
-	return reservoirs + miniBatch + cross + moments + buffers
+	return reservoirs + miniBatch + assigner + cross + moments + buffers
 }
 
 // SettledBytes is what a settled sketch (after Merge or Encode) adds per merged part: one centre

@@ -6,6 +6,8 @@ import (
 	"math"
 	"math/rand/v2"
 	"slices"
+
+	"github.com/kgauge/kgauge/internal/kmeans"
 )
 
 // Defaults for [Config]; the benchmark report under bench/ records what each size costs and buys.
@@ -126,6 +128,7 @@ type Sketch struct {
 	mbBuf   []float64
 	mbRows  int
 	labels  []int32
+	assign  kmeans.Assigner // the mini-batch assignment's scratch, shared by every k
 	scratch []float64
 
 	// Buffers of AddColumns and Add.
@@ -355,7 +358,7 @@ func (s *Sketch) flush() {
 	}
 	batch := s.mbBuf[:s.mbRows*s.d]
 	for _, m := range s.mb {
-		m.update(batch, s.d, s.labels)
+		m.update(batch, s.d, s.labels, &s.assign)
 	}
 	s.mbRows = 0
 }

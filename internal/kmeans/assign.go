@@ -33,13 +33,15 @@ func Assign(x []float64, d int, centres []float64, labels []int32, dist2 []float
 	} else {
 		norms = make([]float64, k)
 	}
-	assignWith(x, d, centres, norms, labels, dist2)
+	assignWith(x, d, centres, norms, labels, dist2, nil, nil)
 }
 
 // Assigner is a reusable scratch for Assign that never allocates after the first call with a
-// given k.
+// given k and d. Where the machine has AVX2 and k ≥ 4 it also keeps the centres in groups of
+// four for lanes.Dots2, which forms the block's dot products four centres at once with the same
+// sums (so the same labels and distances, bit for bit).
 type Assigner struct {
-	norms []float64
+	norms, ct, dots []float64
 }
 
 // Assign is Assign with the centre norms kept in a.
@@ -51,10 +53,20 @@ func (a *Assigner) Assign(x []float64, d int, centres []float64, labels []int32,
 	if cap(a.norms) < k {
 		a.norms = make([]float64, k)
 	}
-	assignWith(x, d, centres, a.norms[:k], labels, dist2)
+	var ct, dots []float64
+	if groups := k / 4; lanes.Vector && groups > 0 && len(x) >= 2*d {
+		a.ct = lanes.Group(a.ct, centres, groups, d)
+		if cap(a.dots) < 8*groups {
+			a.dots = make([]float64, 8*groups)
+		}
+		ct, dots = a.ct, a.dots[:8*groups]
+	}
+	assignWith(x, d, centres, a.norms[:k], labels, dist2, ct, dots)
 }
 
-func assignWith(x []float64, d int, centres, norms []float64, labels []int32, dist2 []float64) {
+// assignWith is Assign with the norms' scratch, and, when ct is not nil, the first 4·⌊k/4⌋
+// centres grouped (lanes.Group) and a scratch of 8·⌊k/4⌋ for lanes.Dots2.
+func assignWith(x []float64, d int, centres, norms []float64, labels []int32, dist2 []float64, ct, dots []float64) {
 	n := len(x) / d
 	k := len(centres) / d
 	if labels != nil && len(labels) < n {
@@ -89,6 +101,22 @@ func assignWith(x []float64, d int, centres, norms []float64, labels []int32, di
 		best0, best1 := 0, 0
 		bd0, bd1 := math.Inf(1), math.Inf(1)
 		j := 0
+		if ct != nil {
+			groups := len(dots) / 8
+			lanes.Dots2(x0, x1, ct, groups, dots)
+			for g := range groups {
+				for s := 0; s < 4; s++ {
+					q0, q1 := norms[4*g+s]-2*dots[8*g+s], norms[4*g+s]-2*dots[8*g+4+s]
+					if q0 < bd0 {
+						bd0, best0 = q0, 4*g+s
+					}
+					if q1 < bd1 {
+						bd1, best1 = q1, 4*g+s
+					}
+				}
+			}
+			j = 4 * groups
+		}
 		for ; j+3 < k; j += 4 {
 			c0 := centres[j*d : (j+1)*d : (j+1)*d]
 			c1 := centres[(j+1)*d : (j+2)*d : (j+2)*d]

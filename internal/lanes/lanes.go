@@ -79,6 +79,43 @@ func dist2Go(a, b []float64) float64 {
 	return (s0 + s1) + (s2 + s3)
 }
 
+// Dots2 writes, for the two points x0 and x1 (d = len(x0) values each) and the 4·groups
+// vectors of ct (Group), the dot products out[8g + 4p + l] = Σ_t x_p[t]·ct[4d·g + 4t + l], each
+// added over t in order from zero: the sums of kmeans' 2-point × 4-centre assignment block. It
+// panics when x1, ct or out is too short.
+func Dots2(x0, x1, ct []float64, groups int, out []float64) {
+	d := len(x0)
+	if len(x1) < d || len(ct) < 4*d*groups || len(out) < 8*groups {
+		panic("lanes: Dots2: x1, ct or out too short")
+	}
+	if groups < 1 {
+		return
+	}
+	dots2(x0, x1[:d], ct, groups, out)
+}
+
+// dots2Go is Dots2 in Go.
+func dots2Go(x0, x1, ct []float64, groups int, out []float64) {
+	d := len(x0)
+	for g := 0; g < groups; g++ {
+		block := ct[4*d*g : 4*d*(g+1)]
+		var a [8]float64
+		for t, u := range x0 {
+			v := x1[t]
+			e0, e1, e2, e3 := block[4*t], block[4*t+1], block[4*t+2], block[4*t+3]
+			a[0] += u * e0
+			a[1] += u * e1
+			a[2] += u * e2
+			a[3] += u * e3
+			a[4] += v * e0
+			a[5] += v * e1
+			a[6] += v * e2
+			a[7] += v * e3
+		}
+		copy(out[8*g:8*g+8], a[:])
+	}
+}
+
 // squaredDistsGo writes out[4g+l] = Σ_t (x[t] − ct[4d·g + 4t + l])² for the groups g < groups
 // of four transposed vectors in ct (d = len(x)), each sum added over t in order from zero: the
 // sums Nearest2 scans.

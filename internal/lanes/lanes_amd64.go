@@ -18,6 +18,9 @@ func nearest2Asm(x, ct []float64, groups int, m *[12]float64)
 func dist2Asm(a, b []float64) float64
 
 //go:noescape
+func dots2Asm(x0, x1, ct []float64, groups int, out []float64)
+
+//go:noescape
 func weightedRootSumsAsm(a, x, w []float64, out *[4]float64)
 
 func weightedRootSums(a, x, w []float64, out *[4]float64) {
@@ -34,4 +37,12 @@ func nearest2(x, ct []float64, groups int, m *[12]float64) {
 		return
 	}
 	nearest2Go(x, ct, groups, m)
+}
+
+func dots2(x0, x1, ct []float64, groups int, out []float64) {
+	if Vector {
+		dots2Asm(x0, x1, ct, groups, out)
+		return
+	}
+	dots2Go(x0, x1, ct, groups, out)
 }

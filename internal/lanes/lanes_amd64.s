@@ -85,6 +85,100 @@ dsum:
 	VZEROUPPER
 	RET
 
+// DOT2(LOAD, A, B) adds, for the column t in AX, x0[t] (Y8) and x1[t] (Y9) times the four
+// values at LOAD (one group's column t) to the sums A and B.
+#define DOT2(LOAD, A, B) \
+	VMOVUPD LOAD, Y10; \
+	VMULPD Y10, Y8, Y14; \
+	VMULPD Y10, Y9, Y15; \
+	VADDPD Y14, A, A; \
+	VADDPD Y15, B, B
+
+// func dots2Asm(x0, x1, ct []float64, groups int, out []float64)
+//
+// Dots2 (lanes.go), one lane per vector: for each group the sums of x0 (Y0, Y2, …) and x1
+// (Y1, Y3, …) over t in order. Four groups go together (eight independent sums), then the rest
+// one at a time. The caller checks AVX2 and the lengths.
+TEXT ·dots2Asm(SB), NOSPLIT, $0-104
+	MOVQ x0_base+0(FP), SI
+	MOVQ x0_len+8(FP), CX
+	MOVQ x1_base+24(FP), R8
+	MOVQ ct_base+48(FP), DI
+	MOVQ groups+72(FP), BX
+	MOVQ out_base+80(FP), DX
+	MOVQ CX, R10
+	SHLQ $5, R10           // one group: 32·d bytes
+	LEAQ (R10)(R10*2), R12 // three groups
+
+dfour:
+	CMPQ BX, $4
+	JLT  done
+	VXORPD Y0, Y0, Y0
+	VXORPD Y1, Y1, Y1
+	VXORPD Y2, Y2, Y2
+	VXORPD Y3, Y3, Y3
+	VXORPD Y4, Y4, Y4
+	VXORPD Y5, Y5, Y5
+	VXORPD Y6, Y6, Y6
+	VXORPD Y7, Y7, Y7
+	MOVQ DI, R9
+	XORQ AX, AX
+
+dfourloop:
+	CMPQ AX, CX
+	JGE  dfourdone
+	VBROADCASTSD (SI)(AX*8), Y8
+	VBROADCASTSD (R8)(AX*8), Y9
+	DOT2((R9), Y0, Y1)
+	DOT2((R9)(R10*1), Y2, Y3)
+	DOT2((R9)(R10*2), Y4, Y5)
+	DOT2((R9)(R12*1), Y6, Y7)
+	ADDQ $32, R9
+	INCQ AX
+	JMP  dfourloop
+
+dfourdone:
+	VMOVUPD Y0, (DX)
+	VMOVUPD Y1, 32(DX)
+	VMOVUPD Y2, 64(DX)
+	VMOVUPD Y3, 96(DX)
+	VMOVUPD Y4, 128(DX)
+	VMOVUPD Y5, 160(DX)
+	VMOVUPD Y6, 192(DX)
+	VMOVUPD Y7, 224(DX)
+	ADDQ $256, DX
+	LEAQ (DI)(R10*4), DI
+	SUBQ $4, BX
+	JMP  dfour
+
+done:
+	CMPQ BX, $0
+	JLE  dend
+	VXORPD Y0, Y0, Y0
+	VXORPD Y1, Y1, Y1
+	XORQ AX, AX
+
+doneloop:
+	CMPQ AX, CX
+	JGE  donedone
+	VBROADCASTSD (SI)(AX*8), Y8
+	VBROADCASTSD (R8)(AX*8), Y9
+	DOT2((DI), Y0, Y1)
+	ADDQ $32, DI
+	INCQ AX
+	JMP  doneloop
+
+donedone:
+	VMOVUPD Y0, (DX)
+	VMOVUPD Y1, 32(DX)
+	ADDQ $64, DX
+	DECQ BX
+	JMP  done
+
+dend:
+	VZEROUPPER
+	RET
+
 // func weightedRootSumsAsm(a, x, w []float64, out *[4]float64)
 //
 // WeightedRootSums (lanes.go), one lane per vector: two rows go together (two independent inner

@@ -98,6 +98,7 @@ func TestShortBuffers(t *testing.T) {
 		"Nearest2 ct":       func() { Nearest2(make([]float64, 4), make([]float64, 15), 1) },
 		"Nearest2 no group": func() { Nearest2(make([]float64, 4), make([]float64, 16), 0) },
 		"Dist2 b":           func() { Dist2(make([]float64, 5), make([]float64, 4)) },
+		"Dots2 out":         func() { Dots2(make([]float64, 2), make([]float64, 2), make([]float64, 8), 1, make([]float64, 7)) },
 		"WeightedRootSums x": func() {
 			var o [4]float64
 			WeightedRootSums(make([]float64, 8), make([]float64, 3), make([]float64, 2), &o)
@@ -209,6 +210,49 @@ func TestDist2MatchesScalar(t *testing.T) {
 				setVector(saved)
 				if math.Float64bits(got) != math.Float64bits(want) {
 					t.Fatalf("n=%d scale %g go %v: Dist2 = %v, want %v", n, sc, viaGo, got, want)
+				}
+			}
+		}
+	}
+}
+
+// TestDots2MatchesScalar checks Dots2 (the assembly where the machine has it, and the Go
+// reference) against the scalar block it replaces in kmeans' assignment, on the row-major
+// centres: each point's dot product with each centre added over t in order, bit for bit; group
+// counts below, at and past four cover both of the kernel's loops; nothing is written past the
+// groups asked for.
+func TestDots2MatchesScalar(t *testing.T) {
+	rng := rand.New(rand.NewPCG(6, 1))
+	for _, d := range []int{1, 2, 5, 16, 33, 64} {
+		for _, groups := range []int{1, 2, 3, 4, 5, 7, 8, 9} {
+			for _, sc := range scales {
+				x := make([]float64, 2*d)
+				c := make([]float64, 4*groups*d)
+				fill(rng, x, sc)
+				fill(rng, c, sc)
+				x0, x1 := x[:d], x[d:]
+				ct := Group(nil, c, groups, d)
+				for _, viaGo := range []bool{false, true} {
+					got := make([]float64, 8*groups+1)
+					got[8*groups] = -7
+					saved := Vector
+					setVector(!viaGo && saved)
+					Dots2(x0, x1, ct, groups, got)
+					setVector(saved)
+					for j := 0; j < 4*groups; j++ {
+						var a0, a1 float64
+						for tt, u := range x0 {
+							a0 += u * c[j*d+tt]
+							a1 += x1[tt] * c[j*d+tt]
+						}
+						g, l := j/4, j%4
+						if math.Float64bits(got[8*g+l]) != math.Float64bits(a0) || math.Float64bits(got[8*g+4+l]) != math.Float64bits(a1) {
+							t.Fatalf("d=%d groups=%d scale %g go %v: centre %d: (%v, %v), want (%v, %v)", d, groups, sc, viaGo, j, got[8*g+l], got[8*g+4+l], a0, a1)
+						}
+					}
+					if got[8*groups] != -7 {
+						t.Fatalf("d=%d groups=%d go %v: wrote past the last group", d, groups, viaGo)
+					}
 				}
 			}
 		}
