@@ -168,8 +168,27 @@ func Nearest2(x, ct []float64, groups int) (best int, d1, d2 float64) {
 	if groups < 1 || len(ct) < 4*len(x)*groups {
 		panic("lanes: Nearest2: ct too short or no group")
 	}
-	var m [12]float64 // per lane: smallest, second smallest, group of the smallest
-	nearest2(x, ct, groups, &m)
+	return nearest2(x, ct, groups)
+}
+
+// nearest2Go is Nearest2 in Go: the per-lane scan, then the lanes merged from lane 0 (the
+// assembly merges them pairwise, with the same result: the lesser smallest, the lesser index
+// among equal ones, and the lesser of the winner's second and every other lane's smallest).
+func nearest2Go(x, ct []float64, groups int) (best int, d1, d2 float64) {
+	inf := math.Inf(1)
+	m := [12]float64{inf, inf, inf, inf, inf, inf, inf, inf} // per lane: smallest, second, group
+	var v [4]float64
+	for g := 0; g < groups; g++ {
+		squaredDistsGo(x, ct[4*len(x)*g:], 1, v[:])
+		for l, s := range v {
+			switch {
+			case s < m[l]:
+				m[4+l], m[l], m[8+l] = m[l], s, float64(g)
+			case s < m[4+l]:
+				m[4+l] = s
+			}
+		}
+	}
 	w := 0 // the lane holding the smallest
 	best, d1 = 4*int(m[8]), m[0]
 	for l := 1; l < 4; l++ {
@@ -184,22 +203,4 @@ func Nearest2(x, ct []float64, groups int) (best int, d1, d2 float64) {
 		}
 	}
 	return best, d1, d2
-}
-
-// nearest2Go is Nearest2's per-lane scan in Go.
-func nearest2Go(x, ct []float64, groups int, m *[12]float64) {
-	inf := math.Inf(1)
-	*m = [12]float64{inf, inf, inf, inf, inf, inf, inf, inf}
-	var v [4]float64
-	for g := 0; g < groups; g++ {
-		squaredDistsGo(x, ct[4*len(x)*g:], 1, v[:])
-		for l, s := range v {
-			switch {
-			case s < m[l]:
-				m[4+l], m[l], m[8+l] = m[l], s, float64(g)
-			case s < m[4+l]:
-				m[4+l] = s
-			}
-		}
-	}
 }

@@ -12,7 +12,7 @@ var Vector = cpu.X86.HasAVX2
 func setVector(on bool) { Vector = on && cpu.X86.HasAVX2 }
 
 //go:noescape
-func nearest2Asm(x, ct []float64, groups int, m *[12]float64)
+func nearest2Asm(x, ct []float64, groups int) (best int, d1, d2 float64)
 
 //go:noescape
 func dist2Asm(a, b []float64) float64
@@ -31,12 +31,11 @@ func weightedRootSums(a, x, w []float64, out *[4]float64) {
 	weightedRootSumsGo(a, x, w, out)
 }
 
-func nearest2(x, ct []float64, groups int, m *[12]float64) {
+func nearest2(x, ct []float64, groups int) (best int, d1, d2 float64) {
 	if Vector {
-		nearest2Asm(x, ct, groups, m)
-		return
+		return nearest2Asm(x, ct, groups)
 	}
-	nearest2Go(x, ct, groups, m)
+	return nearest2Go(x, ct, groups)
 }
 
 func dots2(x0, x1, ct []float64, groups int, out []float64) {

@@ -262,19 +262,42 @@ end:
 	VZEROUPPER
 	RET
 
-// func nearest2Asm(x, ct []float64, groups int, m *[12]float64)
+// The lane numbers 0, 1, 2, 3 as float64.
+DATA laneNumbers<>+0(SB)/8, $0x0000000000000000
+DATA laneNumbers<>+8(SB)/8, $0x3ff0000000000000
+DATA laneNumbers<>+16(SB)/8, $0x4000000000000000
+DATA laneNumbers<>+24(SB)/8, $0x4008000000000000
+GLOBL laneNumbers<>(SB), RODATA|NOPTR, $32
+
+// MERGE merges each lane's (smallest Y8, second smallest Y9, index of the smallest Y10) with
+// another's (Y0, Y1, Y2): the winner is the lesser smallest, the lesser index where they are
+// equal; the second smallest of the two sets is the lesser of the winner's second and the
+// loser's smallest. Y3: the other lane wins.
+#define MERGE \
+	VCMPPD $1, Y8, Y0, Y3; \
+	VCMPPD $0, Y8, Y0, Y4; \
+	VCMPPD $1, Y10, Y2, Y5; \
+	VANDPD Y5, Y4, Y4; \
+	VORPD Y4, Y3, Y3; \
+	VBLENDVPD Y3, Y1, Y9, Y6; \
+	VBLENDVPD Y3, Y8, Y0, Y7; \
+	VMINPD Y7, Y6, Y9; \
+	VBLENDVPD Y3, Y0, Y8, Y8; \
+	VBLENDVPD Y3, Y2, Y10, Y10
+
+// func nearest2Asm(x, ct []float64, groups int) (best int, d1, d2 float64)
 //
-// Nearest2's per-lane scan (lanes.go): each group's four sums (ACC4, ACC1), then folded
-// into each lane's smallest (Y8), second smallest (Y9) and group of the smallest (Y10) in group
-// order: where a sum is below the smallest, the smallest becomes the second and the sum the
-// smallest; otherwise the second becomes the lesser of itself and the sum. Four groups go
-// together, then the rest one at a time. The caller checks AVX2 and the lengths.
-TEXT ·nearest2Asm(SB), NOSPLIT, $0-64
+// Nearest2 (lanes.go): each group's four sums (ACC4, ACC1), then folded into each lane's
+// smallest (Y8), second smallest (Y9) and group of the smallest (Y10) in group order: where a sum
+// is below the smallest, the smallest becomes the second and the sum the smallest; otherwise the
+// second becomes the lesser of itself and the sum. Four groups go together, then the rest one at
+// a time. The four lanes are then merged pairwise (MERGE): lanes 0–1 with 2–3, then 0 with 1.
+// The caller checks AVX2 and the lengths.
+TEXT ·nearest2Asm(SB), NOSPLIT, $0-80
 	MOVQ x_base+0(FP), SI
 	MOVQ x_len+8(FP), CX
 	MOVQ ct_base+24(FP), DI
 	MOVQ groups+48(FP), BX
-	MOVQ m+56(FP), DX
 	MOVQ CX, R10
 	SHLQ $5, R10
 	LEAQ (R10)(R10*2), R12
@@ -335,8 +358,21 @@ nonedone:
 	JMP  none
 
 ndone:
-	VMOVUPD Y8, (DX)
-	VMOVUPD Y9, 32(DX)
-	VMOVUPD Y10, 64(DX)
+	// Each lane's index of its smallest, 4·group + lane (exact).
+	VADDPD Y10, Y10, Y10
+	VADDPD Y10, Y10, Y10
+	VADDPD laneNumbers<>(SB), Y10, Y10
+	VPERM2F128 $1, Y8, Y8, Y0
+	VPERM2F128 $1, Y9, Y9, Y1
+	VPERM2F128 $1, Y10, Y10, Y2
+	MERGE
+	VPERMILPD $5, Y8, Y0
+	VPERMILPD $5, Y9, Y1
+	VPERMILPD $5, Y10, Y2
+	MERGE
+	CVTTSD2SQ X10, AX
+	MOVQ AX, best+56(FP)
+	VMOVSD X8, d1+64(FP)
+	VMOVSD X9, d2+72(FP)
 	VZEROUPPER
 	RET

@@ -11,7 +11,9 @@ func dots2(x0, x1, ct []float64, groups int, out []float64) { dots2Go(x0, x1, ct
 
 func weightedRootSums(a, x, w []float64, out *[4]float64) { weightedRootSumsGo(a, x, w, out) }
 
-func nearest2(x, ct []float64, groups int, m *[12]float64) { nearest2Go(x, ct, groups, m) }
+func nearest2(x, ct []float64, groups int) (best int, d1, d2 float64) {
+	return nearest2Go(x, ct, groups)
+}
 
 // setVector does nothing where there is no assembly (tests).
 func setVector(bool) {}
