@@ -94,6 +94,11 @@ dsum:
 	VADDPD Y14, A, A; \
 	VADDPD Y15, B, B
 
+// XPAIR broadcasts x0[t] to Y8 and x1[t] to Y9, t in AX.
+#define XPAIR \
+	VBROADCASTSD (SI)(AX*8), Y8; \
+	VBROADCASTSD (R8)(AX*8), Y9
+
 // func dots2Asm(x0, x1, ct []float64, groups int, out []float64)
 //
 // Dots2 (lanes.go), one lane per vector: for each group the sums of x0 (Y0, Y2, …) and x1
@@ -127,8 +132,7 @@ dfour:
 dfourloop:
 	CMPQ AX, CX
 	JGE  dfourdone
-	VBROADCASTSD (SI)(AX*8), Y8
-	VBROADCASTSD (R8)(AX*8), Y9
+	XPAIR
 	DOT2((R9), Y0, Y1)
 	DOT2((R9)(R10*1), Y2, Y3)
 	DOT2((R9)(R10*2), Y4, Y5)
@@ -161,8 +165,7 @@ done:
 doneloop:
 	CMPQ AX, CX
 	JGE  donedone
-	VBROADCASTSD (SI)(AX*8), Y8
-	VBROADCASTSD (R8)(AX*8), Y9
+	XPAIR
 	DOT2((DI), Y0, Y1)
 	ADDQ $32, DI
 	INCQ AX
