@@ -113,8 +113,9 @@ func Summarize(sk *sketch.Sketch, method Scale) (criteria.Summary, Scaling) {
 	// sample's covariance in the scaled space (the pass keeps no cross-products of ln x).
 	s.Cov = cross.UnitCovTo(nil)
 	unit := cross.Unit
+	sample := sk.Sample() // the sketch's copy, taken once
 	if sc.Logged != nil {
-		s.Cov = sampleCov(sc.apply(sk.Sample()), d)
+		s.Cov = sampleCov(sc.apply(sample), d)
 		unit = slices.Clone(sc.Spread)
 	} else if cross.N < 2 {
 		// Too few sampled rows for cross-products: fall back to the exact diagonal.
@@ -132,7 +133,6 @@ func Summarize(sk *sketch.Sketch, method Scale) (criteria.Summary, Scaling) {
 	}
 	cx, cw := sk.Coreset()
 	s.Coreset = kmeans.Data{X: sc.applyTo(cx, cx), W: cw, D: d} // the sketch's copies: scaled in place
-	sample := sk.Sample()
 	s.Sample = kmeans.Data{X: sc.applyTo(sample, sample), D: d}
 	cfg := sk.Config()
 	for k := cfg.MinK; k <= cfg.MaxK; k++ {
