@@ -104,33 +104,48 @@ func hullGap(v []float64, off, n int, hx, hy []float64, upper bool) float64 {
 // dipNullRuns is the number of uniform samples behind each null distribution of ModeDip.
 const dipNullRuns = 2000
 
-// dipNull caches the sorted null distribution of ModeDip per sample size.
+// dipNull caches the sorted null distribution of ModeDip per sample size. It starts with the
+// sizes of dipNullTable (the one-mode check's halves and ClusterModes' ladder), computed once by
+// simulateDipNull and stored in the source, so a run does not repeat 2,000 dips of each size;
+// other sizes are simulated on first use.
 var dipNull sync.Map // int -> []float64
+
+func init() {
+	for n, null := range dipNullTable {
+		dipNull.Store(n, null)
+	}
+}
 
 // ModeDipPValue returns the share of dipNullRuns uniform samples of n values whose ModeDip is at
 // least dip, with the usual (1 + count) / (1 + runs) correction. The uniform distribution is the
 // least favourable unimodal one for the dip (Hartigan & Hartigan 1985, section 4), so the test is
 // conservative for other unimodal shapes. The null samples come from a fixed seed, so the p-value
-// is a function of (dip, n) alone; each n's null distribution is computed once per process.
+// is a function of (dip, n) alone; each n's null distribution is computed at most once per process.
 func ModeDipPValue(dip float64, n int) float64 {
 	v, ok := dipNull.Load(n)
 	if !ok {
-		rng := rand.New(rand.NewPCG(uint64(n), 0x646970))
-		null := make([]float64, dipNullRuns)
-		u := make([]float64, n)
-		for b := range null {
-			for i := range u {
-				u[i] = rng.Float64()
-			}
-			slices.Sort(u)
-			null[b] = ModeDip(u)
-		}
-		slices.Sort(null)
-		v, _ = dipNull.LoadOrStore(n, null)
+		v, _ = dipNull.LoadOrStore(n, simulateDipNull(n))
 	}
 	null := v.([]float64)
 	i, _ := slices.BinarySearch(null, dip)
 	return float64(1+len(null)-i) / float64(1+len(null))
+}
+
+// simulateDipNull returns the sorted ModeDip of dipNullRuns samples of n uniform values, drawn
+// from a stream seeded by n alone.
+func simulateDipNull(n int) []float64 {
+	rng := rand.New(rand.NewPCG(uint64(n), 0x646970))
+	null := make([]float64, dipNullRuns)
+	u := make([]float64, n)
+	for b := range null {
+		for i := range u {
+			u[i] = rng.Float64()
+		}
+		slices.Sort(u)
+		null[b] = ModeDip(u)
+	}
+	slices.Sort(null)
+	return null
 }
 
 // modeCheckAlpha is the level of the one-mode check: a split is real when a Bonferroni-corrected
