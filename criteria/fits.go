@@ -71,6 +71,8 @@ func restartsFor(p Points, k, base int, cheap float64) int {
 func fitPath(p Points, lo, hi int, opt pathOptions) []Fit {
 	n := hi - lo + 1
 	fits := make([]Fit, n)
+	spread := kmeans.NewSpread(p) // one for every Lloyd run of the path
+	opt.Lloyd.Spread, opt.Race.Spread = spread, spread
 	stop := func() bool { return opt.Stop != nil && opt.Stop() }
 	report := func(units float64) {
 		if opt.Report != nil {

@@ -3,6 +3,7 @@ package kmeans_test
 import (
 	"math"
 	"math/rand/v2"
+	"reflect"
 	"testing"
 
 	"github.com/kgauge/kgauge/internal/kmeans"
@@ -426,5 +427,34 @@ func BenchmarkPlusPlus(b *testing.B) {
 				kmeans.PlusPlus(p, c.k, rand.New(rand.NewPCG(2, 2)), nil)
 			}
 		})
+	}
+}
+
+// TestLloydSpreadShared checks that a Spread made once and passed to many Lloyd runs gives each
+// run exactly the result it computes on its own, and that the Spread of another point set (other
+// length) is not used.
+func TestLloydSpreadShared(t *testing.T) {
+	rng := rand.New(rand.NewPCG(7, 8))
+	const n, d, k = 3000, 6, 9
+	x := randPoints(rng, n, d, 1)
+	for i := 0; i < n; i++ {
+		x[i*d] += float64(4 * (i % k))
+	}
+	w := make([]float64, n)
+	for i := range w {
+		w[i] = 0.2 + rng.Float64()
+	}
+	p := kmeans.Data{X: x, W: w, D: d}
+	other := kmeans.Data{X: x[:(n-10)*d], W: w[:n-10], D: d}
+	shared, wrong := kmeans.NewSpread(p), kmeans.NewSpread(other)
+	for s := uint64(1); s <= 3; s++ {
+		init := kmeans.PlusPlus(p, k, rand.New(rand.NewPCG(s, 1)), nil)
+		alone := kmeans.Lloyd(p, init, kmeans.LloydOptions{})
+		for name, sp := range map[string]*kmeans.Spread{"shared": shared, "another set's": wrong} {
+			got := kmeans.Lloyd(p, init, kmeans.LloydOptions{Spread: sp})
+			if !reflect.DeepEqual(got, alone) {
+				t.Errorf("seed %d, %s spread: cost %v in %d iterations, alone %v in %d", s, name, got.Cost, got.Iters, alone.Cost, alone.Iters)
+			}
+		}
 	}
 }

@@ -25,6 +25,10 @@ type LloydOptions struct {
 	// Context, when not nil, is checked once per iteration: once it is done Lloyd stops early and
 	// returns the centres it has (the caller checks the context and discards them).
 	Context context.Context
+	// Spread, when not nil, is NewSpread of the Data Lloyd runs on, computed once for many runs
+	// (Fit sets it for its restarts); otherwise each run computes it. One of another point set
+	// (other length or width) is not used.
+	Spread *Spread
 }
 
 func (o LloydOptions) withDefaults() LloydOptions {
@@ -67,7 +71,7 @@ func Lloyd(p Data, init []float64, opt LloydOptions) Result {
 	}
 	h := newHamerly(p, k)
 	old := make([]float64, k*d)
-	cs := newCentred(p, k)
+	cs := newCentred(p, k, opt.Spread)
 	prev := math.Inf(1)
 	for it := 1; it <= opt.MaxIter; it++ {
 		if opt.Context != nil && opt.Context.Err() != nil {
@@ -181,16 +185,23 @@ func (h *hamerly) assign(c []float64, labels []int32, full bool) int {
 		h.g.load(c, k, d)
 	}
 	changed := 0
+	upper, lower, half := h.upper[:len(labels)], h.lower[:len(labels)], h.half[:k]
 	for i := range labels {
 		x := p.Point(i)
 		if !full {
 			a := labels[i]
-			m := math.Max(h.half[a], h.lower[i])
-			if h.upper[i] <= m {
+			// m = max(half[a], lower[i]); the bounds are never NaN (the points are finite), so the
+			// comparison gives math.Max's value without its NaN and signed-zero branches.
+			m := half[a]
+			if l := lower[i]; l > m {
+				m = l
+			}
+			if upper[i] <= m {
 				continue
 			}
-			h.upper[i] = math.Sqrt(Dist2(x, c[int(a)*d:int(a)*d+d]))
-			if h.upper[i] <= m {
+			u := math.Sqrt(Dist2(x, c[int(a)*d:int(a)*d+d]))
+			upper[i] = u
+			if u <= m {
 				continue
 			}
 		}
@@ -205,7 +216,7 @@ func (h *hamerly) assign(c []float64, labels []int32, full bool) int {
 			changed++
 		}
 		labels[i] = int32(b)
-		h.upper[i], h.lower[i] = math.Sqrt(d1), math.Sqrt(d2)
+		upper[i], lower[i] = math.Sqrt(d1), math.Sqrt(d2)
 	}
 	return changed
 }
@@ -297,15 +308,50 @@ func reseedEmpty(p Data, labels []int32, dist2, sizes []float64, k int) {
 	}
 }
 
-// centred holds what Lloyd needs to get the cost of each iteration from the cluster sums
-// instead of a second sweep over the points: the weighted mean mu of the points, their weighted
-// squared distances q_i = w_i ||x_i - mu||^2 and tss = sum q_i. It also keeps the per-cluster
-// sums of the last update and the labels they were taken with, so that an iteration in which few
-// labels changed moves only those points' terms (see update).
-type centred struct {
+// Spread is what Lloyd needs to get the cost of each iteration from the cluster sums instead of
+// a second sweep over the points: the weighted mean mu of a point set, the weighted squared
+// distances q_i = w_i ||x_i - mu||^2 of its points and tss = sum q_i. It depends on the points
+// alone, so one serves every Lloyd run on them (LloydOptions.Spread). It is read-only once made.
+type Spread struct {
 	mu  []float64
 	q   []float64
 	tss float64
+}
+
+// NewSpread returns the Spread of p.
+func NewSpread(p Data) *Spread {
+	d, n := p.D, p.Len()
+	sp := &Spread{mu: make([]float64, d), q: make([]float64, n)}
+	tw := 0.0
+	for i := 0; i < n; i++ {
+		w := p.Weight(i)
+		tw += w
+		for t, v := range p.Point(i) {
+			sp.mu[t] += w * v
+		}
+	}
+	if tw > 0 {
+		for t := range sp.mu {
+			sp.mu[t] /= tw
+		}
+	}
+	for i := 0; i < n; i++ {
+		sp.q[i] = p.Weight(i) * Dist2(p.Point(i), sp.mu)
+		sp.tss += sp.q[i]
+	}
+	return sp
+}
+
+// fits reports whether sp can be p's Spread (the same number of points and columns).
+func (sp *Spread) fits(p Data) bool {
+	return sp != nil && len(sp.q) == p.Len() && len(sp.mu) == p.D
+}
+
+// centred holds the Spread of the points of one Lloyd run, and the per-cluster sums of the last
+// update with the labels they were taken with, so that an iteration in which few labels changed
+// moves only those points' terms (see update).
+type centred struct {
+	*Spread
 
 	sums   []float64 // sum of w_i x_i per cluster, k*d
 	weight []float64 // sum of w_i per cluster
@@ -323,28 +369,13 @@ const (
 	refreshEvery     = 16
 )
 
-func newCentred(p Data, k int) *centred {
+func newCentred(p Data, k int, sp *Spread) *centred {
 	d, n := p.D, p.Len()
-	cs := &centred{mu: make([]float64, d), q: make([]float64, n), sums: make([]float64, k*d),
+	if !sp.fits(p) {
+		sp = NewSpread(p)
+	}
+	return &centred{Spread: sp, sums: make([]float64, k*d),
 		weight: make([]float64, k), count: make([]int, k), qsum: make([]float64, k), was: make([]int32, n)}
-	tw := 0.0
-	for i := 0; i < n; i++ {
-		w := p.Weight(i)
-		tw += w
-		for t, v := range p.Point(i) {
-			cs.mu[t] += w * v
-		}
-	}
-	if tw > 0 {
-		for t := range cs.mu {
-			cs.mu[t] /= tw
-		}
-	}
-	for i := 0; i < n; i++ {
-		cs.q[i] = p.Weight(i) * Dist2(p.Point(i), cs.mu)
-		cs.tss += cs.q[i]
-	}
-	return cs
 }
 
 // costRelFloor is the smallest cost, relative to the total sum of squares, that centred.update
@@ -490,6 +521,9 @@ func Fit(p Data, k int, opt FitOptions) Result {
 	}
 	if opt.Lloyd.Context == nil {
 		opt.Lloyd.Context = opt.Context
+	}
+	if !opt.Lloyd.Spread.fits(p) {
+		opt.Lloyd.Spread = NewSpread(p)
 	}
 	cancelled := func() bool { return opt.Context != nil && opt.Context.Err() != nil }
 	var best Result
