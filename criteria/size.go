@@ -23,7 +23,8 @@ func WardLeaves(m, maxK int) int {
 func wardFineK(maxK int) int { return max(3*maxK, 50) }
 
 // evaluateFixedBytes is what Evaluate holds whatever the sizes, before its fits start: the dip
-// statistic's null tables, the vote's weights and gonum's workspaces. Measured: the peak of
+// statistic's null tables of sizes not stored in dipNullTable, the vote's weights and gonum's
+// workspaces. Measured (when every null table was simulated in the run): the peak of
 // Evaluate on 1,000 to 6,000 points of 4 columns with 3 k and one gap reference was 1.7 to 2.1 MiB
 // (linux/amd64, Go 1.26); TestWorkingBytesMatchesHeap checks the whole sum.
 const evaluateFixedBytes = 2 << 20
@@ -39,7 +40,8 @@ const evaluateFixedBytes = 2 << 20
 //   - the width terms: copies of the d×d covariance, the eigenvectors and the workspace of the
 //     eigen decompositions (principal-component box, whitening);
 //   - the fits of every k (labels of the m points, centres);
-//   - per worker, one k at a time: Lloyd's bounds and labels, the full-covariance mixture at the
+//   - per worker, one k at a time: Lloyd's bounds and labels (or k-means++'s distances, one
+//     buffer per candidate, whichever is larger), the full-covariance mixture at the
 //     largest k it is fitted for (k covariances, their copies and Cholesky factors of d×d; no k
 //     whose mixture has fewer than two of the m points per parameter is fitted, see
 //     mixtureThinAt) and the responsibilities of m points at the largest k any mixture family is
@@ -64,7 +66,8 @@ func WorkingBytes(opt Options, m, n, d, workers int) int64 {
 	fams := mixtureFamilies(opt.MaxK, math.Inf(1), m, d)
 	kFull := int64(mixtureTopK(opt.MinK, opt.MaxK, m, d, FamilyFull))
 	kAny := int64(mixtureTopK(opt.MinK, opt.MaxK, m, d, fams[len(fams)-1]))
-	perWorker := M*(4*8+4) + 3*kFull*D*D*8 + M*kAny*8
+	seeding := int64(2+int(math.Log(float64(opt.MaxK)))+2)*8 + 4 // k-means++: d2, a spare and one buffer per candidate, near
+	perWorker := M*max(4*8+4, seeding) + 3*kFull*D*D*8 + M*kAny*8
 	leaves := int64(WardLeaves(m, opt.MaxK))
 	ward := leaves * leaves * 8
 	w := int64(max(1, min(workers, int(nk))))

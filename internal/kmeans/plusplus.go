@@ -40,13 +40,23 @@ func plusPlus(ctx context.Context, p Data, k int, rng *rand.Rand, dst []float64)
 	}
 	trials := 2 + int(math.Log(float64(k)))
 	d2 := make([]float64, n)
-	cand := make([]float64, n)
-	best := make([]float64, n)
+	// cand[t][i] is point i's squared distance to its nearest centre with candidate t added; the
+	// spare buffer takes the place of the one kept as the new d2.
+	cand := make([][]float64, trials)
+	for t := range cand {
+		cand[t] = make([]float64, n)
+	}
+	spare := make([]float64, n)
 	// near[i] is the centre d2[i] is measured to. A candidate x cannot bring point i closer when
 	// ||x - c_near(i)|| >= 2 sqrt(d2[i]) (triangle inequality), so those points keep d2[i]
 	// without measuring; the margin keeps rounding from ever skipping a point x does improve.
 	near := make([]int32, n)
-	toCentre := make([]float64, k) // ||x - c_j||^2 for the candidate x
+	toCentre := make([][]float64, trials) // toCentre[t][j] = ||x_t - c_j||^2 for candidate x_t
+	for t := range toCentre {
+		toCentre[t] = make([]float64, k)
+	}
+	idx := make([]int, trials)
+	pots := make([]float64, trials)
 	const margin = 4 * (1 + 1e-9)
 	for i := 0; i < n; i++ {
 		d2[i] = Dist2(p.Point(i), dst[:d])
@@ -67,52 +77,72 @@ func plusPlus(ctx context.Context, p Data, k int, rng *rand.Rand, dst []float64)
 			copy(dst[c*d:(c+1)*d], p.Point(idx))
 			continue
 		}
-		bestPot := math.Inf(1)
-		bestIdx := -1
-		for t := 0; t < trials; t++ {
-			idx := drawWeighted(p, d2, rng)
-			x := p.Point(idx)
+		// The candidates are drawn from the same d2, so all of them are drawn first and then
+		// measured in one sweep over the points; each potential is still summed over the points
+		// in order, so the choice is that of measuring the candidates one after the other.
+		tot := weightedTotal(p, d2)
+		for t := range idx {
+			idx[t] = drawFrom(p, d2, tot, rng)
+			x := p.Point(idx[t])
 			for j := 0; j < c; j++ {
-				toCentre[j] = Dist2(x, dst[j*d:(j+1)*d])
+				toCentre[t][j] = Dist2(x, dst[j*d:(j+1)*d])
 			}
-			s := 0.0
-			for i := 0; i < n; i++ {
-				v := d2[i]
-				if toCentre[near[i]] < margin*v {
-					v = min(v, Dist2(p.Point(i), x))
+			pots[t] = 0
+		}
+		for i := 0; i < n; i++ {
+			v0 := d2[i]
+			w := p.Weight(i)
+			xi := p.Point(i)
+			for t, tc := range toCentre {
+				v := v0
+				if tc[near[i]] < margin*v0 {
+					v = min(v0, Dist2(xi, p.Point(idx[t])))
 				}
-				cand[i] = v
-				s += p.Weight(i) * v
-			}
-			// The first candidate is kept whatever its potential, so that a potential that is not
-			// a number (squared distances beyond float64) cannot leave no centre chosen.
-			if s < bestPot || bestIdx < 0 {
-				bestPot, bestIdx = s, idx
-				best, cand = cand, best
+				cand[t][i] = v
+				pots[t] += w * v
 			}
 		}
-		copy(dst[c*d:(c+1)*d], p.Point(bestIdx))
+		// The first candidate is kept whatever its potential, so that a potential that is not
+		// a number (squared distances beyond float64) cannot leave no centre chosen.
+		bt := 0
+		for t := 1; t < trials; t++ {
+			if pots[t] < pots[bt] {
+				bt = t
+			}
+		}
+		best := cand[bt]
+		copy(dst[c*d:(c+1)*d], p.Point(idx[bt]))
 		for i, v := range best {
 			if v < d2[i] {
 				near[i] = int32(c)
 			}
 		}
-		d2, best = best, d2
+		d2, cand[bt], spare = best, spare, d2
 	}
 	return dst
 }
 
 // drawWeighted draws an index with probability proportional to w(i)*f(i) (f nil means 1).
 func drawWeighted(p Data, f []float64, rng *rand.Rand) int {
-	n := p.Len()
+	return drawFrom(p, f, weightedTotal(p, f), rng)
+}
+
+// weightedTotal returns sum_i w(i)*f(i) (f nil means 1), summed in order.
+func weightedTotal(p Data, f []float64) float64 {
 	tot := 0.0
-	for i := 0; i < n; i++ {
+	for i := range p.Len() {
 		v := p.Weight(i)
 		if f != nil {
 			v *= f[i]
 		}
 		tot += v
 	}
+	return tot
+}
+
+// drawFrom is drawWeighted given tot = weightedTotal(p, f).
+func drawFrom(p Data, f []float64, tot float64, rng *rand.Rand) int {
+	n := p.Len()
 	if !(tot > 0) {
 		return rng.IntN(n)
 	}
