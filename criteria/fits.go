@@ -8,6 +8,7 @@ import (
 	"sync"
 
 	"github.com/kgauge/kgauge/internal/kmeans"
+	"github.com/kgauge/kgauge/internal/lanes"
 )
 
 // pathOptions controls fitPath.
@@ -218,32 +219,53 @@ func addCentre(p Points, f Fit, rng *rand.Rand) ([]float64, bool) {
 		return nil, false
 	}
 	trials := 2 + int(math.Log(float64(f.K+1)))
-	best, bestPot := -1, math.Inf(1)
+	// The candidates are drawn from the same d2, so all are drawn first and measured in one sweep
+	// over the points, four at a time (lanes.Dist2x4: each Dist2's own value); each potential is
+	// still summed over the points in order, so the choice is that of one candidate at a time.
+	groups := (trials + 3) / 4
+	idx := make([]int, 0, trials)
+	rows := make([]float64, 4*groups*d)
 	for t := 0; t < trials; t++ {
 		u := rng.Float64() * tot
-		idx := -1
+		i := -1
 		acc := 0.0
-		for i := 0; i < m; i++ {
-			v := p.Weight(i) * d2[i]
+		for j := 0; j < m; j++ {
+			v := p.Weight(j) * d2[j]
 			if v <= 0 {
 				continue
 			}
-			idx = i
+			i = j
 			acc += v
 			if u < acc {
 				break
 			}
 		}
-		if idx < 0 {
+		if i < 0 {
 			break
 		}
-		x := p.Point(idx)
-		pot := 0.0
-		for i := 0; i < m; i++ {
-			pot += p.Weight(i) * math.Min(d2[i], kmeans.Dist2(p.Point(i), x))
+		idx = append(idx, i)
+	}
+	if len(idx) == 0 {
+		return nil, false
+	}
+	for r := range 4 * groups {
+		copy(rows[r*d:(r+1)*d], p.Point(idx[min(r, len(idx)-1)]))
+	}
+	pots := make([]float64, len(idx))
+	var four [4]float64
+	for i := 0; i < m; i++ {
+		x, w := p.Point(i), p.Weight(i)
+		for g := 0; g < len(idx); g += 4 {
+			lanes.Dist2x4(x, rows[g*d:(g+4)*d], &four)
+			for t := g; t < min(g+4, len(idx)); t++ {
+				pots[t] += w * math.Min(d2[i], four[t-g])
+			}
 		}
+	}
+	best, bestPot := -1, math.Inf(1)
+	for t, pot := range pots {
 		if pot < bestPot {
-			best, bestPot = idx, pot
+			best, bestPot = idx[t], pot
 		}
 	}
 	if best < 0 {

@@ -4,6 +4,8 @@ import (
 	"context"
 	"math"
 	"math/rand/v2"
+
+	"github.com/kgauge/kgauge/internal/lanes"
 )
 
 // PlusPlus seeds k centres by weighted k-means++ (Arthur & Vassilvitskii 2007, "k-means++: the
@@ -57,6 +59,11 @@ func plusPlus(ctx context.Context, p Data, k int, rng *rand.Rand, dst []float64)
 	}
 	idx := make([]int, trials)
 	pots := make([]float64, trials)
+	// rows holds the candidates' rows in groups of four (the last group padded with its last
+	// candidate), for lanes.Dist2x4.
+	groups := (trials + 3) / 4
+	rows := make([]float64, 4*groups*d)
+	var four [4]float64
 	const margin = 4 * (1 + 1e-9)
 	for i := 0; i < n; i++ {
 		d2[i] = Dist2(p.Point(i), dst[:d])
@@ -89,17 +96,48 @@ func plusPlus(ctx context.Context, p Data, k int, rng *rand.Rand, dst []float64)
 			}
 			pots[t] = 0
 		}
+		for r := range 4 * groups {
+			copy(rows[r*d:(r+1)*d], p.Point(idx[min(r, trials-1)]))
+		}
 		for i := 0; i < n; i++ {
 			v0 := d2[i]
 			w := p.Weight(i)
 			xi := p.Point(i)
-			for t, tc := range toCentre {
-				v := v0
-				if tc[near[i]] < margin*v0 {
-					v = min(v0, Dist2(xi, p.Point(idx[t])))
+			ni, lim := near[i], margin*v0
+			if d < dist2x4From {
+				for t, tc := range toCentre {
+					v := v0
+					if tc[ni] < lim {
+						v = min(v0, Dist2(xi, rows[t*d:(t+1)*d]))
+					}
+					cand[t][i] = v
+					pots[t] += w * v
 				}
-				cand[t][i] = v
-				pots[t] += w * v
+				continue
+			}
+			for g := 0; g < trials; g += 4 {
+				// The candidates of the group that can bring point i closer: two or more are
+				// measured together, one alone (Dist2x4 gives each Dist2's own value).
+				top := min(g+4, trials)
+				need, one := 0, -1
+				for t := g; t < top; t++ {
+					if toCentre[t][ni] < lim {
+						need, one = need+1, t
+					}
+				}
+				if need > 1 {
+					lanes.Dist2x4(xi, rows[g*d:(g+4)*d], &four)
+				} else if need == 1 {
+					four[one-g] = Dist2(xi, rows[one*d:(one+1)*d])
+				}
+				for t := g; t < top; t++ {
+					v := v0
+					if toCentre[t][ni] < lim {
+						v = min(v0, four[t-g])
+					}
+					cand[t][i] = v
+					pots[t] += w * v
+				}
 			}
 		}
 		// The first candidate is kept whatever its potential, so that a potential that is not
@@ -121,6 +159,13 @@ func plusPlus(ctx context.Context, p Data, k int, rng *rand.Rand, dst []float64)
 	}
 	return dst
 }
+
+// dist2x4From is the width from which k-means++ measures a point against its candidates four at
+// a time (lanes.Dist2x4). BenchmarkPlusPlus: at 16 columns and k = 20 it is within noise of one
+// candidate at a time, at 16 columns and max-k 50 the criteria stage gains 3%, at 2 columns and
+// k = 100 the seeding takes 35% longer (its distances are too short to pay for sorting the
+// candidates into groups).
+const dist2x4From = 8
 
 // drawWeighted draws an index with probability proportional to w(i)*f(i) (f nil means 1).
 func drawWeighted(p Data, f []float64, rng *rand.Rand) int {

@@ -57,6 +57,29 @@ func Dist2(a, b []float64) float64 {
 	return dist2Go(a, b)
 }
 
+// Dist2x4 sets out[r] = Dist2(a, c[r·d : (r+1)·d]) for the four rows r of c (row-major, d =
+// len(a) values a row), each equal to Dist2's result bit for bit: a is loaded once for the four
+// rows. It panics when c holds fewer than four rows.
+func Dist2x4(a, c []float64, out *[4]float64) {
+	if len(c) < 4*len(a) {
+		panic("lanes: Dist2x4: c holds fewer than four rows")
+	}
+	c = c[:4*len(a)]
+	if Vector && len(a) > 0 {
+		dist2x4Asm(a, c, out)
+		return
+	}
+	dist2x4Go(a, c, out)
+}
+
+// dist2x4Go is Dist2x4 in Go.
+func dist2x4Go(a, c []float64, out *[4]float64) {
+	d := len(a)
+	for r := range out {
+		out[r] = dist2Go(a, c[r*d:(r+1)*d])
+	}
+}
+
 // dist2Go is Dist2 in Go.
 func dist2Go(a, b []float64) float64 {
 	b = b[:len(a)]

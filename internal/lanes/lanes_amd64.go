@@ -18,6 +18,9 @@ func nearest2Asm(x, ct []float64, groups int) (best int, d1, d2 float64)
 func dist2Asm(a, b []float64) float64
 
 //go:noescape
+func dist2x4Asm(a, c []float64, out *[4]float64)
+
+//go:noescape
 func dots2Asm(x0, x1, ct []float64, groups int, out []float64)
 
 //go:noescape

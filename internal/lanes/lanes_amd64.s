@@ -85,6 +85,87 @@ dsum:
 	VZEROUPPER
 	RET
 
+// D2ROW(ROW, ACC) adds the squared differences of the block of a in Y4 and the block at ROW to
+// the four partial sums ACC.
+#define D2ROW(ROW, ACC) \
+	VSUBPD ROW, Y4, Y5; \
+	VMULPD Y5, Y5, Y5; \
+	VADDPD Y5, ACC, ACC
+
+// D2TAIL(ROW, ACC) adds the squared difference of the value of a in X8 and the value at ROW to
+// lane 0 of ACC.
+#define D2TAIL(ROW, ACC) \
+	VSUBSD ROW, X8, X9; \
+	VMULSD X9, X9, X9; \
+	VADDSD X9, ACC, ACC
+
+// D2SUM(ACC, HI, OFF) stores (s0 + s1) + (s2 + s3) of the sums in ACC (lanes 0, 1) and HI
+// (lanes 2, 3) at OFF(R9).
+#define D2SUM(ACC, HI, OFF) \
+	VUNPCKHPD ACC, ACC, X9; \
+	VADDSD X9, ACC, ACC; \
+	VUNPCKHPD HI, HI, X9; \
+	VADDSD X9, HI, HI; \
+	VADDSD HI, ACC, ACC; \
+	VMOVSD ACC, OFF(R9)
+
+// func dist2x4Asm(a, c []float64, out *[4]float64)
+//
+// Dist2x4 (lanes.go): dist2Asm for the four rows of c at once (sums Y0 to Y3), a's block loaded
+// once. The caller checks AVX2, that a is not empty and that c holds four rows of len(a).
+TEXT ·dist2x4Asm(SB), NOSPLIT, $0-56
+	MOVQ a_base+0(FP), SI
+	MOVQ a_len+8(FP), CX
+	MOVQ c_base+24(FP), DI
+	MOVQ out+48(FP), R9
+	LEAQ (DI)(CX*8), R10 // row 1
+	LEAQ (R10)(CX*8), R11 // row 2
+	LEAQ (R11)(CX*8), R12 // row 3
+	MOVQ CX, DX
+	ANDQ $-4, DX // the values in whole blocks
+	VXORPD Y0, Y0, Y0
+	VXORPD Y1, Y1, Y1
+	VXORPD Y2, Y2, Y2
+	VXORPD Y3, Y3, Y3
+	XORQ AX, AX
+
+qblock:
+	CMPQ AX, DX
+	JGE  qtail
+	VMOVUPD (SI)(AX*8), Y4
+	D2ROW((DI)(AX*8), Y0)
+	D2ROW((R10)(AX*8), Y1)
+	D2ROW((R11)(AX*8), Y2)
+	D2ROW((R12)(AX*8), Y3)
+	ADDQ $4, AX
+	JMP  qblock
+
+qtail:
+	// Lanes 2 and 3 of each sum first: the scalar operations clear the upper halves.
+	VEXTRACTF128 $1, Y0, X4
+	VEXTRACTF128 $1, Y1, X5
+	VEXTRACTF128 $1, Y2, X6
+	VEXTRACTF128 $1, Y3, X7
+
+qtailloop:
+	CMPQ AX, CX
+	JGE  qsum
+	VMOVSD (SI)(AX*8), X8
+	D2TAIL((DI)(AX*8), X0)
+	D2TAIL((R10)(AX*8), X1)
+	D2TAIL((R11)(AX*8), X2)
+	D2TAIL((R12)(AX*8), X3)
+	INCQ AX
+	JMP  qtailloop
+
+qsum:
+	D2SUM(X0, X4, 0)
+	D2SUM(X1, X5, 8)
+	D2SUM(X2, X6, 16)
+	D2SUM(X3, X7, 24)
+	VZEROUPPER
+	RET
+
 // DOT2(LOAD, A, B) adds, for the column t in AX, x0[t] (Y8) and x1[t] (Y9) times the four
 // values at LOAD (one group's column t) to the sums A and B.
 #define DOT2(LOAD, A, B) \

@@ -7,6 +7,8 @@ const Vector = false
 
 func dist2Asm(a, b []float64) float64 { return dist2Go(a, b) }
 
+func dist2x4Asm(a, c []float64, out *[4]float64) { dist2x4Go(a, c, out) }
+
 func dots2(x0, x1, ct []float64, groups int, out []float64) { dots2Go(x0, x1, ct, groups, out) }
 
 func weightedRootSums(a, x, w []float64, out *[4]float64) { weightedRootSumsGo(a, x, w, out) }
