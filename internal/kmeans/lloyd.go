@@ -4,6 +4,7 @@ import (
 	"context"
 	"math"
 	"math/rand/v2"
+	"slices"
 
 	"github.com/kgauge/kgauge/internal/lanes"
 )
@@ -108,12 +109,25 @@ type hamerly struct {
 	half  []float64 // half the distance from each centre to its nearest other centre
 	shift []float64
 	g     grouped // the centres for full scans in vector lanes (lanes.Vector)
+	// held counts the points of positive weight each cluster holds under the labels, kept by
+	// assign and reseed: a cluster holding none has no weight, which is all reseed looks for.
+	held []int
 }
 
 func newHamerly(p Data, k int) *hamerly {
 	n := p.Len()
 	return &hamerly{p: p, k: k, upper: make([]float64, n), lower: make([]float64, n),
-		half: make([]float64, k), shift: make([]float64, k)}
+		half: make([]float64, k), shift: make([]float64, k), held: make([]int, k)}
+}
+
+// countHeld recounts h.held from labels.
+func (h *hamerly) countHeld(labels []int32) {
+	clear(h.held)
+	for i, l := range labels {
+		if h.p.Weight(i) > 0 {
+			h.held[l]++
+		}
+	}
 }
 
 // nearest2 returns the nearest and second-nearest squared distances of x to the centres,
@@ -163,6 +177,9 @@ func (h *hamerly) assign(c []float64, labels []int32, full bool) int {
 				labels[i] = 0
 				changed++
 			}
+		}
+		if full || changed > 0 {
+			h.countHeld(labels)
 		}
 		if full {
 			return len(labels)
@@ -214,15 +231,29 @@ func (h *hamerly) assign(c []float64, labels []int32, full bool) int {
 		}
 		if full || int32(b) != labels[i] {
 			changed++
+			if !full && p.Weight(i) > 0 {
+				h.held[labels[i]]--
+				h.held[b]++
+			}
 		}
 		labels[i] = int32(b)
 		upper[i], lower[i] = math.Sqrt(d1), math.Sqrt(d2)
+	}
+	if full {
+		h.countHeld(labels)
 	}
 	return changed
 }
 
 // reseed re-seeds empty clusters with the farthest points (see Lloyd); it reports whether it did.
+// A cluster is empty when it holds no weight; the weights are never negative, so that is when it
+// holds no point of positive weight (h.held), and a run whose clusters all hold one costs nothing
+// here. sizes is scratch.
 func (h *hamerly) reseed(c []float64, labels []int32, sizes []float64) bool {
+	if !slices.Contains(h.held, 0) {
+		return false // every cluster holds a point of positive weight, so none is empty
+	}
+	defer h.countHeld(labels)
 	p, d := h.p, h.p.D
 	for j := range sizes {
 		sizes[j] = 0
