@@ -53,7 +53,7 @@ func TestHeldFollowsLabels(t *testing.T) {
 				late++
 			}
 			copy(old, c)
-			cs.update(p, labels, c, sizes, true)
+			cs.update(p, labels, nil, c, sizes, true)
 			h.move(old, c, labels)
 		}
 	}

@@ -88,7 +88,7 @@ func Lloyd(p Data, init []float64, opt LloydOptions) Result {
 			changed++
 		}
 		copy(old, c)
-		cost := cs.update(p, res.Labels, c, res.Sizes, it == 1 || reseeded || changed > n/incrementalShare)
+		cost := cs.update(p, res.Labels, h.moved, c, res.Sizes, it == 1 || reseeded || changed > n/incrementalShare)
 		h.move(old, c, res.Labels)
 		if cost == 0 || (!math.IsInf(prev, 1) && prev-cost <= opt.Tol*prev) {
 			break
@@ -112,6 +112,9 @@ type hamerly struct {
 	// held counts the points of positive weight each cluster holds under the labels, kept by
 	// assign and reseed: a cluster holding none has no weight, which is all reseed looks for.
 	held []int
+	// moved lists, in order, the points whose label the last assignment changed, as long as they
+	// are at most a 1/incrementalShare of the points (beyond that centred.update sums every point).
+	moved []int32
 }
 
 func newHamerly(p Data, k int) *hamerly {
@@ -170,6 +173,7 @@ func nearest2(x, c []float64, k, d int) (best int, d1, d2 float64) {
 // assign updates labels (all points when full) and returns the number of changed labels.
 func (h *hamerly) assign(c []float64, labels []int32, full bool) int {
 	p, k, d := h.p, h.k, h.p.D
+	h.moved = h.moved[:0]
 	if k == 1 {
 		changed := 0
 		for i := range labels {
@@ -231,9 +235,14 @@ func (h *hamerly) assign(c []float64, labels []int32, full bool) int {
 		}
 		if full || int32(b) != labels[i] {
 			changed++
-			if !full && p.Weight(i) > 0 {
-				h.held[labels[i]]--
-				h.held[b]++
+			if !full {
+				if p.Weight(i) > 0 {
+					h.held[labels[i]]--
+					h.held[b]++
+				}
+				if len(h.moved) <= len(labels)/incrementalShare {
+					h.moved = append(h.moved, int32(i))
+				}
 			}
 		}
 		labels[i] = int32(b)
@@ -421,10 +430,11 @@ const costRelFloor = 1e-6
 //
 // (c_j the weighted mean of cluster j, W_j its weight), which needs no second sweep over the
 // points. With full false it takes the cluster sums of the last update and moves the terms of
-// the points whose label changed since (refreshEvery such updates at most in a row); otherwise it
+// the points whose label changed since, listed in moved in increasing order (refreshEvery such
+// updates at most in a row); otherwise it
 // sums every point. When the cost is below costRelFloor times the total sum of squares it is
 // recomputed exactly. It also fills sizes.
-func (cs *centred) update(p Data, labels []int32, c, sizes []float64, full bool) float64 {
+func (cs *centred) update(p Data, labels, moved []int32, c, sizes []float64, full bool) float64 {
 	d := p.D
 	if full || cs.since >= refreshEvery {
 		cs.since = 0
@@ -449,8 +459,9 @@ func (cs *centred) update(p Data, labels []int32, c, sizes []float64, full bool)
 		copy(cs.was, labels)
 	} else {
 		cs.since++
-		for i, l := range labels {
-			o := cs.was[i]
+		for _, m := range moved {
+			i := int(m)
+			o, l := cs.was[i], labels[i]
 			if o == l {
 				continue
 			}
