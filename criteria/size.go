@@ -66,7 +66,7 @@ func WorkingBytes(opt Options, m, n, d, workers int) int64 {
 	fams := mixtureFamilies(opt.MaxK, math.Inf(1), m, d)
 	kFull := int64(mixtureTopK(opt.MinK, opt.MaxK, m, d, FamilyFull))
 	kAny := int64(mixtureTopK(opt.MinK, opt.MaxK, m, d, fams[len(fams)-1]))
-	seeding := int64(2+int(math.Log(float64(opt.MaxK)))+2)*8 + 4 // k-means++: d2, a spare and one buffer per candidate, near
+	seeding := int64(2+int(math.Log(float64(opt.MaxK)))+1)*8 + 4 // k-means++: d2 and one buffer per candidate, near
 	perWorker := M*max(4*8+4, seeding) + 3*kFull*D*D*8 + M*kAny*8
 	leaves := int64(WardLeaves(m, opt.MaxK))
 	ward := leaves * leaves * 8

@@ -43,12 +43,11 @@ func plusPlus(ctx context.Context, p Data, k int, rng *rand.Rand, dst []float64)
 	trials := 2 + int(math.Log(float64(k)))
 	d2 := make([]float64, n)
 	// cand[t][i] is point i's squared distance to its nearest centre with candidate t added; the
-	// spare buffer takes the place of the one kept as the new d2.
+	// chosen candidate's buffer becomes d2, and d2's takes its place.
 	cand := make([][]float64, trials)
 	for t := range cand {
 		cand[t] = make([]float64, n)
 	}
-	spare := make([]float64, n)
 	// near[i] is the centre d2[i] is measured to. A candidate x cannot bring point i closer when
 	// ||x - c_near(i)|| >= 2 sqrt(d2[i]) (triangle inequality), so those points keep d2[i]
 	// without measuring; the margin keeps rounding from ever skipping a point x does improve.
@@ -155,7 +154,7 @@ func plusPlus(ctx context.Context, p Data, k int, rng *rand.Rand, dst []float64)
 				near[i] = int32(c)
 			}
 		}
-		d2, cand[bt], spare = best, spare, d2
+		d2, cand[bt] = best, d2
 	}
 	return dst
 }
