@@ -9,7 +9,7 @@ import (
 type Options struct {
 	MinK        int    `json:"min_k"`        // candidate range MinK..MaxK; default 1..20
 	MaxK        int    `json:"max_k"`        // default 20
-	Restarts    int    `json:"restarts"`     // k-means++ restarts per k on the coreset (plus the Summary's seed centres); default 3
+	Restarts    int    `json:"restarts"`     // k-means++ seedings per k on the coreset beside the Summary's seed centres and the sweeps (more where cheap); default 1
 	Anchors     int    `json:"anchors"`      // silhouette anchors, stratified by cluster; default 1000
 	GapRefs     int    `json:"gap_refs"`     // B Monte Carlo reference sets per reference; default 5 (bench/report/DEFAULTS.md)
 	GapSample   int    `json:"gap_sample"`   // points per gap reference set and on the data side; default 2000
@@ -27,10 +27,10 @@ type Options struct {
 	Progress func(done, total float64) `json:"-"`
 }
 
-// DefaultOptions returns MinK 1, MaxK 20, Restarts 3, Anchors 1000, GapRefs 5, GapSample 2000,
+// DefaultOptions returns MinK 1, MaxK 20, Restarts 1, Anchors 1000, GapRefs 5, GapSample 2000,
 // Workers 0 (GOMAXPROCS) and Seed 1.
 func DefaultOptions() Options {
-	return Options{MinK: 1, MaxK: 20, Restarts: 3, Anchors: 1000, GapRefs: 5, GapSample: 2000, GapRestarts: 1, Seed: 1}
+	return Options{MinK: 1, MaxK: 20, Restarts: 1, Anchors: 1000, GapRefs: 5, GapSample: 2000, GapRestarts: 1, Seed: 1}
 }
 
 // withDefaults replaces zero fields by DefaultOptions' values.
