@@ -23,6 +23,11 @@ type pathOptions struct {
 	Stop     func() bool             // reports cancellation (may be nil)
 	Pool     *pool                   // when set, every running restart and the sweeps hold one of its slots
 	Report   func(units float64)     // when set, receives the expected cost of each finished step (restarts and first sweeps per k)
+	// EndsOnly restricts the restarts (and opt.Init's starts) to lo and hi: every k between
+	// starts from the sweeps alone (the downward one from the fit at hi starts any k the upward
+	// one could not, where every point sits on a centre of k - 1). Evaluate sets it on the gap's
+	// reference paths.
+	EndsOnly bool
 }
 
 // Sweep settings of fitPath: starts tried per k and direction, and the most rounds of both
@@ -51,7 +56,8 @@ func restartsFor(p Points, k, base int, cheap float64) int {
 
 // fitPath returns a k-means fit for every k in lo..hi (index k - lo). For each k it keeps the
 // cheapest of:
-//   - Lloyd from each of opt.Init(k) and from opt.Restarts greedy k-means++ seedings (kmeans.Fit);
+//   - Lloyd from each of opt.Init(k) and from opt.Restarts greedy k-means++ seedings (kmeans.Fit;
+//     with opt.EndsOnly at lo and hi only);
 //   - upward sweep (k ascending): Lloyd from the kept k-1 centres plus one point drawn with
 //     probability proportional to w D^2 (the greedy k-means++ step: 2 + ln k draws, the one that
 //     lowers the potential most), sweepTries times;
@@ -81,6 +87,9 @@ func fitPath(p Points, lo, hi int, opt pathOptions) []Fit {
 		}
 	}
 	one := func(k int) {
+		if opt.EndsOnly && k > lo && k < hi {
+			return // started by the sweeps below
+		}
 		var init [][]float64
 		if opt.Init != nil {
 			init = opt.Init(k)
@@ -139,7 +148,7 @@ func fitPath(p Points, lo, hi int, opt pathOptions) []Fit {
 		upFrom[i], downFrom[i] = -1, -1
 	}
 	keep := func(k int, r Fit) bool {
-		if r.Cost < fits[k-lo].Cost*(1-1e-9) {
+		if fits[k-lo].Centres == nil || r.Cost < fits[k-lo].Cost*(1-1e-9) {
 			fits[k-lo] = r
 			ver[k-lo]++
 			return true

@@ -108,6 +108,54 @@ func TestFitPathSweeps(t *testing.T) {
 	}
 }
 
+// TestFitPathEndsOnly checks fitPath's EndsOnly (the gap's reference paths): every k of the
+// range gets a fit of its own k centres whose cost is that of its centres, the costs fall with
+// k, and each is within 3% of the path with a restart at every k (uniform points in the unit
+// cube, where the two differ only by which of many near-equal local optima they reach; the
+// measured differences are in DEVELOPERS.md, issue 15, round 10). On a set of four distinct
+// points, where the upward sweep cannot start k = 5 and 6 (every point already sits on a centre),
+// those k still get their restarts. Invented data, property test.
+func TestFitPathEndsOnly(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 5))
+	x := make([]float64, 600*3)
+	for i := range x {
+		x[i] = rng.Float64()
+	}
+	uniform := kmeans.Data{X: x, D: 3}
+	var four []float64
+	for i := 0; i < 40; i++ {
+		four = append(four, float64(i%4), float64((i%4)*(i%4)))
+	}
+	for _, tc := range []struct {
+		name string
+		p    kmeans.Data
+		hi   int
+	}{{"uniform", uniform, 12}, {"four points", kmeans.Data{X: four, D: 2}, 6}} {
+		t.Run(tc.name, func(t *testing.T) {
+			opt := pathOptions{Restarts: 1, Lloyd: kmeans.LloydOptions{Tol: gapTol}, Race: kmeans.LloydOptions{Tol: gapRaceTol},
+				Rand: func(k int) *rand.Rand { return rand.New(rand.NewPCG(7, uint64(k))) }}
+			every := fitPath(tc.p, 1, tc.hi, opt)
+			opt.EndsOnly = true
+			ends := fitPath(tc.p, 1, tc.hi, opt)
+			for i, f := range ends {
+				k := i + 1
+				if len(f.Centres) != k*tc.p.D || len(f.Labels) != tc.p.Len() {
+					t.Fatalf("k=%d: %d centre values and %d labels, want %d and %d", k, len(f.Centres), len(f.Labels), k*tc.p.D, tc.p.Len())
+				}
+				if c := kmeans.Cost(tc.p, f.Centres); math.Abs(c-f.Cost) > 1e-9*(1+c) {
+					t.Errorf("k=%d: cost %.9g, its centres cost %.9g", k, f.Cost, c)
+				}
+				if i > 0 && f.Cost > ends[i-1].Cost*(1+1e-9) {
+					t.Errorf("k=%d: cost %.6g above k=%d's %.6g", k, f.Cost, k-1, ends[i-1].Cost)
+				}
+				if f.Cost > every[i].Cost*1.03+1e-12 {
+					t.Errorf("k=%d: cost %.6g, with a restart at every k %.6g", k, f.Cost, every[i].Cost)
+				}
+			}
+		})
+	}
+}
+
 // TestMixturesSettled: the mixtures over k stop only after BIC and ICL have each climbed at every
 // one of the last mixtureRise steps from above their lowest value, or stayed above it, with one
 // family, for mixtureAbove steps (a third of the lowest value's k where that is more). Property

@@ -13,7 +13,7 @@ type Options struct {
 	Anchors     int    `json:"anchors"`      // silhouette anchors, stratified by cluster; default 1000
 	GapRefs     int    `json:"gap_refs"`     // B Monte Carlo reference sets per reference; default 5 (bench/report/DEFAULTS.md)
 	GapSample   int    `json:"gap_sample"`   // points per gap reference set and on the data side; default 2000
-	GapRestarts int    `json:"gap_restarts"` // k-means++ restarts of every gap fit (data side and references); default 1
+	GapRestarts int    `json:"gap_restarts"` // k-means++ restarts of the gap fits (the data side at every k, each reference set at the ends of the k range); default 1
 	Workers     int    `json:"-"`            // goroutines across k; 0 = GOMAXPROCS. Results do not depend on it
 	SkipWard    bool   `json:"-"`            // skip the Ward linkage (its vote abstains); for timing the per-k work alone
 	Seed        uint64 `json:"seed"`         // seed of every random stream (DefaultOptions: 1; 0 is a valid seed)

@@ -28,12 +28,17 @@ func sweepCost(n, k, d int) float64 {
 	return costSweep * float64(n) * float64(k) * float64(d)
 }
 
-// gapPathCost is the expected cost of one gap fitPath over lo..hi on n points (one restart per
-// k; on uniform references the sweeps run both rounds and converge slowly).
+// gapPathCost is the expected cost of one gap reference fitPath over lo..hi on n points (one
+// restart at each end of the range, gapRefEnds; on uniform references the sweeps run both rounds
+// and converge slowly).
 func gapPathCost(n, lo, hi, d int) float64 {
 	c := 0.0
 	for k := lo; k <= hi; k++ {
-		c += float64(costRestart+costGapSweep) * float64(n) * float64(k) * float64(d)
+		units := float64(costGapSweep)
+		if k == lo || k == hi || !gapRefEnds {
+			units += costRestart
+		}
+		c += units * float64(n) * float64(k) * float64(d)
 	}
 	return c
 }
