@@ -56,8 +56,8 @@ const gapRaceTol = 1e-3
 // every k between a start as good as an independent seeding, and the seeding at the top k gives
 // the downward sweep its start (without it, 64-dimensional references lost up to 0.016 in
 // mean_b ln W*_kb near the top k). On ten box references of 2,000 points, mean_b ln W*_kb moved
-// by at most 0.0008 at any k in 4 to 64 dimensions (0.0020 in 2 and 8), against 0.0011 between
-// two seeds of the full path and s_k of about 0.004, and the reference paths took 0.60-0.78 of
+// by at most 0.0011 at any k in 4 to 64 dimensions (0.0020 in 2 and 8), against 0.0007-0.0013
+// between two seeds of the full path and s_k of about 0.004, and the reference paths took 0.60-0.78 of
 // their time (DEVELOPERS.md, issue 15, "Criteria stage, round 10").
 const gapRefEnds = true
 
