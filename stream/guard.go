@@ -282,15 +282,16 @@ type pageBody struct{ raw, plain []byte }
 // run-length encoded parts of a data page, the definition levels of an optional column and the
 // indexes of a dictionary-encoded page; values is the page's value count, nulls included.
 func (c chunkShape) checkPage(fh io.ReaderAt, h *format.PageHeader, off, comp, values int64, b *pageBody) error {
-	var dict, levels, v2 bool
+	var dict, levels, v2, defRLE, repRLE bool
 	var defLen, repLen int64
 	defBits, repBits := bits.Len8(c.maxDef), bits.Len8(c.maxRep)
 	switch {
 	case h.DataPageHeader.Valid:
 		v := &h.DataPageHeader.V
 		dict = v.Encoding == format.RLEDictionary || v.Encoding == format.PlainDictionary
-		levels = c.maxDef > 0 && v.DefinitionLevelEncoding == format.RLE &&
-			(c.maxRep == 0 || v.RepetitionLevelEncoding == format.RLE)
+		defRLE = c.maxDef > 0 && v.DefinitionLevelEncoding == format.RLE
+		repRLE = c.maxRep > 0 && v.RepetitionLevelEncoding == format.RLE
+		levels = defRLE || repRLE
 	case h.DataPageHeaderV2.Valid:
 		v := &h.DataPageHeaderV2.V
 		dict, levels, v2 = v.Encoding == format.RLEDictionary || v.Encoding == format.PlainDictionary, c.maxDef > 0, true
@@ -338,13 +339,16 @@ func (c chunkShape) checkPage(fh io.ReaderAt, h *format.PageHeader, off, comp, v
 			return err
 		}
 	}
-	if !v2 && levels {
+	if !v2 && c.maxDef > 0 {
+		// parquet-go reads each level block of a v1 page as a 4-byte length and that many bytes,
+		// whatever its encoding, so the indexes follow them even when the levels are bit-packed
+		// (which are then not walked).
 		for _, lv := range []struct {
-			bits int
-			what string
-			skip bool
-		}{{repBits, "repetition levels", c.maxRep == 0}, {defBits, "definition levels", false}} {
-			if lv.skip {
+			bits      int
+			what      string
+			has, walk bool
+		}{{repBits, "repetition levels", c.maxRep > 0, repRLE}, {defBits, "definition levels", true, defRLE}} {
+			if !lv.has {
 				continue
 			}
 			if len(data) < 4 {
@@ -354,13 +358,13 @@ func (c chunkShape) checkPage(fh io.ReaderAt, h *format.PageHeader, off, comp, v
 			if l > int64(len(data)-4) {
 				return nil
 			}
-			if err := checkHybrid(data[4:4+l], lv.bits, values, lv.what); err != nil {
-				return err
+			if lv.walk {
+				if err := checkHybrid(data[4:4+l], lv.bits, values, lv.what); err != nil {
+					return err
+				}
 			}
 			data = data[4+l:]
 		}
-	} else if !v2 && c.maxDef > 0 {
-		return nil // bit-packed levels of unknown length: the indexes cannot be found
 	}
 	if !dict || len(data) == 0 {
 		return nil
