@@ -271,9 +271,18 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 			if buf == nil {
 				buf = make([]float64, 0, n*kTop)
 			}
-			m := mixtureK(core, fits[i], k, s, opt, scale, excess, reg, &buf)
+			// A fit still running when the mixtures settle below its k is cut short and not
+			// kept: mixtureStop would drop it, so the result is that of every job running to the end.
+			settled := func() bool {
+				mixMu.Lock()
+				defer mixMu.Unlock()
+				return settledBelow(mix, mixDone, i)
+			}
+			m := mixtureK(core, fits[i], k, s, opt, scale, excess, reg, &buf, settled)
 			mixMu.Lock()
-			mix[i], mixDone[i] = m, true
+			if !settledBelow(mix, mixDone, i) {
+				mix[i], mixDone[i] = m, true
+			}
 			buffers = append(buffers, buf)
 			mixMu.Unlock()
 		}})
@@ -297,12 +306,12 @@ func Evaluate(ctx context.Context, s Summary, opt Options) (*Result, error) {
 	}
 	prog := newProgress(opt.Progress, total)
 	pl := newPool(workers, stop, prog)
-	pl.add(jobs...)
 
 	// Stage 1: the k-means fit of every k on the coreset.
 	reported := 0.0
 	var mu sync.Mutex
 	mainOpt.Pool = pl
+	mainOpt.Holding = func() { pl.add(jobs...) }
 	mainOpt.Report = func(units float64) { // the restarts report from several goroutines
 		mu.Lock()
 		reported += units
@@ -482,8 +491,8 @@ type mixtureFit struct {
 // points carry it (familyThinAt; k = 1 always), by EM from the k-means fit, and returns the scores
 // of the one of lowest BIC: the log-likelihood scaled to N rows less the coreset fit's optimism
 // (p · excess / 2), BIC, AICc and ICL. ok is false when the fit has an empty cluster or no family
-// was fitted. resp is the EM's responsibilities buffer (fitMixture).
-func mixtureK(core Points, fit Fit, k int, s Summary, opt Options, scale, excess, reg float64, resp *[]float64) mixtureFit {
+// was fitted. resp is the EM's responsibilities buffer and stop may end the EM (fitMixture).
+func mixtureK(core Points, fit Fit, k int, s Summary, opt Options, scale, excess, reg float64, resp *[]float64, stop func() bool) mixtureFit {
 	var m mixtureFit
 	for _, z := range fit.Sizes {
 		if !(z > 0) {
@@ -494,7 +503,7 @@ func mixtureK(core Points, fit Fit, k int, s Summary, opt Options, scale, excess
 		if k >= 2 && familyThinAt(f, k, s.N, core.Len(), s.D) {
 			continue
 		}
-		ll, en, err := fitMixture(f, core, fit, reg, resp)
+		ll, en, err := fitMixture(f, core, fit, reg, resp, stop)
 		if err != nil {
 			continue
 		}

@@ -81,9 +81,11 @@ func mixturePassedOver(k, maxK int, rows float64, points, dims int) (over bool, 
 
 // fitMixture fits a mixture of family f to the points by EM from the k-means fit and returns its
 // weighted log-likelihood and classification entropy on the points. resp, when not nil, is the
-// responsibilities' buffer, reused from one fit to the next.
-func fitMixture(f MixtureFamily, core Points, fit Fit, reg float64, resp *[]float64) (ll, entropy float64, err error) {
-	opt := GMMOptions{Reg: reg, MaxIter: gmmMaxIter, Tol: gmmTol, resp: resp}
+// responsibilities' buffer, reused from one fit to the next. stop, when not nil, is asked before
+// each EM iteration (and once after a spherical fit): once it reports true the fit ends with
+// errEMStopped.
+func fitMixture(f MixtureFamily, core Points, fit Fit, reg float64, resp *[]float64, stop func() bool) (ll, entropy float64, err error) {
+	opt := GMMOptions{Reg: reg, MaxIter: gmmMaxIter, Tol: gmmTol, resp: resp, stop: stop}
 	switch f {
 	case FamilyFull:
 		_, ll, entropy, _, err = gmmFullFit(core, fit, opt)
@@ -91,6 +93,9 @@ func fitMixture(f MixtureFamily, core Points, fit Fit, reg float64, resp *[]floa
 	case FamilySpherical:
 		opt.Spherical = true
 		_, ll, entropy, _ = gmmFit(core, fit, opt)
+		if stop != nil && stop() {
+			return ll, entropy, errEMStopped
+		}
 		return ll, entropy, nil
 	}
 	return 0, 0, fmt.Errorf("criteria: unknown mixture family %q", f)

@@ -23,6 +23,7 @@ type pathOptions struct {
 	Stop     func() bool             // reports cancellation (may be nil)
 	Pool     *pool                   // when set, every running restart and the sweeps hold one of its slots
 	Report   func(units float64)     // when set, receives the expected cost of each finished step (restarts and first sweeps per k)
+	Holding  func()                  // when set, called once the restarts hold their slots of Pool (Evaluate then queues the jobs that fill the rest)
 	// EndsOnly restricts the restarts (and opt.Init's starts) to lo and hi: every k between
 	// starts from the sweeps alone (the downward one from the fit at hi starts any k the upward
 	// one could not, where every point sits on a centre of k - 1). Evaluate sets it on the gap's
@@ -95,10 +96,6 @@ func fitPath(p Points, lo, hi int, opt pathOptions) []Fit {
 			init = opt.Init(k)
 		}
 		r := restartsFor(p, k, opt.Restarts, opt.Cheap)
-		if opt.Pool != nil {
-			opt.Pool.acquire()
-			defer opt.Pool.release()
-		}
 		if opt.Race.Tol > 0 && r+len(init) > 1 {
 			best := kmeans.Fit(p, k, kmeans.FitOptions{Restarts: r, Init: init, Lloyd: opt.Race, Rand: opt.Rand(k)})
 			fits[k-lo] = kmeans.Lloyd(p, best.Centres, opt.Lloyd)
@@ -107,36 +104,49 @@ func fitPath(p Points, lo, hi int, opt pathOptions) []Fit {
 		}
 		report(restartCost(p.Len(), k, p.D, r+len(init)))
 	}
-	if opt.Workers <= 1 {
-		for k := hi; k >= lo && !stop(); k-- {
-			one(k)
-		}
-	} else {
-		jobs := make(chan int)
-		var wg sync.WaitGroup
-		for w := 0; w < opt.Workers; w++ {
-			wg.Add(1)
-			go func() {
-				defer wg.Done()
-				for k := range jobs {
-					if !stop() {
-						one(k)
-					}
-				}
-			}()
-		}
-		for k := hi; k >= lo; k-- {
-			jobs <- k
-		}
-		close(jobs)
-		wg.Wait()
-	}
-	if stop() {
-		return fits
-	}
+	// The caller holds one of opt.Pool's slots from here to the end of the sweeps, and each
+	// helper goroutine of the restarts one more while they last, so no queued job slips in
+	// between two restarts or between the restarts and the sweeps.
 	if opt.Pool != nil {
 		opt.Pool.acquire()
 		defer opt.Pool.release()
+	}
+	var next sync.Mutex
+	k := hi + 1
+	restarts := func() {
+		for !stop() {
+			next.Lock()
+			k--
+			kk := k
+			next.Unlock()
+			if kk < lo {
+				return
+			}
+			one(kk)
+		}
+	}
+	var wg, held sync.WaitGroup
+	for w := 1; w < opt.Workers; w++ {
+		wg.Add(1)
+		held.Add(1)
+		go func() {
+			defer wg.Done()
+			if opt.Pool != nil {
+				opt.Pool.acquire()
+				defer opt.Pool.release()
+			}
+			held.Done()
+			restarts()
+		}()
+	}
+	held.Wait()
+	if opt.Holding != nil {
+		opt.Holding()
+	}
+	restarts()
+	wg.Wait()
+	if stop() {
+		return fits
 	}
 	// ver[i] counts the changes of fits[i]; upFrom[i] and downFrom[i] hold the version of the
 	// neighbour that k = lo + i was last swept from. A sweep start depends only on that neighbour's

@@ -1,6 +1,7 @@
 package criteria
 
 import (
+	"errors"
 	"math"
 )
 
@@ -35,6 +36,27 @@ type GMMOptions struct {
 	// fits one mixture after another holds one n×k buffer instead of leaving one per fit to the
 	// collector (Evaluate's mixture jobs, each on a buffer of its own).
 	resp *[]float64
+	// stop, when not nil, is asked before each EM iteration; once it reports true the fit ends
+	// with errEMStopped (Evaluate's mixture jobs above a k where the mixtures are settled).
+	stop func() bool
+}
+
+// errEMStopped is the error of an EM that GMMOptions.stop ended.
+var errEMStopped = errors.New("criteria: EM stopped")
+
+// withDefaults replaces GMMOptions' unset bounds by their defaults (MaxIter 100, Tol 1e-4, Reg
+// 1e-6).
+func (o GMMOptions) withDefaults() GMMOptions {
+	if o.MaxIter <= 0 {
+		o.MaxIter = 100
+	}
+	if o.Tol <= 0 {
+		o.Tol = 1e-4
+	}
+	if o.Reg <= 0 {
+		o.Reg = 1e-6
+	}
+	return o
 }
 
 // respBuffer returns a slice of n values for the responsibilities: opt.resp's, grown as needed,
@@ -137,15 +159,7 @@ func sphericalVars(vars []float64, k, d int, reg float64) {
 // gmmFit is GMMFit that also returns the weighted entropy of the classification (classEntropy)
 // with the responsibilities of the returned log-likelihood's E step.
 func gmmFit(p Points, init Fit, opt GMMOptions) (GMM, float64, float64, int) {
-	if opt.MaxIter <= 0 {
-		opt.MaxIter = 100
-	}
-	if opt.Tol <= 0 {
-		opt.Tol = 1e-4
-	}
-	if opt.Reg <= 0 {
-		opt.Reg = 1e-6
-	}
+	opt = opt.withDefaults()
 	d, k, n := p.D, init.K, p.Len()
 	g := GMM{K: k, D: d, Weights: make([]float64, k), Means: append([]float64(nil), init.Centres...),
 		Vars: make([]float64, k*d)}
@@ -179,6 +193,9 @@ func gmmFit(p Points, init Fit, opt GMMOptions) (GMM, float64, float64, int) {
 	ll := 0.0
 	iters := 0
 	for it := 1; ; it++ {
+		if opt.stop != nil && opt.stop() {
+			return g, math.NaN(), math.NaN(), iters
+		}
 		ll = g.LogLik(p, resp)
 		iters = it
 		if math.Abs(ll-prev) <= opt.Tol*W || it == opt.MaxIter {

@@ -273,16 +273,23 @@ func GMMFullFit(p Points, init Fit, opt GMMOptions) (GMMFull, float64, int, erro
 // gmmFullFit is GMMFullFit that also returns the weighted entropy of the classification,
 // -sum_i w_i sum_j r_ij ln r_ij, with the responsibilities r of the returned log-likelihood's E step.
 func gmmFullFit(p Points, init Fit, opt GMMOptions) (GMMFull, float64, float64, int, error) {
-	if opt.MaxIter <= 0 {
-		opt.MaxIter = 100
+	opt = opt.withDefaults()
+	if opt.resp == nil {
+		opt.resp = new([]float64) // em leaves its last responsibilities here for classEntropy
 	}
-	if opt.Tol <= 0 {
-		opt.Tol = 1e-4
+	g := gmmFullFromFit(p, init, opt.Reg)
+	ll, iters, err := g.em(p, opt)
+	if err != nil {
+		return g, math.NaN(), math.NaN(), iters, err
 	}
-	if opt.Reg <= 0 {
-		opt.Reg = 1e-6
-	}
-	d, k, n := p.D, init.K, p.Len()
+	return g, ll, classEntropy(p, opt.respBuffer(p.Len()*g.K), g.K), iters, nil
+}
+
+// gmmFullFromFit returns the full-covariance mixture GMMFullFit starts from: the k-means fit's
+// cluster weight shares, centres and weighted within-cluster covariances over p, each covariance
+// plus reg on its diagonal.
+func gmmFullFromFit(p Points, init Fit, reg float64) GMMFull {
+	d, k := p.D, init.K
 	dd := d * d
 	g := GMMFull{K: k, D: d, Weights: make([]float64, k), Means: append([]float64(nil), init.Centres...),
 		Covs: make([]float64, k*dd)}
@@ -311,13 +318,23 @@ func gmmFullFit(p Points, init Fit, opt GMMOptions) (GMMFull, float64, float64, 
 				}
 				c[a*d+b], c[b*d+a] = v, v
 			}
-			c[a*d+a] += opt.Reg
+			c[a*d+a] += reg
 		}
 		g.Weights[j] /= W
 		if g.Weights[j] <= 0 {
 			g.Weights[j] = 1e-300 // an empty k-means cluster: a component with no weight
 		}
 	}
+	return g
+}
+
+// em runs GMMFullFit's EM on p from g's parameters (opt with its defaults set) and returns the
+// weighted log-likelihood of its last E step and the iterations run; the responsibilities of that
+// E step are left in opt's buffer.
+func (g *GMMFull) em(p Points, opt GMMOptions) (float64, int, error) {
+	d, k, n := g.D, g.K, p.Len()
+	dd := d * d
+	W := p.TotalWeight()
 	resp := opt.respBuffer(n * k)
 	nk := make([]float64, k)
 	sums, sq := make([]float64, k*d), make([]float64, k*dd)
@@ -329,9 +346,12 @@ func gmmFullFit(p Points, init Fit, opt GMMOptions) (GMMFull, float64, float64, 
 	ll := 0.0
 	iters := 0
 	for it := 1; it <= opt.MaxIter; it++ {
+		if opt.stop != nil && opt.stop() {
+			return math.NaN(), iters, errEMStopped
+		}
 		comps, err := g.prepare(opt.Reg)
 		if err != nil {
-			return g, math.NaN(), math.NaN(), iters, err
+			return math.NaN(), iters, err
 		}
 		ll = g.logLik(p, comps, resp)
 		iters = it
@@ -371,7 +391,7 @@ func gmmFullFit(p Points, init Fit, opt GMMOptions) (GMMFull, float64, float64, 
 			}
 		}
 	}
-	return g, ll, classEntropy(p, resp, k), iters, nil
+	return ll, iters, nil
 }
 
 // classEntropy returns -sum_i w_i sum_j r_ij ln r_ij over the n*k responsibilities resp.

@@ -119,14 +119,18 @@ func (j job) order() float64 {
 
 // pool runs jobs on a fixed number of goroutines, taking the most expensive queued job first
 // (job.order; the first queued among equals); jobs may be queued while it runs. Every running job, and
-// every caller that takes a slot with acquire, holds one of the pool's slots, so no more than
-// its number of workers run at once. Once stop reports true, queued jobs are dropped.
+// every caller that takes a slot with acquire or tryAcquire, holds one of the pool's slots, so no
+// more than its number of workers run at once. A caller waiting in acquire goes before the
+// queued jobs: the main fit path, on which the per-k jobs wait, is never kept behind the gap's
+// reference paths, which fill the slots it leaves. Once stop reports true, queued jobs are
+// dropped.
 type pool struct {
 	mu     sync.Mutex
 	cond   *sync.Cond
 	queue  []job
 	closed bool
-	slots  chan struct{}
+	free   int // slots nobody holds
+	urgent int // callers waiting in acquire
 	wg     sync.WaitGroup
 	stop   func() bool
 	prog   *progress
@@ -134,7 +138,7 @@ type pool struct {
 
 func newPool(workers int, stop func() bool, prog *progress) *pool {
 	workers = max(workers, 1)
-	p := &pool{slots: make(chan struct{}, workers), stop: stop, prog: prog}
+	p := &pool{free: workers, stop: stop, prog: prog}
 	p.cond = sync.NewCond(&p.mu)
 	for w := 0; w < workers; w++ {
 		p.wg.Add(1)
@@ -143,20 +147,36 @@ func newPool(workers int, stop func() bool, prog *progress) *pool {
 	return p
 }
 
-// acquire takes a slot (blocking until one is free); release gives it back.
-func (p *pool) acquire() { p.slots <- struct{}{} }
+// acquire takes a slot, blocking until one is free, ahead of the queued jobs; release gives it
+// back.
+func (p *pool) acquire() {
+	p.mu.Lock()
+	p.urgent++
+	for p.free == 0 {
+		p.cond.Wait()
+	}
+	p.urgent--
+	p.free--
+	p.mu.Unlock()
+}
 
 // tryAcquire takes a slot if one is free now and reports whether it did.
 func (p *pool) tryAcquire() bool {
-	select {
-	case p.slots <- struct{}{}:
-		return true
-	default:
+	p.mu.Lock()
+	defer p.mu.Unlock()
+	if p.free == 0 {
 		return false
 	}
+	p.free--
+	return true
 }
 
-func (p *pool) release() { <-p.slots }
+func (p *pool) release() {
+	p.mu.Lock()
+	p.free++
+	p.mu.Unlock()
+	p.cond.Broadcast()
+}
 
 // add queues jobs.
 func (p *pool) add(jobs ...job) {
@@ -175,17 +195,20 @@ func (p *pool) wait() {
 	p.wg.Wait()
 }
 
+// work runs queued jobs: it takes a free slot when no caller waits in acquire, then the job
+// ranked first at that moment.
 func (p *pool) work() {
 	defer p.wg.Done()
 	for {
 		p.mu.Lock()
-		for len(p.queue) == 0 && !p.closed {
+		for !(p.closed && len(p.queue) == 0) && (len(p.queue) == 0 || p.free == 0 || p.urgent > 0) {
 			p.cond.Wait()
 		}
 		if len(p.queue) == 0 {
 			p.mu.Unlock()
 			return
 		}
+		p.free--
 		best := 0
 		for i, j := range p.queue {
 			if j.order() > p.queue[best].order() {
@@ -196,9 +219,9 @@ func (p *pool) work() {
 		p.queue = append(p.queue[:best], p.queue[best+1:]...)
 		p.mu.Unlock()
 		if p.stop() {
+			p.release()
 			continue
 		}
-		p.acquire()
 		j.run()
 		p.release()
 		p.prog.add(j.cost)
