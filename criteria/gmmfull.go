@@ -441,6 +441,12 @@ func mStep(p Points, resp []float64, j, k int, m0 []float64, nk *float64, s, q [
 			c = 0
 		}
 	}
+	outerFirst(q, d, blk, c)
+}
+
+// outerFirst adds the weighted outer products of the first c points in blk to the upper
+// triangle of q, one point at a time (the points left over after the last group of four).
+func outerFirst(q []float64, d int, blk *mBlock, c int) {
 	for b := 0; b < c; b++ {
 		e, wr := blk.e[b][:d], blk.w[b]
 		for a := 0; a < d; a++ {

@@ -49,9 +49,16 @@ func mixtureCost(n, k, d int) float64 {
 }
 
 // scoreCost is the expected cost of scoreK at k: the anchor silhouette and the indices, plus the
-// split halves' two fits.
+// split halves' two fits; at k = 1 the Student t's ECME instead, which runs most of its
+// gmmMaxIter iterations, each a Mahalanobis distance and an outer product per point (about
+// d^2 / 2 each) plus about 48 d of other work (measured: 83 ms at 16 columns, 350 ms at 64, on
+// the 16,384-point coreset). Costed at zero it ran last, alone on one core for 0.35 s at 64
+// columns (DEVELOPERS.md, issue 15, "Criteria stage, round 11").
 func scoreCost(n, k, d, anchors, split int) float64 {
 	c := 0.0
+	if k == 1 {
+		c += float64(gmmMaxIter) * float64(n) * float64(d) * float64(d+48)
+	}
 	if k >= 2 {
 		c += 0.5*float64(anchors)*float64(n)*float64(d) + 3*float64(n)*float64(k)*float64(d)
 		c += 2 * restartCost(split, k, d, 2)

@@ -45,9 +45,10 @@ func naiveSilhouette(p kmeans.Data, labels []int32, k int) float64 {
 	return tot / tw
 }
 
-// TestSilhouetteExactMatchesNaive checks the pruned silhouette (clusters skipped by the centroid
-// bound) against the definition on sets where the bound prunes most clusters (well separated),
-// few (overlapping, random labels), and with zero weights, a singleton and an empty cluster.
+// TestSilhouetteExactMatchesNaive checks the pruned silhouette (clusters skipped by the lower
+// bound on their mean distance) against the definition on sets where the bound prunes most
+// clusters (well separated), few (overlapping, random labels), in 64 and 160 dimensions, and
+// with zero weights, a singleton and an empty cluster.
 func TestSilhouetteExactMatchesNaive(t *testing.T) {
 	cases := []struct {
 		name    string
@@ -59,6 +60,9 @@ func TestSilhouetteExactMatchesNaive(t *testing.T) {
 		{"separated k=15 fitted", mixture(5, 900, 4, 15, 30), 15, fitLabels, false},
 		{"separated weighted", mixture(6, 700, 3, 12, 25), 12, fitLabels, true},
 		{"overlapping random labels", mixture(7, 500, 5, 3, 0.5), 7, randomLabels, true},
+		// Many dimensions: near-equidistant clusters, pruned by the moments' (Hölder) bound.
+		{"64 dimensions, 20 fitted to 10", mixture(9, 600, 64, 10, 6), 20, fitLabels, true},
+		{"160 dimensions (trace bound), 8 fitted to 4", mixture(10, 300, 160, 4, 8), 8, fitLabels, false},
 		{"singleton and empty cluster", mixture(8, 300, 2, 4, 10), 6, func(p kmeans.Data, k int) []int32 {
 			l := fitLabels(p, 4)
 			l[17] = 5 // a singleton; label 4 stays empty
