@@ -98,7 +98,7 @@ func fitPath(p Points, lo, hi int, opt pathOptions) []Fit {
 		r := restartsFor(p, k, opt.Restarts, opt.Cheap)
 		if opt.Race.Tol > 0 && r+len(init) > 1 {
 			best := kmeans.Fit(p, k, kmeans.FitOptions{Restarts: r, Init: init, Lloyd: opt.Race, Rand: opt.Rand(k)})
-			fits[k-lo] = kmeans.Lloyd(p, best.Centres, opt.Lloyd)
+			fits[k-lo] = runOn(p, best, opt.Lloyd)
 		} else {
 			fits[k-lo] = kmeans.Fit(p, k, kmeans.FitOptions{Restarts: r, Init: init, Lloyd: opt.Lloyd, Rand: opt.Rand(k)})
 		}
@@ -165,24 +165,24 @@ func fitPath(p Points, lo, hi int, opt pathOptions) []Fit {
 		}
 		return false
 	}
-	// try runs Lloyd from each start and keeps the best result at k. With opt.Race set, every
-	// start first runs with opt.Race's (looser) settings and only the cheapest is run on to
-	// opt.Lloyd's.
-	try := func(k int, inits [][]float64) bool {
+	// try runs Lloyd from each start (warms[i] describing start i) and keeps the best result at
+	// k. With opt.Race set, every start first runs with opt.Race's (looser) settings and only the
+	// cheapest is run on to opt.Lloyd's.
+	try := func(k int, inits [][]float64, warms []*kmeans.Warm) bool {
 		if opt.Race.Tol == 0 || len(inits) < 2 {
 			kept := false
-			for _, r := range lloydAll(p, inits, opt.Lloyd, opt.Pool) {
+			for _, r := range lloydAll(p, inits, warms, opt.Lloyd, opt.Pool) {
 				kept = keep(k, r) || kept
 			}
 			return kept
 		}
 		var best Fit
-		for i, r := range lloydAll(p, inits, opt.Race, opt.Pool) {
+		for i, r := range lloydAll(p, inits, warms, opt.Race, opt.Pool) {
 			if i == 0 || r.Cost < best.Cost {
 				best = r
 			}
 		}
-		return keep(k, kmeans.Lloyd(p, best.Centres, opt.Lloyd))
+		return keep(k, runOn(p, best, opt.Lloyd))
 	}
 	for round := 0; round < sweepRounds; round++ {
 		improved := false
@@ -192,13 +192,16 @@ func fitPath(p Points, lo, hi int, opt pathOptions) []Fit {
 			}
 			upFrom[k-lo] = ver[k-1-lo]
 			rng := opt.Rand(k)
+			from := fits[k-1-lo]
 			var inits [][]float64
+			var warms []*kmeans.Warm
 			for t := 0; t < sweepTries; t++ {
-				if init, ok := addCentre(p, fits[k-1-lo], rng); ok {
+				if init, ok := addCentre(p, from, rng); ok {
 					inits = append(inits, init)
+					warms = append(warms, addedWarm(from, k-1))
 				}
 			}
-			improved = try(k, inits) || improved
+			improved = try(k, inits, warms) || improved
 			if round == 0 {
 				report(sweepCost(p.Len(), k, p.D) / 2)
 			}
@@ -211,7 +214,8 @@ func fitPath(p Points, lo, hi int, opt pathOptions) []Fit {
 				continue
 			}
 			downFrom[k-lo] = ver[k+1-lo]
-			improved = try(k, mergeCheapest(fits[k+1-lo], p.D, sweepTries)) || improved
+			inits, warms := mergeCheapest(fits[k+1-lo], p.D, sweepTries)
+			improved = try(k, inits, warms) || improved
 		}
 		if !improved {
 			break
@@ -296,12 +300,13 @@ func addCentre(p Points, f Fit, rng *rand.Rand) ([]float64, bool) {
 }
 
 // mergeCheapest returns, for each of the (at most) m pairs of f's centres with the smallest
-// Ward merge cost, the k-1 centres after merging that pair into its weighted mean; nil when f has
-// fewer than two centres.
-func mergeCheapest(f Fit, d, m int) [][]float64 {
+// Ward merge cost, the k-1 centres after merging that pair into its weighted mean (in place of
+// the pair's first centre), with the Warm start that describes them; nil when f has fewer than
+// two centres.
+func mergeCheapest(f Fit, d, m int) ([][]float64, []*kmeans.Warm) {
 	k := f.K
 	if k < 2 || len(f.Sizes) != k {
-		return nil
+		return nil, nil
 	}
 	type pair struct {
 		a, b int
@@ -320,7 +325,9 @@ func mergeCheapest(f Fit, d, m int) [][]float64 {
 	}
 	slices.SortStableFunc(ps, func(x, y pair) int { return cmp.Compare(x.c, y.c) })
 	var out [][]float64
+	var warms []*kmeans.Warm
 	for _, q := range ps[:min(m, len(ps))] {
+		warms = append(warms, mergedWarm(f, q.a, q.b))
 		c := make([]float64, 0, (k-1)*d)
 		wa, wb := f.Sizes[q.a], f.Sizes[q.b]
 		for j := 0; j < k; j++ {
@@ -341,7 +348,44 @@ func mergeCheapest(f Fit, d, m int) [][]float64 {
 		}
 		out = append(out, c)
 	}
-	return out
+	return out, warms
+}
+
+// addedWarm returns the Warm start of f's centres with one more, number k, after them.
+func addedWarm(f Fit, k int) *kmeans.Warm {
+	if len(f.Lower) != len(f.Labels) {
+		return nil
+	}
+	return &kmeans.Warm{Labels: f.Labels, Lower: f.Lower, Fresh: []int{k}}
+}
+
+// mergedWarm returns the Warm start of f's centres with centre b removed and centre a replaced
+// by a merged one (a < b): the points of a and b are unknown, the others keep their centre,
+// renumbered.
+func mergedWarm(f Fit, a, b int) *kmeans.Warm {
+	if len(f.Lower) != len(f.Labels) {
+		return nil
+	}
+	labels := make([]int32, len(f.Labels))
+	for i, l := range f.Labels {
+		switch {
+		case int(l) == a || int(l) == b:
+			labels[i] = -1
+		case int(l) > b:
+			labels[i] = l - 1
+		default:
+			labels[i] = l
+		}
+	}
+	return &kmeans.Warm{Labels: labels, Lower: f.Lower, Fresh: []int{a}}
+}
+
+// runOn runs Lloyd on from the fit f with the settings o (f's labels and bounds start it warm).
+func runOn(p Points, f Fit, o kmeans.LloydOptions) Fit {
+	if len(f.Lower) == len(f.Labels) {
+		o.Warm = &kmeans.Warm{Labels: f.Labels, Lower: f.Lower}
+	}
+	return kmeans.Lloyd(p, f.Centres, o)
 }
 
 // pathCost is the expected cost of fitPath(p, lo, hi, opt): the restarts of every k (with
@@ -358,11 +402,19 @@ func pathCost(p Points, lo, hi int, opt pathOptions) float64 {
 	return c
 }
 
-// lloydAll returns Lloyd's result from each start, in order. Starts after the first run on
-// goroutines of their own when pool has a free slot at that moment (never waiting for one), the
-// rest on the caller's goroutine, so the results do not depend on how many ran in parallel.
-func lloydAll(p Points, inits [][]float64, o kmeans.LloydOptions, pool *pool) []Fit {
+// lloydAll returns Lloyd's result from each start (warms[i], when there and not nil, describing
+// start i), in order. Starts after the first run on goroutines of their own when pool has a free
+// slot at that moment (never waiting for one), the rest on the caller's goroutine, so the results
+// do not depend on how many ran in parallel.
+func lloydAll(p Points, inits [][]float64, warms []*kmeans.Warm, o kmeans.LloydOptions, pool *pool) []Fit {
 	out := make([]Fit, len(inits))
+	run := func(i int) Fit {
+		o := o
+		if i < len(warms) {
+			o.Warm = warms[i]
+		}
+		return kmeans.Lloyd(p, inits[i], o)
+	}
 	inline := make([]bool, len(inits))
 	var wg sync.WaitGroup
 	for i := range inits {
@@ -374,12 +426,12 @@ func lloydAll(p Points, inits [][]float64, o kmeans.LloydOptions, pool *pool) []
 		go func() {
 			defer wg.Done()
 			defer pool.release()
-			out[i] = kmeans.Lloyd(p, inits[i], o)
+			out[i] = run(i)
 		}()
 	}
 	for i, in := range inline {
 		if in {
-			out[i] = kmeans.Lloyd(p, inits[i], o)
+			out[i] = run(i)
 		}
 	}
 	wg.Wait()

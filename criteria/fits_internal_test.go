@@ -3,6 +3,7 @@ package criteria
 import (
 	"math"
 	"math/rand/v2"
+	"reflect"
 	"testing"
 
 	"github.com/kgauge/kgauge/internal/kmeans"
@@ -219,5 +220,28 @@ func TestMixturesSettled(t *testing.T) {
 	}
 	if mixturesSettled(fits, 6) {
 		t.Error("settled while ICL still falls")
+	}
+}
+
+// TestSweepWarmStarts checks that the Warm starts fitPath gives its sweeps describe them: Lloyd
+// from each of mergeCheapest's merged starts and from a start with one centre added, and a run
+// on from a fit, gives the same result with its Warm as without (Fränti S4, 15 clusters, see
+// testdata/refsets/README.md; a fit at k = 12 from k-means++).
+func TestSweepWarmStarts(t *testing.T) {
+	p := readSet(t, "s4.txt")
+	f := kmeans.Lloyd(p, kmeans.PlusPlus(p, 12, rand.New(rand.NewPCG(3, 4)), nil), kmeans.LloydOptions{})
+	inits, warms := mergeCheapest(f, p.D, sweepTries)
+	if len(inits) != sweepTries || len(warms) != sweepTries {
+		t.Fatalf("mergeCheapest gave %d starts and %d warms, want %d", len(inits), len(warms), sweepTries)
+	}
+	inits = append(inits, append(append([]float64(nil), f.Centres...), p.Point(100)...), f.Centres)
+	warms = append(warms, addedWarm(f, f.K), &kmeans.Warm{Labels: f.Labels, Lower: f.Lower})
+	for i, init := range inits {
+		cold := kmeans.Lloyd(p, init, kmeans.LloydOptions{})
+		warm := kmeans.Lloyd(p, init, kmeans.LloydOptions{Warm: warms[i]})
+		cold.Lower, warm.Lower = nil, nil
+		if !reflect.DeepEqual(cold, warm) {
+			t.Errorf("start %d: with its Warm, cost %v after %d iterations; without, %v after %d", i, warm.Cost, warm.Iters, cold.Cost, cold.Iters)
+		}
 	}
 }

@@ -17,6 +17,25 @@ type Result struct {
 	Sizes   []float64 // total weight per cluster
 	Cost    float64   // weighted sum of squared distances to the assigned centre (WCSS on p)
 	Iters   int       // Lloyd iterations run
+	// Lower holds, per point, a lower bound on its distance (not squared) to every centre but
+	// its own (Hamerly's bound at the end of the run): with Labels, what a Warm start from these
+	// centres needs.
+	Lower []float64
+}
+
+// Warm describes a start of Lloyd made mostly of a fitted solution's centres, so that the first
+// assignment measures each point against its old centre and the fresh ones instead of against
+// every centre. It gives the same labels as a full first assignment (see hamerly.assignWarm).
+type Warm struct {
+	// Labels holds, per point, its nearest centre of the start among those not in Fresh (the
+	// index in the start), or -1 where unknown (the point is measured against every centre).
+	Labels []int32
+	// Lower holds, per point, a lower bound on its distance (not squared) to every centre of the
+	// start but Labels[i] and those in Fresh (a Result's Lower, when those centres are the
+	// Result's, or a subset of them, unmoved).
+	Lower []float64
+	// Fresh lists the centres of the start that Labels and Lower do not cover.
+	Fresh []int
 }
 
 // LloydOptions controls Lloyd iterations. Zero values mean defaults.
@@ -30,6 +49,9 @@ type LloydOptions struct {
 	// (Fit sets it for its restarts); otherwise each run computes it. One of another point set
 	// (other length or width) is not used.
 	Spread *Spread
+	// Warm, when not nil, describes how the start relates to a fitted solution; only the first
+	// assignment uses it (and Fit does not).
+	Warm *Warm
 }
 
 func (o LloydOptions) withDefaults() LloydOptions {
@@ -65,6 +87,9 @@ func Lloyd(p Data, init []float64, opt LloydOptions) Result {
 	opt = opt.withDefaults()
 	k := len(init) / d
 	n := p.Len()
+	if w := opt.Warm; w != nil && (len(w.Labels) != n || len(w.Lower) != n || slices.ContainsFunc(w.Fresh, func(f int) bool { return f < 0 || f >= k })) {
+		panic("kmeans: Lloyd: Warm does not fit the points or the start")
+	}
 	c := append([]float64(nil), init...)
 	res := Result{K: k, Centres: c, Labels: make([]int32, n), Sizes: make([]float64, k)}
 	if n == 0 {
@@ -79,7 +104,12 @@ func Lloyd(p Data, init []float64, opt LloydOptions) Result {
 			break
 		}
 		res.Iters = it
-		changed := h.assign(c, res.Labels, it == 1)
+		var changed int
+		if it == 1 && opt.Warm != nil {
+			changed = h.assignWarm(c, res.Labels, opt.Warm)
+		} else {
+			changed = h.assign(c, res.Labels, it == 1)
+		}
 		if it > 1 && changed == 0 {
 			break // labels unchanged: the centres are already their means
 		}
@@ -97,6 +127,7 @@ func Lloyd(p Data, init []float64, opt LloydOptions) Result {
 	}
 	h.assign(c, res.Labels, false)
 	res.Cost = exactCost(p, c, res.Labels, res.Sizes)
+	res.Lower = h.lower
 	return res
 }
 
@@ -170,6 +201,23 @@ func nearest2(x, c []float64, k, d int) (best int, d1, d2 float64) {
 	return best, d1, d2
 }
 
+// scanDist2 returns the squared distance from x to centre j of the k centres c as the full scans
+// (nearest2 and grouped.nearest2) take it: summed over t in order for the centres in whole groups
+// of four, Dist2 for the rest.
+func scanDist2(x, c []float64, j, k, d int) float64 {
+	cj := c[j*d : j*d+d : j*d+d]
+	if j >= 4*(k/4) {
+		return Dist2(x, cj)
+	}
+	cj = cj[:len(x)]
+	var s float64
+	for t, v := range x {
+		e := v - cj[t]
+		s += e * e
+	}
+	return s
+}
+
 // assign updates labels (all points when full) and returns the number of changed labels.
 func (h *hamerly) assign(c []float64, labels []int32, full bool) int {
 	p, k, d := h.p, h.k, h.p.D
@@ -226,13 +274,7 @@ func (h *hamerly) assign(c []float64, labels []int32, full bool) int {
 				continue
 			}
 		}
-		var b int
-		var d1, d2 float64
-		if grouped {
-			b, d1, d2 = h.g.nearest2(x, c, k, d)
-		} else {
-			b, d1, d2 = nearest2(x, c, k, d)
-		}
+		b, d1, d2 := h.nearest2(x, c, grouped)
 		if full || int32(b) != labels[i] {
 			changed++
 			if !full {
@@ -252,6 +294,81 @@ func (h *hamerly) assign(c []float64, labels []int32, full bool) int {
 		h.countHeld(labels)
 	}
 	return changed
+}
+
+// nearest2 is the package's nearest2 of x to the centres c, by h.g when grouped (loaded by the
+// caller).
+func (h *hamerly) nearest2(x, c []float64, grouped bool) (best int, d1, d2 float64) {
+	if grouped {
+		return h.g.nearest2(x, c, h.k, h.p.D)
+	}
+	return nearest2(x, c, h.k, h.p.D)
+}
+
+// assignWarm is the first assignment (assign with full set) of a start described by w. A point
+// whose old centre l = w.Labels[i] is strictly nearer than every other centre not in w.Fresh (its
+// distance below w.Lower[i], or below half the distance from l to the nearest of them) is measured
+// against l and the fresh centres alone, the lower index winning among equal distances; any other
+// point against every centre. Either way each distance is the one a full scan takes (scanDist2),
+// so the labels and upper bounds are those of the full assignment; only the lower bounds may be
+// looser.
+func (h *hamerly) assignWarm(c []float64, labels []int32, w *Warm) int {
+	p, k, d := h.p, h.k, h.p.D
+	if k == 1 {
+		return h.assign(c, labels, true)
+	}
+	fresh := make([]bool, k)
+	for _, f := range w.Fresh {
+		fresh[f] = true
+	}
+	for j := 0; j < k; j++ {
+		if fresh[j] {
+			continue
+		}
+		m := math.Inf(1)
+		for jj := 0; jj < k; jj++ {
+			if jj != j && !fresh[jj] {
+				m = math.Min(m, Dist2(c[j*d:j*d+d], c[jj*d:jj*d+d]))
+			}
+		}
+		h.half[j] = 0.5 * math.Sqrt(m)
+	}
+	grouped := lanes.Vector && k >= 4
+	if grouped {
+		h.g.load(c, k, d)
+	}
+	for i := range labels {
+		x := p.Point(i)
+		if l := int(w.Labels[i]); l >= 0 {
+			if l >= k || fresh[l] {
+				panic("kmeans: Lloyd: a Warm label is not one of the start's old centres")
+			}
+			bd := scanDist2(x, c, l, k, d)
+			if u := math.Sqrt(bd); u < w.Lower[i] || u < h.half[l] {
+				// Every other old centre is at least w.Lower[i] away, and at least 2 half[l] - u
+				// by the triangle inequality.
+				best, lo := l, max(w.Lower[i], 2*h.half[l]-u)
+				for _, f := range w.Fresh {
+					v := scanDist2(x, c, f, k, d)
+					other := v
+					if v < bd || (v == bd && f < best) {
+						other, best, bd = bd, f, v
+					}
+					if r := math.Sqrt(other); r < lo {
+						lo = r
+					}
+				}
+				labels[i] = int32(best)
+				h.upper[i], h.lower[i] = math.Sqrt(bd), lo
+				continue
+			}
+		}
+		b, d1, d2 := h.nearest2(x, c, grouped)
+		labels[i] = int32(b)
+		h.upper[i], h.lower[i] = math.Sqrt(d1), math.Sqrt(d2)
+	}
+	h.countHeld(labels)
+	return len(labels)
 }
 
 // reseed re-seeds empty clusters with the farthest points (see Lloyd); it reports whether it did.
