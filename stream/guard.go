@@ -299,6 +299,11 @@ func (c chunkShape) checkPage(fh io.ReaderAt, h *format.PageHeader, off, comp, v
 		if c.maxRep == 0 && repLen != 0 || repLen < 0 || defLen < 0 || repLen+defLen > comp {
 			return corruptf("level lengths %d and %d do not fit in %d bytes", repLen, defLen, comp)
 		}
+		if c.maxDef == 0 && defLen != 0 {
+			// parquet-go would take the bytes for levels and decode the values from what follows,
+			// leaving the rows they do not cover with whatever its page buffer held before.
+			return corruptf("a required column's page holds %d bytes of definition levels", defLen)
+		}
 	}
 	if !dict && !levels {
 		return nil
