@@ -198,7 +198,7 @@ func fitPath(p Points, lo, hi int, opt pathOptions) []Fit {
 			for t := 0; t < sweepTries; t++ {
 				if init, ok := addCentre(p, from, rng); ok {
 					inits = append(inits, init)
-					warms = append(warms, addedWarm(from, k-1))
+					warms = append(warms, from.WarmAdded())
 				}
 			}
 			improved = try(k, inits, warms) || improved
@@ -327,7 +327,7 @@ func mergeCheapest(f Fit, d, m int) ([][]float64, []*kmeans.Warm) {
 	var out [][]float64
 	var warms []*kmeans.Warm
 	for _, q := range ps[:min(m, len(ps))] {
-		warms = append(warms, mergedWarm(f, q.a, q.b))
+		warms = append(warms, f.WarmMerged(q.a, q.b))
 		c := make([]float64, 0, (k-1)*d)
 		wa, wb := f.Sizes[q.a], f.Sizes[q.b]
 		for j := 0; j < k; j++ {
@@ -351,40 +351,9 @@ func mergeCheapest(f Fit, d, m int) ([][]float64, []*kmeans.Warm) {
 	return out, warms
 }
 
-// addedWarm returns the Warm start of f's centres with one more, number k, after them.
-func addedWarm(f Fit, k int) *kmeans.Warm {
-	if len(f.Lower) != len(f.Labels) {
-		return nil
-	}
-	return &kmeans.Warm{Labels: f.Labels, Lower: f.Lower, Fresh: []int{k}}
-}
-
-// mergedWarm returns the Warm start of f's centres with centre b removed and centre a replaced
-// by a merged one (a < b): the points of a and b are unknown, the others keep their centre,
-// renumbered.
-func mergedWarm(f Fit, a, b int) *kmeans.Warm {
-	if len(f.Lower) != len(f.Labels) {
-		return nil
-	}
-	labels := make([]int32, len(f.Labels))
-	for i, l := range f.Labels {
-		switch {
-		case int(l) == a || int(l) == b:
-			labels[i] = -1
-		case int(l) > b:
-			labels[i] = l - 1
-		default:
-			labels[i] = l
-		}
-	}
-	return &kmeans.Warm{Labels: labels, Lower: f.Lower, Fresh: []int{a}}
-}
-
 // runOn runs Lloyd on from the fit f with the settings o (f's labels and bounds start it warm).
 func runOn(p Points, f Fit, o kmeans.LloydOptions) Fit {
-	if len(f.Lower) == len(f.Labels) {
-		o.Warm = &kmeans.Warm{Labels: f.Labels, Lower: f.Lower}
-	}
+	o.Warm = f.WarmSame()
 	return kmeans.Lloyd(p, f.Centres, o)
 }
 

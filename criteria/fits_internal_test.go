@@ -235,7 +235,7 @@ func TestSweepWarmStarts(t *testing.T) {
 		t.Fatalf("mergeCheapest gave %d starts and %d warms, want %d", len(inits), len(warms), sweepTries)
 	}
 	inits = append(inits, append(append([]float64(nil), f.Centres...), p.Point(100)...), f.Centres)
-	warms = append(warms, addedWarm(f, f.K), &kmeans.Warm{Labels: f.Labels, Lower: f.Lower})
+	warms = append(warms, f.WarmAdded(), f.WarmSame())
 	for i, init := range inits {
 		cold := kmeans.Lloyd(p, init, kmeans.LloydOptions{})
 		warm := kmeans.Lloyd(p, init, kmeans.LloydOptions{Warm: warms[i]})

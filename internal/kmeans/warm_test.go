@@ -59,7 +59,6 @@ func TestAssignWarmMatchesFull(t *testing.T) {
 		// merge the centres 1 and k-2 into their mean, in place of centre 1
 		a, b := 1, k-2
 		merged := make([]float64, 0, (k-1)*d)
-		mlab := make([]int32, tc.n)
 		for j := range k {
 			switch j {
 			case a:
@@ -71,20 +70,10 @@ func TestAssignWarmMatchesFull(t *testing.T) {
 				merged = append(merged, f.Centres[j*d:(j+1)*d]...)
 			}
 		}
-		for i, l := range f.Labels {
-			switch {
-			case int(l) == a || int(l) == b:
-				mlab[i] = -1
-			case int(l) > b:
-				mlab[i] = l - 1
-			default:
-				mlab[i] = l
-			}
-		}
 		starts := []start{
-			{"added", added, Warm{Labels: f.Labels, Lower: f.Lower, Fresh: []int{k}}},
-			{"merged", merged, Warm{Labels: mlab, Lower: f.Lower, Fresh: []int{a}}},
-			{"same", f.Centres, Warm{Labels: f.Labels, Lower: f.Lower}},
+			{"added", added, *f.WarmAdded()},
+			{"merged", merged, *f.WarmMerged(a, b)},
+			{"same", f.Centres, *f.WarmSame()},
 		}
 		for _, s := range starts {
 			for _, scale := range []float64{1, 0.5, 0} {
@@ -131,7 +120,7 @@ func TestLloydWarmSameResult(t *testing.T) {
 		p, f := warmCase(seed, 700, 4, 8, seed%2 == 0)
 		c := append(append([]float64(nil), f.Centres...), p.Point(int(seed)*37)...)
 		cold := Lloyd(p, c, LloydOptions{})
-		warm := Lloyd(p, c, LloydOptions{Warm: &Warm{Labels: f.Labels, Lower: f.Lower, Fresh: []int{f.K}}})
+		warm := Lloyd(p, c, LloydOptions{Warm: f.WarmAdded()})
 		cold.Lower, warm.Lower = nil, nil
 		if !reflect.DeepEqual(cold, warm) {
 			t.Fatalf("seed %d: warm Lloyd differs: cost %v vs %v, iterations %d vs %d", seed, warm.Cost, cold.Cost, warm.Iters, cold.Iters)
