@@ -50,7 +50,7 @@ type LloydOptions struct {
 	// (other length or width) is not used.
 	Spread *Spread
 	// Warm, when not nil, describes how the start relates to a fitted solution; only the first
-	// assignment uses it (and Fit does not).
+	// assignment uses it (Fit ignores it).
 	Warm *Warm
 }
 
@@ -681,6 +681,7 @@ func Fit(p Data, k int, opt FitOptions) Result {
 	if opt.Lloyd.Context == nil {
 		opt.Lloyd.Context = opt.Context
 	}
+	opt.Lloyd.Warm = nil // a Warm describes one start, not Fit's seedings
 	if !opt.Lloyd.Spread.fits(p) {
 		opt.Lloyd.Spread = NewSpread(p)
 	}

@@ -173,3 +173,18 @@ func TestAssignWarmTies(t *testing.T) {
 		}
 	}
 }
+
+// TestFitIgnoresWarm checks that a Warm left in FitOptions.Lloyd, which describes one start and
+// not Fit's seedings, changes nothing: Fit gives the same Result with and without it.
+func TestFitIgnoresWarm(t *testing.T) {
+	p, f := warmCase(2, 500, 3, 6, false)
+	lying := &Warm{Labels: make([]int32, p.Len()), Lower: make([]float64, p.Len())}
+	for i := range lying.Lower {
+		lying.Lower[i] = math.Inf(1) // every point would keep centre 0
+	}
+	want := Fit(p, f.K, FitOptions{Restarts: 3})
+	got := Fit(p, f.K, FitOptions{Restarts: 3, Lloyd: LloydOptions{Warm: lying}})
+	if !reflect.DeepEqual(got, want) {
+		t.Fatalf("Fit with a Warm in its Lloyd options: cost %v, without %v", got.Cost, want.Cost)
+	}
+}
