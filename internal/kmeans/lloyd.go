@@ -218,6 +218,24 @@ func scanDist2(x, c []float64, j, k, d int) float64 {
 	return s
 }
 
+// halves sets h.half[j] to half the distance from centre j to its nearest other centre, among
+// the centres not marked in skip (nil: all of them); skipped centres keep their value.
+func (h *hamerly) halves(c []float64, skip []bool) {
+	k, d := h.k, h.p.D
+	for j := 0; j < k; j++ {
+		if skip != nil && skip[j] {
+			continue
+		}
+		m := math.Inf(1)
+		for jj := 0; jj < k; jj++ {
+			if jj != j && (skip == nil || !skip[jj]) {
+				m = math.Min(m, Dist2(c[j*d:j*d+d], c[jj*d:jj*d+d]))
+			}
+		}
+		h.half[j] = 0.5 * math.Sqrt(m)
+	}
+}
+
 // assign updates labels (all points when full) and returns the number of changed labels.
 func (h *hamerly) assign(c []float64, labels []int32, full bool) int {
 	p, k, d := h.p, h.k, h.p.D
@@ -239,15 +257,7 @@ func (h *hamerly) assign(c []float64, labels []int32, full bool) int {
 		return changed
 	}
 	if !full {
-		for j := 0; j < k; j++ {
-			m := math.Inf(1)
-			for jj := 0; jj < k; jj++ {
-				if jj != j {
-					m = math.Min(m, Dist2(c[j*d:j*d+d], c[jj*d:jj*d+d]))
-				}
-			}
-			h.half[j] = 0.5 * math.Sqrt(m)
-		}
+		h.halves(c, nil)
 	}
 	grouped := lanes.Vector && k >= 4
 	if grouped {
@@ -321,18 +331,7 @@ func (h *hamerly) assignWarm(c []float64, labels []int32, w *Warm) int {
 	for _, f := range w.Fresh {
 		fresh[f] = true
 	}
-	for j := 0; j < k; j++ {
-		if fresh[j] {
-			continue
-		}
-		m := math.Inf(1)
-		for jj := 0; jj < k; jj++ {
-			if jj != j && !fresh[jj] {
-				m = math.Min(m, Dist2(c[j*d:j*d+d], c[jj*d:jj*d+d]))
-			}
-		}
-		h.half[j] = 0.5 * math.Sqrt(m)
-	}
+	h.halves(c, fresh)
 	grouped := lanes.Vector && k >= 4
 	if grouped {
 		h.g.load(c, k, d)
