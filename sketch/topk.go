@@ -13,9 +13,29 @@ type topK struct {
 }
 
 // newTopK returns an empty reservoir. Its buffers grow as rows arrive, up to capacity rows, so a
-// reservoir that never fills (a small input, a decoded file) holds only what it keeps.
+// reservoir that never fills (a small input, a decoded file) holds at most twice what it keeps.
 func newTopK(capacity, d int) *topK {
 	return &topK{cap: capacity, d: d}
+}
+
+// reserve makes room for one more row when the buffers are full, doubling them (at most to
+// capacity rows). Left to append, a buffer of more than 256 values grows by a quarter at a
+// time: a full reservoir would have allocated about five times its size and copied four, and
+// at 512 columns its coreset is 64 MiB (DEVELOPERS.md, issue 15, "Criteria stage, round 13").
+func (t *topK) reserve() {
+	if len(t.keys) < cap(t.keys) && len(t.pts)+t.d <= cap(t.pts) {
+		return
+	}
+	n := min(t.cap, max(2*len(t.keys), 16))
+	t.pts = regrow(t.pts, n*t.d)
+	t.wts = regrow(t.wts, n)
+	t.keys = regrow(t.keys, n)
+	t.slot = regrow(t.slot, n)
+}
+
+// regrow returns s in a new buffer of capacity n (not less than len(s)).
+func regrow[E any](s []E, n int) []E {
+	return append(make([]E, 0, n), s...)
 }
 
 // len reports how many rows are kept.
@@ -30,6 +50,7 @@ func (t *topK) min() float64 { return t.keys[0] }
 // offer adds the row x with key and weight w if it ranks among the largest cap keys.
 func (t *topK) offer(key float64, x []float64, w float64) {
 	if len(t.keys) < t.cap {
+		t.reserve()
 		s := int32(len(t.keys))
 		t.pts = append(t.pts, x...)
 		t.wts = append(t.wts, w)
