@@ -159,7 +159,7 @@ func New(cfg Config, probe Probe) (*Sketch, error) {
 	s := &Sketch{cfg: cfg, d: d, mom: newMoments(probe.Center, unit), cross: newCross(probe.Center, unit),
 		probeCentre: slices.Clone(probe.Center), inv: make([]float64, d), scale: slices.Clone(probe.Scale),
 		meanSq:  probe.MeanSq,
-		coreset: newTopK(cfg.CoresetSize+1, d), sample: newTopK(cfg.SampleSize, d),
+		coreset: newTopK(cfg.CoresetSize+1, d, cfg.ExpectedRows), sample: newTopK(cfg.SampleSize, d, cfg.ExpectedRows),
 		mbBuf: make([]float64, cfg.MiniBatchSize*d), labels: make([]int32, cfg.MiniBatchSize),
 		scratch: make([]float64, d), row: make([]float64, d), parts: make([][]CentreSet, cfg.MaxK-cfg.MinK+1)}
 	for j, sc := range probe.Scale {

@@ -102,7 +102,7 @@ func build(t testing.TB, cfg Config, p Probe, x []float64, unitRows, firstUnit i
 func TestTopKKeepsLargest(t *testing.T) {
 	rng := rand.New(rand.NewPCG(1, 2))
 	for _, capacity := range []int{1, 5, 64} {
-		tk := newTopK(capacity, 1)
+		tk := newTopK(capacity, 1, 0)
 		var all []float64
 		for i := range 1000 {
 			k := rng.Float64()

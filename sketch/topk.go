@@ -10,23 +10,28 @@ type topK struct {
 	slot []int32
 	pts  []float64 // cap*d, slot-addressed
 	wts  []float64 // per slot
+	// expect is how many rows the first allocation makes room for (at most cap): the rows the
+	// input is expected to hold, when known, so that a reservoir that will fill is allocated once.
+	expect int
 }
 
-// newTopK returns an empty reservoir. Its buffers grow as rows arrive, up to capacity rows, so a
-// reservoir that never fills (a small input, a decoded file) holds at most twice what it keeps.
-func newTopK(capacity, d int) *topK {
-	return &topK{cap: capacity, d: d}
+// newTopK returns an empty reservoir. Its buffers are allocated when the first row arrives, with
+// room for min(capacity, expectRows) rows (expectRows <= 0: unknown), and then grow as rows
+// arrive, up to capacity rows, so a reservoir that never fills (a small input, a decoded file, a
+// worker given no rows) holds at most twice what it keeps or what the input was expected to hold.
+func newTopK(capacity, d int, expectRows int64) *topK {
+	return &topK{cap: capacity, d: d, expect: int(min(int64(capacity), max(expectRows, 0)))}
 }
 
-// reserve makes room for one more row when the buffers are full, doubling them (at most to
-// capacity rows). Left to append, a buffer of more than 256 values grows by a quarter at a
+// reserve makes room for one more row when the buffers are full: the expected rows at first,
+// then twice the rows kept (at most capacity rows either way). Left to append, a buffer of more than 256 values grows by a quarter at a
 // time: a full reservoir would have allocated about five times its size and copied four, and
 // at 512 columns its coreset is 64 MiB (DEVELOPERS.md, issue 15, "Criteria stage, round 13").
 func (t *topK) reserve() {
 	if len(t.keys) < cap(t.keys) && len(t.pts)+t.d <= cap(t.pts) {
 		return
 	}
-	n := min(t.cap, max(2*len(t.keys), 16))
+	n := min(t.cap, max(2*len(t.keys), t.expect, 16))
 	t.pts = regrow(t.pts, n*t.d)
 	t.wts = regrow(t.wts, n)
 	t.keys = regrow(t.keys, n)

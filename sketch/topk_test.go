@@ -9,13 +9,21 @@ import (
 
 // TestTopKGrowsByDoubling fills reservoirs row by row and checks that the buffers are
 // reallocated a logarithmic number of times (append alone grows large buffers by a quarter,
-// about 40 reallocations on the way to 16,385 rows), that they never hold much more than twice
-// the rows kept nor more than the capacity, and that the kept rows are those a reservoir of
-// exactly the capacity keeps (the largest keys).
+// about 40 reallocations on the way to 16,385 rows), once when the expected rows fill the
+// reservoir, that they never hold much more than twice the rows kept (or the rows expected) nor
+// more than the capacity, and that the kept rows are those a reservoir of exactly the capacity
+// keeps (the largest keys). A reservoir given no row allocates nothing.
 func TestTopKGrowsByDoubling(t *testing.T) {
-	for _, tc := range []struct{ capacity, d, rows int }{{16385, 8, 40000}, {1000, 3, 700}, {5, 2, 50}} {
+	if r := newTopK(16385, 512, 1e6); cap(r.pts) != 0 {
+		t.Fatalf("a reservoir given no row holds room for %d values", cap(r.pts))
+	}
+	for _, tc := range []struct {
+		capacity, d, rows int
+		expect            int64
+		moves             int
+	}{{16385, 8, 40000, 0, 20}, {1000, 3, 700, 0, 20}, {5, 2, 50, 0, 20}, {16385, 8, 40000, 80000, 1}, {1000, 3, 700, 100, 5}} {
 		rng := rand.New(rand.NewPCG(uint64(tc.capacity), 1))
-		r := newTopK(tc.capacity, tc.d)
+		r := newTopK(tc.capacity, tc.d, tc.expect)
 		x := make([]float64, tc.d)
 		var last unsafe.Pointer
 		moves := 0
@@ -31,15 +39,16 @@ func TestTopKGrowsByDoubling(t *testing.T) {
 				last = p
 			}
 			kept := r.len()
-			if c := cap(r.keys); c > max(2*kept, 16)+64 || c > tc.capacity+64 {
+			room := max(2*kept, int(tc.expect), 16)
+			if c := cap(r.keys); c > room || c > tc.capacity {
 				t.Fatalf("capacity %d: %d rows kept in a buffer of %d", tc.capacity, kept, c)
 			}
-			if c := cap(r.pts); c > (max(2*kept, 16)+64)*tc.d || c > (tc.capacity+64)*tc.d {
+			if c := cap(r.pts); c > room*tc.d || c > tc.capacity*tc.d {
 				t.Fatalf("capacity %d: %d rows kept in %d values", tc.capacity, kept, c)
 			}
 		}
-		if limit := 20; moves > limit {
-			t.Fatalf("capacity %d: the point buffer moved %d times, want at most %d", tc.capacity, moves, limit)
+		if moves > tc.moves {
+			t.Fatalf("capacity %d, %d rows expected: the point buffer moved %d times, want at most %d", tc.capacity, tc.expect, moves, tc.moves)
 		}
 		// The kept keys are the largest min(rows, capacity) of those offered.
 		want := 0
