@@ -13,8 +13,12 @@ const ProbeSeedRows = 8192
 // key (8 bytes), slot index (4) and weight (8).
 const reservoirRowBytes = 8 + 4 + 8
 
-// growthSlack is the share of a reservoir's buffers that append's growth leaves unused on
-// average when it fills (Go grows large slices by about 1.25x: half of that on average).
+// growthSlack is the share of a reservoir's buffers beyond its rows that the model allows for. It
+// was append's growth (large slices grow by about 1.25x: half of that unused on average); the
+// buffers now double up to exactly the capacity, or are allocated at once where the input's rows
+// are known (topK.reserve), so a full reservoir has none, and while the last doubling copies, the
+// old half is live beside the new buffer. Kept at append's figure, the model errs high, the safe
+// side for --memory (DEVELOPERS.md, issue 15, "Criteria stage, round 13").
 const growthSlack = 1.125
 
 // HeldBytes is the memory a sketch of configuration cfg on d columns holds once its coreset and
