@@ -24,9 +24,10 @@ func newTopK(capacity, d int, expectRows int64) *topK {
 }
 
 // reserve makes room for one more row when the buffers are full: the expected rows at first,
-// then twice the rows kept (at most capacity rows either way). Left to append, a buffer of more than 256 values grows by a quarter at a
-// time: a full reservoir would have allocated about five times its size and copied four, and
-// at 512 columns its coreset is 64 MiB (DEVELOPERS.md, issue 15, "Criteria stage, round 13").
+// then twice the rows kept (at most capacity rows either way). Left to append, a buffer of more
+// than 256 values grows by a quarter at a time: a full reservoir would have allocated about five
+// times its size and copied four, and at 512 columns its coreset is 64 MiB (DEVELOPERS.md, issue
+// 15, "Criteria stage, round 13").
 func (t *topK) reserve() {
 	if len(t.keys) < cap(t.keys) && len(t.pts)+t.d <= cap(t.pts) {
 		return

@@ -8,8 +8,8 @@ import (
 )
 
 // TestAssignContract runs Lloyd's steps one at a time and checks every assignment against a
-// scan of every centre: each label is the nearest centre (the lower index among equal
-// distances), the count returned is the number of labels that changed, h.moved lists exactly
+// scan of every centre: each label is a nearest centre (where two are equally near, either),
+// the count returned is the number of labels that changed, h.moved lists exactly
 // the changed points in order (while they are few enough to be listed), and the bounds hold
 // (upper at least the distance to the assigned centre, lower at most the distance to every
 // other one). The sets are loose groups with more centres than groups, so most points keep
