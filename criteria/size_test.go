@@ -2,6 +2,7 @@ package criteria_test
 
 import (
 	"context"
+	"math"
 	"math/rand/v2"
 	"runtime"
 	"runtime/debug"
@@ -90,13 +91,24 @@ func TestWorkingBytesMatchesHeap(t *testing.T) {
 		t.Run(tc.name, func(t *testing.T) {
 			s := criteria.ExactSummary(blobPoints(tc.m, tc.d))
 			o := criteria.Options{MinK: tc.minK, MaxK: tc.maxK, GapRefs: tc.refs, GapSample: tc.gs, Anchors: tc.anc, Workers: 1}
-			measured := float64(peakHeapBytes(func() {
-				if _, err := criteria.Evaluate(context.Background(), s, o); err != nil {
-					t.Fatal(err)
-				}
-			}))
-			runtime.KeepAlive(s)
 			pred := float64(criteria.WorkingBytes(o, tc.m, tc.m, tc.d, 1))
+			// The sampled heap holds garbage the collector has not yet freed, more of it when
+			// other processes starve the collector (CI runs the packages side by side: one run
+			// there measured 7.7 MB where quiet runs measure 4.8-5.2 MB). The lag only adds, so
+			// when a run falls outside the bounds it is measured again and the least of up to
+			// three runs counts.
+			measured := math.Inf(1)
+			for try := 0; try < 3; try++ {
+				measured = math.Min(measured, float64(peakHeapBytes(func() {
+					if _, err := criteria.Evaluate(context.Background(), s, o); err != nil {
+						t.Fatal(err)
+					}
+				})))
+				if r := pred / measured; r >= 0.6 && r <= 1.6 {
+					break
+				}
+			}
+			runtime.KeepAlive(s)
 			t.Logf("predicted %.0f, measured %.0f (ratio %.2f)", pred, measured, pred/measured)
 			if r := pred / measured; r < 0.6 || r > 1.6 {
 				t.Errorf("WorkingBytes = %.0f, Evaluate peaked at %.0f bytes (ratio %.2f, want 0.6..1.6)", pred, measured, r)
