@@ -8,8 +8,8 @@ import (
 )
 
 // TestTopKGrowsByDoubling fills reservoirs row by row and checks that the buffers are
-// reallocated a logarithmic number of times (append alone grows large buffers by a quarter,
-// about 40 reallocations on the way to 16,385 rows), once when the expected rows fill the
+// reallocated a logarithmic number of times (append alone grows large buffers by a quarter at
+// a time), once when the expected rows fill the
 // reservoir, that they never hold much more than twice the rows kept (or the rows expected) nor
 // more than the capacity, and that the kept rows are those a reservoir of exactly the capacity
 // keeps (the largest keys). A reservoir given no row allocates nothing.
