@@ -2,9 +2,12 @@ package sketch
 
 import (
 	"bytes"
+	"encoding/binary"
 	"errors"
+	"hash/crc32"
 	"math"
 	"math/rand/v2"
+	"runtime"
 	"strings"
 	"testing"
 )
@@ -117,5 +120,49 @@ func TestExtremeMoments(t *testing.T) {
 				t.Errorf("factor %d: std/mean %v, unit-magnitude %v", i+1, s, stds[0])
 			}
 		}
+	}
+}
+
+// TestDecodeAllocatesForRowsInFile: a reservoir decoded from a file is allocated for the rows the
+// file holds, not for the rows its config says the input was expected to hold. A file whose
+// expected rows were edited to 2^40, with reservoir capacities of 2^24 rows, made Decode allocate
+// about 1.3 GB for 600 rows (an edited file of this kind hung FuzzDecode in CI).
+func TestDecodeAllocatesForRowsInFile(t *testing.T) {
+	rng := rand.New(rand.NewPCG(14, 7))
+	d := 2
+	x, _ := blobs(rng, 600, d, []float64{1, 1}, 6)
+	cfg := Config{Columns: columns(d), MaxK: 3, CoresetSize: 1 << 24, SampleSize: 1 << 24, ExpectedRows: 600, Seed: 5}
+	s := build(t, cfg, probeOf(t, x, d, 3), x, 200, 0)
+	var buf bytes.Buffer
+	if err := s.Encode(&buf); err != nil {
+		t.Fatal(err)
+	}
+	data := buf.Bytes()
+	// The header: magic and version (12 bytes), the column names (a count, then a length and the
+	// bytes of each), then min-k, max-k, the coreset, sample and mini-batch sizes, the mini-batch
+	// rows and the expected rows, eight bytes each.
+	at := 12 + 4
+	for _, c := range cfg.Columns {
+		at += 4 + len(c)
+	}
+	at += 6 * 8
+	if got := int64(binary.LittleEndian.Uint64(data[at:])); got != cfg.ExpectedRows {
+		t.Fatalf("the expected rows are not at byte %d: found %d", at, got)
+	}
+	binary.LittleEndian.PutUint64(data[at:], 1<<40)
+	binary.LittleEndian.PutUint32(data[len(data)-4:], crc32.Checksum(data[:len(data)-4], castagnoli))
+
+	var before, after runtime.MemStats
+	runtime.ReadMemStats(&before)
+	got, err := Decode(bytes.NewReader(data))
+	runtime.ReadMemStats(&after)
+	if err != nil {
+		t.Fatalf("Decode: %v", err)
+	}
+	if got.cfg.ExpectedRows != 1<<40 || got.Rows() != 600 {
+		t.Fatalf("decoded expected rows %d and rows %d, want 2^40 and 600", got.cfg.ExpectedRows, got.Rows())
+	}
+	if alloc := after.TotalAlloc - before.TotalAlloc; alloc > 16<<20 {
+		t.Fatalf("decoding %d bytes allocated %d bytes", len(data), alloc)
 	}
 }
