@@ -278,11 +278,12 @@ func (d *dec) sketch() (*Sketch, error) {
 		return nil, err
 	}
 	dim := len(c.Columns)
-	// New allocates the mini-batch state (k×dim centres for every k in range) and a mini-batch
-	// buffer from the config alone; a hostile config (the checks above allow max-k and the
-	// mini-batch size up to 2^20 and 2^28) would make it allocate terabytes before a centre is read.
+	// New allocates the mini-batch state (k centres of dim values and k counts for every k in
+	// range) and a mini-batch buffer from the config alone; a hostile config (the checks above
+	// allow max-k and the mini-batch size up to 2^20 and 2^28) would make it allocate terabytes
+	// before a centre is read.
 	ks := int64(c.MaxK - c.MinK + 1)
-	centres := ks * int64(c.MinK+c.MaxK) / 2 * int64(dim) * 8
+	centres := ks * int64(c.MinK+c.MaxK) / 2 * int64(dim+1) * 8
 	buf := int64(c.MiniBatchSize) * int64(dim*8+4)
 	if centres+buf > max(maxStateBytes, 16*int64(len(d.b))) {
 		return nil, fmt.Errorf("k range %d..%d and mini-batch size %d with %d columns need %d bytes, more than the file justifies",
@@ -302,9 +303,11 @@ func (d *dec) sketch() (*Sketch, error) {
 	for j, v := range inv {
 		scale[j] = 1 / v
 	}
+	// New copies its starting centres, so every k shares one slice of zeros.
+	zeros := make([]float64, c.MaxK*dim)
 	init := map[int][]float64{}
 	for k := c.MinK; k <= c.MaxK; k++ {
-		init[k] = make([]float64, k*dim)
+		init[k] = zeros[:k*dim]
 	}
 	s, err := New(c, Probe{Center: centre, Scale: scale, MeanSq: meanSq, Init: init})
 	if err != nil {
