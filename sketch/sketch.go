@@ -211,8 +211,10 @@ func (s *Sketch) Moments() Moments {
 
 // Cross returns a copy of the sampled cross-product summary.
 func (s *Sketch) Cross() Cross {
+	s.cross.apply()
 	c := s.cross
 	c.Shift, c.Unit, c.S1, c.C = slices.Clone(c.Shift), slices.Clone(c.Unit), slices.Clone(c.S1), slices.Clone(c.C)
+	c.pend = nil
 	return c
 }
 
@@ -351,8 +353,9 @@ func (s *Sketch) feed(x []float64) {
 	}
 }
 
-// flush runs a mini-batch step on the buffered rows.
+// flush runs a mini-batch step on the buffered rows and adds the covariance's held rows.
 func (s *Sketch) flush() {
+	s.cross.apply()
 	if s.mbRows == 0 {
 		return
 	}
@@ -459,7 +462,7 @@ func (s *Sketch) CentreSets(k int) []CentreSet {
 
 // SizeBytes estimates the memory held by the sketch's summaries.
 func (s *Sketch) SizeBytes() int64 {
-	n := int64(len(s.coreset.pts)+len(s.sample.pts)+len(s.mbBuf)+len(s.cross.C)) * 8
+	n := int64(len(s.coreset.pts)+len(s.sample.pts)+len(s.mbBuf)+len(s.cross.C)+cap(s.cross.pend)) * 8
 	for _, ps := range s.parts {
 		for _, p := range ps {
 			n += int64(len(p.Centres)+len(p.Counts)) * 8
