@@ -200,17 +200,13 @@ type Cross struct {
 	Unit  []float64 // per column, a power of two
 	S1    []float64 // Σ (x − shift)/unit
 	C     []float64 // d×d, Σ ((x − shift)/unit)((x − shift)/unit)ᵀ, upper triangle kept (lower mirrored on read)
-
-	// pend holds the rows added whose products are not yet in C (at most crossBlock rows); apply
-	// adds them. N and S1 already count them.
-	pend []float64
 }
 
-// crossBlock is how many rows Cross.add holds before adding their products to C in one rank-k
-// update. Row by row, each row's update reads and writes the whole upper triangle: at 512 columns
-// that is 1 MiB, more than a core's cache, so every row streamed it from memory. A block of rows
-// updates one row of the triangle for all of them while it is in cache (DEVELOPERS.md, issue 15,
-// "The covariance in blocks of rows").
+// crossBlock is how many rows Cross.add gives each rank-k update of C. Row by row, each row's
+// update reads and writes the whole upper triangle: at 512 columns that is 1 MiB, more than a
+// core's cache, so every row streamed it from memory. A block of rows updates one row of the
+// triangle for all of them while it is in cache (DEVELOPERS.md, issue 15, "The covariance in
+// blocks of rows").
 const crossBlock = 32
 
 func newCross(shift, unit []float64) Cross {
@@ -219,40 +215,32 @@ func newCross(shift, unit []float64) Cross {
 		S1: make([]float64, d), C: make([]float64, d*d)}
 }
 
-// add accumulates one shifted row in units, dx = (x − shift)/unit. Its products reach C when
-// crossBlock rows are held, or at apply.
+// add accumulates shifted rows in units, dx = (x − shift)/unit, row-major: N and S1 row by row,
+// and C by BLAS's symmetric rank-k update of the upper triangle (gonum's Dsyrk) over blocks of
+// crossBlock rows. Dsyrk adds to each element the rows' products one row at a time, in their
+// order, each by the axpy a row-by-row update makes, so C has the same bits whatever the blocks.
 func (c *Cross) add(dx []float64) {
-	c.N++
-	for j, a := range dx {
-		c.S1[j] += a
-	}
-	if c.pend == nil {
-		c.pend = make([]float64, 0, crossBlock*len(dx))
-	}
-	c.pend = append(c.pend, dx...)
-	if len(c.pend) == cap(c.pend) {
-		c.apply()
-	}
-}
-
-// apply adds the held rows' products to C and empties the block: BLAS's symmetric rank-k update
-// of the upper triangle, which adds to each element the rows' products one row at a time in their
-// order, each as the axpy a row-by-row update makes (gonum's Dsyrk), so C has the same bits.
-func (c *Cross) apply() {
 	d := len(c.S1)
-	if len(c.pend) == 0 || d == 0 {
+	if d == 0 || len(dx) < d {
 		return
 	}
-	rows := len(c.pend) / d
-	blas64.Implementation().Dsyrk(blas.Upper, blas.Trans, d, rows, 1, c.pend, d, 1, c.C, d)
-	c.pend = c.pend[:0]
+	n := len(dx) / d
+	c.N += int64(n)
+	for i := range n {
+		for j, a := range dx[i*d : (i+1)*d] {
+			c.S1[j] += a
+		}
+	}
+	for lo := 0; lo < n; lo += crossBlock {
+		hi := min(n, lo+crossBlock)
+		blas64.Implementation().Dsyrk(blas.Upper, blas.Trans, d, hi-lo, 1, dx[lo*d:hi*d], d, 1, c.C, d)
+	}
 }
 
 // rebase moves c to shift a and units b, b ≥ c.Unit column by column:
 //
 //	Σ(x−a)(x−a)ᵀ/(b bᵀ) = R C R + δ (R S1)ᵀ + (R S1) δᵀ + n δδᵀ,  R = diag(u/b),  δ = (shift − a)/b
 func (c *Cross) rebase(a, b []float64) {
-	c.apply()
 	d := len(c.S1)
 	same := true
 	for j := range d {
@@ -283,8 +271,6 @@ func (c *Cross) rebase(a, b []float64) {
 
 // merge adds o into c at c's shift and at the larger unit of each column.
 func (c *Cross) merge(o *Cross) {
-	c.apply()
-	o.apply()
 	d := len(c.S1)
 	unit := slices.Clone(c.Unit)
 	for j := range d {

@@ -31,13 +31,15 @@ func HeldBytes(cfg Config, d, batchRows int) int64 {
 	row := D*8 + reservoirRowBytes
 	reservoirs := int64(float64(int64(cfg.CoresetSize+1)*row+int64(cfg.SampleSize)*row) * growthSlack)
 	sumK := int64(cfg.MaxK+cfg.MinK) * int64(cfg.MaxK-cfg.MinK+1) / 2
-	miniBatch := int64(cfg.MiniBatchSize)*(D*8+4) + sumK*(D+1)*8
+	// The rows held for a mini-batch step, probe-scaled and again in the covariance's units, and
+	// their labels.
+	miniBatch := int64(cfg.MiniBatchSize)*(2*D*8+4) + sumK*(D+1)*8
 	// The assignment's scratch, shared by every k: norms, the centres in groups of four, two dot
 	// products per centre.
 	assigner := int64(cfg.MaxK) * (D + 3) * 8
 	cross := D*D*8 + D*8
 	moments := 6 * D * 8
-	buffers := int64(batchRows)*8 + 4*D*8 // norm2, row, scratch, probe centre and scales
+	buffers := int64(batchRows)*8 + 3*D*8 // norm2, row, probe centre and scales
 	return reservoirs + miniBatch + assigner + cross + moments + buffers
 }
 

@@ -6,6 +6,7 @@ import (
 	"math"
 	"math/rand/v2"
 	"slices"
+	"sync"
 
 	"github.com/kgauge/kgauge/internal/kmeans"
 )
@@ -122,14 +123,17 @@ type Sketch struct {
 	coreset *topK // priority sample: key w/u, payload w
 	sample  *topK // uniform: key −u
 
-	rate    float64
-	mb      []*miniBatch // active, probe space, index k−MinK
-	parts   [][]CentreSet
-	mbBuf   []float64
-	mbRows  int
-	labels  []int32
-	assign  kmeans.Assigner // the mini-batch assignment's scratch, shared by every k
-	scratch []float64
+	rate   float64
+	mb     []*miniBatch // active, probe space, index k−MinK
+	parts  [][]CentreSet
+	mbBuf  []float64 // rows fed but not yet given to mini-batch k-means, probe-scaled
+	dxBuf  []float64 // the same rows shifted and in units, for the covariance estimate
+	mbRows int
+	// crossRows is how many of the buffered rows are already in the covariance estimate (Cross
+	// adds them without running the mini-batch step early).
+	crossRows int
+	labels    []int32
+	assign    kmeans.Assigner // the mini-batch assignment's scratch, shared by every k
 
 	// Buffers of AddColumns and Add.
 	norm2    []float64   // per row of a batch, Σ_j (x_j − shift_j)² / scale_j²
@@ -160,8 +164,8 @@ func New(cfg Config, probe Probe) (*Sketch, error) {
 		probeCentre: slices.Clone(probe.Center), inv: make([]float64, d), scale: slices.Clone(probe.Scale),
 		meanSq:  probe.MeanSq,
 		coreset: newTopK(cfg.CoresetSize+1, d, cfg.ExpectedRows), sample: newTopK(cfg.SampleSize, d, cfg.ExpectedRows),
-		mbBuf: make([]float64, cfg.MiniBatchSize*d), labels: make([]int32, cfg.MiniBatchSize),
-		scratch: make([]float64, d), row: make([]float64, d), parts: make([][]CentreSet, cfg.MaxK-cfg.MinK+1)}
+		mbBuf: make([]float64, cfg.MiniBatchSize*d), dxBuf: make([]float64, cfg.MiniBatchSize*d), labels: make([]int32, cfg.MiniBatchSize),
+		row: make([]float64, d), parts: make([][]CentreSet, cfg.MaxK-cfg.MinK+1)}
 	for j, sc := range probe.Scale {
 		if !(sc > 0) || math.IsInf(sc, 0) {
 			return nil, fmt.Errorf("sketch: probe scale of column %q is %v, want a positive finite number", cfg.Columns[j], sc)
@@ -211,10 +215,9 @@ func (s *Sketch) Moments() Moments {
 
 // Cross returns a copy of the sampled cross-product summary.
 func (s *Sketch) Cross() Cross {
-	s.cross.apply()
+	s.addCross()
 	c := s.cross
 	c.Shift, c.Unit, c.S1, c.C = slices.Clone(c.Shift), slices.Clone(c.Unit), slices.Clone(c.S1), slices.Clone(c.C)
-	c.pend = nil
 	return c
 }
 
@@ -336,34 +339,61 @@ func (s *Sketch) gather(cols [][]float64, i int) []float64 {
 	return row
 }
 
-// feed passes one row to the covariance estimate and the mini-batch buffer.
+// feed buffers one row for the covariance estimate and the mini-batch step.
 func (s *Sketch) feed(x []float64) {
 	d := s.d
-	dx := s.scratch
+	dx := s.dxBuf[s.mbRows*d : (s.mbRows+1)*d]
 	z := s.mbBuf[s.mbRows*d : (s.mbRows+1)*d]
 	for j, v := range x {
 		u := s.cross.Unit[j] // a power of two: the divisions are exact
 		dx[j] = v/u - s.cross.Shift[j]/u
 		z[j] = (v - s.probeCentre[j]) * s.inv[j]
 	}
-	s.cross.add(dx)
 	s.mbRows++
 	if s.mbRows == s.cfg.MiniBatchSize {
 		s.flush()
 	}
 }
 
-// flush runs a mini-batch step on the buffered rows and adds the covariance's held rows.
+// concurrentCrossFrom is the width from which flush adds the cross-products on a goroutine of
+// their own. Per row at k = 1..20 (BenchmarkCrossAdd, and the mini-batch steps alone): 16 columns
+// 0.09 against 1.2 µs, 64 columns 0.65 against 3.0 µs, 512 columns 27–29 against about 20 µs.
+// Below it the gain is small and the goroutine would be the steady state's only allocation.
+const concurrentCrossFrom = 64
+
+// flush runs a mini-batch step on the buffered rows and adds their cross-products to the
+// covariance estimate; from concurrentCrossFrom columns, beside the step on another goroutine.
+// The two touch different state, so each gives the bits it would alone; on a worker with a core
+// to spare (a file of one row group, or the end of a pass) the wide pass then takes the longer of
+// the two instead of their sum (DEVELOPERS.md, issue 15, "The covariance in blocks of rows").
 func (s *Sketch) flush() {
-	s.cross.apply()
 	if s.mbRows == 0 {
 		return
 	}
+	if s.d >= concurrentCrossFrom {
+		var wg sync.WaitGroup
+		wg.Go(s.addCross)
+		s.step()
+		wg.Wait()
+	} else {
+		s.addCross()
+		s.step()
+	}
+	s.mbRows, s.crossRows = 0, 0
+}
+
+// step runs the mini-batch step of every k on the buffered rows.
+func (s *Sketch) step() {
 	batch := s.mbBuf[:s.mbRows*s.d]
 	for _, m := range s.mb {
 		m.update(batch, s.d, s.labels, &s.assign)
 	}
-	s.mbRows = 0
+}
+
+// addCross adds the buffered rows not yet in the covariance estimate.
+func (s *Sketch) addCross() {
+	s.cross.add(s.dxBuf[s.crossRows*s.d : s.mbRows*s.d])
+	s.crossRows = s.mbRows
 }
 
 // settle folds the active mini-batch state into parts, in raw units, so that the sketch holds only
@@ -462,7 +492,7 @@ func (s *Sketch) CentreSets(k int) []CentreSet {
 
 // SizeBytes estimates the memory held by the sketch's summaries.
 func (s *Sketch) SizeBytes() int64 {
-	n := int64(len(s.coreset.pts)+len(s.sample.pts)+len(s.mbBuf)+len(s.cross.C)+cap(s.cross.pend)) * 8
+	n := int64(len(s.coreset.pts)+len(s.sample.pts)+len(s.mbBuf)+len(s.dxBuf)+len(s.cross.C)) * 8
 	for _, ps := range s.parts {
 		for _, p := range ps {
 			n += int64(len(p.Centres)+len(p.Counts)) * 8
