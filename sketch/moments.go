@@ -4,8 +4,7 @@ import (
 	"math"
 	"slices"
 
-	"gonum.org/v1/gonum/blas"
-	"gonum.org/v1/gonum/blas/blas64"
+	"github.com/kgauge/kgauge/internal/lanes"
 )
 
 // Moments holds exact per-column summaries of the rows added: their count, sums and sums of squares
@@ -216,9 +215,11 @@ func newCross(shift, unit []float64) Cross {
 }
 
 // add accumulates shifted rows in units, dx = (x − shift)/unit, row-major: N and S1 row by row,
-// and C by BLAS's symmetric rank-k update of the upper triangle (gonum's Dsyrk) over blocks of
-// crossBlock rows. Dsyrk adds to each element the rows' products one row at a time, in their
-// order, each by the axpy a row-by-row update makes, so C has the same bits whatever the blocks.
+// and C by a symmetric rank-k update of the upper triangle over blocks of crossBlock rows
+// (lanes.SyrkUpper, the bits of gonum's Dsyrk with the triangle's values held in registers while
+// a block's rows go by). Each element receives the rows' products one row at a time, in their
+// order, each rounded before its sum, as a row-by-row axpy update gives them, so C has the same
+// bits whatever the blocks.
 func (c *Cross) add(dx []float64) {
 	d := len(c.S1)
 	if d == 0 || len(dx) < d {
@@ -233,7 +234,7 @@ func (c *Cross) add(dx []float64) {
 	}
 	for lo := 0; lo < n; lo += crossBlock {
 		hi := min(n, lo+crossBlock)
-		blas64.Implementation().Dsyrk(blas.Upper, blas.Trans, d, hi-lo, 1, dx[lo*d:hi*d], d, 1, c.C, d)
+		lanes.SyrkUpper(c.C, dx[lo*d:hi*d], d, hi-lo)
 	}
 }
 

@@ -39,7 +39,7 @@ func HeldBytes(cfg Config, d, batchRows int) int64 {
 	assigner := int64(cfg.MaxK) * (D + 3) * 8
 	cross := D*D*8 + D*8
 	moments := 6 * D * 8
-	buffers := int64(batchRows)*8 + 3*D*8 // norm2, row, probe centre and scales
+	buffers := int64(batchRows)*8 + 4*D*8 // norm2, row, probe centre, scale and inverse scale
 	return reservoirs + miniBatch + assigner + cross + moments + buffers
 }
 

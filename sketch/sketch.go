@@ -357,7 +357,8 @@ func (s *Sketch) feed(x []float64) {
 
 // concurrentCrossFrom is the width from which flush adds the cross-products on a goroutine of
 // their own. Per row at k = 1..20 (BenchmarkCrossAdd, and the mini-batch steps alone): 16 columns
-// 0.09 against 1.2 µs, 64 columns 0.65 against 3.0 µs, 512 columns 27–29 against about 20 µs.
+// 0.09 against 1.2 µs, 64 columns 0.65 against 3.0 µs, 512 columns 27–29 against about 20 µs
+// (with Dsyrk; lanes.SyrkUpper then made the cross-products 2–3× faster at 16 and 64 columns).
 // Below it the gain is small and the goroutine would be the steady state's only allocation.
 const concurrentCrossFrom = 64
 

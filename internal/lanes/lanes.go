@@ -1,5 +1,6 @@
 // Package lanes holds the distance kernels that measure four vectors at once, one vector lane
-// per vector: the centres of a k-means scan, the anchors of a silhouette. Each kernel performs
+// per vector: the centres of a k-means scan, the anchors of a silhouette; and the rank-k update
+// of the sketch's cross-products ([SyrkUpper]). Each kernel performs
 // the same floating-point operations in the same order as the scalar loop it replaces (no fused
 // multiply-add), so its results are equal to that loop's bit for bit; the assembly runs where the
 // machine has AVX2 ([Vector]) and the Go reference everywhere else.
@@ -226,4 +227,38 @@ func nearest2Go(x, ct []float64, groups int) (best int, d1, d2 float64) {
 		}
 	}
 	return best, d1, d2
+}
+
+// SyrkUpper adds a's rows' products to the upper triangle of c: c[d·j + m] += a[d·l + j]·a[d·l + m]
+// for j ≤ m < d and the rows l < rows of a (row-major, d values a row) in order, a row skipped for
+// j when a[d·l + j] is zero, each product rounded before its sum. That is what gonum's Dsyrk
+// (upper, transposed, alpha and beta 1) does, one axpy per row of the triangle and row of a, so
+// the bits are Dsyrk's; here the 32 values of a triangle row being added to stay in registers
+// while the rows go by, where Dsyrk loads and stores them for every row. It panics when c holds
+// fewer than d·d values or a fewer than rows·d.
+func SyrkUpper(c, a []float64, d, rows int) {
+	if len(c) < d*d || len(a) < rows*d {
+		panic("lanes: SyrkUpper: c or a too short")
+	}
+	if rows == 0 {
+		return
+	}
+	for j := range d {
+		syrkRow(c[d*j+j:d*j+d], a[j:], d, rows)
+	}
+}
+
+// syrkRowGo is syrkRowAsm in Go: c[m] += a[lda·l]·a[lda·l + m] for m < len(c) and l < rows in
+// order, skipping a row whose a[lda·l] is zero.
+func syrkRowGo(c, a []float64, lda, rows int) {
+	for l := range rows {
+		row := a[lda*l : lda*l+len(c)]
+		aj := row[0]
+		if aj == 0 {
+			continue
+		}
+		for m, v := range row {
+			c[m] += float64(aj * v)
+		}
+	}
 }

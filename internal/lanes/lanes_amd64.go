@@ -48,3 +48,14 @@ func dots2(x0, x1, ct []float64, groups int, out []float64) {
 	}
 	dots2Go(x0, x1, ct, groups, out)
 }
+
+//go:noescape
+func syrkRowAsm(c, a []float64, lda, rows int)
+
+func syrkRow(c, a []float64, lda, rows int) {
+	if Vector {
+		syrkRowAsm(c, a, lda, rows)
+		return
+	}
+	syrkRowGo(c, a, lda, rows)
+}

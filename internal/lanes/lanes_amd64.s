@@ -460,3 +460,133 @@ ndone:
 	VMOVSD X9, d2+72(FP)
 	VZEROUPPER
 	RET
+
+// SROW8(OFF, ACC) adds the four products of aj (Y15) and a's values at byte offset OFF of the
+// chunk (R10 is the row, AX the chunk's first value) to ACC: multiply, then add.
+#define SROW8(OFF, ACC) \
+	VMULPD OFF(R10)(AX*8), Y15, Y14; \
+	VADDPD Y14, ACC, ACC
+
+// func syrkRowAsm(c, a []float64, lda, rows int)
+//
+// syrkRow (lanes.go): c[m] += a[l·lda]·a[l·lda + m] for every m < len(c) and the rows l < rows
+// in order, a row whose a[l·lda] is zero skipped, each product rounded before its sum: 32 values
+// of c in Y0..Y7 while the rows go by, then 4 in Y0, then one at a time. The caller checks AVX2
+// and the lengths.
+TEXT ·syrkRowAsm(SB), NOSPLIT, $0-64
+	MOVQ c_base+0(FP), DI
+	MOVQ c_len+8(FP), CX
+	MOVQ a_base+24(FP), SI
+	MOVQ lda+48(FP), R8
+	SHLQ $3, R8 // bytes between rows
+	MOVQ rows+56(FP), R9
+	VXORPD X13, X13, X13 // zero, for the skip test
+	XORQ AX, AX
+
+s32:
+	LEAQ 32(AX), DX
+	CMPQ DX, CX
+	JGT  s4
+	VMOVUPD (DI)(AX*8), Y0
+	VMOVUPD 32(DI)(AX*8), Y1
+	VMOVUPD 64(DI)(AX*8), Y2
+	VMOVUPD 96(DI)(AX*8), Y3
+	VMOVUPD 128(DI)(AX*8), Y4
+	VMOVUPD 160(DI)(AX*8), Y5
+	VMOVUPD 192(DI)(AX*8), Y6
+	VMOVUPD 224(DI)(AX*8), Y7
+	MOVQ SI, R10
+	MOVQ R9, R11
+
+s32row:
+	TESTQ R11, R11
+	JE    s32store
+	VMOVSD (R10), X15
+	VUCOMISD X13, X15
+	JP    s32mul // NaN: not skipped
+	JE    s32next
+s32mul:
+	VBROADCASTSD X15, Y15
+	SROW8(0, Y0)
+	SROW8(32, Y1)
+	SROW8(64, Y2)
+	SROW8(96, Y3)
+	SROW8(128, Y4)
+	SROW8(160, Y5)
+	SROW8(192, Y6)
+	SROW8(224, Y7)
+s32next:
+	ADDQ R8, R10
+	DECQ R11
+	JMP  s32row
+
+s32store:
+	VMOVUPD Y0, (DI)(AX*8)
+	VMOVUPD Y1, 32(DI)(AX*8)
+	VMOVUPD Y2, 64(DI)(AX*8)
+	VMOVUPD Y3, 96(DI)(AX*8)
+	VMOVUPD Y4, 128(DI)(AX*8)
+	VMOVUPD Y5, 160(DI)(AX*8)
+	VMOVUPD Y6, 192(DI)(AX*8)
+	VMOVUPD Y7, 224(DI)(AX*8)
+	ADDQ $32, AX
+	JMP  s32
+
+s4:
+	LEAQ 4(AX), DX
+	CMPQ DX, CX
+	JGT  s1
+	VMOVUPD (DI)(AX*8), Y0
+	MOVQ SI, R10
+	MOVQ R9, R11
+
+s4row:
+	TESTQ R11, R11
+	JE    s4store
+	VMOVSD (R10), X15
+	VUCOMISD X13, X15
+	JP    s4mul
+	JE    s4next
+s4mul:
+	VBROADCASTSD X15, Y15
+	SROW8(0, Y0)
+s4next:
+	ADDQ R8, R10
+	DECQ R11
+	JMP  s4row
+
+s4store:
+	VMOVUPD Y0, (DI)(AX*8)
+	ADDQ $4, AX
+	JMP  s4
+
+s1:
+	CMPQ AX, CX
+	JGE  sdone
+	VMOVSD (DI)(AX*8), X0
+	MOVQ SI, R10
+	MOVQ R9, R11
+
+s1row:
+	TESTQ R11, R11
+	JE    s1store
+	VMOVSD (R10), X15
+	VUCOMISD X13, X15
+	JP    s1mul
+	JE    s1next
+s1mul:
+	VMULSD (R10)(AX*8), X15, X14
+	VADDSD X14, X0, X0
+s1next:
+	ADDQ R8, R10
+	DECQ R11
+	JMP  s1row
+
+s1store:
+	VMOVSD X0, (DI)(AX*8)
+	INCQ AX
+	JMP  s1
+
+sdone:
+	VZEROUPPER
+	RET

@@ -19,3 +19,5 @@ func nearest2(x, ct []float64, groups int) (best int, d1, d2 float64) {
 
 // setVector does nothing where there is no assembly (tests).
 func setVector(bool) {}
+
+func syrkRow(c, a []float64, lda, rows int) { syrkRowGo(c, a, lda, rows) }
