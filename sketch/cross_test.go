@@ -13,12 +13,13 @@ import (
 // TestCrossBlocksSameBits: the cross-products added in blocks of rows (Cross.add given several
 // rows, split into Dsyrk blocks) are the same bits as adding each row's products to the upper
 // triangle as it arrives, one axpy per triangle row, for row counts around the block size, rows
-// given in pieces of other sizes, widths from 1 to above the block's, and rows that mix
-// magnitudes, zeros and negative zeros.
+// given in pieces of other sizes and further apart than their width, widths from 1 to above the
+// block's, and rows that mix magnitudes, zeros and negative zeros.
 func TestCrossBlocksSameBits(t *testing.T) {
 	for _, d := range []int{1, 3, 16, 70} {
 		for _, rows := range []int{1, crossBlock - 1, crossBlock, crossBlock + 1, 3*crossBlock + 5} {
 			for _, piece := range []int{1, 7, rows} {
+				ld := d + piece%3 // pieces of 1 and 7: rows further apart than their width
 				t.Run(fmt.Sprintf("d=%d/rows=%d/piece=%d", d, rows, piece), func(t *testing.T) {
 					rng := rand.New(rand.NewPCG(uint64(d), uint64(rows)))
 					x := make([]float64, rows*d)
@@ -32,9 +33,13 @@ func TestCrossBlocksSameBits(t *testing.T) {
 							x[i] = rng.NormFloat64() * math.Pow(10, float64(rng.IntN(13)-6))
 						}
 					}
+					held := make([]float64, rows*ld)
+					for i := range rows {
+						copy(held[i*ld:], x[i*d:(i+1)*d])
+					}
 					got := newCross(make([]float64, d), ones(d))
 					for lo := 0; lo < rows; lo += piece {
-						got.add(x[lo*d : min(rows, lo+piece)*d])
+						got.add(held[lo*ld:], ld, min(piece, rows-lo))
 					}
 					// The reference: each row's products added as it arrives.
 					want := newCross(make([]float64, d), ones(d))
@@ -120,5 +125,17 @@ func crossHeldRowsReachReaders(t *testing.T, d int) {
 	one := fresh(10).Cross()
 	if c := a.Cross(); c.N != 20 || math.Abs(c.C[0]-2*one.C[0]) > 1e-9*one.C[0] {
 		t.Fatalf("merged: N %d, C[0] %v; want 20 rows and twice %v", c.N, c.C[0], one.C[0])
+	}
+}
+
+// TestCrossStride: the rows held for the covariance are at least their width apart, by at most
+// 15 values more, and 64 bytes times an odd number apart, so that consecutive rows start in
+// different sets of the cache (a stride of 4 KiB put a 512-column block's rows in the same few).
+func TestCrossStride(t *testing.T) {
+	for d := 1; d <= 2048; d++ {
+		ld := crossStride(d)
+		if ld < d || ld > d+15 || (ld*8/64)%2 != 1 || ld*8%64 != 0 {
+			t.Fatalf("crossStride(%d) = %d: want d..d+15, 64 bytes times an odd number", d, ld)
+		}
 	}
 }

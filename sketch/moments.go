@@ -214,28 +214,34 @@ func newCross(shift, unit []float64) Cross {
 		S1: make([]float64, d), C: make([]float64, d*d)}
 }
 
-// add accumulates shifted rows in units, dx = (x − shift)/unit, row-major: N and S1 row by row,
-// and C by a symmetric rank-k update of the upper triangle over blocks of crossBlock rows
-// (lanes.SyrkUpper, the bits of gonum's Dsyrk with the triangle's values held in registers while
-// a block's rows go by). Each element receives the rows' products one row at a time, in their
-// order, each rounded before its sum, as a row-by-row axpy update gives them, so C has the same
-// bits whatever the blocks.
-func (c *Cross) add(dx []float64) {
+// add accumulates the given number of rows, shifted and in units, dx = (x − shift)/unit, each ld
+// values after the last (the first d of each used): N and S1 row by row, and C by a symmetric rank-k update of the
+// upper triangle over blocks of crossBlock rows (lanes.SyrkUpper, the bits of gonum's Dsyrk with
+// the triangle's values held in registers while a block's rows go by). Each element receives the
+// rows' products one row at a time, in their order, each rounded before its sum, as a row-by-row
+// axpy update gives them, so C has the same bits whatever the blocks and the stride.
+func (c *Cross) add(dx []float64, ld, rows int) {
 	d := len(c.S1)
-	if d == 0 || len(dx) < d {
+	if d == 0 || rows == 0 {
 		return
 	}
-	n := len(dx) / d
-	c.N += int64(n)
-	for i := range n {
-		for j, a := range dx[i*d : (i+1)*d] {
+	c.N += int64(rows)
+	for i := range rows {
+		for j, a := range dx[i*ld : i*ld+d] {
 			c.S1[j] += a
 		}
 	}
-	for lo := 0; lo < n; lo += crossBlock {
-		hi := min(n, lo+crossBlock)
-		lanes.SyrkUpper(c.C, dx[lo*d:hi*d], d, hi-lo)
+	for lo := 0; lo < rows; lo += crossBlock {
+		hi := min(rows, lo+crossBlock)
+		lanes.SyrkUpper(c.C, dx[lo*ld:], d, ld, hi-lo)
 	}
+}
+
+// crossStride is how many values apart Sketch keeps the rows it holds for Cross.add: at least d,
+// and 64 bytes times an odd number, so that a block's rows fall in different sets of the cache
+// (see lanes.SyrkUpper).
+func crossStride(d int) int {
+	return d + (24-d%16)%16
 }
 
 // rebase moves c to shift a and units b, b ≥ c.Unit column by column:

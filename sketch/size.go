@@ -33,7 +33,7 @@ func HeldBytes(cfg Config, d, batchRows int) int64 {
 	sumK := int64(cfg.MaxK+cfg.MinK) * int64(cfg.MaxK-cfg.MinK+1) / 2
 	// The rows held for a mini-batch step, probe-scaled and again in the covariance's units, and
 	// their labels.
-	miniBatch := int64(cfg.MiniBatchSize)*(2*D*8+4) + sumK*(D+1)*8
+	miniBatch := int64(cfg.MiniBatchSize)*((D+int64(crossStride(d)))*8+4) + sumK*(D+1)*8
 	// The assignment's scratch, shared by every k: norms, the centres in groups of four, two dot
 	// products per centre.
 	assigner := int64(cfg.MaxK) * (D + 3) * 8

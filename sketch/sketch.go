@@ -127,7 +127,8 @@ type Sketch struct {
 	mb     []*miniBatch // active, probe space, index k−MinK
 	parts  [][]CentreSet
 	mbBuf  []float64 // rows fed but not yet given to mini-batch k-means, probe-scaled
-	dxBuf  []float64 // the same rows shifted and in units, for the covariance estimate
+	dxBuf  []float64 // the same rows shifted and in units, for the covariance estimate, dxLd apart
+	dxLd   int
 	mbRows int
 	// crossRows is how many of the buffered rows are already in the covariance estimate (Cross
 	// adds them without running the mini-batch step early).
@@ -164,7 +165,7 @@ func New(cfg Config, probe Probe) (*Sketch, error) {
 		probeCentre: slices.Clone(probe.Center), inv: make([]float64, d), scale: slices.Clone(probe.Scale),
 		meanSq:  probe.MeanSq,
 		coreset: newTopK(cfg.CoresetSize+1, d, cfg.ExpectedRows), sample: newTopK(cfg.SampleSize, d, cfg.ExpectedRows),
-		mbBuf: make([]float64, cfg.MiniBatchSize*d), dxBuf: make([]float64, cfg.MiniBatchSize*d), labels: make([]int32, cfg.MiniBatchSize),
+		mbBuf: make([]float64, cfg.MiniBatchSize*d), dxBuf: make([]float64, cfg.MiniBatchSize*crossStride(d)), dxLd: crossStride(d), labels: make([]int32, cfg.MiniBatchSize),
 		row: make([]float64, d), parts: make([][]CentreSet, cfg.MaxK-cfg.MinK+1)}
 	for j, sc := range probe.Scale {
 		if !(sc > 0) || math.IsInf(sc, 0) {
@@ -342,7 +343,7 @@ func (s *Sketch) gather(cols [][]float64, i int) []float64 {
 // feed buffers one row for the covariance estimate and the mini-batch step.
 func (s *Sketch) feed(x []float64) {
 	d := s.d
-	dx := s.dxBuf[s.mbRows*d : (s.mbRows+1)*d]
+	dx := s.dxBuf[s.mbRows*s.dxLd : s.mbRows*s.dxLd+d]
 	z := s.mbBuf[s.mbRows*d : (s.mbRows+1)*d]
 	for j, v := range x {
 		u := s.cross.Unit[j] // a power of two: the divisions are exact
@@ -393,7 +394,7 @@ func (s *Sketch) step() {
 
 // addCross adds the buffered rows not yet in the covariance estimate.
 func (s *Sketch) addCross() {
-	s.cross.add(s.dxBuf[s.crossRows*s.d : s.mbRows*s.d])
+	s.cross.add(s.dxBuf[s.crossRows*s.dxLd:], s.dxLd, s.mbRows-s.crossRows)
 	s.crossRows = s.mbRows
 }
 

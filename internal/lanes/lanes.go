@@ -229,22 +229,25 @@ func nearest2Go(x, ct []float64, groups int) (best int, d1, d2 float64) {
 	return best, d1, d2
 }
 
-// SyrkUpper adds a's rows' products to the upper triangle of c: c[d·j + m] += a[d·l + j]·a[d·l + m]
-// for j ≤ m < d and the rows l < rows of a (row-major, d values a row) in order, a row skipped for
-// j when a[d·l + j] is zero, each product rounded before its sum. That is what gonum's Dsyrk
-// (upper, transposed, alpha and beta 1) does, one axpy per row of the triangle and row of a, so
-// the bits are Dsyrk's; here the 32 values of a triangle row being added to stay in registers
-// while the rows go by, where Dsyrk loads and stores them for every row. It panics when c holds
-// fewer than d·d values or a fewer than rows·d.
-func SyrkUpper(c, a []float64, d, rows int) {
-	if len(c) < d*d || len(a) < rows*d {
-		panic("lanes: SyrkUpper: c or a too short")
-	}
+// SyrkUpper adds a's rows' products to the upper triangle of c: c[d·j + m] += a[lda·l + j]·a[lda·l + m]
+// for j ≤ m < d and the rows l < rows of a (lda values apart, the first d of each used) in order,
+// a row skipped for j when a[lda·l + j] is zero, each product rounded before its sum. That is what
+// gonum's Dsyrk (upper, transposed, alpha and beta 1) does, one axpy per row of the triangle and
+// row of a, so the bits are Dsyrk's; here the 32 values of a triangle row being added to stay in
+// registers while the rows go by, where Dsyrk loads and stores them for every row. A row stride
+// lda of 64 bytes times an odd number spreads the rows over the cache's sets (at 4 KiB apart, the
+// rows of a 512-column block compete for the same few; DEVELOPERS.md, issue 15, "The covariance in
+// blocks of rows"). It panics when lda < d, or c holds fewer than d·d values or a fewer than the
+// rows.
+func SyrkUpper(c, a []float64, d, lda, rows int) {
 	if rows == 0 {
 		return
 	}
+	if lda < d || len(c) < d*d || len(a) < (rows-1)*lda+d {
+		panic("lanes: SyrkUpper: c or a too short")
+	}
 	for j := range d {
-		syrkRow(c[d*j+j:d*j+d], a[j:], d, rows)
+		syrkRow(c[d*j+j:d*j+d], a[j:], lda, rows)
 	}
 }
 

@@ -102,8 +102,9 @@ func TestShortBuffers(t *testing.T) {
 		"Nearest2 ct":       func() { Nearest2(make([]float64, 4), make([]float64, 15), 1) },
 		"Nearest2 no group": func() { Nearest2(make([]float64, 4), make([]float64, 16), 0) },
 		"Dist2 b":           func() { Dist2(make([]float64, 5), make([]float64, 4)) },
-		"SyrkUpper c":       func() { SyrkUpper(make([]float64, 8), make([]float64, 3), 3, 1) },
-		"SyrkUpper a":       func() { SyrkUpper(make([]float64, 9), make([]float64, 5), 3, 2) },
+		"SyrkUpper c":       func() { SyrkUpper(make([]float64, 8), make([]float64, 3), 3, 3, 1) },
+		"SyrkUpper a":       func() { SyrkUpper(make([]float64, 9), make([]float64, 6), 3, 4, 2) },
+		"SyrkUpper lda":     func() { SyrkUpper(make([]float64, 9), make([]float64, 6), 3, 2, 2) },
 		"Dots2 out":         func() { Dots2(make([]float64, 2), make([]float64, 2), make([]float64, 8), 1, make([]float64, 7)) },
 		"WeightedRootSums x": func() {
 			var o [4]float64
@@ -301,14 +302,16 @@ func TestDist2x4MatchesDist2(t *testing.T) {
 // TestSyrkUpperMatchesDsyrk checks SyrkUpper (the assembly where the machine has it, and the Go
 // reference) against gonum's Dsyrk (upper, transposed, alpha and beta 1) bit for bit, on widths
 // around the kernel's blocks of 32 and 4, from subnormal to overflowing magnitudes, with zeros,
-// negative zeros and a NaN among the multipliers (Dsyrk skips a zero multiplier, not a NaN), a
-// starting triangle that is not zero, and values outside the upper triangle left as they were.
+// negative zeros and a NaN among the multipliers (Dsyrk skips a zero multiplier, not a NaN), rows
+// further apart than their width, a starting triangle that is not zero, and values outside the
+// upper triangle left as they were.
 func TestSyrkUpperMatchesDsyrk(t *testing.T) {
 	rng := rand.New(rand.NewPCG(8, 4))
 	for _, d := range []int{1, 2, 3, 4, 5, 7, 31, 32, 33, 36, 37, 64, 70, 100} {
 		for _, rows := range []int{1, 5, 32} {
 			for _, sc := range scales {
-				a := make([]float64, rows*d+1)[:rows*d]
+				lda := d + rows%3 // rows 5 are 2 values apart more than d, rows 1 and 32 d apart
+				a := make([]float64, rows*lda+1)[:(rows-1)*lda+d]
 				fill(rng, a, sc)
 				for i := range a {
 					switch rng.IntN(10) {
@@ -319,17 +322,17 @@ func TestSyrkUpperMatchesDsyrk(t *testing.T) {
 					}
 				}
 				if rows > 1 && d > 2 {
-					a[d+1] = math.NaN()
+					a[lda+1] = math.NaN()
 				}
 				start := make([]float64, d*d)
 				fill(rng, start, sc)
 				want := slices.Clone(start)
-				blas64.Implementation().Dsyrk(blas.Upper, blas.Trans, d, rows, 1, a, d, 1, want, d)
+				blas64.Implementation().Dsyrk(blas.Upper, blas.Trans, d, rows, 1, a, lda, 1, want, d)
 				for _, viaGo := range []bool{false, true} {
 					saved := Vector
 					setVector(!viaGo && saved)
 					got := slices.Clone(start)
-					SyrkUpper(got, a, d, rows)
+					SyrkUpper(got, a, d, lda, rows)
 					setVector(saved)
 					for i := range want {
 						if math.Float64bits(got[i]) != math.Float64bits(want[i]) {
