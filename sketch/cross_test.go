@@ -19,7 +19,7 @@ func TestCrossBlocksSameBits(t *testing.T) {
 	for _, d := range []int{1, 3, 16, 70} {
 		for _, rows := range []int{1, crossBlock - 1, crossBlock, crossBlock + 1, 3*crossBlock + 5} {
 			for _, piece := range []int{1, 7, rows} {
-				ld := d + piece%3 // pieces of 1 and 7: rows further apart than their width
+				ld := d + piece%3 // rows d to d+2 apart, as the piece's size gives
 				t.Run(fmt.Sprintf("d=%d/rows=%d/piece=%d", d, rows, piece), func(t *testing.T) {
 					rng := rand.New(rand.NewPCG(uint64(d), uint64(rows)))
 					x := make([]float64, rows*d)
