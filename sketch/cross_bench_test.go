@@ -7,8 +7,8 @@ import (
 )
 
 // BenchmarkCrossAdd measures the covariance's cross-products per row at 16, 64 and 512 columns,
-// given a mini-batch buffer's 1024 rows at a time, as far apart as the sketch holds them: at 512 the upper triangle is 1 MiB of sums,
-// more than a core's cache.
+// given a mini-batch buffer's 1024 rows at a time, as far apart as the sketch holds them: at 512
+// the upper triangle is 1 MiB of sums, more than a core's cache.
 func BenchmarkCrossAdd(b *testing.B) {
 	for _, d := range []int{16, 64, 512} {
 		b.Run(fmt.Sprintf("d=%d", d), func(b *testing.B) {

@@ -215,11 +215,12 @@ func newCross(shift, unit []float64) Cross {
 }
 
 // add accumulates the given number of rows, shifted and in units, dx = (x − shift)/unit, each ld
-// values after the last (the first d of each used): N and S1 row by row, and C by a symmetric rank-k update of the
-// upper triangle over blocks of crossBlock rows (lanes.SyrkUpper, the bits of gonum's Dsyrk with
-// the triangle's values held in registers while a block's rows go by). Each element receives the
-// rows' products one row at a time, in their order, each rounded before its sum, as a row-by-row
-// axpy update gives them, so C has the same bits whatever the blocks and the stride.
+// values after the last (the first d of each used): N and S1 row by row, and C by a symmetric
+// rank-k update of the upper triangle over blocks of crossBlock rows (lanes.SyrkUpper, the bits of
+// gonum's Dsyrk with the triangle's values held in registers while a block's rows go by). Each
+// element receives the rows' products one row at a time, in their order, each rounded before its
+// sum, as a row-by-row axpy update gives them, so C has the same bits whatever the blocks and the
+// stride.
 func (c *Cross) add(dx []float64, ld, rows int) {
 	d := len(c.S1)
 	if d == 0 || rows == 0 {

@@ -165,7 +165,8 @@ func New(cfg Config, probe Probe) (*Sketch, error) {
 		probeCentre: slices.Clone(probe.Center), inv: make([]float64, d), scale: slices.Clone(probe.Scale),
 		meanSq:  probe.MeanSq,
 		coreset: newTopK(cfg.CoresetSize+1, d, cfg.ExpectedRows), sample: newTopK(cfg.SampleSize, d, cfg.ExpectedRows),
-		mbBuf: make([]float64, cfg.MiniBatchSize*d), dxBuf: make([]float64, cfg.MiniBatchSize*crossStride(d)), dxLd: crossStride(d), labels: make([]int32, cfg.MiniBatchSize),
+		mbBuf: make([]float64, cfg.MiniBatchSize*d), labels: make([]int32, cfg.MiniBatchSize),
+		dxBuf: make([]float64, cfg.MiniBatchSize*crossStride(d)), dxLd: crossStride(d),
 		row: make([]float64, d), parts: make([][]CentreSet, cfg.MaxK-cfg.MinK+1)}
 	for j, sc := range probe.Scale {
 		if !(sc > 0) || math.IsInf(sc, 0) {
