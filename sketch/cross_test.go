@@ -128,12 +128,19 @@ func crossHeldRowsReachReaders(t *testing.T, d int) {
 	}
 }
 
-// TestCrossStride: the rows held for the covariance are at least their width apart, by at most
-// 15 values more, and 64 bytes times an odd number apart, so that consecutive rows start in
-// different sets of the cache (a stride of 4 KiB put a 512-column block's rows in the same few).
+// TestCrossStride: from paddedFrom columns the rows held for the covariance are at least their
+// width apart, by at most 15 values more, and 64 bytes times an odd number apart, so that
+// consecutive rows start in different sets of the cache (a stride of 4 KiB put a 512-column
+// block's rows in the same few); narrower rows are their width apart.
 func TestCrossStride(t *testing.T) {
 	for d := 1; d <= 2048; d++ {
 		ld := crossStride(d)
+		if d < paddedFrom {
+			if ld != d {
+				t.Fatalf("crossStride(%d) = %d, want %d", d, ld, d)
+			}
+			continue
+		}
 		if ld < d || ld > d+15 || (ld*8/64)%2 != 1 || ld*8%64 != 0 {
 			t.Fatalf("crossStride(%d) = %d: want d..d+15, 64 bytes times an odd number", d, ld)
 		}

@@ -238,12 +238,21 @@ func (c *Cross) add(dx []float64, ld, rows int) {
 	}
 }
 
-// crossStride is how many values apart Sketch keeps the rows it holds for Cross.add: at least d,
-// and 64 bytes times an odd number, so that a block's rows fall in different sets of the cache
-// (see lanes.SyrkUpper).
+// crossStride is how many values apart Sketch keeps the rows it holds for Cross.add: from
+// paddedFrom columns, 64 bytes times an odd number (at least d, at most d+15), so that a block's
+// rows fall in different sets of the cache (see lanes.SyrkUpper); below it, d: narrower rows lie
+// in a few consecutive lines, and padding them would multiply the buffer (four times at two
+// columns).
 func crossStride(d int) int {
+	if d < paddedFrom {
+		return d
+	}
 	return d + (24-d%16)%16
 }
+
+// paddedFrom is the width from which crossStride pads the rows: at 512 bytes a row, 32 rows span
+// 16 KiB, and rows a power of two apart from there fall in ever fewer cache sets.
+const paddedFrom = 64
 
 // rebase moves c to shift a and units b, b ≥ c.Unit column by column:
 //
