@@ -146,3 +146,59 @@ func TestCrossStride(t *testing.T) {
 		}
 	}
 }
+
+// TestStepsSplitSameBits: from concurrentCrossFrom columns flush shares the k's mini-batch steps
+// between two goroutines; the sketch encodes to the same bytes as one whose steps all run on one,
+// in order, and every k's step saw rows.
+func TestStepsSplitSameBits(t *testing.T) {
+	d := concurrentCrossFrom
+	rng := rand.New(rand.NewPCG(16, 4))
+	x, _ := blobs(rng, 3000, d, []float64{1, 4, 9}, 1)
+	cfg := Config{Columns: columns(d), MaxK: 6, ExpectedRows: 3000, MiniBatchSize: 128, MiniBatchRows: 3000, Seed: 2}
+	build := func(goroutines int) (*Sketch, []byte) {
+		s, err := New(cfg, probeOf(t, x, d, 6))
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(s.steps) != 2 {
+			t.Fatalf("%d columns: %d step goroutines, want 2", d, len(s.steps))
+		}
+		s.steps = s.steps[:goroutines]
+		s.Add(x)
+		var buf bytes.Buffer
+		if err := s.Encode(&buf); err != nil {
+			t.Fatal(err)
+		}
+		return s, buf.Bytes()
+	}
+	one, want := build(1)
+	_, got := build(2)
+	if !bytes.Equal(got, want) {
+		t.Fatal("the sketch with its steps on two goroutines encodes differently from one on one")
+	}
+	for i, ps := range one.parts {
+		total := 0.0
+		for _, p := range ps {
+			for _, c := range p.Counts {
+				total += c
+			}
+		}
+		if total == 0 {
+			t.Fatalf("k=%d: no row reached the mini-batch step", cfg.MinK+i)
+		}
+	}
+}
+
+// TestHalfTriangle: halfTriangle's row splits a d×d upper triangle's elements in half, give or
+// take half of the row it starts at (no split is nearer), so flushShared's two cross-product
+// tasks take about the same time.
+func TestHalfTriangle(t *testing.T) {
+	for d := 1; d <= 4096; d++ {
+		j := halfTriangle(d)
+		below := d*j - j*(j-1)/2
+		total := d * (d + 1) / 2
+		if off := math.Abs(float64(below) - float64(total)/2); j < 0 || j >= d || off > float64(d-j)/2 {
+			t.Fatalf("d=%d: halfTriangle = %d, rows below it hold %d of %d", d, j, below, total)
+		}
+	}
+}

@@ -285,8 +285,8 @@ func (d *dec) sketch() (*Sketch, error) {
 	ks := int64(c.MaxK - c.MinK + 1)
 	centres := ks * int64(c.MinK+c.MaxK) / 2 * int64(dim+1) * 8
 	// The mini-batch buffer holds each row twice (probe-scaled, and for the covariance
-	// crossStride apart) and a label.
-	buf := int64(c.MiniBatchSize) * int64((dim+crossStride(dim))*8+4)
+	// crossStride apart) and a label for each goroutine of the steps.
+	buf := int64(c.MiniBatchSize) * int64((dim+crossStride(dim))*8+4*stepGoroutines(dim))
 	if centres+buf > max(maxStateBytes, 16*int64(len(d.b))) {
 		return nil, fmt.Errorf("k range %d..%d and mini-batch size %d with %d columns need %d bytes, more than the file justifies",
 			c.MinK, c.MaxK, c.MiniBatchSize, dim, centres+buf)

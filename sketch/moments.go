@@ -222,6 +222,12 @@ func newCross(shift, unit []float64) Cross {
 // sum, as a row-by-row axpy update gives them, so C has the same bits whatever the blocks and the
 // stride.
 func (c *Cross) add(dx []float64, ld, rows int) {
+	c.addSums(dx, ld, rows)
+	c.addTriangle(dx, ld, rows, 0, len(c.S1))
+}
+
+// addSums adds the rows to N and S1, the part of add outside the triangle.
+func (c *Cross) addSums(dx []float64, ld, rows int) {
 	d := len(c.S1)
 	if d == 0 || rows == 0 {
 		return
@@ -232,10 +238,23 @@ func (c *Cross) add(dx []float64, ld, rows int) {
 			c.S1[j] += a
 		}
 	}
-	for lo := 0; lo < rows; lo += crossBlock {
-		hi := min(rows, lo+crossBlock)
-		lanes.SyrkUpper(c.C, dx[lo*ld:], d, ld, hi-lo)
+}
+
+// addTriangle adds the rows' products to the triangle's rows lo ≤ j < hi alone (see add; the
+// same bits, and no other element touched).
+func (c *Cross) addTriangle(dx []float64, ld, rows, lo, hi int) {
+	d := len(c.S1)
+	for r := 0; r < rows; r += crossBlock {
+		lanes.SyrkUpperRows(c.C, dx[r*ld:], d, ld, min(rows-r, crossBlock), lo, hi)
 	}
+}
+
+// halfTriangle returns the row j of a d×d upper triangle that splits its elements nearest to half:
+// rows 0..j−1 hold d·j − j(j−1)/2 of the d(d+1)/2, half of them at the root
+// j = ((2d+1) − √((2d+1)² − 2d(d+1)))/2, rounded.
+func halfTriangle(d int) int {
+	b := float64(2*d + 1)
+	return int(math.Round((b - math.Sqrt(b*b-2*float64(d)*float64(d+1))) / 2))
 }
 
 // crossStride is how many values apart Sketch keeps the rows it holds for Cross.add: from

@@ -32,11 +32,13 @@ func HeldBytes(cfg Config, d, batchRows int) int64 {
 	reservoirs := int64(float64(int64(cfg.CoresetSize+1)*row+int64(cfg.SampleSize)*row) * growthSlack)
 	sumK := int64(cfg.MaxK+cfg.MinK) * int64(cfg.MaxK-cfg.MinK+1) / 2
 	// The rows held for a mini-batch step, probe-scaled and again in the covariance's units, and
-	// their labels.
-	miniBatch := int64(cfg.MiniBatchSize)*((D+int64(crossStride(d)))*8+4) + sumK*(D+1)*8
-	// The assignment's scratch, shared by every k: norms, the centres in groups of four, two dot
-	// products per centre.
-	assigner := int64(cfg.MaxK) * (D + 3) * 8
+	// their labels (one set per goroutine of the steps).
+	steps := int64(stepGoroutines(d))
+	miniBatch := int64(cfg.MiniBatchSize)*((D+int64(crossStride(d)))*8+4*steps) + sumK*(D+1)*8
+	// The assignment's scratch, shared by every k, one per goroutine of the steps: norms, the
+	// centres in groups of four (the last filled up) and a padded copy, two dot products per
+	// centre, and one row's difference from its centre.
+	assigner := steps * ((int64(cfg.MaxK)+3)*(2*D+3)*8 + D*8)
 	cross := D*D*8 + D*8
 	moments := 6 * D * 8
 	buffers := int64(batchRows)*8 + 4*D*8 // norm2, row, probe centre, scale and inverse scale

@@ -7,6 +7,7 @@ import (
 	"math/rand/v2"
 	"slices"
 	"sync"
+	"sync/atomic"
 
 	"github.com/kgauge/kgauge/internal/kmeans"
 )
@@ -133,8 +134,9 @@ type Sketch struct {
 	// crossRows is how many of the buffered rows are already in the covariance estimate (Cross
 	// adds them without running the mini-batch step early).
 	crossRows int
-	labels    []int32
-	assign    kmeans.Assigner // the mini-batch assignment's scratch, shared by every k
+	// steps holds the mini-batch assignment's scratch (labels and kmeans.Assigner), shared by
+	// every k: one, and from concurrentCrossFrom columns a second for flush's other goroutine.
+	steps []stepScratch
 
 	// Buffers of AddColumns and Add.
 	norm2    []float64   // per row of a batch, Σ_j (x_j − shift_j)² / scale_j²
@@ -165,7 +167,7 @@ func New(cfg Config, probe Probe) (*Sketch, error) {
 		probeCentre: slices.Clone(probe.Center), inv: make([]float64, d), scale: slices.Clone(probe.Scale),
 		meanSq:  probe.MeanSq,
 		coreset: newTopK(cfg.CoresetSize+1, d, cfg.ExpectedRows), sample: newTopK(cfg.SampleSize, d, cfg.ExpectedRows),
-		mbBuf: make([]float64, cfg.MiniBatchSize*d), labels: make([]int32, cfg.MiniBatchSize),
+		mbBuf: make([]float64, cfg.MiniBatchSize*d), steps: make([]stepScratch, stepGoroutines(d)),
 		dxBuf: make([]float64, cfg.MiniBatchSize*crossStride(d)), dxLd: crossStride(d),
 		row: make([]float64, d), parts: make([][]CentreSet, cfg.MaxK-cfg.MinK+1)}
 	for j, sc := range probe.Scale {
@@ -183,6 +185,9 @@ func New(cfg Config, probe Probe) (*Sketch, error) {
 	s.rate = unknownRowsRate
 	if cfg.ExpectedRows > 0 {
 		s.rate = math.Min(1, float64(cfg.MiniBatchRows)/float64(cfg.ExpectedRows))
+	}
+	for i := range s.steps {
+		s.steps[i].labels = make([]int32, cfg.MiniBatchSize)
 	}
 	for k := cfg.MinK; k <= cfg.MaxK; k++ {
 		init, ok := probe.Init[k]
@@ -357,27 +362,44 @@ func (s *Sketch) feed(x []float64) {
 	}
 }
 
-// concurrentCrossFrom is the width from which flush adds the cross-products on a goroutine of
-// their own. Per row at k = 1..20 (BenchmarkCrossAdd, and the mini-batch steps alone): 16 columns
-// 0.09 against 1.2 µs, 64 columns 0.65 against 3.0 µs, 512 columns 27–29 against about 20 µs
-// (with Dsyrk; lanes.SyrkUpper then made the cross-products 2–3× faster at 16 and 64 columns).
-// Below it the gain is small and the goroutine would be the steady state's only allocation.
+// concurrentCrossFrom is the width from which flush works on two goroutines. Per row at k =
+// 1..20 (BenchmarkCrossAdd, and the mini-batch steps alone): 16 columns 0.09 against 1.2 µs, 64
+// columns 0.65 against 3.0 µs, 512 columns 27–29 against about 20 µs (with Dsyrk; lanes.SyrkUpper
+// then made the cross-products 2–3× faster at 16 and 64 columns, and 1.8× at 512 with
+// crossStride). Below it the gain is small and the goroutine would be the steady state's only
+// allocation.
 const concurrentCrossFrom = 64
 
+// stepScratch is one goroutine's scratch for the mini-batch steps: the batch's labels, the
+// assignment's buffers and one row's difference from its centre.
+type stepScratch struct {
+	labels []int32
+	assign kmeans.Assigner
+	diff   []float64
+}
+
+// stepGoroutines is the number of goroutines flush runs the mini-batch steps on at width d.
+func stepGoroutines(d int) int {
+	if d >= concurrentCrossFrom {
+		return 2
+	}
+	return 1
+}
+
 // flush runs a mini-batch step on the buffered rows and adds their cross-products to the
-// covariance estimate; from concurrentCrossFrom columns, beside the step on another goroutine.
-// The two touch different state, so each gives the bits it would alone; on a worker with a core
-// to spare (a file of one row group, or the end of a pass) the wide pass then takes the longer of
-// the two instead of their sum (DEVELOPERS.md, issue 15, "The covariance in blocks of rows").
+// covariance estimate. From concurrentCrossFrom columns it works on two goroutines that take
+// tasks from one counter, the longest first: the cross-products in two halves of the triangle
+// (lanes.SyrkUpperRows; the first half with the column sums), then the k's steps, the largest k
+// first. Each task touches its own state, so every one gives the bits it would alone, whichever
+// goroutine runs it; on a worker with a core to spare (a file of one row group, or the end of a
+// pass) the wide pass takes about half the work's time instead of the sum (DEVELOPERS.md, issue
+// 15, "The covariance in blocks of rows").
 func (s *Sketch) flush() {
 	if s.mbRows == 0 {
 		return
 	}
-	if s.d >= concurrentCrossFrom {
-		var wg sync.WaitGroup
-		wg.Go(s.addCross)
-		s.step()
-		wg.Wait()
+	if len(s.steps) > 1 {
+		s.flushShared()
 	} else {
 		s.addCross()
 		s.step()
@@ -385,11 +407,38 @@ func (s *Sketch) flush() {
 	s.mbRows, s.crossRows = 0, 0
 }
 
+// flushShared is flush on two goroutines (see flush).
+func (s *Sketch) flushShared() {
+	dx, rows := s.dxBuf[s.crossRows*s.dxLd:], s.mbRows-s.crossRows
+	half := halfTriangle(s.d)
+	batch := s.mbBuf[:s.mbRows*s.d]
+	tasks := int64(2 + len(s.mb))
+	var next atomic.Int64
+	run := func(sc *stepScratch) {
+		for t := next.Add(1) - 1; t < tasks; t = next.Add(1) - 1 {
+			switch t {
+			case 0:
+				s.cross.addSums(dx, s.dxLd, rows)
+				s.cross.addTriangle(dx, s.dxLd, rows, 0, half)
+			case 1:
+				s.cross.addTriangle(dx, s.dxLd, rows, half, s.d)
+			default:
+				s.mb[len(s.mb)-1-int(t-2)].update(batch, s.d, sc)
+			}
+		}
+	}
+	var wg sync.WaitGroup
+	wg.Go(func() { run(&s.steps[1]) })
+	run(&s.steps[0])
+	wg.Wait()
+	s.crossRows = s.mbRows
+}
+
 // step runs the mini-batch step of every k on the buffered rows.
 func (s *Sketch) step() {
 	batch := s.mbBuf[:s.mbRows*s.d]
 	for _, m := range s.mb {
-		m.update(batch, s.d, s.labels, &s.assign)
+		m.update(batch, s.d, &s.steps[0])
 	}
 }
 

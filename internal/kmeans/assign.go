@@ -37,11 +37,13 @@ func Assign(x []float64, d int, centres []float64, labels []int32, dist2 []float
 }
 
 // Assigner is a reusable scratch for Assign that never allocates after the first call with a
-// given k and d. Where the machine has AVX2 and k ≥ 4 it also keeps the centres in groups of
-// four for lanes.Dots2, which forms the block's dot products four centres at once with the same
-// sums (so the same labels and distances, bit for bit).
+// given k and d. Where the machine has AVX2 it also keeps the centres in groups of four for
+// lanes.Dots2, which forms the block's dot products four centres at once with the same sums (so
+// the same labels and distances, bit for bit); the last group is filled up with copies of the
+// last centre, whose lanes are not read, so that k = 1..3 and the last k mod 4 centres are
+// measured in vector lanes too.
 type Assigner struct {
-	norms, ct, dots []float64
+	norms, ct, dots, pad []float64
 }
 
 // Assign is Assign with the centre norms kept in a.
@@ -50,12 +52,29 @@ func (a *Assigner) Assign(x []float64, d int, centres []float64, labels []int32,
 		panic("kmeans: Assign: length not a multiple of d")
 	}
 	k := len(centres) / d
+	if k == 1 && dist2 == nil && labels != nil {
+		clear(labels[:len(x)/d]) // one centre: every label is 0, and no distance is asked for
+		return
+	}
 	if cap(a.norms) < k {
 		a.norms = make([]float64, k)
 	}
 	var ct, dots []float64
-	if groups := k / 4; lanes.Vector && groups > 0 && len(x) >= 2*d {
-		a.ct = lanes.Group(a.ct, centres, groups, d)
+	if groups := (k + 3) / 4; lanes.Vector && k > 0 && len(x) >= 2*d {
+		rows := centres
+		if k%4 != 0 {
+			if cap(a.pad) < 4*groups*d {
+				a.pad = make([]float64, 4*groups*d)
+			}
+			a.pad = a.pad[:4*groups*d]
+			copy(a.pad, centres)
+			last := centres[(k-1)*d:]
+			for r := k; r < 4*groups; r++ {
+				copy(a.pad[r*d:(r+1)*d], last)
+			}
+			rows = a.pad
+		}
+		a.ct = lanes.Group(a.ct, rows, groups, d)
 		if cap(a.dots) < 8*groups {
 			a.dots = make([]float64, 8*groups)
 		}
@@ -64,8 +83,10 @@ func (a *Assigner) Assign(x []float64, d int, centres []float64, labels []int32,
 	assignWith(x, d, centres, a.norms[:k], labels, dist2, ct, dots)
 }
 
-// assignWith is Assign with the norms' scratch, and, when ct is not nil, the first 4·⌊k/4⌋
-// centres grouped (lanes.Group) and a scratch of 8·⌊k/4⌋ for lanes.Dots2.
+// assignWith is Assign with the norms' scratch, and, when ct is not nil, the first 4·g centres
+// grouped (lanes.Group; g = len(dots)/8, and rows past the k-th are read by no one) and a scratch
+// of 8·g for lanes.Dots2. A point's squared norm moves its distance, not its label, so it is
+// summed only when dist2 is asked for.
 func assignWith(x []float64, d int, centres, norms []float64, labels []int32, dist2 []float64, ct, dots []float64) {
 	n := len(x) / d
 	k := len(centres) / d
@@ -94,9 +115,11 @@ func assignWith(x []float64, d int, centres, norms []float64, labels []int32, di
 		x0 := x[i*d : (i+1)*d : (i+1)*d]
 		x1 := x[(i+1)*d : (i+2)*d : (i+2)*d]
 		nx0, nx1 := 0.0, 0.0
-		for t := range x0 {
-			nx0 += x0[t] * x0[t]
-			nx1 += x1[t] * x1[t]
+		if dist2 != nil {
+			for t := range x0 {
+				nx0 += x0[t] * x0[t]
+				nx1 += x1[t] * x1[t]
+			}
 		}
 		best0, best1 := 0, 0
 		bd0, bd1 := math.Inf(1), math.Inf(1)
@@ -105,7 +128,7 @@ func assignWith(x []float64, d int, centres, norms []float64, labels []int32, di
 			groups := len(dots) / 8
 			lanes.Dots2(x0, x1, ct, groups, dots)
 			for g := range groups {
-				for s := 0; s < 4; s++ {
+				for s := 0; s < 4 && 4*g+s < k; s++ {
 					q0, q1 := norms[4*g+s]-2*dots[8*g+s], norms[4*g+s]-2*dots[8*g+4+s]
 					if q0 < bd0 {
 						bd0, best0 = q0, 4*g+s
@@ -115,7 +138,7 @@ func assignWith(x []float64, d int, centres, norms []float64, labels []int32, di
 					}
 				}
 			}
-			j = 4 * groups
+			j = min(4*groups, k)
 		}
 		for ; j+3 < k; j += 4 {
 			c0 := centres[j*d : (j+1)*d : (j+1)*d]
@@ -186,8 +209,10 @@ func assignWith(x []float64, d int, centres, norms []float64, labels []int32, di
 	for ; i < n; i++ {
 		x0 := x[i*d : (i+1)*d : (i+1)*d]
 		nx := 0.0
-		for _, u := range x0 {
-			nx += u * u
+		if dist2 != nil {
+			for _, u := range x0 {
+				nx += u * u
+			}
 		}
 		best, bd := 0, 0.0
 		for j := 0; j < k; j++ {

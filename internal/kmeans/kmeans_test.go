@@ -4,6 +4,7 @@ import (
 	"math"
 	"math/rand/v2"
 	"reflect"
+	"slices"
 	"testing"
 
 	"github.com/kgauge/kgauge/internal/kmeans"
@@ -38,7 +39,7 @@ func naiveAssign(x []float64, d int, c []float64) ([]int32, []float64) {
 func TestAssignMatchesNaive(t *testing.T) {
 	tests := []struct{ n, d, k int }{
 		{1, 1, 1}, {2, 1, 2}, {7, 3, 3}, {9, 2, 4}, {33, 16, 5}, {100, 16, 9}, {101, 5, 20}, {64, 40, 13},
-		{50, 7, 16}, {51, 64, 37}, {3, 9, 8},
+		{50, 7, 16}, {51, 64, 37}, {3, 9, 8}, {10, 8, 1}, {12, 64, 2}, {11, 16, 6}, {40, 33, 7},
 	}
 	var reused kmeans.Assigner
 	for _, tc := range tests {
@@ -62,8 +63,9 @@ func TestAssignMatchesNaive(t *testing.T) {
 		}
 		// nil outputs must be accepted.
 		kmeans.Assign(x, tc.d, c, nil, nil)
-		// The Assigner (grouped centres and lanes.Dots2 where the machine has AVX2 and k ≥ 4)
-		// gives Assign's labels and distances bit for bit, also when reused across k and d.
+		// The Assigner (grouped centres, the last group filled up, and lanes.Dots2 where the
+		// machine has AVX2) gives Assign's labels and distances bit for bit, also when reused
+		// across k and d, and the same labels when no distance is asked for.
 		lab2 := make([]int32, tc.n)
 		d22 := make([]float64, tc.n)
 		reused.Assign(x, tc.d, c, lab2, d22)
@@ -71,6 +73,14 @@ func TestAssignMatchesNaive(t *testing.T) {
 			if lab2[i] != lab[i] || math.Float64bits(d22[i]) != math.Float64bits(d2[i]) {
 				t.Fatalf("n=%d d=%d k=%d: Assigner gives (%d, %v) at %d, Assign (%d, %v)", tc.n, tc.d, tc.k, lab2[i], d22[i], i, lab[i], d2[i])
 			}
+		}
+		lab3 := make([]int32, tc.n)
+		for i := range lab3 {
+			lab3[i] = -1
+		}
+		reused.Assign(x, tc.d, c, lab3, nil)
+		if !slices.Equal(lab3, lab) {
+			t.Fatalf("n=%d d=%d k=%d: Assigner's labels without distances %v, Assign's %v", tc.n, tc.d, tc.k, lab3, lab)
 		}
 	}
 }

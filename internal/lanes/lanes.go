@@ -240,13 +240,24 @@ func nearest2Go(x, ct []float64, groups int) (best int, d1, d2 float64) {
 // blocks of rows"). It panics when lda < d, or c holds fewer than d·d values or a fewer than the
 // rows.
 func SyrkUpper(c, a []float64, d, lda, rows int) {
+	SyrkUpperRows(c, a, d, lda, rows, 0, d)
+}
+
+// SyrkUpperRows is SyrkUpper for the rows lo ≤ j < hi of the triangle alone: the elements
+// c[d·j + m], j ≤ m < d, get the same bits as from SyrkUpper, and no other element is touched, so
+// goroutines may share one update between them by rows. It panics as SyrkUpper does, or when lo
+// and hi are not a range within 0..d.
+func SyrkUpperRows(c, a []float64, d, lda, rows, lo, hi int) {
 	if rows == 0 {
 		return
 	}
 	if lda < d || len(c) < d*d || len(a) < (rows-1)*lda+d {
 		panic("lanes: SyrkUpper: c or a too short")
 	}
-	for j := range d {
+	if lo < 0 || hi > d || lo > hi {
+		panic("lanes: SyrkUpperRows: rows out of range")
+	}
+	for j := lo; j < hi; j++ {
 		syrkRow(c[d*j+j:d*j+d], a[j:], lda, rows)
 	}
 }

@@ -105,6 +105,8 @@ func TestShortBuffers(t *testing.T) {
 		"SyrkUpper c":       func() { SyrkUpper(make([]float64, 8), make([]float64, 3), 3, 3, 1) },
 		"SyrkUpper a":       func() { SyrkUpper(make([]float64, 9), make([]float64, 6), 3, 4, 2) },
 		"SyrkUpper lda":     func() { SyrkUpper(make([]float64, 9), make([]float64, 6), 3, 2, 2) },
+		"SyrkUpperRows hi":  func() { SyrkUpperRows(make([]float64, 9), make([]float64, 6), 3, 3, 2, 0, 4) },
+		"SyrkUpperRows lo":  func() { SyrkUpperRows(make([]float64, 9), make([]float64, 6), 3, 3, 2, 2, 1) },
 		"Dots2 out":         func() { Dots2(make([]float64, 2), make([]float64, 2), make([]float64, 8), 1, make([]float64, 7)) },
 		"WeightedRootSums x": func() {
 			var o [4]float64
@@ -338,6 +340,22 @@ func TestSyrkUpperMatchesDsyrk(t *testing.T) {
 						if math.Float64bits(got[i]) != math.Float64bits(want[i]) {
 							t.Fatalf("d=%d rows=%d scale %g go %v: c[%d] = %v, Dsyrk %v", d, rows, sc, viaGo, i, got[i], want[i])
 						}
+					}
+				}
+				// SyrkUpperRows: the triangle's rows below a split, then from it, give Dsyrk's bits,
+				// and one range leaves every element outside its rows as it was.
+				split := rng.IntN(d + 1)
+				got := slices.Clone(start)
+				SyrkUpperRows(got, a, d, lda, rows, 0, split)
+				for i := range got {
+					if j := i / d; j >= split && math.Float64bits(got[i]) != math.Float64bits(start[i]) {
+						t.Fatalf("d=%d rows=%d: SyrkUpperRows(0, %d) changed c[%d] of row %d", d, rows, split, i, j)
+					}
+				}
+				SyrkUpperRows(got, a, d, lda, rows, split, d)
+				for i := range want {
+					if math.Float64bits(got[i]) != math.Float64bits(want[i]) {
+						t.Fatalf("d=%d rows=%d split %d: c[%d] = %v, Dsyrk %v", d, rows, split, i, got[i], want[i])
 					}
 				}
 			}
