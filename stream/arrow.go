@@ -101,6 +101,8 @@ type arrowSource struct {
 	pos  int          // next row of rec
 	rd   *ipc.Reader  // stream reader, nil for a file unit
 	done bool
+
+	block []float64 // vectorColumns: transposeRows rows of a vector column
 }
 
 // resolve maps the selected columns to field indexes of schema and checks
@@ -232,7 +234,10 @@ func (s *arrowSource) fill(dst []float64, bad []uint8, rows int) (int, error) {
 		s.at = col.out
 		arr := s.rec.Column(s.field[c])
 		if col.width > 0 {
-			err := putVector(col, arr, s.pos, m, bad, func(r, j int, v float64) { dst[r*d+col.out+j] = v })
+			v, err := newArrowVector(col, arr)
+			if err == nil {
+				err = v.rows(s.pos, m, bad, func(r int) []float64 { return dst[r*d+col.out : r*d+col.out+col.width] })
+			}
 			if err != nil {
 				return 0, err
 			}
@@ -260,11 +265,11 @@ func (s *arrowSource) fillColumns(cols, scratch [][]float64, bad []uint8, rows i
 		arr := s.rec.Column(s.field[c])
 		o := col.out
 		if col.width > 0 {
-			for j := range col.width {
-				cols[o+j] = scratch[o+j][:m]
+			out := cols[o : o+col.width]
+			for j := range out {
+				out[j] = scratch[o+j][:m]
 			}
-			err := putVector(col, arr, s.pos, m, bad, func(r, j int, v float64) { cols[o+j][r] = v })
-			if err != nil {
+			if err := s.vectorColumns(col, arr, out, bad, m); err != nil {
 				return 0, err
 			}
 			continue
@@ -282,6 +287,33 @@ func (s *arrowSource) fillColumns(cols, scratch [][]float64, bad []uint8, rows i
 	}
 	s.pos += m
 	return m, nil
+}
+
+// vectorColumns copies the next m rows of the vector column col (array arr) into out, one slice
+// per value of a row, transposeRows rows at a time (see transposeRows).
+func (s *arrowSource) vectorColumns(col arrowColumn, arr arrow.Array, out [][]float64, bad []uint8, m int) error {
+	v, err := newArrowVector(col, arr)
+	if err != nil {
+		return err
+	}
+	w := col.width
+	if cap(s.block) < transposeRows*w {
+		s.block = make([]float64, transposeRows*w)
+	}
+	block := s.block[:transposeRows*w]
+	for r0 := 0; r0 < m; r0 += transposeRows {
+		n := min(transposeRows, m-r0)
+		err := v.rows(s.pos+r0, n, bad[r0:], func(b int) []float64 { return block[b*w : (b+1)*w] })
+		if err != nil {
+			var ce *colError
+			if errors.As(err, &ce) && ce.row >= 0 {
+				ce.row += int64(r0) // rows count from the batch's first
+			}
+			return err
+		}
+		transposeInto(out, r0, block, w, n)
+	}
+	return nil
 }
 
 // put copies rows [p, p+m) of arr to dst[o], dst[o+d], ...

@@ -10,6 +10,7 @@ import (
 	"os"
 	"path/filepath"
 	"strings"
+	"sync"
 )
 
 // FileKey returns the identity of the local file at path, following symbolic links: its device
@@ -99,7 +100,7 @@ func ContentID(f File) (string, error) {
 // Screen reads the footer or schema of every file as [Open] does and returns the files that
 // opened and, for the others, why not. It lets a caller skip unreadable files before Open.
 func Screen(files []File) (ok []File, bad []Skipped) {
-	d := &Dataset{Files: append([]File(nil), files...), files: make([]openFile, len(files))}
+	d := &Dataset{Files: append([]File(nil), files...), files: make([]openFile, len(files)), columns: new(sync.Pool)}
 	for i, f := range files {
 		if _, err := d.openFile(i, f); err != nil {
 			var re *ReadError

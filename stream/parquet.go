@@ -482,16 +482,12 @@ func (s *pqSource) fillColumns(cols, scratch [][]float64, bad []uint8, rows int)
 	for i := range s.vecs {
 		v := &s.vecs[i]
 		s.at = v.plan.out
-		for j := range v.plan.width {
-			cols[v.plan.out+j] = scratch[v.plan.out+j][:m]
+		out := cols[v.plan.out : v.plan.out+v.plan.width]
+		for j := range out {
+			out[j] = scratch[v.plan.out+j][:m]
 		}
-		for r := 0; r < m; r++ {
-			if err := v.fillRow(bad, r); err != nil {
-				return 0, err
-			}
-			for j, x := range v.buf {
-				cols[v.plan.out+j][r] = x
-			}
+		if err := v.fillColumns(out, bad, m); err != nil {
+			return 0, err
 		}
 	}
 	for i := range s.cols {

@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"sync"
 )
 
 // source is one unit's decoder: Parquet row group or Arrow record batches.
@@ -50,6 +51,7 @@ type UnitReader struct {
 	bad      []uint8
 	cols     [][]float64 // ReadColumns: the columns returned
 	scratch  [][]float64 // ReadColumns: per column, converted or compacted values
+	columns  *sync.Pool  // the Dataset's pool of scratch sets, taken from and given back on Close
 	err      error       // sticky: io.EOF or the first failure
 }
 
@@ -73,7 +75,7 @@ func (d *Dataset) OpenUnit(u Unit) (r *UnitReader, err error) {
 	if err != nil {
 		return nil, &ReadError{File: f.Path, Unit: u.Index, Row: -1, Err: pathCause(err)}
 	}
-	r = &UnitReader{path: f.Path, unit: u.Index, d: d.Dims(), fh: fh}
+	r = &UnitReader{path: f.Path, unit: u.Index, d: d.Dims(), fh: fh, columns: d.columns}
 	switch f.Format {
 	case Parquet:
 		r.src, err = d.openParquetUnit(of, u, fh)
@@ -157,6 +159,17 @@ func (r *UnitReader) Read(dst []float64) (n int, err error) {
 	}
 }
 
+// takeColumns returns a set of per-column buffers for ReadColumns: one a closed reader of the same
+// Dataset gave back, or a new one.
+func (r *UnitReader) takeColumns() [][]float64 {
+	if r.columns != nil {
+		if sc, ok := r.columns.Get().(*[][]float64); ok && len(*sc) == r.d {
+			return *sc
+		}
+	}
+	return make([][]float64, r.d)
+}
+
 // ReadColumns reads up to max rows (max > 0) by column: cols[c] holds the values of the c-th selected
 // column, all of the same length n > 0. The slices may alias the decoded pages or record batches
 // (float64 columns without nulls are not copied), stay valid until the next call on r or Close, and
@@ -177,7 +190,7 @@ func (r *UnitReader) ReadColumns(max int) (cols [][]float64, err error) {
 		}
 	}()
 	if r.cols == nil {
-		r.cols, r.scratch = make([][]float64, r.d), make([][]float64, r.d)
+		r.cols, r.scratch = make([][]float64, r.d), r.takeColumns()
 		r.nulls = make([]int64, r.d)
 	}
 	if cap(r.bad) < max {
@@ -248,6 +261,11 @@ func (r *UnitReader) SkippedByColumn() []int64 { return r.nulls }
 func (r *UnitReader) Close() error {
 	if r.src == nil && r.fh == nil {
 		return nil
+	}
+	if r.scratch != nil && r.columns != nil {
+		sc := r.scratch
+		r.columns.Put(&sc)
+		r.cols, r.scratch = nil, nil
 	}
 	var err error
 	if r.src != nil {

@@ -96,6 +96,7 @@ type pqVector struct {
 	dictF64 []float64
 	scratch []float64
 	buf     []float64 // the row's values, len plan.width (nil while peeking)
+	block   []float64 // fillColumns: transposeRows rows of buf
 }
 
 // next loads the next page holding levels; it returns io.EOF at the end of the column chunk.
@@ -255,6 +256,32 @@ func (v *pqVector) fillRow(bad []uint8, r int) error {
 		return &colError{col: v.plan.out + inf, row: int64(r), err: ErrInfinite}
 	case isBad:
 		bad[r] = 1
+	}
+	return nil
+}
+
+// transposeRows is how many rows pqVector.fillColumns reads before it writes them into the
+// columns: one 64-byte line of float64 in each column, so that writing a row's values, one to each
+// of many columns, does not touch a line per value.
+const transposeRows = 8
+
+// fillColumns reads the next m rows into out (one slice of at least m values per value of a row),
+// as fillRow would one by one, transposeRows rows at a time.
+func (v *pqVector) fillColumns(out [][]float64, bad []uint8, m int) error {
+	w := v.plan.width
+	if cap(v.block) < transposeRows*w {
+		v.block = make([]float64, transposeRows*w)
+	}
+	block := v.block[:transposeRows*w]
+	for r0 := 0; r0 < m; r0 += transposeRows {
+		n := min(transposeRows, m-r0)
+		for b := range n {
+			if err := v.fillRow(bad, r0+b); err != nil {
+				return err
+			}
+			copy(block[b*w:(b+1)*w], v.buf)
+		}
+		transposeInto(out, r0, block, w, n)
 	}
 	return nil
 }
@@ -431,63 +458,111 @@ func (d *Dataset) arrowVectorWidth(i int, col arrowColumn) (width int, err error
 	return 0, errors.New("the column holds only null or empty lists")
 }
 
-// putVector copies rows [p, p+m) of the Arrow list array arr, a vector column, through set(r, j,
-// value): a null list or element marks the row bad (its values NaN), a list of another length or a
-// ±Inf value is a *colError.
-func putVector(col arrowColumn, arr arrow.Array, p, m int, bad []uint8, set func(r, j int, v float64)) error {
+// arrowVector reads the rows of an Arrow list array, a vector column of col.width values.
+type arrowVector struct {
+	col arrowColumn
+	la  array.ListLike
+	f64 []float64 // the list values, one of the two
+	f32 []float32
+	nul arrow.Array // the list values' array, asked for nulls when it has any (else nil)
+}
+
+// newArrowVector checks that arr is a list of float32 or float64 values.
+func newArrowVector(col arrowColumn, arr arrow.Array) (*arrowVector, error) {
 	la, ok := arr.(array.ListLike)
 	if !ok {
-		return &colError{col: col.out, row: -1, err: fmt.Errorf("unexpected Arrow array %T for a list column", arr), name: col.name}
+		return nil, &colError{col: col.out, row: -1, err: fmt.Errorf("unexpected Arrow array %T for a list column", arr), name: col.name}
 	}
-	var get func(i int) float64
-	switch v := la.ListValues().(type) {
+	v := &arrowVector{col: col, la: la}
+	switch vals := la.ListValues().(type) {
 	case *array.Float64:
-		get = func(i int) float64 {
-			if v.IsNull(i) {
-				return nan
-			}
-			return v.Value(i)
-		}
+		v.f64 = vals.Float64Values()
 	case *array.Float32:
-		get = func(i int) float64 {
-			if v.IsNull(i) {
-				return nan
-			}
-			return float64(v.Value(i))
-		}
+		v.f32 = vals.Float32Values()
 	default:
-		return &colError{col: col.out, row: -1, err: fmt.Errorf("list of %s, not of float32 or float64", v.DataType()), name: col.name}
+		return nil, &colError{col: col.out, row: -1, err: fmt.Errorf("list of %s, not of float32 or float64", vals.DataType()), name: col.name}
 	}
-	for r := 0; r < m; r++ {
-		if arr.IsNull(p + r) {
+	if la.ListValues().NullN() > 0 {
+		v.nul = la.ListValues()
+	}
+	return v, nil
+}
+
+// row copies row i of the array (r of the batch being read, for errors) into dst (col.width
+// values): a null list or element marks the row bad (its values NaN), a list of another length or
+// a ±Inf value is a *colError.
+func (v *arrowVector) row(i, r int, dst []float64) (bad bool, err error) {
+	if v.la.IsNull(i) {
+		for j := range dst {
+			dst[j] = nan
+		}
+		return true, nil
+	}
+	start, end := v.la.ValueOffsets(i)
+	if n := int(end - start); n != len(dst) {
+		if n == 0 {
+			for j := range dst {
+				dst[j] = nan
+			}
+			return true, nil
+		}
+		return false, &colError{col: v.col.out, row: int64(r), name: v.col.name,
+			err: fmt.Errorf("%w: a list of %d values, where the column's lists hold %d", ErrVectorLength, n, len(dst))}
+	}
+	if v.f64 != nil {
+		copy(dst, v.f64[start:end])
+	} else {
+		for j, x := range v.f32[start:end] {
+			dst[j] = float64(x)
+		}
+	}
+	if v.nul != nil {
+		for j := range dst {
+			if v.nul.IsNull(int(start) + j) {
+				dst[j] = nan
+			}
+		}
+	}
+	for j, x := range dst {
+		if x-x != 0 {
+			if x == x {
+				return false, &colError{col: v.col.out + j, row: int64(r), err: ErrInfinite}
+			}
+			bad = true
+		}
+	}
+	return bad, nil
+}
+
+// rows copies rows [p, p+m) of the array through the row buffers next(r) gives (see row), marking
+// bad rows in bad.
+func (v *arrowVector) rows(p, m int, bad []uint8, next func(r int) []float64) error {
+	for r := range m {
+		isBad, err := v.row(p+r, r, next(r))
+		if err != nil {
+			return err
+		}
+		if isBad {
 			bad[r] = 1
-			for j := range col.width {
-				set(r, j, nan)
-			}
-			continue
-		}
-		start, end := la.ValueOffsets(p + r)
-		if n := int(end - start); n != col.width {
-			if n == 0 {
-				bad[r] = 1
-				for j := range col.width {
-					set(r, j, nan)
-				}
-				continue
-			}
-			return &colError{col: col.out, row: int64(r), name: col.name,
-				err: fmt.Errorf("%w: a list of %d values, where the column's lists hold %d", ErrVectorLength, n, col.width)}
-		}
-		for j := range col.width {
-			x := get(int(start) + j)
-			if x-x != 0 {
-				if x == x {
-					return &colError{col: col.out + j, row: int64(r), err: ErrInfinite}
-				}
-				bad[r] = 1
-			}
-			set(r, j, x)
 		}
 	}
 	return nil
+}
+
+// transposeInto writes the n rows of block (w values each) into out: value j of row b to
+// out[j][r0+b].
+func transposeInto(out [][]float64, r0 int, block []float64, w, n int) {
+	if n < transposeRows {
+		for j, col := range out {
+			for b := range n {
+				col[r0+b] = block[b*w+j]
+			}
+		}
+		return
+	}
+	for j, col := range out {
+		c := col[r0 : r0+transposeRows : r0+transposeRows]
+		c[0], c[1], c[2], c[3] = block[j], block[w+j], block[2*w+j], block[3*w+j]
+		c[4], c[5], c[6], c[7] = block[4*w+j], block[5*w+j], block[6*w+j], block[7*w+j]
+	}
 }
