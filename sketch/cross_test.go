@@ -147,9 +147,10 @@ func TestCrossStride(t *testing.T) {
 	}
 }
 
-// TestStepsSplitSameBits: from concurrentCrossFrom columns flush shares the k's mini-batch steps
-// between two goroutines; the sketch encodes to the same bytes as one whose steps all run on one,
-// in order, and every k's step saw rows.
+// TestStepsSplitSameBits: from concurrentCrossFrom columns flush shares the cross-products and
+// the k's mini-batch steps between two goroutines, behind the feed; the sketch encodes to the same
+// bytes as one whose work all runs on one, in order, also when Cross and Check read it while a
+// flush may be running, and every k's step saw rows.
 func TestStepsSplitSameBits(t *testing.T) {
 	d := concurrentCrossFrom
 	rng := rand.New(rand.NewPCG(16, 4))
@@ -164,7 +165,17 @@ func TestStepsSplitSameBits(t *testing.T) {
 			t.Fatalf("%d columns: %d step goroutines, want 2", d, len(s.steps))
 		}
 		s.steps = s.steps[:goroutines]
-		s.Add(x)
+		for lo := 0; lo < 3000; lo += 700 {
+			s.Add(x[lo*d : min(lo+700, 3000)*d])
+			if goroutines > 1 {
+				if c := s.Cross(); c.N != int64(min(lo+700, 3000)) {
+					t.Fatalf("Cross after %d rows: N = %d", min(lo+700, 3000), c.N)
+				}
+				if err := s.Check(); err != nil {
+					t.Fatal(err)
+				}
+			}
+		}
 		var buf bytes.Buffer
 		if err := s.Encode(&buf); err != nil {
 			t.Fatal(err)

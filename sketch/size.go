@@ -31,10 +31,11 @@ func HeldBytes(cfg Config, d, batchRows int) int64 {
 	row := D*8 + reservoirRowBytes
 	reservoirs := int64(float64(int64(cfg.CoresetSize+1)*row+int64(cfg.SampleSize)*row) * growthSlack)
 	sumK := int64(cfg.MaxK+cfg.MinK) * int64(cfg.MaxK-cfg.MinK+1) / 2
-	// The rows held for a mini-batch step, probe-scaled and again in the covariance's units, and
-	// their labels (one set per goroutine of the steps).
+	// The rows held for a mini-batch step, probe-scaled and again in the covariance's units (from
+	// concurrentCrossFrom columns twice: the feed fills one pair while a flush works on the other),
+	// and their labels (one set per goroutine of the steps).
 	steps := int64(stepGoroutines(d))
-	miniBatch := int64(cfg.MiniBatchSize)*((D+int64(crossStride(d)))*8+4*steps) + sumK*(D+1)*8
+	miniBatch := int64(cfg.MiniBatchSize)*((D+int64(crossStride(d)))*8*steps+4*steps) + sumK*(D+1)*8
 	// The assignment's scratch, shared by every k, one per goroutine of the steps: norms, the
 	// centres in groups of four (the last filled up) and a padded copy, two dot products per
 	// centre, and one row's difference from its centre.

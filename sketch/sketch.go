@@ -137,6 +137,12 @@ type Sketch struct {
 	// steps holds the mini-batch assignment's scratch (labels and kmeans.Assigner), shared by
 	// every k: one, and from concurrentCrossFrom columns a second for flush's other goroutine.
 	steps []stepScratch
+	// From concurrentCrossFrom columns a full buffer is worked on behind the feed
+	// (flushBehind): spareMB and spareDX are the other pair of buffers, which the feed fills
+	// meanwhile, and behind counts the work running (busy while it may).
+	spareMB, spareDX []float64
+	behind           sync.WaitGroup
+	busy             bool
 
 	// Buffers of AddColumns and Add.
 	norm2    []float64   // per row of a batch, Σ_j (x_j − shift_j)² / scale_j²
@@ -222,6 +228,7 @@ func (s *Sketch) Moments() Moments {
 
 // Cross returns a copy of the sampled cross-product summary.
 func (s *Sketch) Cross() Cross {
+	s.wait()
 	s.addCross()
 	c := s.cross
 	c.Shift, c.Unit, c.S1, c.C = slices.Clone(c.Shift), slices.Clone(c.Unit), slices.Clone(c.S1), slices.Clone(c.C)
@@ -358,7 +365,36 @@ func (s *Sketch) feed(x []float64) {
 	}
 	s.mbRows++
 	if s.mbRows == s.cfg.MiniBatchSize {
-		s.flush()
+		if len(s.steps) > 1 {
+			s.flushBehind()
+		} else {
+			s.flush()
+		}
+	}
+}
+
+// flushBehind hands the full buffers to a flush on goroutines of their own and lets the feed go
+// on in the spare pair, once the flush before has finished: the steps and cross-products still run
+// one buffer after another, in the rows' order, so the bits are those of flush, and the worker
+// reads and gathers the next rows meanwhile. Every reader of the mini-batch state or the
+// cross-products waits for it first (wait).
+func (s *Sketch) flushBehind() {
+	s.wait()
+	if s.spareMB == nil {
+		s.spareMB, s.spareDX = make([]float64, len(s.mbBuf)), make([]float64, len(s.dxBuf))
+	}
+	mb, dx, rows, crossRows := s.mbBuf, s.dxBuf, s.mbRows, s.crossRows
+	s.mbBuf, s.dxBuf, s.spareMB, s.spareDX = s.spareMB, s.spareDX, mb, dx
+	s.mbRows, s.crossRows = 0, 0
+	s.busy = true
+	s.behind.Go(func() { s.flushShared(mb, dx, rows, crossRows) })
+}
+
+// wait returns once no flush runs behind the feed.
+func (s *Sketch) wait() {
+	if s.busy {
+		s.behind.Wait()
+		s.busy = false
 	}
 }
 
@@ -395,11 +431,12 @@ func stepGoroutines(d int) int {
 // pass) the wide pass takes about half the work's time instead of the sum (DEVELOPERS.md, issue
 // 15, "The covariance in blocks of rows").
 func (s *Sketch) flush() {
+	s.wait()
 	if s.mbRows == 0 {
 		return
 	}
 	if len(s.steps) > 1 {
-		s.flushShared()
+		s.flushShared(s.mbBuf, s.dxBuf, s.mbRows, s.crossRows)
 	} else {
 		s.addCross()
 		s.step()
@@ -407,11 +444,13 @@ func (s *Sketch) flush() {
 	s.mbRows, s.crossRows = 0, 0
 }
 
-// flushShared is flush on two goroutines (see flush).
-func (s *Sketch) flushShared() {
-	dx, rows := s.dxBuf[s.crossRows*s.dxLd:], s.mbRows-s.crossRows
+// flushShared is flush on two goroutines (see flush) of the rows rows in mbBuf and dxBuf, the
+// first crossRows of them already in the covariance estimate.
+func (s *Sketch) flushShared(mbBuf, dxBuf []float64, rows, crossRows int) {
+	dx := dxBuf[crossRows*s.dxLd:]
 	half := halfTriangle(s.d)
-	batch := s.mbBuf[:s.mbRows*s.d]
+	batch := mbBuf[:rows*s.d]
+	rows -= crossRows
 	tasks := int64(2 + len(s.mb))
 	var next atomic.Int64
 	run := func(sc *stepScratch) {
@@ -431,7 +470,6 @@ func (s *Sketch) flushShared() {
 	wg.Go(func() { run(&s.steps[1]) })
 	run(&s.steps[0])
 	wg.Wait()
-	s.crossRows = s.mbRows
 }
 
 // step runs the mini-batch step of every k on the buffered rows.
@@ -544,7 +582,7 @@ func (s *Sketch) CentreSets(k int) []CentreSet {
 
 // SizeBytes estimates the memory held by the sketch's summaries.
 func (s *Sketch) SizeBytes() int64 {
-	n := int64(len(s.coreset.pts)+len(s.sample.pts)+len(s.mbBuf)+len(s.dxBuf)+len(s.cross.C)) * 8
+	n := int64(len(s.coreset.pts)+len(s.sample.pts)+len(s.mbBuf)+len(s.dxBuf)+len(s.spareMB)+len(s.spareDX)+len(s.cross.C)) * 8
 	for _, ps := range s.parts {
 		for _, p := range ps {
 			n += int64(len(p.Centres)+len(p.Counts)) * 8

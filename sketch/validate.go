@@ -28,6 +28,7 @@ const coresetWeightSlack = 64
 // violation is returned as a *[FieldError]. [Decode] calls it; a sketch built by [Sketch.Add] and
 // [Sketch.Merge] from finite rows always passes.
 func (s *Sketch) Check() error {
+	s.wait()
 	return s.check()
 }
 
