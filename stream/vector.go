@@ -468,19 +468,19 @@ type arrowVector struct {
 }
 
 // newArrowVector checks that arr is a list of float32 or float64 values.
-func newArrowVector(col arrowColumn, arr arrow.Array) (*arrowVector, error) {
+func newArrowVector(col arrowColumn, arr arrow.Array) (arrowVector, error) {
 	la, ok := arr.(array.ListLike)
 	if !ok {
-		return nil, &colError{col: col.out, row: -1, err: fmt.Errorf("unexpected Arrow array %T for a list column", arr), name: col.name}
+		return arrowVector{}, &colError{col: col.out, row: -1, err: fmt.Errorf("unexpected Arrow array %T for a list column", arr), name: col.name}
 	}
-	v := &arrowVector{col: col, la: la}
+	v := arrowVector{col: col, la: la}
 	switch vals := la.ListValues().(type) {
 	case *array.Float64:
 		v.f64 = vals.Float64Values()
 	case *array.Float32:
 		v.f32 = vals.Float32Values()
 	default:
-		return nil, &colError{col: col.out, row: -1, err: fmt.Errorf("list of %s, not of float32 or float64", vals.DataType()), name: col.name}
+		return arrowVector{}, &colError{col: col.out, row: -1, err: fmt.Errorf("list of %s, not of float32 or float64", vals.DataType()), name: col.name}
 	}
 	if la.ListValues().NullN() > 0 {
 		v.nul = la.ListValues()

@@ -2,6 +2,7 @@ package stream_test
 
 import (
 	"errors"
+	"io"
 	"math"
 	"math/rand/v2"
 	"os"
@@ -462,5 +463,33 @@ func TestReadColumnsReusesBuffers(t *testing.T) {
 	set := uint64(width * max * 8)
 	if got := after.TotalAlloc - before.TotalAlloc; got > 25*set {
 		t.Fatalf("reading %d batches allocated %d MiB, %.1f sets of the columns' buffers", len(ds.Units), got>>20, float64(got)/float64(set))
+	}
+}
+
+// TestVectorReadAllocs: Read of an Arrow IPC vector column does not allocate per call in steady
+// state (the record batch is decoded once; 10-row reads then copy from it).
+func TestVectorReadAllocs(t *testing.T) {
+	v := newVecData(2000, 16, 12, -1)
+	v.nullList, v.nullElem = map[int]bool{}, map[int]bool{}
+	p := t.TempDir() + "/emb.arrows"
+	v.writeArrowIPC(t, p, false, false)
+	ds, err := openPaths(t, stream.Options{Columns: []string{"id", "emb"}}, p)
+	if err != nil {
+		t.Fatal(err)
+	}
+	r, err := ds.OpenUnit(ds.Units[0])
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer r.Close()
+	buf := make([]float64, 10*ds.Dims())
+	r.Read(buf) // warm up: the first record batch
+	allocs := testing.AllocsPerRun(20, func() {
+		if _, err := r.Read(buf); err != nil && err != io.EOF {
+			t.Fatal(err)
+		}
+	})
+	if allocs > 0.2 {
+		t.Fatalf("Read allocates %.2f times per call, want ~0", allocs)
 	}
 }
