@@ -2,7 +2,6 @@ package stream_test
 
 import (
 	"errors"
-	"io"
 	"math"
 	"math/rand/v2"
 	"os"
@@ -477,19 +476,7 @@ func TestVectorReadAllocs(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	r, err := ds.OpenUnit(ds.Units[0])
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer r.Close()
-	buf := make([]float64, 10*ds.Dims())
-	r.Read(buf) // warm up: the first record batch
-	allocs := testing.AllocsPerRun(20, func() {
-		if _, err := r.Read(buf); err != nil && err != io.EOF {
-			t.Fatal(err)
-		}
-	})
-	if allocs > 0.2 {
+	if allocs := readAllocs(t, ds, 20); allocs > 0.2 {
 		t.Fatalf("Read allocates %.2f times per call, want ~0", allocs)
 	}
 }
