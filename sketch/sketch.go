@@ -447,20 +447,19 @@ func (s *Sketch) flush() {
 // flushShared is flush on two goroutines (see flush) of the rows rows in mbBuf and dxBuf, the
 // first crossRows of them already in the covariance estimate.
 func (s *Sketch) flushShared(mbBuf, dxBuf []float64, rows, crossRows int) {
-	dx := dxBuf[crossRows*s.dxLd:]
-	half := halfTriangle(s.d)
 	batch := mbBuf[:rows*s.d]
-	rows -= crossRows
+	dx, newRows := dxBuf[crossRows*s.dxLd:], rows-crossRows // the rows not yet in the estimate
+	half := halfTriangle(s.d)
 	tasks := int64(2 + len(s.mb))
 	var next atomic.Int64
 	run := func(sc *stepScratch) {
 		for t := next.Add(1) - 1; t < tasks; t = next.Add(1) - 1 {
 			switch t {
 			case 0:
-				s.cross.addSums(dx, s.dxLd, rows)
-				s.cross.addTriangle(dx, s.dxLd, rows, 0, half)
+				s.cross.addSums(dx, s.dxLd, newRows)
+				s.cross.addTriangle(dx, s.dxLd, newRows, 0, half)
 			case 1:
-				s.cross.addTriangle(dx, s.dxLd, rows, half, s.d)
+				s.cross.addTriangle(dx, s.dxLd, newRows, half, s.d)
 			default:
 				s.mb[len(s.mb)-1-int(t-2)].update(batch, s.d, sc)
 			}
