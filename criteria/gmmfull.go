@@ -174,7 +174,7 @@ func (g GMMFull) LogLik(p Points, resp []float64) (float64, error) {
 	if err != nil {
 		return 0, err
 	}
-	return g.logLik(p, comps, resp), nil
+	return g.logLik(p, comps, resp, nil), nil
 }
 
 // ClassEntropy returns the weighted entropy of the mixture's soft classification of p,
@@ -187,11 +187,15 @@ func (g GMMFull) ClassEntropy(p Points) (float64, error) {
 		return 0, err
 	}
 	resp := make([]float64, p.Len()*g.K)
-	g.logLik(p, comps, resp)
+	g.logLik(p, comps, resp, nil)
 	return classEntropy(p, resp, g.K), nil
 }
 
-func (g GMMFull) logLik(p Points, comps []fullComp, resp []float64) float64 {
+// logLik is LogLik with the components prepared. With resp and held not nil (len K), held[j] is
+// set to the points whose responsibility for component j is not zero, in index order: the only
+// points component j's M step adds (mStep), listed as the responsibilities are written, so that
+// the M step does not read every point's responsibility for every component.
+func (g GMMFull) logLik(p Points, comps []fullComp, resp []float64, held [][]int32) float64 {
 	k, d := g.K, g.D
 	lr := make([]float64, k)
 	ub := make([]float64, k)
@@ -249,6 +253,9 @@ func (g GMMFull) logLik(p Points, comps []fullComp, resp []float64) float64 {
 				r[j] = 0
 				if exact[j] && lr[j]-lse > -pruneGap {
 					r[j] = math.Exp(lr[j] - lse)
+					if held != nil && r[j] != 0 {
+						held[j] = append(held[j], int32(i))
+					}
 				}
 			}
 		}
@@ -336,6 +343,7 @@ func (g *GMMFull) em(p Points, opt GMMOptions) (float64, int, error) {
 	dd := d * d
 	W := p.TotalWeight()
 	resp := opt.respBuffer(n * k)
+	held := make([][]int32, k)
 	nk := make([]float64, k)
 	sums, sq := make([]float64, k*d), make([]float64, k*dd)
 	var blk mBlock
@@ -353,7 +361,10 @@ func (g *GMMFull) em(p Points, opt GMMOptions) (float64, int, error) {
 		if err != nil {
 			return math.NaN(), iters, err
 		}
-		ll = g.logLik(p, comps, resp)
+		for j := range held {
+			held[j] = held[j][:0]
+		}
+		ll = g.logLik(p, comps, resp, held)
 		iters = it
 		if math.Abs(ll-prev) <= opt.Tol*W {
 			break
@@ -365,7 +376,7 @@ func (g *GMMFull) em(p Points, opt GMMOptions) (float64, int, error) {
 		clear(sums)
 		clear(sq)
 		for j := 0; j < k; j++ {
-			mStep(p, resp, j, k, g.Means[j*d:j*d+d], &nk[j], sums[j*d:j*d+d], sq[j*dd:j*dd+dd], &blk)
+			mStep(p, resp, held[j], j, k, g.Means[j*d:j*d+d], &nk[j], sums[j*d:j*d+d], sq[j*dd:j*dd+dd], &blk)
 		}
 		for j := 0; j < k; j++ {
 			g.Weights[j] = nk[j] / W
@@ -417,13 +428,15 @@ type mBlock struct {
 
 // mStep accumulates component j's M-step sums over p: *nk += sum_i w_i r_ij, s += sum_i w_i r_ij
 // e_i and the upper triangle of q += sum_i w_i r_ij e_i e_i^T, with e_i = x_i - m0 (m0 the
-// previous mean). Points with a zero weighted responsibility are skipped; the others go through
-// the outer product four at a time (each row of q loaded once per four points).
-func mStep(p Points, resp []float64, j, k int, m0 []float64, nk *float64, s, q []float64, blk *mBlock) {
+// previous mean). Only the points in held are visited (in its order, the index order; logLik
+// lists every point whose r_ij is not zero); those with a zero weighted responsibility are
+// skipped, and the others go through the outer product four at a time (each row of q loaded once
+// per four points).
+func mStep(p Points, resp []float64, held []int32, j, k int, m0 []float64, nk *float64, s, q []float64, blk *mBlock) {
 	d := p.D
-	n := p.Len()
 	c := 0
-	for i := 0; i < n; i++ {
+	for _, i32 := range held {
+		i := int(i32)
 		wr := p.Weight(i) * resp[i*k+j]
 		if wr == 0 {
 			continue

@@ -52,6 +52,16 @@ func WeightedRootSums(a, x, w []float64, out *[4]float64) {
 // when b is shorter than a.
 func Dist2(a, b []float64) float64 {
 	b = b[:len(a)]
+	if len(a) < 4 {
+		// No whole block: s_0 alone, which is also the sum (s_1 = s_2 = s_3 = +0). Summed here,
+		// since a call to the assembly costs more than its two or three values.
+		s := 0.0
+		for i, v := range a {
+			t := v - b[i]
+			s += t * t
+		}
+		return s
+	}
 	if Vector {
 		return dist2Asm(a, b)
 	}
