@@ -2,9 +2,10 @@ package criteria
 
 import (
 	"fmt"
-	"gonum.org/v1/gonum/floats"
 	"math"
+	"slices"
 
+	"gonum.org/v1/gonum/floats"
 	"gonum.org/v1/gonum/mat"
 
 	"github.com/kgauge/kgauge/internal/kmeans"
@@ -174,7 +175,7 @@ func (g GMMFull) LogLik(p Points, resp []float64) (float64, error) {
 	if err != nil {
 		return 0, err
 	}
-	return g.logLik(p, comps, resp, nil), nil
+	return g.logLik(p, comps, resp), nil
 }
 
 // ClassEntropy returns the weighted entropy of the mixture's soft classification of p,
@@ -187,15 +188,11 @@ func (g GMMFull) ClassEntropy(p Points) (float64, error) {
 		return 0, err
 	}
 	resp := make([]float64, p.Len()*g.K)
-	g.logLik(p, comps, resp, nil)
+	g.logLik(p, comps, resp)
 	return classEntropy(p, resp, g.K), nil
 }
 
-// logLik is LogLik with the components prepared. With resp and held not nil (len K), held[j] is
-// set to the points whose responsibility for component j is not zero, in index order: the only
-// points component j's M step adds (mStep), listed as the responsibilities are written, so that
-// the M step does not read every point's responsibility for every component.
-func (g GMMFull) logLik(p Points, comps []fullComp, resp []float64, held [][]int32) float64 {
+func (g GMMFull) logLik(p Points, comps []fullComp, resp []float64) float64 {
 	k, d := g.K, g.D
 	lr := make([]float64, k)
 	ub := make([]float64, k)
@@ -253,9 +250,6 @@ func (g GMMFull) logLik(p Points, comps []fullComp, resp []float64, held [][]int
 				r[j] = 0
 				if exact[j] && lr[j]-lse > -pruneGap {
 					r[j] = math.Exp(lr[j] - lse)
-					if held != nil && r[j] != 0 {
-						held[j] = append(held[j], int32(i))
-					}
 				}
 			}
 		}
@@ -343,7 +337,7 @@ func (g *GMMFull) em(p Points, opt GMMOptions) (float64, int, error) {
 	dd := d * d
 	W := p.TotalWeight()
 	resp := opt.respBuffer(n * k)
-	held := make([][]int32, k)
+	var h heldPoints
 	nk := make([]float64, k)
 	sums, sq := make([]float64, k*d), make([]float64, k*dd)
 	var blk mBlock
@@ -361,10 +355,7 @@ func (g *GMMFull) em(p Points, opt GMMOptions) (float64, int, error) {
 		if err != nil {
 			return math.NaN(), iters, err
 		}
-		for j := range held {
-			held[j] = held[j][:0]
-		}
-		ll = g.logLik(p, comps, resp, held)
+		ll = g.logLik(p, comps, resp)
 		iters = it
 		if math.Abs(ll-prev) <= opt.Tol*W {
 			break
@@ -375,8 +366,9 @@ func (g *GMMFull) em(p Points, opt GMMOptions) (float64, int, error) {
 		clear(nk)
 		clear(sums)
 		clear(sq)
+		h.list(resp, n, k)
 		for j := 0; j < k; j++ {
-			mStep(p, resp, held[j], j, k, g.Means[j*d:j*d+d], &nk[j], sums[j*d:j*d+d], sq[j*dd:j*dd+dd], &blk)
+			mStep(p, resp, h.of(j), j, k, g.Means[j*d:j*d+d], &nk[j], sums[j*d:j*d+d], sq[j*dd:j*dd+dd], &blk)
 		}
 		for j := 0; j < k; j++ {
 			g.Weights[j] = nk[j] / W
@@ -420,6 +412,51 @@ func classEntropy(p Points, resp []float64, k int) float64 {
 	return e
 }
 
+// heldPoints lists, for each component, the points whose responsibility for it is not zero,
+// in index order: the only points its M step adds (mStep), so that the M step does not read
+// every point's responsibility for every component (k strided passes over n·k values). The lists
+// share one buffer, component j's at idx[off[j]:off[j+1]], of at most n·k indexes, reused from
+// one EM iteration to the next.
+type heldPoints struct {
+	idx  []int32
+	off  []int
+	next []int // list's scratch
+}
+
+// list sets h to the lists of the n×k responsibilities resp (row-major), in two passes over
+// them in their order: one counts each component's points, one writes their indexes.
+func (h *heldPoints) list(resp []float64, n, k int) {
+	h.off = slices.Grow(h.off[:0], k+1)[:k+1]
+	clear(h.off)
+	for i := 0; i < n; i++ {
+		for j, r := range resp[i*k : i*k+k] {
+			if r != 0 {
+				h.off[j+1]++
+			}
+		}
+	}
+	for j := 0; j < k; j++ {
+		h.off[j+1] += h.off[j]
+	}
+	if total := h.off[k]; cap(h.idx) < total {
+		h.idx = make([]int32, total)
+	} else {
+		h.idx = h.idx[:total]
+	}
+	h.next = append(h.next[:0], h.off[:k]...)
+	for i := 0; i < n; i++ {
+		for j, r := range resp[i*k : i*k+k] {
+			if r != 0 {
+				h.idx[h.next[j]] = int32(i)
+				h.next[j]++
+			}
+		}
+	}
+}
+
+// of returns component j's list.
+func (h *heldPoints) of(j int) []int32 { return h.idx[h.off[j]:h.off[j+1]] }
+
 // mBlock is mStep's scratch: up to four centred points and their weights.
 type mBlock struct {
 	e [4][]float64
@@ -428,9 +465,9 @@ type mBlock struct {
 
 // mStep accumulates component j's M-step sums over p: *nk += sum_i w_i r_ij, s += sum_i w_i r_ij
 // e_i and the upper triangle of q += sum_i w_i r_ij e_i e_i^T, with e_i = x_i - m0 (m0 the
-// previous mean). Only the points in held are visited (in its order, the index order; logLik
-// lists every point whose r_ij is not zero); those with a zero weighted responsibility are
-// skipped, and the others go through the outer product four at a time (each row of q loaded once
+// previous mean). Only the points in held are visited (in its order, the index order:
+// heldPoints lists every point whose r_ij is not zero); those with a zero weighted responsibility
+// are skipped, and the others go through the outer product four at a time (each row of q loaded once
 // per four points).
 func mStep(p Points, resp []float64, held []int32, j, k int, m0 []float64, nk *float64, s, q []float64, blk *mBlock) {
 	d := p.D

@@ -9,7 +9,7 @@ import (
 	"github.com/kgauge/kgauge/internal/kmeans"
 )
 
-// TestMStepHeldSameBits checks the M step's lists of held points: logLik lists, for each
+// TestMStepHeldSameBits checks the M step's lists of held points: heldPoints lists, for each
 // component, exactly the points whose responsibility is not zero, in index order, and mStep over
 // those lists gives the sums of a scan of every point bit for bit (the scan it replaced). On
 // Fränti's S1 (2 dimensions, 15 clusters) and DIM032 (32 dimensions, 16 clusters; see
@@ -37,8 +37,14 @@ func TestMStepHeldSameBits(t *testing.T) {
 				t.Fatal(err)
 			}
 			resp := make([]float64, n*k)
-			held := make([][]int32, k)
-			g.logLik(p, comps, resp, held)
+			g.logLik(p, comps, resp)
+			var h heldPoints
+			every := make([]float64, n*k) // a first list of every point, whose buffers the second reuses
+			for i := range every {
+				every[i] = 1
+			}
+			h.list(every, n, k)
+			h.list(resp, n, k)
 			all := make([]int32, n)
 			for i := range all {
 				all[i] = int32(i)
@@ -51,8 +57,8 @@ func TestMStepHeldSameBits(t *testing.T) {
 						want = append(want, int32(i))
 					}
 				}
-				if !slices.Equal(held[j], want) {
-					t.Fatalf("%s k=%d component %d: held %d points, want the %d with r != 0 in order", c.file, k, j, len(held[j]), len(want))
+				if !slices.Equal(h.of(j), want) {
+					t.Fatalf("%s k=%d component %d: held %d points, want the %d with r != 0 in order", c.file, k, j, len(h.of(j)), len(want))
 				}
 				listed += len(want)
 				var blk, blkAll mBlock
@@ -63,7 +69,7 @@ func TestMStepHeldSameBits(t *testing.T) {
 				var nk, nkAll float64
 				s, sAll := make([]float64, d), make([]float64, d)
 				q, qAll := make([]float64, d*d), make([]float64, d*d)
-				mStep(p, resp, held[j], j, k, m0, &nk, s, q, &blk)
+				mStep(p, resp, h.of(j), j, k, m0, &nk, s, q, &blk)
 				mStep(p, resp, all, j, k, m0, &nkAll, sAll, qAll, &blkAll)
 				if math.Float64bits(nk) != math.Float64bits(nkAll) || !sameBits(s, sAll) || !sameBits(q, qAll) {
 					t.Fatalf("%s k=%d component %d: the held points' M step differs from the scan of every point", c.file, k, j)
