@@ -3,6 +3,8 @@ package criteria
 import (
 	"errors"
 	"math"
+
+	"github.com/kgauge/kgauge/internal/lanes"
 )
 
 // GMM is a Gaussian mixture with diagonal covariances (or spherical ones: GMMOptions.Spherical).
@@ -86,20 +88,26 @@ func (g GMM) LogLik(p Points, resp []float64) float64 {
 		}
 		logc[j] = c
 	}
+	// The components in groups of four for lanes.ScaledDists, transposed; the last group filled
+	// up with copies of the last component, whose sums are measured and not read.
+	groups := (k + 3) / 4
+	means, scales := make([]float64, 4*groups*d), make([]float64, 4*groups*d)
+	copy(means, g.Means[:k*d])
+	copy(scales, inv)
+	for j := k; j < 4*groups; j++ {
+		copy(means[j*d:(j+1)*d], g.Means[(k-1)*d:k*d])
+		copy(scales[j*d:(j+1)*d], inv[(k-1)*d:k*d])
+	}
+	ct, st := lanes.Group(nil, means, groups, d), lanes.Group(nil, scales, groups, d)
+	q := make([]float64, 4*groups) // q[:k] are read
 	lr := make([]float64, k)
 	ll := 0.0
 	for i := 0; i < p.Len(); i++ {
 		x := p.Point(i)
+		lanes.ScaledDists(x, ct, st, groups, q)
 		mx := math.Inf(-1)
-		for j := 0; j < k; j++ {
-			mu := g.Means[j*d : j*d+d]
-			iv := inv[j*d : j*d+d]
-			q := 0.0
-			for t, v := range x {
-				e := v - mu[t]
-				q += e * e * iv[t]
-			}
-			lr[j] = logc[j] - q
+		for j := range lr {
+			lr[j] = logc[j] - q[j]
 			if lr[j] > mx {
 				mx = lr[j]
 			}
@@ -220,14 +228,7 @@ func gmmFit(p Points, init Fit, opt GMMOptions) (GMM, float64, float64, int) {
 					continue
 				}
 				nk[j] += wr
-				s := sums[j*d : j*d+d]
-				q := sq[j*d : j*d+d]
-				m0 := g.Means[j*d : j*d+d]
-				for t, v := range x {
-					e := v - m0[t]
-					s[t] += wr * e
-					q[t] += wr * e * e
-				}
+				lanes.AddMoments(x, g.Means[j*d:j*d+d], sums[j*d:j*d+d], sq[j*d:j*d+d], wr)
 			}
 		}
 		for j := 0; j < k; j++ {

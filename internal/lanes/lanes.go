@@ -286,3 +286,65 @@ func syrkRowGo(c, a []float64, lda, rows int) {
 		}
 	}
 }
+
+// AddMoments adds the w-weighted first and second moments of x about m to s and q: for each
+// t < len(x), with e = x[t] − m[t] and u = w·e, s[t] += u and q[t] += u·e — the operations of
+// that scalar loop (the diagonal mixture's M step), each rounded as it rounds them, so the results
+// are that loop's bit for bit; in vector lanes, four values at a time, where the machine has AVX2.
+// It panics when m, s or q is shorter than x.
+func AddMoments(x, m, s, q []float64, w float64) {
+	if len(m) < len(x) || len(s) < len(x) || len(q) < len(x) {
+		panic("lanes: AddMoments: m, s or q shorter than x")
+	}
+	if len(x) == 0 {
+		return
+	}
+	addMoments(x, m, s, q, w)
+}
+
+// addMomentsGo is AddMoments in Go.
+func addMomentsGo(x, m, s, q []float64, w float64) {
+	m, s, q = m[:len(x)], s[:len(x)], q[:len(x)]
+	for t, v := range x {
+		e := v - m[t]
+		u := w * e
+		s[t] += u
+		q[t] += u * e
+	}
+}
+
+// ScaledDists writes, for the point x (d = len(x) values) and the 4·groups vectors of ct with
+// their scales in st (both laid out as [Group] lays out rows), out[4g + l] = Σ_t (x[t] −
+// ct[4d·g + 4t + l])² · st[4d·g + 4t + l], each added over t in order from zero, the square
+// rounded before its scaling: the diagonal mixture's E step, (x − μ)² / (2σ²) summed for four
+// components at once. It panics when ct, st or out is too short.
+func ScaledDists(x, ct, st []float64, groups int, out []float64) {
+	d := len(x)
+	if len(ct) < 4*d*groups || len(st) < 4*d*groups || len(out) < 4*groups {
+		panic("lanes: ScaledDists: ct, st or out too short")
+	}
+	if groups < 1 {
+		return
+	}
+	if d == 0 {
+		clear(out[:4*groups])
+		return
+	}
+	scaledDists(x, ct, st, groups, out)
+}
+
+// scaledDistsGo is ScaledDists in Go.
+func scaledDistsGo(x, ct, st []float64, groups int, out []float64) {
+	d := len(x)
+	for g := 0; g < groups; g++ {
+		c, s := ct[4*d*g:4*d*(g+1)], st[4*d*g:4*d*(g+1)]
+		for l := 0; l < 4; l++ {
+			q := 0.0
+			for t, v := range x {
+				e := v - c[4*t+l]
+				q += e * e * s[4*t+l]
+			}
+			out[4*g+l] = q
+		}
+	}
+}

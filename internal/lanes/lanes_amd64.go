@@ -59,3 +59,25 @@ func syrkRow(c, a []float64, lda, rows int) {
 	}
 	syrkRowGo(c, a, lda, rows)
 }
+
+//go:noescape
+func addMomentsAsm(x, m, s, q []float64, w float64)
+
+func addMoments(x, m, s, q []float64, w float64) {
+	if Vector {
+		addMomentsAsm(x, m, s, q, w)
+		return
+	}
+	addMomentsGo(x, m, s, q, w)
+}
+
+//go:noescape
+func scaledDistsAsm(x, ct, st []float64, groups int, out []float64)
+
+func scaledDists(x, ct, st []float64, groups int, out []float64) {
+	if Vector {
+		scaledDistsAsm(x, ct, st, groups, out)
+		return
+	}
+	scaledDistsGo(x, ct, st, groups, out)
+}

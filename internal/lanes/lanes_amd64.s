@@ -590,3 +590,132 @@ s1store:
 sdone:
 	VZEROUPPER
 	RET
+
+// func addMomentsAsm(x, m, s, q []float64, w float64)
+//
+// AddMoments (lanes.go): e = x − m, u = w·e, s += u, q += u·e, four values a step in Y0..Y3, then
+// one at a time; s and q are the first operands of their sums, as in the scalar loop. The caller
+// checks AVX2, that x is not empty and that m, s and q are as long as x.
+TEXT ·addMomentsAsm(SB), NOSPLIT, $0-104
+	MOVQ x_base+0(FP), SI
+	MOVQ x_len+8(FP), CX
+	MOVQ m_base+24(FP), DI
+	MOVQ s_base+48(FP), R8
+	MOVQ q_base+72(FP), R9
+	VBROADCASTSD w+96(FP), Y15
+	MOVQ CX, DX
+	ANDQ $-4, DX // the values in whole blocks
+	XORQ AX, AX
+
+mblock:
+	CMPQ AX, DX
+	JGE  mtail
+	VMOVUPD (SI)(AX*8), Y0
+	VSUBPD  (DI)(AX*8), Y0, Y0 // e
+	VMULPD  Y0, Y15, Y1        // u = w·e
+	VMOVUPD (R8)(AX*8), Y2
+	VADDPD  Y1, Y2, Y2         // s + u
+	VMOVUPD Y2, (R8)(AX*8)
+	VMULPD  Y0, Y1, Y3         // u·e
+	VMOVUPD (R9)(AX*8), Y2
+	VADDPD  Y3, Y2, Y2         // q + u·e
+	VMOVUPD Y2, (R9)(AX*8)
+	ADDQ    $4, AX
+	JMP     mblock
+
+mtail:
+	CMPQ   AX, CX
+	JGE    mdone
+	VMOVSD (SI)(AX*8), X0
+	VSUBSD (DI)(AX*8), X0, X0
+	VMULSD X0, X15, X1
+	VMOVSD (R8)(AX*8), X2
+	VADDSD X1, X2, X2
+	VMOVSD X2, (R8)(AX*8)
+	VMULSD X0, X1, X3
+	VMOVSD (R9)(AX*8), X2
+	VADDSD X3, X2, X2
+	VMOVSD X2, (R9)(AX*8)
+	INCQ   AX
+	JMP    mtail
+
+mdone:
+	VZEROUPPER
+	RET
+
+// func scaledDistsAsm(x, ct, st []float64, groups int, out []float64)
+//
+// ScaledDists (lanes.go): the four sums of a group are the lanes of one register, x[t]
+// broadcast to all four; two groups at a time (Y0 and Y2) while two are left, so that two chains
+// of additions run side by side, then one. Each lane: e = x[t] − c, e·e, times s, added to its
+// sum. The caller checks AVX2, that x is not empty, groups ≥ 1 and the lengths.
+TEXT ·scaledDistsAsm(SB), NOSPLIT, $0-104
+	MOVQ x_base+0(FP), SI
+	MOVQ x_len+8(FP), CX
+	MOVQ ct_base+24(FP), DI
+	MOVQ st_base+48(FP), R8
+	MOVQ groups+72(FP), R9
+	MOVQ out_base+80(FP), R10
+	MOVQ CX, R11
+	SHLQ $5, R11 // bytes of one group: 4·d values
+
+pair:
+	CMPQ   R9, $2
+	JLT    single
+	VXORPD Y0, Y0, Y0
+	VXORPD Y2, Y2, Y2
+	XORQ   AX, AX
+	MOVQ   DI, R12
+	MOVQ   R8, R13
+
+pairval:
+	CMPQ         AX, CX
+	JGE          pairstore
+	VBROADCASTSD (SI)(AX*8), Y4
+	VSUBPD       (R12), Y4, Y1
+	VSUBPD       (R12)(R11*1), Y4, Y3
+	VMULPD       Y1, Y1, Y1
+	VMULPD       Y3, Y3, Y3
+	VMULPD       (R13), Y1, Y1
+	VMULPD       (R13)(R11*1), Y3, Y3
+	VADDPD       Y1, Y0, Y0
+	VADDPD       Y3, Y2, Y2
+	ADDQ         $32, R12
+	ADDQ         $32, R13
+	INCQ         AX
+	JMP          pairval
+
+pairstore:
+	VMOVUPD Y0, (R10)
+	VMOVUPD Y2, 32(R10)
+	LEAQ    (DI)(R11*2), DI
+	LEAQ    (R8)(R11*2), R8
+	ADDQ    $64, R10
+	SUBQ    $2, R9
+	JMP     pair
+
+single:
+	TESTQ  R9, R9
+	JE     done
+	VXORPD Y0, Y0, Y0
+	XORQ   AX, AX
+
+singleval:
+	CMPQ         AX, CX
+	JGE          singlestore
+	VBROADCASTSD (SI)(AX*8), Y4
+	VSUBPD       (DI), Y4, Y1
+	VMULPD       Y1, Y1, Y1
+	VMULPD       (R8), Y1, Y1
+	VADDPD       Y1, Y0, Y0
+	ADDQ         $32, DI
+	ADDQ         $32, R8
+	INCQ         AX
+	JMP          singleval
+
+singlestore:
+	VMOVUPD Y0, (R10)
+
+done:
+	VZEROUPPER
+	RET

@@ -21,3 +21,9 @@ func nearest2(x, ct []float64, groups int) (best int, d1, d2 float64) {
 func setVector(bool) {}
 
 func syrkRow(c, a []float64, lda, rows int) { syrkRowGo(c, a, lda, rows) }
+
+func addMoments(x, m, s, q []float64, w float64) { addMomentsGo(x, m, s, q, w) }
+
+func scaledDists(x, ct, st []float64, groups int, out []float64) {
+	scaledDistsGo(x, ct, st, groups, out)
+}

@@ -362,3 +362,102 @@ func TestSyrkUpperMatchesDsyrk(t *testing.T) {
 		}
 	}
 }
+
+// TestAddMomentsMatchesScalar checks AddMoments (the assembly where the machine has it, and the
+// Go reference) against the diagonal mixture's M-step loop it replaces, s[t] += w·e and
+// q[t] += w·e·e with e = x[t] − m[t], bit for bit: widths around the blocks of four, subnormal to
+// overflowing magnitudes, a weight of zero and a negative one, a NaN value, and s and q longer
+// than x, whose values past x must stay as they were.
+func TestAddMomentsMatchesScalar(t *testing.T) {
+	rng := rand.New(rand.NewPCG(9, 4))
+	for n := 0; n <= 70; n++ {
+		for _, sc := range scales {
+			for _, w := range []float64{0.37, 0, -2.5, 1e-300} {
+				x, m := make([]float64, n), make([]float64, n+3)
+				s0, q0 := make([]float64, n+3), make([]float64, n+3)
+				fill(rng, x, sc)
+				fill(rng, m, sc)
+				fill(rng, s0, sc)
+				fill(rng, q0, sc*sc)
+				if n > 5 {
+					x[5] = math.NaN()
+				}
+				want, wantQ := append([]float64(nil), s0...), append([]float64(nil), q0...)
+				for i, v := range x {
+					e := v - m[i]
+					want[i] += w * e
+					wantQ[i] += w * e * e
+				}
+				for _, viaGo := range []bool{false, true} {
+					s, q := append([]float64(nil), s0...), append([]float64(nil), q0...)
+					saved := Vector
+					setVector(!viaGo && saved)
+					AddMoments(x, m, s, q, w)
+					setVector(saved)
+					for i := range s {
+						if math.Float64bits(s[i]) != math.Float64bits(want[i]) || math.Float64bits(q[i]) != math.Float64bits(wantQ[i]) {
+							t.Fatalf("n=%d scale %g w %g go %v: value %d: s %v q %v, want %v %v", n, sc, w, viaGo, i, s[i], q[i], want[i], wantQ[i])
+						}
+					}
+				}
+			}
+		}
+	}
+	defer func() {
+		if recover() == nil {
+			t.Error("AddMoments with q shorter than x did not panic")
+		}
+	}()
+	AddMoments(make([]float64, 4), make([]float64, 4), make([]float64, 4), make([]float64, 3), 1)
+}
+
+// TestScaledDistsMatchesScalar checks ScaledDists (the assembly where the machine has it, and the
+// Go reference) against the diagonal mixture's E-step loop it replaces, q += (x[t] − μ[t])² ·
+// s[t] over t in order for each component on the row-major rows, bit for bit: widths around the
+// blocks, one to nine groups (both of the kernel's loops), subnormal to overflowing magnitudes,
+// a NaN value; nothing is written past the groups asked for.
+func TestScaledDistsMatchesScalar(t *testing.T) {
+	rng := rand.New(rand.NewPCG(10, 2))
+	for _, d := range []int{1, 2, 3, 4, 5, 8, 16, 17, 64} {
+		for _, groups := range []int{1, 2, 3, 4, 5, 9} {
+			for _, sc := range scales {
+				x := make([]float64, d)
+				c, s := make([]float64, 4*groups*d), make([]float64, 4*groups*d)
+				fill(rng, x, sc)
+				fill(rng, c, sc)
+				for i := range s {
+					s[i] = 0.5 / (0.1 + rng.Float64())
+				}
+				if d > 2 && groups > 1 {
+					c[5*d+1] = math.NaN()
+				}
+				want := make([]float64, 4*groups)
+				for r := range want {
+					q := 0.0
+					for i, v := range x {
+						e := v - c[r*d+i]
+						q += e * e * s[r*d+i]
+					}
+					want[r] = q
+				}
+				ct, st := Group(nil, c, groups, d), Group(nil, s, groups, d)
+				for _, viaGo := range []bool{false, true} {
+					out := make([]float64, 4*groups+3)
+					out[4*groups], out[4*groups+2] = 7, 9
+					saved := Vector
+					setVector(!viaGo && saved)
+					ScaledDists(x, ct, st, groups, out)
+					setVector(saved)
+					for r, w := range want {
+						if math.Float64bits(out[r]) != math.Float64bits(w) {
+							t.Fatalf("d=%d groups=%d scale %g go %v: vector %d: %v, want %v", d, groups, sc, viaGo, r, out[r], w)
+						}
+					}
+					if out[4*groups] != 7 || out[4*groups+1] != 0 || out[4*groups+2] != 9 {
+						t.Fatalf("d=%d groups=%d go %v: wrote past the groups: %v", d, groups, viaGo, out[4*groups:])
+					}
+				}
+			}
+		}
+	}
+}
