@@ -1,6 +1,7 @@
 // Package lanes holds the distance kernels that measure four vectors at once, one vector lane
-// per vector: the centres of a k-means scan, the anchors of a silhouette; and the rank-k update
-// of the sketch's cross-products ([SyrkUpper]). Each kernel performs
+// per vector: the centres of a k-means scan, the anchors of a silhouette, the components of a
+// diagonal mixture ([ScaledDists]); the rank-k update of the sketch's cross-products
+// ([SyrkUpper]); and the moments of a diagonal mixture's M step ([AddMoments]). Each kernel performs
 // the same floating-point operations in the same order as the scalar loop it replaces (no fused
 // multiply-add), so its results are equal to that loop's bit for bit; the assembly runs where the
 // machine has AVX2 ([Vector]) and the Go reference everywhere else.
