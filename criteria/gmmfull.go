@@ -9,6 +9,7 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"github.com/kgauge/kgauge/internal/kmeans"
+	"github.com/kgauge/kgauge/internal/lanes"
 )
 
 // GMMFull is a Gaussian mixture with full covariance matrices.
@@ -340,10 +341,7 @@ func (g *GMMFull) em(p Points, opt GMMOptions) (float64, int, error) {
 	var h heldPoints
 	nk := make([]float64, k)
 	sums, sq := make([]float64, k*d), make([]float64, k*dd)
-	var blk mBlock
-	for c := range blk.e {
-		blk.e[c] = make([]float64, d)
-	}
+	blk := newMBlock(d)
 	prev := math.Inf(-1)
 	ll := 0.0
 	iters := 0
@@ -457,10 +455,21 @@ func (h *heldPoints) list(resp []float64, n, k int) {
 // of returns component j's list.
 func (h *heldPoints) of(j int) []int32 { return h.idx[h.off[j]:h.off[j+1]] }
 
-// mBlock is mStep's scratch: up to four centred points and their weights.
+// mBlock is mStep's scratch: up to four centred points (e[c], views of one buffer, all, the
+// points one after another as lanes.AddOuter4 takes them) and their weights.
 type mBlock struct {
-	e [4][]float64
-	w [4]float64
+	e   [4][]float64
+	all []float64
+	w   [4]float64
+}
+
+// newMBlock returns an mBlock for points of d values.
+func newMBlock(d int) mBlock {
+	blk := mBlock{all: make([]float64, 4*d)}
+	for c := range blk.e {
+		blk.e[c] = blk.all[c*d : (c+1)*d]
+	}
+	return blk
 }
 
 // mStep accumulates component j's M-step sums over p: *nk += sum_i w_i r_ij, s += sum_i w_i r_ij
@@ -509,16 +518,9 @@ func outerFirst(q []float64, d int, blk *mBlock, c int) {
 	}
 }
 
-// outer4 adds the weighted outer products of the four points in blk to the upper triangle of q.
+// outer4 adds the weighted outer products of the four points in blk to the upper triangle of q
+// (lanes.AddOuter4: q[a d + b] += a0 e0[b] + a1 e1[b] + a2 e2[b] + a3 e3[b] with ac = wc ec[a],
+// each row of q loaded once per four points).
 func outer4(q []float64, d int, blk *mBlock) {
-	e0, e1, e2, e3 := blk.e[0][:d], blk.e[1][:d], blk.e[2][:d], blk.e[3][:d]
-	for a := 0; a < d; a++ {
-		a0, a1, a2, a3 := blk.w[0]*e0[a], blk.w[1]*e1[a], blk.w[2]*e2[a], blk.w[3]*e3[a]
-		row := q[a*d+a : a*d+d]
-		f0, f1, f2, f3 := e0[a:], e1[a:], e2[a:], e3[a:]
-		f0, f1, f2, f3 = f0[:len(row)], f1[:len(row)], f2[:len(row)], f3[:len(row)]
-		for t := range row {
-			row[t] += a0*f0[t] + a1*f1[t] + a2*f2[t] + a3*f3[t]
-		}
-	}
+	lanes.AddOuter4(q, d, blk.all, &blk.w)
 }

@@ -61,10 +61,7 @@ func TestMStepHeldSameBits(t *testing.T) {
 					t.Fatalf("%s k=%d component %d: held %d points, want the %d with r != 0 in order", c.file, k, j, len(h.of(j)), len(want))
 				}
 				listed += len(want)
-				var blk, blkAll mBlock
-				for b := range blk.e {
-					blk.e[b], blkAll.e[b] = make([]float64, d), make([]float64, d)
-				}
+				blk, blkAll := newMBlock(d), newMBlock(d)
 				m0 := g.Means[j*d : j*d+d]
 				var nk, nkAll float64
 				s, sAll := make([]float64, d), make([]float64, d)

@@ -90,10 +90,7 @@ func (g *silGroups) spreads() []silSpread {
 	if d <= silCovMaxD {
 		cov = make([]float64, d*d)
 	}
-	var blk mBlock
-	for c := range blk.e {
-		blk.e[c] = make([]float64, d)
-	}
+	blk := newMBlock(d)
 	for c := 0; c < k; c++ {
 		nb := 0
 		s := &out[c]

@@ -349,3 +349,33 @@ func scaledDistsGo(x, ct, st []float64, groups int, out []float64) {
 		}
 	}
 }
+
+// AddOuter4 adds the weighted outer products of four points to the upper triangle of the d×d
+// matrix q (row-major): with e holding the points' d values one after another (e_c = e[c·d :
+// (c+1)·d]) and a_c = w[c]·e_c[a], q[a·d + b] += a_0·e_0[b] + a_1·e_1[b] + a_2·e_2[b] + a_3·e_3[b]
+// for every b ≥ a, the products added left to right and their sum then to q — the mixture's M
+// step (criteria's outer4) and the silhouette's cluster covariances, four values of a row at a
+// time, bit for bit. It panics when q or e is too short.
+func AddOuter4(q []float64, d int, e []float64, w *[4]float64) {
+	if d < 0 || len(q) < d*d || len(e) < 4*d {
+		panic("lanes: AddOuter4: q or e too short")
+	}
+	if d == 0 {
+		return
+	}
+	addOuter4(q, d, e, w)
+}
+
+// addOuter4Go is AddOuter4 in Go.
+func addOuter4Go(q []float64, d int, e []float64, w *[4]float64) {
+	e0, e1, e2, e3 := e[:d], e[d:2*d], e[2*d:3*d], e[3*d:4*d]
+	for a := 0; a < d; a++ {
+		a0, a1, a2, a3 := w[0]*e0[a], w[1]*e1[a], w[2]*e2[a], w[3]*e3[a]
+		row := q[a*d+a : a*d+d]
+		f0, f1, f2, f3 := e0[a:], e1[a:], e2[a:], e3[a:]
+		f0, f1, f2, f3 = f0[:len(row)], f1[:len(row)], f2[:len(row)], f3[:len(row)]
+		for t := range row {
+			row[t] += a0*f0[t] + a1*f1[t] + a2*f2[t] + a3*f3[t]
+		}
+	}
+}

@@ -81,3 +81,14 @@ func scaledDists(x, ct, st []float64, groups int, out []float64) {
 	}
 	scaledDistsGo(x, ct, st, groups, out)
 }
+
+//go:noescape
+func addOuter4Asm(q []float64, d int, e []float64, w *[4]float64)
+
+func addOuter4(q []float64, d int, e []float64, w *[4]float64) {
+	if Vector {
+		addOuter4Asm(q, d, e, w)
+		return
+	}
+	addOuter4Go(q, d, e, w)
+}

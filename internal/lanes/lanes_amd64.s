@@ -719,3 +719,92 @@ singlestore:
 done:
 	VZEROUPPER
 	RET
+
+// func addOuter4Asm(q []float64, d int, e []float64, w *[4]float64)
+//
+// AddOuter4 (lanes.go): for each row a, the four a_c = w[c]·e_c[a] broadcast to Y4..Y7, then the
+// row's values from the diagonal on, four at a time and then one at a time: the products
+// a_c·e_c[b] added left to right (Y0), the sum added to q. R12 walks e_0 from a, e_1 and e_2 at
+// BX and 2·BX past it (BX the bytes of a point), R13 = R12 + BX reaches e_3 at 2·BX; R11 walks q's
+// row. The caller checks AVX2, d ≥ 1 and the lengths.
+TEXT ·addOuter4Asm(SB), NOSPLIT, $0-64
+	MOVQ q_base+0(FP), DI
+	MOVQ d+24(FP), CX
+	MOVQ e_base+32(FP), R9
+	MOVQ w+56(FP), R8
+	MOVQ CX, BX
+	SHLQ $3, BX
+	XORQ AX, AX
+
+orow:
+	CMPQ         AX, CX
+	JGE          odone
+	LEAQ         (R9)(AX*8), R12
+	LEAQ         (R12)(BX*1), R13
+	VMOVSD       0(R8), X4
+	VMULSD       (R12), X4, X4
+	VBROADCASTSD X4, Y4
+	VMOVSD       8(R8), X5
+	VMULSD       (R12)(BX*1), X5, X5
+	VBROADCASTSD X5, Y5
+	VMOVSD       16(R8), X6
+	VMULSD       (R12)(BX*2), X6, X6
+	VBROADCASTSD X6, Y6
+	VMOVSD       24(R8), X7
+	VMULSD       (R13)(BX*2), X7, X7
+	VBROADCASTSD X7, Y7
+	MOVQ         AX, R11
+	IMULQ        CX, R11
+	ADDQ         AX, R11
+	LEAQ         (DI)(R11*8), R11 // &q[a·d + a]
+	MOVQ         CX, DX
+	SUBQ         AX, DX           // values in the row
+	MOVQ         DX, SI
+	ANDQ         $-4, SI          // of them in whole blocks
+
+oblock:
+	TESTQ   SI, SI
+	JE      otail
+	VMULPD  (R12), Y4, Y0
+	VMULPD  (R12)(BX*1), Y5, Y1
+	VADDPD  Y1, Y0, Y0
+	VMULPD  (R12)(BX*2), Y6, Y1
+	VADDPD  Y1, Y0, Y0
+	VMULPD  (R13)(BX*2), Y7, Y1
+	VADDPD  Y1, Y0, Y0
+	VMOVUPD (R11), Y2
+	VADDPD  Y0, Y2, Y2
+	VMOVUPD Y2, (R11)
+	ADDQ    $32, R12
+	ADDQ    $32, R13
+	ADDQ    $32, R11
+	SUBQ    $4, SI
+	SUBQ    $4, DX
+	JMP     oblock
+
+otail:
+	TESTQ  DX, DX
+	JE     onext
+	VMULSD (R12), X4, X0
+	VMULSD (R12)(BX*1), X5, X1
+	VADDSD X1, X0, X0
+	VMULSD (R12)(BX*2), X6, X1
+	VADDSD X1, X0, X0
+	VMULSD (R13)(BX*2), X7, X1
+	VADDSD X1, X0, X0
+	VMOVSD (R11), X2
+	VADDSD X0, X2, X2
+	VMOVSD X2, (R11)
+	ADDQ   $8, R12
+	ADDQ   $8, R13
+	ADDQ   $8, R11
+	DECQ   DX
+	JMP    otail
+
+onext:
+	INCQ AX
+	JMP  orow
+
+odone:
+	VZEROUPPER
+	RET

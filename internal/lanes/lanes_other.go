@@ -27,3 +27,5 @@ func addMoments(x, m, s, q []float64, w float64) { addMomentsGo(x, m, s, q, w) }
 func scaledDists(x, ct, st []float64, groups int, out []float64) {
 	scaledDistsGo(x, ct, st, groups, out)
 }
+
+func addOuter4(q []float64, d int, e []float64, w *[4]float64) { addOuter4Go(q, d, e, w) }

@@ -461,3 +461,46 @@ func TestScaledDistsMatchesScalar(t *testing.T) {
 		}
 	}
 }
+
+// TestAddOuter4MatchesScalar checks AddOuter4 (the assembly where the machine has it, and the Go
+// reference) against the loop it replaces (criteria's outer4), q[a·d + b] += a_0·e_0[b] + … +
+// a_3·e_3[b] with a_c = w[c]·e_c[a], bit for bit, on widths around the blocks of four, subnormal to
+// overflowing magnitudes, a zero and a negative weight and a NaN value; the lower triangle, which
+// it must not touch, keeps its values.
+func TestAddOuter4MatchesScalar(t *testing.T) {
+	rng := rand.New(rand.NewPCG(11, 5))
+	for d := 1; d <= 40; d++ {
+		for _, sc := range scales {
+			e := make([]float64, 4*d)
+			fill(rng, e, sc)
+			if d > 3 {
+				e[2*d+3] = math.NaN()
+			}
+			w := [4]float64{0.75, 0, -1.5, 3}
+			q0 := make([]float64, d*d)
+			fill(rng, q0, sc*sc)
+			want := append([]float64(nil), q0...)
+			for a := 0; a < d; a++ {
+				var ac [4]float64
+				for c := range ac {
+					ac[c] = w[c] * e[c*d+a]
+				}
+				for b := a; b < d; b++ {
+					want[a*d+b] += ac[0]*e[b] + ac[1]*e[d+b] + ac[2]*e[2*d+b] + ac[3]*e[3*d+b]
+				}
+			}
+			for _, viaGo := range []bool{false, true} {
+				q := append([]float64(nil), q0...)
+				saved := Vector
+				setVector(!viaGo && saved)
+				AddOuter4(q, d, e, &w)
+				setVector(saved)
+				for i := range q {
+					if math.Float64bits(q[i]) != math.Float64bits(want[i]) {
+						t.Fatalf("d=%d scale %g go %v: q[%d] = %v, want %v", d, sc, viaGo, i, q[i], want[i])
+					}
+				}
+			}
+		}
+	}
+}
