@@ -193,15 +193,63 @@ func (g GMMFull) ClassEntropy(p Points) (float64, error) {
 	return classEntropy(p, resp, g.K), nil
 }
 
+// lanesFrom is the dimension from which logLik measures every component's Mahalanobis distance
+// at once, four components in the lanes of one register (lanes.Solve4), before it decides which
+// it needs; below it the distances are measured one or two at a time as needed, since in few
+// dimensions most components lie beyond the pruning margin. From wideFrom the rows' products go
+// through floats.Dot instead (mahalanobisWide), whose sums are in another order.
+const lanesFrom = 8
+
+// solveGroups is the mixture's components laid out for lanes.Solve4: means, Cholesky factors and
+// the reciprocals of their diagonals transposed in groups of four (lanes.Group), the last group
+// filled up with copies of the last component, whose distances are measured and not read.
+type solveGroups struct {
+	groups     int
+	ct, lt, it []float64
+	z, q       []float64 // Solve4's scratch and its distances, q[j] for component j
+}
+
+func newSolveGroups(g GMMFull, comps []fullComp) *solveGroups {
+	k, d := g.K, g.D
+	sg := &solveGroups{groups: (k + 3) / 4}
+	n := 4 * sg.groups
+	mu, l, iv := make([]float64, n*d), make([]float64, n*d*d), make([]float64, n*d)
+	for j := 0; j < n; j++ {
+		c := min(j, k-1)
+		copy(mu[j*d:(j+1)*d], g.Means[c*d:(c+1)*d])
+		copy(l[j*d*d:(j+1)*d*d], comps[c].l)
+		copy(iv[j*d:(j+1)*d], comps[c].invDia)
+	}
+	sg.ct, sg.lt, sg.it = lanes.Group(nil, mu, sg.groups, d), lanes.Group(nil, l, sg.groups, d*d), lanes.Group(nil, iv, sg.groups, d)
+	sg.z, sg.q = make([]float64, 8*d), make([]float64, n)
+	return sg
+}
+
 func (g GMMFull) logLik(p Points, comps []fullComp, resp []float64) float64 {
 	k, d := g.K, g.D
 	lr := make([]float64, k)
 	ub := make([]float64, k)
 	exact := make([]bool, k)
 	z, z2 := make([]float64, d), make([]float64, d)
+	// With sg, every component's distance is measured first and the ones the pruning below asks
+	// for are read from it: the same values (lanes.Solve4 is mahalanobis' loop bit for bit), so
+	// the same components are kept and the same sums formed.
+	var sg *solveGroups
+	if d >= lanesFrom && d < wideFrom && k > 0 {
+		sg = newSolveGroups(g, comps)
+	}
+	maha := func(j int, x []float64, z []float64) float64 {
+		if sg != nil {
+			return sg.q[j]
+		}
+		return comps[j].mahalanobis(x, g.Means[j*d:j*d+d], z)
+	}
 	ll := 0.0
 	for i := 0; i < p.Len(); i++ {
 		x := p.Point(i)
+		if sg != nil {
+			lanes.Solve4(x, sg.ct, sg.lt, sg.it, sg.groups, sg.z, sg.q)
+		}
 		// Upper bounds ln pi_j N <= logc_j - ||x - mu_j||^2 / (2 lmax_j); the best bound is
 		// computed exactly first.
 		top := 0
@@ -212,7 +260,7 @@ func (g GMMFull) logLik(p Points, comps []fullComp, resp []float64) float64 {
 			}
 			exact[j] = false
 		}
-		lr[top] = comps[top].logc - 0.5*comps[top].mahalanobis(x, g.Means[top*d:top*d+d], z)
+		lr[top] = comps[top].logc - 0.5*maha(top, x, z)
 		exact[top] = true
 		mx := lr[top]
 		// The components left within the pruning margin go two at a time (two independent
@@ -226,14 +274,19 @@ func (g GMMFull) logLik(p Points, comps []fullComp, resp []float64) float64 {
 				pend = j
 				continue
 			}
-			qa, qb := mahalanobis2(&comps[pend], &comps[j], x, g.Means[pend*d:pend*d+d], g.Means[j*d:j*d+d], z, z2)
+			var qa, qb float64
+			if sg != nil {
+				qa, qb = sg.q[pend], sg.q[j]
+			} else {
+				qa, qb = mahalanobis2(&comps[pend], &comps[j], x, g.Means[pend*d:pend*d+d], g.Means[j*d:j*d+d], z, z2)
+			}
 			lr[pend], lr[j] = comps[pend].logc-0.5*qa, comps[j].logc-0.5*qb
 			exact[pend], exact[j] = true, true
 			mx = max(mx, lr[pend], lr[j])
 			pend = -1
 		}
 		if pend >= 0 {
-			lr[pend] = comps[pend].logc - 0.5*comps[pend].mahalanobis(x, g.Means[pend*d:pend*d+d], z)
+			lr[pend] = comps[pend].logc - 0.5*maha(pend, x, z)
 			exact[pend] = true
 			mx = max(mx, lr[pend])
 		}

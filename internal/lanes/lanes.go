@@ -379,3 +379,47 @@ func addOuter4Go(q []float64, d int, e []float64, w *[4]float64) {
 		}
 	}
 }
+
+// Solve4 writes, for the point x (d = len(x) values) and 4·groups components laid out as [Group]
+// lays out rows — their means in ct (d values each), the row-major lower triangles of their
+// Cholesky factors L in lt (d·d values each, the part above the diagonal not read) and the
+// reciprocals of L's diagonal in it (d values each) —, out[4g + l] = ‖L⁻¹(x − μ)‖², the squared
+// Mahalanobis distance, by forward substitution: for a = 0, 1, …, s = x[a] − μ[a], then s −= L[a,b]·z[b]
+// for b < a in order, then z[a] = s·(1/L[a,a]) and q += z[a]², each rounded as that scalar loop
+// rounds it (the full mixture's E step), so the result is that loop's bit for bit. z is scratch of
+// 8·d values. It panics when a slice is too short.
+func Solve4(x, ct, lt, it []float64, groups int, z, out []float64) {
+	d := len(x)
+	if len(ct) < 4*d*groups || len(it) < 4*d*groups || len(lt) < 4*d*d*groups || len(z) < 8*d || len(out) < 4*groups {
+		panic("lanes: Solve4: a slice is too short")
+	}
+	if groups < 1 {
+		return
+	}
+	if d == 0 {
+		clear(out[:4*groups])
+		return
+	}
+	solve4(x, ct, lt, it, groups, z, out)
+}
+
+// solve4Go is Solve4 in Go.
+func solve4Go(x, ct, lt, it []float64, groups int, z, out []float64) {
+	d := len(x)
+	for g := 0; g < groups; g++ {
+		c, l, iv := ct[4*d*g:4*d*(g+1)], lt[4*d*d*g:4*d*d*(g+1)], it[4*d*g:4*d*(g+1)]
+		for k := 0; k < 4; k++ {
+			q := 0.0
+			for a := 0; a < d; a++ {
+				s := x[a] - c[4*a+k]
+				for b := 0; b < a; b++ {
+					s -= l[4*(a*d+b)+k] * z[4*b+k]
+				}
+				s *= iv[4*a+k]
+				z[4*a+k] = s
+				q += s * s
+			}
+			out[4*g+k] = q
+		}
+	}
+}

@@ -92,3 +92,14 @@ func addOuter4(q []float64, d int, e []float64, w *[4]float64) {
 	}
 	addOuter4Go(q, d, e, w)
 }
+
+//go:noescape
+func solve4Asm(x, ct, lt, it []float64, groups int, z, out []float64)
+
+func solve4(x, ct, lt, it []float64, groups int, z, out []float64) {
+	if Vector {
+		solve4Asm(x, ct, lt, it, groups, z, out)
+		return
+	}
+	solve4Go(x, ct, lt, it, groups, z, out)
+}

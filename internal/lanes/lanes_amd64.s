@@ -808,3 +808,130 @@ onext:
 odone:
 	VZEROUPPER
 	RET
+
+// func solve4Asm(x, ct, lt, it []float64, groups int, z, out []float64)
+//
+// Solve4 (lanes.go): two groups at a time while two are left, so that two chains of subtractions
+// run side by side, then one. A group's four components are in the lanes of one register: s in
+// Y1 (Y4 for the second group), q in Y0 (Y3). DI, R9 and R8 walk the first group's means, the
+// reciprocals of its diagonals and the rows of its factors (R13 = 32·d bytes: a row of a group's
+// factors, and the distance from one group's means or reciprocals to the next's); CX walks the
+// second group's factor rows. z[a] of a pair is stored at 64·a bytes into z (first group) and 32
+// past it (second); of a single group at 32·a. The caller checks AVX2, d ≥ 1, groups ≥ 1 and the
+// lengths.
+TEXT ·solve4Asm(SB), NOSPLIT, $0-152
+	MOVQ x_len+8(FP), R13
+	SHLQ $5, R13
+	MOVQ ct_base+24(FP), DI
+	MOVQ lt_base+48(FP), R8
+	MOVQ it_base+72(FP), R9
+	MOVQ groups+96(FP), R10
+	MOVQ z_base+104(FP), R11
+	MOVQ out_base+128(FP), R12
+
+fpair:
+	CMPQ   R10, $2
+	JLT    fgroup
+	MOVQ   x_base+0(FP), SI
+	MOVQ   x_len+8(FP), AX
+	MOVQ   AX, CX
+	IMULQ  R13, CX
+	ADDQ   R8, CX // the second group's factors: 32·d·d bytes on
+	XORQ   DX, DX // 32·a
+	VXORPD Y0, Y0, Y0
+	VXORPD Y3, Y3, Y3
+
+prow:
+	TESTQ        AX, AX
+	JE           pstore
+	VBROADCASTSD (SI), Y5
+	VSUBPD       (DI), Y5, Y1
+	VSUBPD       (DI)(R13*1), Y5, Y4
+	XORQ         BX, BX
+
+psub:
+	CMPQ    BX, DX
+	JGE     pscale
+	VMOVUPD (R8)(BX*1), Y2
+	VMULPD  (R11)(BX*2), Y2, Y2
+	VSUBPD  Y2, Y1, Y1
+	VMOVUPD (CX)(BX*1), Y6
+	VMULPD  32(R11)(BX*2), Y6, Y6
+	VSUBPD  Y6, Y4, Y4
+	ADDQ    $32, BX
+	JMP     psub
+
+pscale:
+	VMULPD  (R9), Y1, Y1
+	VMULPD  (R9)(R13*1), Y4, Y4
+	VMOVUPD Y1, (R11)(DX*2)
+	VMOVUPD Y4, 32(R11)(DX*2)
+	VMULPD  Y1, Y1, Y2
+	VADDPD  Y2, Y0, Y0
+	VMULPD  Y4, Y4, Y6
+	VADDPD  Y6, Y3, Y3
+	ADDQ    $8, SI
+	ADDQ    $32, DI
+	ADDQ    $32, R9
+	ADDQ    R13, R8
+	ADDQ    R13, CX
+	ADDQ    $32, DX
+	DECQ    AX
+	JMP     prow
+
+pstore:
+	VMOVUPD Y0, (R12)
+	VMOVUPD Y3, 32(R12)
+	ADDQ    $64, R12
+	ADDQ    R13, DI
+	ADDQ    R13, R9
+	MOVQ    CX, R8
+	SUBQ    $2, R10
+	JMP     fpair
+
+fgroup:
+	TESTQ  R10, R10
+	JE     fdone
+	MOVQ   x_base+0(FP), SI
+	MOVQ   x_len+8(FP), AX
+	XORQ   DX, DX // 32·a
+	VXORPD Y0, Y0, Y0
+
+frow:
+	TESTQ        AX, AX
+	JE           fstore
+	VBROADCASTSD (SI), Y1
+	VSUBPD       (DI), Y1, Y1 // s = x[a] − μ[a]
+	XORQ         BX, BX
+
+fsub:
+	CMPQ    BX, DX
+	JGE     fscale
+	VMOVUPD (R8)(BX*1), Y2
+	VMULPD  (R11)(BX*1), Y2, Y2 // L[a,b]·z[b]
+	VSUBPD  Y2, Y1, Y1
+	ADDQ    $32, BX
+	JMP     fsub
+
+fscale:
+	VMULPD  (R9), Y1, Y1 // z[a] = s·(1/L[a,a])
+	VMOVUPD Y1, (R11)(DX*1)
+	VMULPD  Y1, Y1, Y2
+	VADDPD  Y2, Y0, Y0
+	ADDQ    $8, SI
+	ADDQ    $32, DI
+	ADDQ    $32, R9
+	ADDQ    R13, R8
+	ADDQ    $32, DX
+	DECQ    AX
+	JMP     frow
+
+fstore:
+	VMOVUPD Y0, (R12)
+	ADDQ    $32, R12
+	DECQ    R10
+	JMP     fgroup
+
+fdone:
+	VZEROUPPER
+	RET

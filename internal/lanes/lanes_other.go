@@ -29,3 +29,7 @@ func scaledDists(x, ct, st []float64, groups int, out []float64) {
 }
 
 func addOuter4(q []float64, d int, e []float64, w *[4]float64) { addOuter4Go(q, d, e, w) }
+
+func solve4(x, ct, lt, it []float64, groups int, z, out []float64) {
+	solve4Go(x, ct, lt, it, groups, z, out)
+}
