@@ -1,7 +1,8 @@
 // Package lanes holds the distance kernels that measure four vectors at once, one vector lane
 // per vector: the centres of a k-means scan, the anchors of a silhouette, the components of a
-// diagonal mixture ([ScaledDists]); the rank-k update of the sketch's cross-products
-// ([SyrkUpper]); and the moments of a diagonal mixture's M step ([AddMoments]). Each kernel performs
+// diagonal mixture ([ScaledDists]) and of a full one ([Solve4]); the rank-k update of the
+// sketch's cross-products ([SyrkUpper]); and the moments of a mixture's M step ([AddMoments],
+// [AddOuter4]). Each kernel performs
 // the same floating-point operations in the same order as the scalar loop it replaces (no fused
 // multiply-add), so its results are equal to that loop's bit for bit; the assembly runs where the
 // machine has AVX2 ([Vector]) and the Go reference everywhere else.
