@@ -20,6 +20,16 @@ func fill(rng *rand.Rand, v []float64, scale float64) {
 // scales run each check from subnormal to overflowing magnitudes.
 var scales = []float64{1, 1e-3, 1e6, 1e-310, 1e154, 1e200}
 
+// bitDiff returns the first index below len(want) where got's bits differ from want's, or -1.
+func bitDiff(got, want []float64) int {
+	for i, w := range want {
+		if math.Float64bits(got[i]) != math.Float64bits(w) {
+			return i
+		}
+	}
+	return -1
+}
+
 // TestSquaredDistsMatchesScalar checks the sums Nearest2 scans (their Go reference) against the
 // scalar loop they replace, each vector's squared differences added over t one after another
 // on the row-major vectors, bit for bit, and that it writes nothing past the groups asked for.
@@ -394,10 +404,8 @@ func TestAddMomentsMatchesScalar(t *testing.T) {
 					setVector(!viaGo && saved)
 					AddMoments(x, m, s, q, w)
 					setVector(saved)
-					for i := range s {
-						if math.Float64bits(s[i]) != math.Float64bits(want[i]) || math.Float64bits(q[i]) != math.Float64bits(wantQ[i]) {
-							t.Fatalf("n=%d scale %g w %g go %v: value %d: s %v q %v, want %v %v", n, sc, w, viaGo, i, s[i], q[i], want[i], wantQ[i])
-						}
+					if i := max(bitDiff(s, want), bitDiff(q, wantQ)); i >= 0 {
+						t.Fatalf("n=%d scale %g w %g go %v: value %d: s %v q %v, want %v %v", n, sc, w, viaGo, i, s[i], q[i], want[i], wantQ[i])
 					}
 				}
 			}
@@ -448,10 +456,8 @@ func TestScaledDistsMatchesScalar(t *testing.T) {
 					setVector(!viaGo && saved)
 					ScaledDists(x, ct, st, groups, out)
 					setVector(saved)
-					for r, w := range want {
-						if math.Float64bits(out[r]) != math.Float64bits(w) {
-							t.Fatalf("d=%d groups=%d scale %g go %v: vector %d: %v, want %v", d, groups, sc, viaGo, r, out[r], w)
-						}
+					if r := bitDiff(out, want); r >= 0 {
+						t.Fatalf("d=%d groups=%d scale %g go %v: vector %d: %v, want %v", d, groups, sc, viaGo, r, out[r], want[r])
 					}
 					if out[4*groups] != 7 || out[4*groups+1] != 0 || out[4*groups+2] != 9 {
 						t.Fatalf("d=%d groups=%d go %v: wrote past the groups: %v", d, groups, viaGo, out[4*groups:])
@@ -495,10 +501,8 @@ func TestAddOuter4MatchesScalar(t *testing.T) {
 				setVector(!viaGo && saved)
 				AddOuter4(q, d, e, &w)
 				setVector(saved)
-				for i := range q {
-					if math.Float64bits(q[i]) != math.Float64bits(want[i]) {
-						t.Fatalf("d=%d scale %g go %v: q[%d] = %v, want %v", d, sc, viaGo, i, q[i], want[i])
-					}
+				if i := bitDiff(q, want); i >= 0 {
+					t.Fatalf("d=%d scale %g go %v: q[%d] = %v, want %v", d, sc, viaGo, i, q[i], want[i])
 				}
 			}
 		}
@@ -554,10 +558,8 @@ func TestSolve4MatchesScalar(t *testing.T) {
 					setVector(!viaGo && saved)
 					Solve4(x, ct, lt, it, groups, make([]float64, 8*d), out)
 					setVector(saved)
-					for r, w := range want {
-						if math.Float64bits(out[r]) != math.Float64bits(w) {
-							t.Fatalf("d=%d groups=%d scale %g go %v: component %d: %v, want %v", d, groups, sc, viaGo, r, out[r], w)
-						}
+					if r := bitDiff(out, want); r >= 0 {
+						t.Fatalf("d=%d groups=%d scale %g go %v: component %d: %v, want %v", d, groups, sc, viaGo, r, out[r], want[r])
 					}
 					if out[n] != 5 || out[n+1] != 6 {
 						t.Fatalf("d=%d groups=%d go %v: wrote past the groups", d, groups, viaGo)
