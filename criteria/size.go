@@ -42,11 +42,12 @@ const evaluateFixedBytes = 2 << 20
 //   - the fits of every k (labels of the m points, centres);
 //   - per worker, one k at a time: Lloyd's bounds and labels (or k-means++'s distances, one
 //     buffer per candidate, whichever is larger), the full-covariance mixture at the
-//     largest k it is fitted for (k covariances, their copies and Cholesky factors of d×d; no k
-//     whose mixture has fewer than two of the m points per parameter is fitted, see
-//     mixtureThinAt), the responsibilities of m points at the largest k any mixture family is
-//     fitted for (mixtureFamilies), and the full mixture's lists of the points each component
-//     holds (heldPoints: at most m indexes of 4 bytes per component);
+//     largest k it is fitted for (k covariances, their copies, Cholesky factors of d×d and the
+//     factors' copy in groups of four for lanes.Solve4; no k whose mixture has fewer than two
+//     of the m points per parameter is fitted, see mixtureThinAt), the responsibilities of m
+//     points at the largest k any mixture family is fitted for (mixtureFamilies), and the full
+//     mixture's lists of the points each component holds (heldPoints: at most m indexes of 4
+//     bytes per component);
 //   - the Ward linkage's distance matrix over its leaves (WardLeaves).
 func WorkingBytes(opt Options, m, n, d, workers int) int64 {
 	opt = opt.withDefaults()
@@ -68,7 +69,7 @@ func WorkingBytes(opt Options, m, n, d, workers int) int64 {
 	kFull := int64(mixtureTopK(opt.MinK, opt.MaxK, m, d, FamilyFull))
 	kAny := int64(mixtureTopK(opt.MinK, opt.MaxK, m, d, fams[len(fams)-1]))
 	seeding := int64(2+int(math.Log(float64(opt.MaxK)))+1)*8 + 4 // k-means++: d2 and one buffer per candidate, near
-	perWorker := M*max(4*8+4, seeding) + 3*kFull*D*D*8 + M*kAny*8 + M*kFull*4
+	perWorker := M*max(4*8+4, seeding) + 3*kFull*D*D*8 + (kFull+3)/4*4*D*D*8 + M*kAny*8 + M*kFull*4
 	leaves := int64(WardLeaves(m, opt.MaxK))
 	ward := leaves * leaves * 8
 	w := int64(max(1, min(workers, int(nk))))
